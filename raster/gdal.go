@@ -1,0 +1,108 @@
+// Package raster is bandfold's only door to GDAL. It opens input stacks (one
+// multiband file or several files stacked in order as one logical p-band
+// image), checks that they share one grid, reads tile windows of all selected
+// bands into float64 buffers with a validity mask, and writes GeoTIFF,
+// Cloud Optimized GeoTIFF and GeoPackage outputs atomically.
+//
+// GDAL dataset handles are not safe to share across goroutines: a Stack holds
+// only descriptions, and every worker opens its own Reader.
+package raster
+
+/*
+#cgo pkg-config: gdal
+#include <stdlib.h>
+#include <cpl_conv.h>
+#include <gdal.h>
+*/
+import "C"
+
+import (
+	"errors"
+	"fmt"
+	"log/slog"
+	"slices"
+	"strings"
+	"sync"
+	"unsafe"
+
+	"github.com/airbusgeo/godal"
+)
+
+// Config is the GDAL configuration bandfold sets before its first GDAL call.
+type Config struct {
+	// CacheMB bounds GDAL's raster block cache, in MiB. Reads are aligned
+	// to the files' blocks, so a small cache is enough and keeps memory
+	// bounded whatever the scene size.
+	CacheMB int
+	// Options are extra KEY=VALUE configuration options.
+	Options []string
+}
+
+var (
+	initOnce sync.Once
+	initErr  error
+)
+
+// Init sets GDAL's configuration and registers its drivers. It must be
+// called before any other function of this package; later calls do nothing.
+// Options already present in the environment win over bandfold's defaults, so
+// users keep the last word on GDAL's behaviour.
+func Init(cfg Config) error {
+	initOnce.Do(func() {
+		if cfg.CacheMB <= 0 {
+			cfg.CacheMB = 64
+		}
+		defaults := []string{
+			fmt.Sprintf("GDAL_CACHEMAX=%d", cfg.CacheMB),
+			// Uncompressed tiled GeoTIFF reads several times faster
+			// straight into the caller's buffer.
+			"GTIFF_DIRECT_IO=YES",
+			// Reads of /vsicurl/ and /vsis3/ paths need no directory
+			// listing to find sidecar files.
+			"GDAL_DISABLE_READDIR_ON_OPEN=EMPTY_DIR",
+			"CPL_VSIL_CURL_ALLOWED_EXTENSIONS=.tif,.tiff,.vrt,.jp2,.img,.nc,.h5,.zip,.gpkg,.json",
+		}
+		for _, kv := range append(defaults, cfg.Options...) {
+			k, v, ok := strings.Cut(kv, "=")
+			if !ok {
+				initErr = fmt.Errorf("GDAL option %q is not KEY=VALUE", kv)
+				return
+			}
+			if isConfigSet(k) && !slices.Contains(cfg.Options, kv) {
+				continue // set in the environment
+			}
+			setConfig(k, v)
+		}
+		C.GDALSetCacheMax64(C.GIntBig(cfg.CacheMB) << 20)
+		godal.RegisterAll()
+	})
+	return initErr
+}
+
+func isConfigSet(k string) bool {
+	ck := C.CString(k)
+	defer C.free(unsafe.Pointer(ck))
+	return C.CPLGetConfigOption(ck, nil) != nil
+}
+
+func setConfig(k, v string) {
+	ck, cv := C.CString(k), C.CString(v)
+	defer C.free(unsafe.Pointer(ck))
+	defer C.free(unsafe.Pointer(cv))
+	C.CPLSetConfigOption(ck, cv)
+}
+
+// quiet is the error handler given to GDAL calls: failures become errors,
+// warnings and notes are logged at debug level, so a harmless warning never
+// fails a read.
+func quiet(ec godal.ErrorCategory, code int, msg string) error {
+	if ec >= godal.CE_Failure {
+		return errors.New(strings.TrimSpace(msg))
+	}
+	if ec == godal.CE_Warning {
+		slog.Debug("GDAL warning", "code", code, "msg", msg)
+	}
+	return nil
+}
+
+var errLogger = godal.ErrLogger(quiet)

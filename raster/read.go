@@ -1,0 +1,131 @@
+package raster
+
+import (
+	"errors"
+	"fmt"
+	"math"
+
+	"github.com/airbusgeo/godal"
+
+	"bandfold/tiles"
+)
+
+// Reader reads tile windows of a stack. It owns one GDAL dataset handle per
+// file and must be used by one goroutine only; make one per worker.
+type Reader struct {
+	s       *Stack
+	ds      []*godal.Dataset
+	mask    *godal.Dataset
+	maskBuf []float32
+	nodata  []float64
+	hasND   []bool
+	scaled  bool
+}
+
+// NewReader opens the stack's files for reading by one goroutine.
+func (s *Stack) NewReader() (*Reader, error) {
+	r := &Reader{s: s}
+	for _, p := range s.Paths {
+		ds, err := openDataset(p)
+		if err != nil {
+			r.Close()
+			return nil, err
+		}
+		r.ds = append(r.ds, ds)
+	}
+	if s.Mask != "" {
+		ds, err := openDataset(s.Mask)
+		if err != nil {
+			r.Close()
+			return nil, fmt.Errorf("mask %w", err)
+		}
+		r.mask = ds
+	}
+	for _, b := range s.Bands {
+		nd, has := 0.0, b.NoData != nil && !math.IsNaN(*b.NoData)
+		if has {
+			nd = *b.NoData
+		}
+		r.nodata = append(r.nodata, nd)
+		r.hasND = append(r.hasND, has)
+		if b.Scale != 1 || b.Offset != 0 {
+			r.scaled = true
+		}
+	}
+	return r, nil
+}
+
+// Close releases the reader's dataset handles.
+func (r *Reader) Close() error {
+	var errs []error
+	for _, ds := range r.ds {
+		errs = append(errs, ds.Close(errLogger))
+	}
+	if r.mask != nil {
+		errs = append(errs, r.mask.Close(errLogger))
+	}
+	r.ds, r.mask = nil, nil
+	return errors.Join(errs...)
+}
+
+// Read reads window t of every selected band into dst, pixel-major (the p
+// band values of a pixel are consecutive; pixels row by row), and marks in
+// valid the pixels that are valid in every band: not nodata, not NaN or
+// infinite, and non-zero in the mask. Scale and offset are applied to the
+// values. It returns the number of valid pixels. dst needs at least
+// t.Pixels()*p values and valid t.Pixels().
+func (r *Reader) Read(t tiles.Tile, dst []float64, valid []bool) (int, error) {
+	p, n := len(r.s.Bands), t.Pixels()
+	if len(dst) < n*p || len(valid) < n {
+		panic(fmt.Sprintf("raster: buffers of %d values and %d flags for %v of %d bands", len(dst), len(valid), t, p))
+	}
+	dst, valid = dst[:n*p], valid[:n]
+	for _, rn := range r.s.runs {
+		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], t.W, t.H,
+			godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*t.W), godal.BandStride(1), errLogger)
+		if err != nil {
+			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, err)
+		}
+	}
+	if r.mask != nil {
+		if cap(r.maskBuf) < n {
+			r.maskBuf = make([]float32, n)
+		}
+		m := r.maskBuf[:n]
+		if err := r.mask.Read(t.X, t.Y, m, t.W, t.H, godal.Bands(0), errLogger); err != nil {
+			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Mask, t, err)
+		}
+		for i, v := range m {
+			valid[i] = v != 0 && !math.IsNaN(float64(v))
+		}
+	} else {
+		for i := range valid {
+			valid[i] = true
+		}
+	}
+	count := 0
+	for i := range n {
+		if !valid[i] {
+			continue
+		}
+		px := dst[i*p : i*p+p]
+		ok := true
+		for b, v := range px {
+			if math.IsNaN(v) || math.IsInf(v, 0) || (r.hasND[b] && v == r.nodata[b]) {
+				ok = false
+				break
+			}
+		}
+		valid[i] = ok
+		if !ok {
+			continue
+		}
+		count++
+		if r.scaled {
+			for b := range px {
+				px[b] = px[b]*r.s.Bands[b].Scale + r.s.Bands[b].Offset
+			}
+		}
+	}
+	return count, nil
+}

@@ -1,0 +1,74 @@
+package raster
+
+import (
+	"errors"
+	"math"
+	"slices"
+	"testing"
+)
+
+func TestParseBands(t *testing.T) {
+	tests := []struct {
+		spec string
+		want []int
+		err  string
+	}{
+		{"", nil, ""},
+		{"3", []int{3}, ""},
+		{"1-5,7", []int{1, 2, 3, 4, 5, 7}, ""},
+		{" 7 , 2-3 ", []int{7, 2, 3}, ""},
+		{"4-4", []int{4}, ""},
+		{"0", nil, `bands "0": band 0 out of range (bands count from 1): bad specification`},
+		{"5-3", nil, `bands "5-3": range 5-3 runs backwards: bad specification`},
+		{"1,1", nil, `bands "1,1": band 1 selected twice: bad specification`},
+		{"1-3,2", nil, `bands "1-3,2": band 2 selected twice: bad specification`},
+		{"a", nil, `bands "a": "a" is not a band number: bad specification`},
+		{"1,", nil, `bands "1,": "" is not a band number: bad specification`},
+		{"-2", nil, `bands "-2": "" is not a band number: bad specification`},
+		{"1-2-3", nil, `bands "1-2-3": "2-3" is not a band number: bad specification`},
+		{"1-999999999", nil, `bands "1-999999999": band 999999999 out of range (bands count from 1): bad specification`},
+	}
+	for _, tc := range tests {
+		got, err := ParseBands(tc.spec)
+		if tc.err != "" {
+			if err == nil || err.Error() != tc.err || !errors.Is(err, ErrBadSpec) {
+				t.Errorf("ParseBands(%q) error = %v, want %s", tc.spec, err, tc.err)
+			}
+			continue
+		}
+		if err != nil || !slices.Equal(got, tc.want) {
+			t.Errorf("ParseBands(%q) = %v, %v; want %v", tc.spec, got, err, tc.want)
+		}
+	}
+}
+
+func FuzzParseBands(f *testing.F) {
+	for _, s := range []string{"1-5,7", "3", "", "2-1", "1,,2", "99999-100000"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, spec string) {
+		got, err := ParseBands(spec)
+		if err != nil {
+			return
+		}
+		seen := map[int]bool{}
+		for _, b := range got {
+			if b < 1 || b > maxBandNumber || seen[b] {
+				t.Fatalf("ParseBands(%q) gave bad or repeated band %d", spec, b)
+			}
+			seen[b] = true
+		}
+	})
+}
+
+func TestParseNoData(t *testing.T) {
+	got, err := ParseNoData("0, -9999,nan")
+	if err != nil || len(got) != 3 || got[0] != 0 || got[1] != -9999 || !math.IsNaN(got[2]) {
+		t.Fatalf("got %v, %v", got, err)
+	}
+	for _, bad := range []string{"x", "1,,2", "inf"} {
+		if _, err := ParseNoData(bad); !errors.Is(err, ErrBadSpec) {
+			t.Errorf("ParseNoData(%q) = %v, want ErrBadSpec", bad, err)
+		}
+	}
+}
