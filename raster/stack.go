@@ -304,3 +304,13 @@ func Stem(path string) string {
 
 // Len returns the number of selected bands of the stack.
 func (s *Stack) Len() int { return len(s.Bands) }
+
+// EPSG returns the WKT of the CRS with the given EPSG code.
+func EPSG(code int) (string, error) {
+	sr, err := godal.NewSpatialRefFromEPSG(code, errLogger)
+	if err != nil {
+		return "", fmt.Errorf("EPSG:%d: %w", code, err)
+	}
+	defer sr.Close()
+	return sr.WKT(errLogger)
+}

@@ -1,0 +1,37 @@
+# bandfold: make demo | make test | make bench | make test-cluster
+SHELL := /bin/bash
+GO ?= go
+BIN := bin/bandfold
+DEBS := libgdal-dev gdal-bin libopenblas-dev pkg-config
+VERSION := $(shell git describe --always --dirty 2>/dev/null || echo dev)
+export GOFLAGS := -buildvcs=false
+
+.PHONY: all deps build test unit testdata demo bench test-cluster clean
+
+all: build
+
+deps:
+	@bash scripts/deps.sh $(DEBS)
+	@command -v $(GO) >/dev/null || { echo "bandfold: Go 1.26 or newer is needed on PATH" >&2; exit 1; }
+	@$(GO) mod download
+
+build: deps
+	$(GO) build -ldflags "-X main.version=$(VERSION)" -o $(BIN) ./cmd/bandfold
+
+testdata: deps
+	@bash scripts/testdata.sh
+
+unit: deps testdata
+	$(GO) vet ./...
+	$(GO) test -count=1 ./...
+
+test: unit
+
+demo: build
+	$(BIN) demo --dir demo-out --overwrite
+
+bench: build
+	@bash scripts/bench.sh
+
+clean:
+	rm -rf bin demo-out bench-out

@@ -1,0 +1,33 @@
+#!/usr/bin/env bash
+# Fetches the real test data from Debian's packages into testdata/external/
+# (git-ignored), checks it and caches it:
+#   L7_ETMs.tif  Landsat 7 ETM+ 6-band subset, 349 x 352, UTM (public-domain
+#                USGS imagery), shipped in r-cran-stars as tif/L7_ETMs.tif
+#   iris.csv     Fisher's iris data, shipped in python3-sklearn as
+#                sklearn/datasets/data/iris.csv
+# No R or Python is needed: the packages are downloaded and unpacked only.
+set -euo pipefail
+dest=testdata/external
+mkdir -p "$dest"
+fetch() { # package, path inside the package, file name, sha256
+	local pkg=$1 inner=$2 name=$3 sum=$4
+	if [ -f "$dest/$name" ] && echo "$sum  $dest/$name" | sha256sum -c --quiet - 2>/dev/null; then
+		return 0
+	fi
+	local tmp
+	tmp=$(mktemp -d)
+	trap 'rm -rf "$tmp"' RETURN
+	chmod 755 "$tmp"
+	if ! (cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1); then
+		if [ "$(id -u)" -eq 0 ]; then apt-get update -qq; else sudo -n apt-get update -qq || true; fi
+		(cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1) || { echo "testdata: cannot download Debian package $pkg" >&2; return 1; }
+	fi
+	dpkg -x "$tmp"/*.deb "$tmp/x"
+	local file
+	file=$(find "$tmp/x" -path "*$inner" | head -n 1)
+	[ -n "$file" ] || { echo "testdata: $inner not found in $pkg" >&2; return 1; }
+	echo "$sum  $file" | sha256sum -c --quiet - || { echo "testdata: $name from $pkg has an unexpected checksum" >&2; return 1; }
+	cp "$file" "$dest/$name.tmp" && mv "$dest/$name.tmp" "$dest/$name"
+}
+fetch r-cran-stars stars/tif/L7_ETMs.tif L7_ETMs.tif 3b722bf4470144b6691bf720bac08f47c99464acff4dd258252891c06312678e
+fetch python3-sklearn sklearn/datasets/data/iris.csv iris.csv f13ffa8fdd56fd8e6c8d16d4081a3fbd3114bcd0aae4256c43205169cd9d1449
