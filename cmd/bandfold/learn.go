@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"time"
 
 	"github.com/spf13/cobra"
 
@@ -126,6 +127,7 @@ func runLearn(ctx context.Context, g *globals, o *learnOptions, args []string) e
 	}
 	if o.partial != "" {
 		part := &transform.Partial{
+			Format: transform.PartialFormat, Version: 1, Created: time.Now().UTC(),
 			Shard: sh.I, Shards: sh.N, TileSize: o.input.tile, Stride: o.stride,
 			Mode: mode, Bands: basisBands(scenes[0]), Inputs: fingerprints(scenes),
 			State: acc.State(), Tool: version,

@@ -87,7 +87,7 @@ var errBatchFailed = errors.New("some items failed")
 // bad flag values, wrong argument counts, unknown commands).
 func isCobraUsage(err error) bool {
 	s := err.Error()
-	for _, p := range []string{"unknown flag", "unknown shorthand", "unknown command", "invalid argument", "flag needs an argument", "accepts ", "requires at least", "requires at most", "required flag", "if any flags in the group"} {
+	for _, p := range []string{"unknown flag", "unknown shorthand", "unknown command", "invalid argument", "flag needs an argument", "accepts ", "requires at least", "requires at most", "required flag", "at least one of the flags", "if any flags in the group"} {
 		if strings.Contains(s, p) {
 			return true
 		}

@@ -1,0 +1,42 @@
+// Package bands owns the per-band statistics of multiband raster pixels: the
+// valid-pixel count, the band means, the co-moment matrix (from which the
+// covariance and correlation matrices and the standard deviations follow) and
+// the per-band minimum and maximum.
+//
+// An Accumulator gathers these in memory proportional to p², for p bands,
+// plus at most about 2 MiB of scratch, however many pixels it sees. Pixels arrive in pixel-major blocks (p
+// consecutive values per pixel) with an optional validity mask; the caller
+// decides what is valid (nodata, masks, NaN) and how blocks are read. The
+// package does no I/O and starts no goroutines: callers that work on tiles in
+// parallel give each worker its own Accumulator and Merge them in tile order,
+// which makes the result independent of the number of workers.
+//
+// State is the plain form of an Accumulator that can be written as JSON, so
+// that shards of a job can each write a partial result and a later step can
+// combine them with FromState and Merge.
+//
+// # Numerical method
+//
+// Each block of pixels (a call of AddPixels, cut into cache-sized chunks) is
+// first reduced on its own: its mean, then the co-moment of the pixels
+// centred on that mean. The co-moment of the centred k×p block X is the
+// symmetric rank-k update XᵀX computed with blas64.Syrk, so a faster BLAS
+// registered with blas64.Use (see the sub-package openblas) is used
+// automatically. Only for a handful of bands and with gonum's native BLAS,
+// which a fused Go loop beats there, is the loop used instead. The block is
+// then folded into the running state with the pairwise update of Chan, Golub
+// and LeVeque:
+//
+//	n = nA + nB
+//	d = meanB − meanA
+//	mean = meanA + d·nB/n
+//	M = MA + MB + d·dᵀ·nA·nB/n
+//
+// Because no raw sums of squares are ever formed, the result does not lose
+// precision when the data sit on a large offset (for example radiances or
+// digital numbers far from zero).
+//
+// Reference: T. F. Chan, G. H. Golub and R. J. LeVeque, "Updating formulae and
+// a pairwise algorithm for computing sample variances", Technical Report
+// STAN-CS-79-773, Stanford University, 1979.
+package bands
