@@ -16,6 +16,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/bands/openblas"
 	"bandfold/raster"
 )
 
@@ -67,7 +68,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if errors.Is(err, errBatchFailed) {
 		return exitFailure // items already reported
 	}
-	msg := strings.ReplaceAll(err.Error(), "\n", " ")
+	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
 	if errors.Is(err, context.Canceled) {
 		msg = "interrupted; partial outputs removed"
 	}
@@ -153,6 +154,9 @@ func (g *globals) setup() error {
 	if os.Getenv("GOMEMLIMIT") == "" {
 		debug.SetMemoryLimit(192 << 20)
 	}
+	// Rank-k updates and projections go to OpenBLAS, one thread per
+	// worker, so rounding does not depend on the machine's core count.
+	openblas.Use()
 	return raster.Init(raster.Config{CacheMB: 32})
 }
 
