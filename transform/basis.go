@@ -1,0 +1,383 @@
+package transform
+
+import (
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"fmt"
+	"math"
+	"os"
+	"time"
+
+	"gonum.org/v1/gonum/mat"
+)
+
+// BasisFormat is the value of the "format" member of a basis file.
+const BasisFormat = "bandfold-basis"
+
+// Band describes one input band of a basis or partial.
+type Band struct {
+	// Name is the band's display name, for example its description or
+	// "B4".
+	Name string `json:"name"`
+	// Source is the path of the raster file the band is read from.
+	Source string `json:"source"`
+	// Index is the 1-based number of the band in Source.
+	Index int `json:"index"`
+	// DataType is the GDAL name of the band's storage type, for example
+	// "Int16" or "Float32".
+	DataType string `json:"data_type"`
+	// NoData is the band's nodata value, or nil if it has none. NaN samples
+	// are always invalid, so a NaN nodata value is recorded as nil (JSON has
+	// no NaN).
+	NoData *float64 `json:"nodata"`
+	// Scale and Offset convert stored values to physical ones,
+	// value = stored·Scale + Offset, as GDAL defines them (1 and 0 when the
+	// file declares none).
+	Scale  float64 `json:"scale"`
+	Offset float64 `json:"offset"`
+	// Min and Max are the smallest and largest valid values of the band
+	// seen while fitting, in the units of Mean (after scale and offset).
+	// In a partial file they are zero: each shard's extremes are part of
+	// its accumulated statistics (bands.State), merged with them.
+	Min float64 `json:"min"`
+	Max float64 `json:"max"`
+}
+
+// Fingerprint identifies an input file by path, size and modification time,
+// so that a stale basis or a foreign shard can be detected.
+type Fingerprint struct {
+	Path    string    `json:"path"`
+	Size    int64     `json:"size"`
+	ModTime time.Time `json:"mod_time"`
+}
+
+// FileFingerprint returns the Fingerprint of the file at path, with the
+// modification time in UTC.
+func FileFingerprint(path string) (Fingerprint, error) {
+	fi, err := os.Stat(path)
+	if err != nil {
+		return Fingerprint{}, err
+	}
+	return Fingerprint{Path: path, Size: fi.Size(), ModTime: fi.ModTime().UTC()}, nil
+}
+
+// String describes b on one line.
+func (b Band) String() string {
+	nodata := "none"
+	if b.NoData != nil {
+		nodata = fmt.Sprint(*b.NoData)
+	}
+	return fmt.Sprintf("%q (%s band %d, %s, nodata %s, scale %v, offset %v, valid range [%v, %v])",
+		b.Name, b.Source, b.Index, b.DataType, nodata, b.Scale, b.Offset, b.Min, b.Max)
+}
+
+// String describes f on one line.
+func (f Fingerprint) String() string {
+	return fmt.Sprintf("%s (%d bytes, modified %s)", f.Path, f.Size, f.ModTime.Format(time.RFC3339Nano))
+}
+
+// Basis is a fitted principal component basis, stored as a JSON basis file
+// ("format": "bandfold-basis", "version": 1). Vectors and matrices are indexed
+// by band in the order of Bands; p = len(Bands).
+type Basis struct {
+	// Format is always BasisFormat and Version is 1.
+	Format  string `json:"format"`
+	Version int    `json:"version"`
+	// Tool is the version of the program that wrote the basis.
+	Tool string `json:"tool"`
+	// Created is when the basis was fitted.
+	Created time.Time `json:"created"`
+	// Mode tells whether the eigen-decomposition is of the covariance or of
+	// the correlation matrix.
+	Mode Mode `json:"mode"`
+	// Pixels is the number of valid pixels the statistics were taken from.
+	Pixels int64 `json:"pixels"`
+	// Stride is the sampling step used when accumulating the statistics
+	// (1: every pixel).
+	Stride int `json:"stride"`
+	// Bands describes the p input bands.
+	Bands []Band `json:"bands"`
+	// Mean and StdDev are the band means and sample standard deviations;
+	// StdDev[j] = √Covariance[j][j].
+	Mean   []float64 `json:"mean"`
+	StdDev []float64 `json:"stddev"`
+	// Covariance is the p×p sample band covariance matrix (divisor
+	// Pixels-1), in both modes.
+	Covariance [][]float64 `json:"covariance"`
+	// Eigenvalues are the p eigenvalues in descending order: the variances
+	// of the components. In correlation mode they are those of the
+	// correlation matrix R = D⁻¹ C D⁻¹, D = diag(StdDev), and sum to p.
+	Eigenvalues []float64 `json:"eigenvalues"`
+	// Eigenvectors holds the unit eigenvectors by row: Eigenvectors[i][j]
+	// is the loading of component i on band j (row i is column i of
+	// Decomposition.Vectors), signed as Decompose does.
+	Eigenvectors [][]float64 `json:"eigenvectors"`
+	// Components is the number k of leading components chosen for folding,
+	// 1 ≤ k ≤ p.
+	Components int `json:"components"`
+	// Inputs fingerprints the files the statistics were taken from.
+	Inputs []Fingerprint `json:"inputs"`
+}
+
+// NewBasis fits a basis to band statistics: count valid pixels with band
+// means mean and sample covariance matrix cov (divisor count-1), one Band in
+// bands per row of cov. In Covariance mode it decomposes cov; in Correlation
+// mode the correlation matrix cov[i][j] / (sd[i]·sd[j]), sd[j] = √cov[j][j].
+//
+// Eigenvalues of a covariance matrix cannot be negative: slightly negative
+// ones, down to -1e-8·λ₁, are rounding error and are set to zero; more
+// negative ones are an error. Components is set to p, Stride to 1 and Created
+// to the current time; the caller fills in Tool and Inputs and adjusts
+// the rest before writing the basis.
+//
+// NewBasis returns an error if the statistics are not finite, the shapes
+// disagree, count < 2, a Band is invalid (see ReadBasis) or, in correlation
+// mode, a band is constant.
+func NewBasis(mode Mode, bands []Band, count int64, mean []float64, cov mat.Symmetric) (*Basis, error) {
+	if !mode.valid() {
+		return nil, fmt.Errorf("transform: unknown mode %q", mode)
+	}
+	p := cov.SymmetricDim()
+	switch {
+	case p == 0:
+		return nil, fmt.Errorf("transform: no bands")
+	case len(bands) != p || len(mean) != p:
+		return nil, fmt.Errorf("transform: %d bands and %d means for a %d×%d covariance matrix", len(bands), len(mean), p, p)
+	case count < 2:
+		return nil, fmt.Errorf("transform: %d pixels: a covariance needs at least 2", count)
+	}
+	b := &Basis{
+		Format:     BasisFormat,
+		Version:    1,
+		Created:    time.Now().UTC(),
+		Mode:       mode,
+		Pixels:     count,
+		Stride:     1,
+		Bands:      append([]Band(nil), bands...),
+		Mean:       append([]float64(nil), mean...),
+		StdDev:     make([]float64, p),
+		Covariance: make([][]float64, p),
+		Components: p,
+	}
+	for i := range p {
+		b.Covariance[i] = make([]float64, p)
+		for j := range p {
+			b.Covariance[i][j] = cov.At(i, j)
+		}
+		b.StdDev[i] = math.Sqrt(cov.At(i, i))
+	}
+	if err := checkFinite("mean", b.Mean); err != nil {
+		return nil, fmt.Errorf("transform: %w", err)
+	}
+	if err := checkFinite("stddev", b.StdDev); err != nil {
+		return nil, fmt.Errorf("transform: %w", err)
+	}
+
+	target := cov
+	if mode == Correlation {
+		r := mat.NewSymDense(p, nil)
+		for i := range p {
+			if b.StdDev[i] == 0 {
+				return nil, fmt.Errorf("transform: band %d (%s) is constant: its correlation is undefined (use covariance mode)", i+1, b.Bands[i].Name)
+			}
+			r.SetSym(i, i, 1)
+			for j := i + 1; j < p; j++ {
+				r.SetSym(i, j, cov.At(i, j)/(b.StdDev[i]*b.StdDev[j]))
+			}
+		}
+		target = r
+	}
+	d, err := Decompose(target)
+	if err != nil {
+		return nil, err
+	}
+	floor := -1e-8 * max(d.Values[0], 0)
+	for j, v := range d.Values {
+		if v < floor {
+			return nil, fmt.Errorf("transform: %s matrix is not positive semi-definite: eigenvalue %d is %g", mode, j+1, v)
+		}
+		d.Values[j] = max(v, 0)
+	}
+	b.Eigenvalues = d.Values
+	b.Eigenvectors = make([][]float64, p)
+	for i := range p {
+		b.Eigenvectors[i] = mat.Col(nil, i, d.Vectors)
+	}
+	if err := b.validate(); err != nil {
+		return nil, fmt.Errorf("transform: %w", err)
+	}
+	return b, nil
+}
+
+// ReadBasis reads and checks the basis file at path. Errors name the file and
+// wrap ErrMalformed for a file that is not a well-formed, self-consistent
+// version 1 basis, or ErrUnknownVersion for another version.
+func ReadBasis(path string) (*Basis, error) {
+	return readFile[Basis]("basis", BasisFormat, path)
+}
+
+func parseBasis(data []byte) (*Basis, error) { return parse[Basis](BasisFormat, data) }
+
+// WriteFile checks b and writes it to path atomically: to a temporary file in
+// the same folder, synced, then renamed over path. The temporary file is
+// removed on error.
+func (b *Basis) WriteFile(path string) error { return writeFile("basis", path, b) }
+
+// Fingerprint returns a short, stable identifier of the numeric content of b:
+// the first 16 hex digits of the SHA-256 of the mode, p, Mean, StdDev,
+// Covariance, Eigenvalues and Eigenvectors (as IEEE 754 bits). It ignores
+// Components and all descriptive fields, so the same fit gives the same
+// fingerprint whoever wrote it and whenever. Outputs record it in their
+// metadata to tie them to the basis they were made with.
+func (b *Basis) Fingerprint() string {
+	h := sha256.New()
+	fmt.Fprintf(h, "%s v%d %s p=%d\n", BasisFormat, 1, b.Mode, len(b.Mean))
+	var buf [8]byte
+	put := func(xs []float64) {
+		for _, x := range xs {
+			binary.LittleEndian.PutUint64(buf[:], math.Float64bits(x))
+			h.Write(buf[:])
+		}
+	}
+	put(b.Mean)
+	put(b.StdDev)
+	for _, row := range b.Covariance {
+		put(row)
+	}
+	put(b.Eigenvalues)
+	for _, row := range b.Eigenvectors {
+		put(row)
+	}
+	return hex.EncodeToString(h.Sum(nil))[:16]
+}
+
+// validate checks the invariants ReadBasis promises, without the file name.
+func (b *Basis) validate() error {
+	if b.Format != BasisFormat {
+		return fmt.Errorf("format %q, want %q", b.Format, BasisFormat)
+	}
+	if b.Version != 1 {
+		return fmt.Errorf("%w %d", ErrUnknownVersion, b.Version)
+	}
+	if !b.Mode.valid() {
+		return fmt.Errorf("unknown mode %q", b.Mode)
+	}
+	p := len(b.Bands)
+	if p == 0 {
+		return fmt.Errorf("no bands")
+	}
+	if b.Pixels < 2 {
+		return fmt.Errorf("pixels %d: a covariance needs at least 2", b.Pixels)
+	}
+	if b.Stride < 1 {
+		return fmt.Errorf("stride %d is not positive", b.Stride)
+	}
+	if err := checkBands(b.Bands); err != nil {
+		return err
+	}
+	for _, v := range []struct {
+		name string
+		x    []float64
+	}{{"mean", b.Mean}, {"stddev", b.StdDev}, {"eigenvalues", b.Eigenvalues}} {
+		if err := checkVector(v.name, v.x, p); err != nil {
+			return err
+		}
+	}
+	if err := checkMatrix("covariance", b.Covariance, p); err != nil {
+		return err
+	}
+	for i := range p {
+		for j := range i {
+			if b.Covariance[i][j] != b.Covariance[j][i] {
+				return fmt.Errorf("covariance is not symmetric at [%d][%d]", i, j)
+			}
+		}
+	}
+	if err := checkMatrix("eigenvectors", b.Eigenvectors, p); err != nil {
+		return err
+	}
+	for j, s := range b.StdDev {
+		if s < 0 || (b.Mode == Correlation && s == 0) {
+			return fmt.Errorf("stddev[%d] = %v", j, s)
+		}
+	}
+	for j, v := range b.Eigenvalues {
+		if v < 0 || (j > 0 && v > b.Eigenvalues[j-1]) {
+			return fmt.Errorf("eigenvalues are not non-negative and descending at %d", j)
+		}
+	}
+	if err := checkOrthonormal(b.Eigenvectors); err != nil {
+		return err
+	}
+	if b.Components < 1 || b.Components > p {
+		return fmt.Errorf("components %d out of range 1..%d", b.Components, p)
+	}
+	return nil
+}
+
+// checkOrthonormal checks that the rows of v are orthonormal to 1e-6, which
+// catches hand-edited or mixed-up eigenvectors without being fooled by
+// rounding.
+func checkOrthonormal(v [][]float64) error {
+	for i := range v {
+		for j := i; j < len(v); j++ {
+			var dot float64
+			for l := range v[i] {
+				dot += v[i][l] * v[j][l]
+			}
+			want := 0.0
+			if i == j {
+				want = 1
+			}
+			if math.Abs(dot-want) > 1e-6 {
+				return fmt.Errorf("eigenvectors %d and %d are not orthonormal (dot product %g)", i, j, dot)
+			}
+		}
+	}
+	return nil
+}
+
+func checkBands(bands []Band) error {
+	for j, bd := range bands {
+		switch {
+		case bd.Index < 1:
+			return fmt.Errorf("band %d: index %d is not 1-based", j+1, bd.Index)
+		case bd.NoData != nil && !finite(*bd.NoData):
+			return fmt.Errorf("band %d: nodata %v is not finite", j+1, *bd.NoData)
+		case !finite(bd.Scale) || bd.Scale == 0 || !finite(bd.Offset):
+			return fmt.Errorf("band %d: scale %v and offset %v", j+1, bd.Scale, bd.Offset)
+		case !finite(bd.Min) || !finite(bd.Max) || bd.Min > bd.Max:
+			return fmt.Errorf("band %d: valid range [%v, %v]", j+1, bd.Min, bd.Max)
+		}
+	}
+	return nil
+}
+
+func checkFinite(name string, x []float64) error {
+	for i, v := range x {
+		if !finite(v) {
+			return fmt.Errorf("%s[%d] is %v", name, i, v)
+		}
+	}
+	return nil
+}
+
+func checkVector(name string, x []float64, p int) error {
+	if len(x) != p {
+		return fmt.Errorf("%s has %d elements for %d bands", name, len(x), p)
+	}
+	return checkFinite(name, x)
+}
+
+func checkMatrix(name string, m [][]float64, p int) error {
+	if len(m) != p {
+		return fmt.Errorf("%s has %d rows for %d bands", name, len(m), p)
+	}
+	for i, row := range m {
+		if err := checkVector(fmt.Sprintf("%s[%d]", name, i), row, p); err != nil {
+			return err
+		}
+	}
+	return nil
+}

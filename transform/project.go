@@ -1,0 +1,197 @@
+package transform
+
+import (
+	"fmt"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+	"gonum.org/v1/gonum/blas/gonum"
+)
+
+// Projector folds pixels onto the k leading components of a basis and
+// unfolds component scores back into bands. With W_k the p×k matrix of the
+// leading eigenvectors (by column), mean the band means and s the scale of
+// each band (1 in covariance mode, the band standard deviation in
+// correlation mode), the scores and the reconstruction of a pixel x are
+//
+//	y = W_kᵀ ((x − mean) / s)
+//	x̂ = mean + s · (W_k y)
+//
+// with the division and product taken band by band. For a block of pixels
+// both are one matrix product computed with blas64.Gemm, so a faster BLAS
+// registered with blas64.Use is picked up. With gonum's own BLAS and at most
+// 32 bands, a fused Go loop over the pixels is used instead, as in package
+// bands: it is about twice as fast there (7 bands, 3 components, 512×512
+// pixels: 5.5 ms against 14 ms on a 2-core machine).
+//
+// Each output pixel depends only on the same input pixel. Invalid pixels
+// (nodata, NaN) may therefore be passed along with valid ones: their outputs
+// are meaningless, possibly NaN, and must be masked by the caller, but they
+// do not affect the outputs of valid pixels.
+//
+// A Projector keeps scratch memory between calls and must not be used by
+// several goroutines at once; Clone gives each worker its own.
+type Projector struct {
+	p, k int
+	mean []float64
+	// fold is the p×k matrix W_k scaled by 1/s row by row, so that
+	// y = foldᵀ (x − mean); unfold is the k×p matrix W_kᵀ scaled by s
+	// column by column, so that x̂ = mean + unfoldᵀ y.
+	fold, unfold blas64.General
+	centred      []float64 // scratch for Fold, n×p
+}
+
+// fusedMaxBands is the largest band count for which Fold and Unfold use a
+// fused loop rather than blas64.Gemm when gonum's native BLAS is in use.
+const fusedMaxBands = 32
+
+// fused reports whether Fold and Unfold use the fused loop.
+func (pr *Projector) fused() bool {
+	_, native := blas64.Implementation().(gonum.Implementation)
+	return native && pr.p <= fusedMaxBands
+}
+
+// NewProjector returns a Projector onto the first k components of b,
+// 1 ≤ k ≤ p. It returns an error if b is not a valid basis or k is out of
+// range.
+func NewProjector(b *Basis, k int) (*Projector, error) {
+	if b == nil {
+		panic("transform: NewProjector: nil basis")
+	}
+	if err := b.validate(); err != nil {
+		return nil, fmt.Errorf("transform: invalid basis: %w", err)
+	}
+	p := len(b.Bands)
+	if k < 1 || k > p {
+		return nil, fmt.Errorf("transform: %d components out of range 1..%d", k, p)
+	}
+	pr := &Projector{
+		p:      p,
+		k:      k,
+		mean:   append([]float64(nil), b.Mean...),
+		fold:   blas64.General{Rows: p, Cols: k, Stride: k, Data: make([]float64, p*k)},
+		unfold: blas64.General{Rows: k, Cols: p, Stride: p, Data: make([]float64, k*p)},
+	}
+	for c := range k {
+		for j, w := range b.Eigenvectors[c] {
+			s := 1.0
+			if b.Mode == Correlation {
+				s = b.StdDev[j]
+			}
+			pr.fold.Data[j*k+c] = w / s
+			pr.unfold.Data[c*p+j] = w * s
+		}
+	}
+	return pr, nil
+}
+
+// Bands returns the number of bands p.
+func (pr *Projector) Bands() int { return pr.p }
+
+// Components returns the number of components k.
+func (pr *Projector) Components() int { return pr.k }
+
+// Clone returns a Projector that shares pr's read-only matrices but has its
+// own scratch memory, for use in another goroutine.
+func (pr *Projector) Clone() *Projector {
+	c := *pr
+	c.centred = nil
+	return &c
+}
+
+// Fold stores in dst the k component scores of each pixel of x: x holds
+// n = len(x)/p pixels of p bands, pixel-major, and dst n·k scores,
+// pixel-major. It panics if len(x) is not a multiple of p or len(dst) is not
+// n·k.
+func (pr *Projector) Fold(dst, x []float64) {
+	n := blockSize("Fold", dst, x, pr.k, pr.p)
+	if pr.fused() {
+		mulRows(dst, x, pr.fold, pr.mean, nil)
+		return
+	}
+	pr.foldBLAS(dst, x, n)
+}
+
+// foldBLAS is Fold with blas64.Gemm on the centred block.
+func (pr *Projector) foldBLAS(dst, x []float64, n int) {
+	if n == 0 {
+		return
+	}
+	if cap(pr.centred) < len(x) {
+		pr.centred = make([]float64, len(x))
+	}
+	z := pr.centred[:len(x)]
+	for i := 0; i < len(x); i += pr.p {
+		zi, xi := z[i:i+pr.p], x[i:i+pr.p]
+		for j, m := range pr.mean {
+			zi[j] = xi[j] - m
+		}
+	}
+	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1,
+		blas64.General{Rows: n, Cols: pr.p, Stride: pr.p, Data: z},
+		pr.fold, 0,
+		blas64.General{Rows: n, Cols: pr.k, Stride: pr.k, Data: dst})
+}
+
+// Unfold stores in dst the reconstruction of each pixel from its scores: y
+// holds n = len(y)/k pixels of k scores, pixel-major, and dst n·p band
+// values, pixel-major. It panics if len(y) is not a multiple of k or
+// len(dst) is not n·p.
+func (pr *Projector) Unfold(dst, y []float64) {
+	n := blockSize("Unfold", dst, y, pr.p, pr.k)
+	if pr.fused() {
+		mulRows(dst, y, pr.unfold, nil, pr.mean)
+		return
+	}
+	pr.unfoldBLAS(dst, y, n)
+}
+
+// unfoldBLAS is Unfold with blas64.Gemm, the means preloaded into dst.
+func (pr *Projector) unfoldBLAS(dst, y []float64, n int) {
+	if n == 0 {
+		return
+	}
+	for i := 0; i < len(dst); i += pr.p {
+		copy(dst[i:i+pr.p], pr.mean)
+	}
+	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1,
+		blas64.General{Rows: n, Cols: pr.k, Stride: pr.k, Data: y},
+		pr.unfold, 1,
+		blas64.General{Rows: n, Cols: pr.p, Stride: pr.p, Data: dst})
+}
+
+// mulRows is the fused loop of Fold and Unfold: for each pixel i it sets
+//
+//	out[i,:] = init + Σ_j (in[i,j] − sub[j]) m[j,:],
+//
+// where a nil sub or init stands for zeros.
+func mulRows(out, in []float64, m blas64.General, sub, init []float64) {
+	r, w := m.Rows, m.Cols
+	for i, o := 0, 0; i < len(in); i, o = i+r, o+w {
+		xi, yi := in[i:i+r], out[o:o+w]
+		if init == nil {
+			clear(yi)
+		} else {
+			copy(yi, init)
+		}
+		for j, v := range xi {
+			if sub != nil {
+				v -= sub[j]
+			}
+			mj := m.Data[j*w : j*w+w]
+			for c, a := range mj {
+				yi[c] += v * a
+			}
+		}
+	}
+}
+
+// blockSize returns the number of pixels n = len(src)/srcWidth, panicking
+// unless that is whole and len(dst) = n·dstWidth.
+func blockSize(op string, dst, src []float64, dstWidth, srcWidth int) int {
+	n := len(src) / srcWidth
+	if len(src)%srcWidth != 0 || len(dst) != n*dstWidth {
+		panic(fmt.Sprintf("transform: %s: %d values in and %d out for %d and %d per pixel", op, len(src), len(dst), srcWidth, dstWidth))
+	}
+	return n
+}
