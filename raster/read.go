@@ -20,6 +20,9 @@ type Reader struct {
 	nodata  []float64
 	hasND   []bool
 	scaled  bool
+	// check is false when no value can be invalid: integer bands (never
+	// NaN or infinite) without nodata.
+	check bool
 }
 
 // NewReader opens the stack's files for reading by one goroutine.
@@ -48,6 +51,9 @@ func (s *Stack) NewReader() (*Reader, error) {
 		}
 		r.nodata = append(r.nodata, nd)
 		r.hasND = append(r.hasND, has)
+		if has || !isInteger(b.DataType) {
+			r.check = true
+		}
 		if b.Scale != 1 || b.Offset != 0 {
 			r.scaled = true
 		}
@@ -109,15 +115,8 @@ func (r *Reader) Read(t tiles.Tile, dst []float64, valid []bool) (int, error) {
 			continue
 		}
 		px := dst[i*p : i*p+p]
-		ok := true
-		for b, v := range px {
-			if math.IsNaN(v) || math.IsInf(v, 0) || (r.hasND[b] && v == r.nodata[b]) {
-				ok = false
-				break
-			}
-		}
-		valid[i] = ok
-		if !ok {
+		if r.check && !r.validPixel(px) {
+			valid[i] = false
 			continue
 		}
 		count++
@@ -128,4 +127,24 @@ func (r *Reader) Read(t tiles.Tile, dst []float64, valid []bool) (int, error) {
 		}
 	}
 	return count, nil
+}
+
+// validPixel reports whether no value of px is NaN, infinite or nodata.
+func (r *Reader) validPixel(px []float64) bool {
+	for b, v := range px {
+		// v-v is NaN for NaN and infinities, 0 otherwise.
+		if v-v != 0 || (r.hasND[b] && v == r.nodata[b]) {
+			return false
+		}
+	}
+	return true
+}
+
+// isInteger reports whether a GDAL data type name is an integer type.
+func isInteger(dataType string) bool {
+	switch dataType {
+	case "Byte", "Int8", "UInt16", "Int16", "UInt32", "Int32", "UInt64", "Int64":
+		return true
+	}
+	return false
 }

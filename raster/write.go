@@ -5,7 +5,9 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
+	"syscall"
 
 	"github.com/airbusgeo/godal"
 
@@ -113,7 +115,9 @@ func creationOptions(dt godal.DataType, user []string) []string {
 	if dt == godal.Float32 || dt == godal.Float64 {
 		predictor = "3"
 	}
-	opts := []string{"TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=DEFLATE", "PREDICTOR=" + predictor, "BIGTIFF=IF_SAFER"}
+	// NUM_THREADS lets GDAL compress blocks on all cores while tiles are
+	// written in order from one goroutine.
+	opts := []string{"TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=DEFLATE", "PREDICTOR=" + predictor, "BIGTIFF=IF_SAFER", "NUM_THREADS=ALL_CPUS"}
 	return mergeOptions(opts, user)
 }
 
@@ -236,6 +240,15 @@ func (o *Output) WriteBand(band int, t tiles.Tile, src any) error {
 	return nil
 }
 
+// SetMetadata sets a dataset metadata item, for example a completion record
+// written just before Commit.
+func (o *Output) SetMetadata(key, value string) error {
+	if err := o.ds.SetMetadata(key, value, errLogger); err != nil {
+		return fmt.Errorf("write %s: %w", o.path, err)
+	}
+	return nil
+}
+
 // Commit finishes the output: it closes the dataset (write errors surface
 // there), converts to COG when asked, and renames the file into place.
 func (o *Output) Commit() error {
@@ -308,3 +321,68 @@ func (o *Output) Abort() {
 
 // Path returns the final path of the output.
 func (o *Output) Path() string { return o.path }
+
+// DeflateSize returns the size in bytes of a lossless copy of the raster at
+// path with DEFLATE compression and the predictor suited to its data type:
+// the reference against which compression ratios are stated. The copy is
+// written to a temporary file in dir and removed.
+func DeflateSize(path, dir string) (int64, error) {
+	src, err := openDataset(path)
+	if err != nil {
+		return 0, err
+	}
+	defer src.Close(errLogger)
+	dt := src.Bands()[0].Structure().DataType
+	tmp, err := os.CreateTemp(dir, ".bandfold-deflate-*.tif")
+	if err != nil {
+		return 0, fmt.Errorf("lossless copy of %s: %w", path, err)
+	}
+	name := tmp.Name()
+	tmp.Close()
+	defer os.Remove(name)
+	var sw []string
+	for _, kv := range creationOptions(dt, nil) {
+		sw = append(sw, "-co", kv)
+	}
+	out, err := src.Translate(name, append([]string{"-of", "GTiff"}, sw...), errLogger)
+	if err != nil {
+		return 0, fmt.Errorf("lossless copy of %s: %w", path, err)
+	}
+	if err := out.Close(errLogger); err != nil {
+		return 0, fmt.Errorf("lossless copy of %s: %w", path, err)
+	}
+	fi, err := os.Stat(name)
+	if err != nil {
+		return 0, err
+	}
+	return fi.Size(), nil
+}
+
+// ReadMetadata returns the dataset metadata (default domain) of the raster
+// at path.
+func ReadMetadata(path string) (map[string]string, error) {
+	ds, err := openDataset(path)
+	if err != nil {
+		return nil, err
+	}
+	defer ds.Close(errLogger)
+	return ds.Metadatas(errLogger), nil
+}
+
+// RemoveStale removes temporary files that an earlier, killed process left
+// beside path (".NAME.PID.tmp*" whose process is gone).
+func RemoveStale(path string) {
+	dir, base := filepath.Split(path)
+	matches, _ := filepath.Glob(filepath.Join(dir, "."+base+".*.tmp*"))
+	for _, m := range matches {
+		rest := strings.TrimPrefix(filepath.Base(m), "."+base+".")
+		pidText, _, _ := strings.Cut(rest, ".")
+		pid, err := strconv.Atoi(pidText)
+		if err != nil || pid == os.Getpid() {
+			continue
+		}
+		if syscall.Kill(pid, 0) == syscall.ESRCH {
+			os.Remove(m)
+		}
+	}
+}

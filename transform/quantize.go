@@ -51,3 +51,37 @@ func QuantizeInt16(v, scale, offset float64) int16 {
 	q := math.Round((v - offset) / scale)
 	return int16(max(-int16Max, min(int16Max, q)))
 }
+
+// ScoreBound returns the largest magnitude the score of component i can take
+// for a pixel whose bands lie within the range seen while fitting,
+// [Band.Min, Band.Max]:
+//
+//	bound_i = sum_j |w_ij| max(|Min_j - mean_j|, |Max_j - mean_j|) / s_j
+//
+// with s_j = 1 in covariance mode and the band standard deviation in
+// correlation mode. It is 0 when the basis records no range.
+func (b *Basis) ScoreBound(i int) float64 {
+	bound := 0.0
+	for j, w := range b.Eigenvectors[i] {
+		dev := max(math.Abs(b.Bands[j].Min-b.Mean[j]), math.Abs(b.Bands[j].Max-b.Mean[j]))
+		if b.Mode == Correlation {
+			dev /= b.StdDev[j]
+		}
+		bound += math.Abs(w) * dev
+	}
+	return bound
+}
+
+// Int16Scaling returns the scale and offset for storing component i's scores
+// as Int16: those of the package-level Int16Scaling (±16 standard
+// deviations), widened to ScoreBound(i) when that is larger, so that no
+// pixel within the fitted range saturates, however heavy the component's
+// tails (a small component of a scene with saturated or cloudy pixels can
+// reach far beyond 16 standard deviations).
+func (b *Basis) Int16Scaling(i int) (scale, offset float64) {
+	scale, offset = Int16Scaling(b.Eigenvalues[i])
+	if bound := b.ScoreBound(i); bound/int16Max > scale {
+		scale = bound / int16Max
+	}
+	return scale, offset
+}

@@ -59,3 +59,38 @@ func TestQuantizeInt16(t *testing.T) {
 		}
 	}
 }
+
+// TestScoreBoundHoldsForFittedRange: for pixels drawn within the fitted band
+// range, every score stays within ScoreBound, so Int16 storage never
+// saturates there (known by construction: the bound is the triangle
+// inequality applied to y_i = w_i . (x - mean) / s).
+func TestScoreBoundHoldsForFittedRange(t *testing.T) {
+	b := &Basis{
+		Mode:         Covariance,
+		Bands:        []Band{{Min: 0, Max: 10}, {Min: -5, Max: 5}},
+		Mean:         []float64{2, 0},
+		StdDev:       []float64{1, 1},
+		Eigenvalues:  []float64{4, 1e-6},
+		Eigenvectors: [][]float64{{0.6, 0.8}, {-0.8, 0.6}},
+	}
+	// Hand-worked: component 0: 0.6*8 + 0.8*5 = 8.8; component 1: 0.8*8 + 0.6*5 = 9.4.
+	for i, want := range []float64{8.8, 9.4} {
+		if got := b.ScoreBound(i); math.Abs(got-want) > 1e-12 {
+			t.Errorf("bound %d = %v, want %v", i, got, want)
+		}
+	}
+	// Component 1 has a tiny eigenvalue: 16 sigma would saturate at 0.016,
+	// the bound widens the scale to 9.4/32767.
+	scale, _ := b.Int16Scaling(1)
+	if math.Abs(scale-9.4/32767) > 1e-15 {
+		t.Errorf("scale %v", scale)
+	}
+	corner := []float64{10, -5} // a corner of the fitted range
+	y := 0.0
+	for j, w := range b.Eigenvectors[1] {
+		y += w * (corner[j] - b.Mean[j])
+	}
+	if q := QuantizeInt16(y, scale, 0); math.Abs(float64(q)*scale-y) > scale/2 {
+		t.Errorf("corner score %v stored as %d: off by more than half a step", y, q)
+	}
+}

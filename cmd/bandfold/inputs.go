@@ -130,10 +130,15 @@ type job struct {
 // scenes in order. With shard i of n, only tiles whose number mod n is i
 // are kept.
 func newScan(scenes []*raster.Stack, tile, stride, shardI, shardN int) *scan {
+	return newScanOn(scenes, func(s *raster.Stack) tiles.Grid { return grid(s, tile) }, stride, shardI, shardN)
+}
+
+// newScanOn is newScan with the tile grid of each scene given by gridOf.
+func newScanOn(scenes []*raster.Stack, gridOf func(*raster.Stack) tiles.Grid, stride, shardI, shardN int) *scan {
 	sc := &scan{scenes: scenes, stride: max(stride, 1)}
 	k := 0
 	for si, s := range scenes {
-		for t := range grid(s, tile).Tiles() {
+		for t := range gridOf(s).Tiles() {
 			if k%shardN == shardI {
 				sc.jobs = append(sc.jobs, job{scene: si, tile: t})
 			}

@@ -128,6 +128,8 @@ image. A pixel counts only when it is valid in every selected band.`,
 	root.AddCommand(
 		newLearnCommand(g),
 		newMergeCommand(g),
+		newFoldCommand(g),
+		newUnfoldCommand(g),
 		newInspectCommand(g),
 		newDemoCommand(g),
 	)
