@@ -25,7 +25,10 @@ unit: deps testdata
 	$(GO) vet ./...
 	$(GO) test -count=1 ./...
 
-test: unit
+test: unit test-cluster
+
+test-cluster: build testdata
+	@BANDFOLD=$(BIN) bash scripts/test-cluster.sh
 
 demo: build
 	$(BIN) demo --dir demo-out --overwrite

@@ -29,7 +29,9 @@ type Partial struct {
 	Shard  int `json:"shard"`
 	Shards int `json:"shards"`
 	// TileSize is the edge length in pixels of the tiles the inputs are cut
-	// into, which decides which tiles belong to which shard.
+	// into, which decides which tiles belong to which shard; 0 stands for
+	// the automatic tiling, aligned to the inputs' blocks, which the input
+	// fingerprints pin down.
 	TileSize int `json:"tile_size"`
 	// Stride is the sampling step, as in Basis.
 	Stride int `json:"stride"`
@@ -60,8 +62,8 @@ func (pt *Partial) validate() error {
 		return fmt.Errorf("%w %d", ErrUnknownVersion, pt.Version)
 	case pt.Shards < 1 || pt.Shard < 0 || pt.Shard >= pt.Shards:
 		return fmt.Errorf("shard %d of %d", pt.Shard, pt.Shards)
-	case pt.TileSize < 1:
-		return fmt.Errorf("tile size %d is not positive", pt.TileSize)
+	case pt.TileSize < 0:
+		return fmt.Errorf("tile size %d is negative", pt.TileSize)
 	case pt.Stride < 1:
 		return fmt.Errorf("stride %d is not positive", pt.Stride)
 	case !pt.Mode.valid():

@@ -81,7 +81,7 @@ func TestReadPartialRejects(t *testing.T) {
 		{"format", func(p *Partial) { p.Format = BasisFormat }, ErrMalformed},
 		{"shard out of range", func(p *Partial) { p.Shard = 3 }, ErrMalformed},
 		{"negative shard", func(p *Partial) { p.Shard = -1 }, ErrMalformed},
-		{"tile size", func(p *Partial) { p.TileSize = 0 }, ErrMalformed},
+		{"tile size", func(p *Partial) { p.TileSize = -1 }, ErrMalformed},
 		{"stride", func(p *Partial) { p.Stride = 0 }, ErrMalformed},
 		{"mode", func(p *Partial) { p.Mode = "" }, ErrMalformed},
 		{"state bands", func(p *Partial) { p.State.Mean = []float64{1, 2, 3} }, ErrMalformed},
