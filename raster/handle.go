@@ -2,6 +2,7 @@ package raster
 
 /*
 #include <gdal.h>
+#include <ogr_api.h>
 */
 import "C"
 
@@ -26,6 +27,22 @@ func datasetHandle(ds *godal.Dataset) C.GDALDatasetH {
 
 var _ [unsafe.Sizeof(godal.Band{}) - unsafe.Sizeof(uintptr(0))]struct{}
 var _ [unsafe.Sizeof(uintptr(0)) - unsafe.Sizeof(godal.Band{})]struct{}
+
+// geometryMirror has the layout of godal.Geometry: an ownership flag, then
+// the OGR handle.
+type geometryMirror struct {
+	owned  bool
+	handle C.OGRGeometryH
+}
+
+// geometryHandle returns the OGR handle behind a godal.Geometry, which
+// offers no Segmentize.
+func geometryHandle(g *godal.Geometry) C.OGRGeometryH {
+	return (*geometryMirror)(unsafe.Pointer(g)).handle
+}
+
+var _ [unsafe.Sizeof(godal.Geometry{}) - unsafe.Sizeof(geometryMirror{})]struct{}
+var _ [unsafe.Sizeof(geometryMirror{}) - unsafe.Sizeof(godal.Geometry{})]struct{}
 
 // bandScaleOffset returns the band's scale and offset metadata (1 and 0 when
 // absent).

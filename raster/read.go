@@ -15,7 +15,7 @@ import (
 type Reader struct {
 	s       *Stack
 	ds      []*godal.Dataset
-	mask    *godal.Dataset
+	masks   []*godal.Dataset
 	maskBuf []float32
 	nodata  []float64
 	hasND   []bool
@@ -36,13 +36,13 @@ func (s *Stack) NewReader() (*Reader, error) {
 		}
 		r.ds = append(r.ds, ds)
 	}
-	if s.Mask != "" {
-		ds, err := openDataset(s.Mask)
+	for _, m := range s.Masks {
+		ds, err := openDataset(m)
 		if err != nil {
 			r.Close()
 			return nil, fmt.Errorf("mask %w", err)
 		}
-		r.mask = ds
+		r.masks = append(r.masks, ds)
 	}
 	for _, b := range s.Bands {
 		nd, has := 0.0, b.NoData != nil && !math.IsNaN(*b.NoData)
@@ -67,10 +67,10 @@ func (r *Reader) Close() error {
 	for _, ds := range r.ds {
 		errs = append(errs, ds.Close(errLogger))
 	}
-	if r.mask != nil {
-		errs = append(errs, r.mask.Close(errLogger))
+	for _, m := range r.masks {
+		errs = append(errs, m.Close(errLogger))
 	}
-	r.ds, r.mask = nil, nil
+	r.ds, r.masks = nil, nil
 	return errors.Join(errs...)
 }
 
@@ -81,32 +81,43 @@ func (r *Reader) Close() error {
 // values. It returns the number of valid pixels. dst needs at least
 // t.Pixels()*p values and valid t.Pixels().
 func (r *Reader) Read(t tiles.Tile, dst []float64, valid []bool) (int, error) {
-	p, n := len(r.s.Bands), t.Pixels()
+	return r.read(t, t.W, t.H, dst, valid)
+}
+
+// ReadScaled reads window t resampled (nearest neighbour, through GDAL's
+// overviews when the file has them) to w x h pixels: a decimated read for
+// quicklooks that costs memory for w x h pixels only.
+func (r *Reader) ReadScaled(t tiles.Tile, w, h int, dst []float64, valid []bool) (int, error) {
+	return r.read(t, w, h, dst, valid)
+}
+
+func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (int, error) {
+	p, n := len(r.s.Bands), bw*bh
 	if len(dst) < n*p || len(valid) < n {
 		panic(fmt.Sprintf("raster: buffers of %d values and %d flags for %v of %d bands", len(dst), len(valid), t, p))
 	}
 	dst, valid = dst[:n*p], valid[:n]
+	window := godal.Window(t.W, t.H)
 	for _, rn := range r.s.runs {
-		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], t.W, t.H,
-			godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*t.W), godal.BandStride(1), errLogger)
+		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], bw, bh, window,
+			godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*bw), godal.BandStride(1), errLogger)
 		if err != nil {
 			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, err)
 		}
 	}
-	if r.mask != nil {
+	for i := range valid {
+		valid[i] = true
+	}
+	for k, mask := range r.masks {
 		if cap(r.maskBuf) < n {
 			r.maskBuf = make([]float32, n)
 		}
 		m := r.maskBuf[:n]
-		if err := r.mask.Read(t.X, t.Y, m, t.W, t.H, godal.Bands(0), errLogger); err != nil {
-			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Mask, t, err)
+		if err := mask.Read(t.X, t.Y, m, bw, bh, window, godal.Bands(0), errLogger); err != nil {
+			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Masks[k], t, err)
 		}
 		for i, v := range m {
-			valid[i] = v != 0 && !math.IsNaN(float64(v))
-		}
-	} else {
-		for i := range valid {
-			valid[i] = true
+			valid[i] = valid[i] && v != 0 && !math.IsNaN(float64(v))
 		}
 	}
 	count := 0

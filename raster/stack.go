@@ -56,8 +56,9 @@ type Stack struct {
 	// BlockW and BlockH are the internal block size of the first band,
 	// which tile sizes are aligned to.
 	BlockW, BlockH int
-	// Mask is the optional validity mask file (same grid; non-zero = valid).
-	Mask string
+	// Masks are optional validity mask files (same grid; a pixel is valid
+	// only where every mask is non-zero).
+	Masks []string
 	// Metadata is the first file's dataset metadata (default domain).
 	Metadata map[string]string
 	// runs group selected bands that can be read with one call: positions
@@ -75,7 +76,7 @@ type run struct {
 type openOptions struct {
 	bands  []int
 	nodata []float64
-	mask   string
+	masks  []string
 }
 
 // Option configures Open.
@@ -90,7 +91,8 @@ func SelectBands(bands []int) Option { return func(o *openOptions) { o.bands = b
 func NoData(values []float64) Option { return func(o *openOptions) { o.nodata = values } }
 
 // Mask adds a validity mask file on the stack's grid; non-zero means valid.
-func Mask(path string) Option { return func(o *openOptions) { o.mask = path } }
+// Several masks combine: a pixel must be valid in all of them.
+func Mask(path string) Option { return func(o *openOptions) { o.masks = append(o.masks, path) } }
 
 // IsVirtual reports whether path is one of GDAL's virtual file system paths
 // (/vsizip/, /vsicurl/, /vsis3/, /vsimem/ ...).
@@ -209,7 +211,7 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 	for _, opt := range opts {
 		opt(&o)
 	}
-	s := &Stack{Paths: paths, Mask: o.mask}
+	s := &Stack{Paths: paths, Masks: o.masks}
 	var all []Band
 	var fileOf []int
 	for i, p := range paths {
@@ -247,14 +249,7 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 		if n < 1 || n > len(all) {
 			return nil, fmt.Errorf("%s: band %d selected but the stack has %d bands: %w", strings.Join(paths, ", "), n, len(all), ErrBandRange)
 		}
-		s.Bands = append(s.Bands, all[n-1])
-		pos := len(s.Bands) - 1
-		f, idx := fileOf[n-1], all[n-1].Index-1 // godal counts bands from 0
-		if k := len(s.runs) - 1; k >= 0 && s.runs[k].file == f && s.runs[k].pos+len(s.runs[k].bands) == pos {
-			s.runs[k].bands = append(s.runs[k].bands, idx)
-		} else {
-			s.runs = append(s.runs, run{file: f, pos: pos, bands: []int{idx}})
-		}
+		s.addBand(all[n-1], fileOf[n-1])
 	}
 
 	switch len(o.nodata) {
@@ -268,15 +263,15 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 		return nil, fmt.Errorf("nodata: %d values given for %d bands (give one, or one per band): %w", len(o.nodata), len(s.Bands), ErrBadSpec)
 	}
 
-	if o.mask != "" {
-		ds, err := openDataset(o.mask)
+	for _, m := range o.masks {
+		ds, err := openDataset(m)
 		if err != nil {
 			return nil, fmt.Errorf("mask %w", err)
 		}
 		g := gridOf(ds)
 		ds.Close(errLogger)
 		if err := s.Grid.Compare(g); err != nil {
-			return nil, fmt.Errorf("mask %s is not on the grid of %s: %w", o.mask, paths[0], err)
+			return nil, fmt.Errorf("mask %s is not on the grid of %s: %w", m, paths[0], err)
 		}
 	}
 	return s, nil
@@ -313,4 +308,35 @@ func EPSG(code int) (string, error) {
 	}
 	defer sr.Close()
 	return sr.WKT(errLogger)
+}
+
+// addBand appends band b of file f to the stack, extending the last read
+// run when b follows it in the same file.
+func (s *Stack) addBand(b Band, f int) {
+	s.Bands = append(s.Bands, b)
+	pos := len(s.Bands) - 1
+	idx := b.Index - 1 // godal counts bands from 0
+	if k := len(s.runs) - 1; k >= 0 && s.runs[k].file == f && s.runs[k].pos+len(s.runs[k].bands) == pos {
+		s.runs[k].bands = append(s.runs[k].bands, idx)
+	} else {
+		s.runs = append(s.runs, run{file: f, pos: pos, bands: []int{idx}})
+	}
+}
+
+// Subset returns a stack of the same files and masks holding only the bands
+// at the given 0-based positions of s.Bands, in that order.
+func (s *Stack) Subset(positions []int) (*Stack, error) {
+	sub := &Stack{Grid: s.Grid, Paths: s.Paths, BlockW: s.BlockW, BlockH: s.BlockH, Masks: s.Masks, Metadata: s.Metadata}
+	fileOf := map[string]int{}
+	for i, p := range s.Paths {
+		fileOf[p] = i
+	}
+	for _, pos := range positions {
+		if pos < 0 || pos >= len(s.Bands) {
+			return nil, fmt.Errorf("%s: band %d selected but the stack has %d bands: %w", strings.Join(s.Paths, ", "), pos+1, len(s.Bands), ErrBandRange)
+		}
+		b := s.Bands[pos]
+		sub.addBand(b, fileOf[b.Path])
+	}
+	return sub, nil
 }

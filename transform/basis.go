@@ -381,3 +381,12 @@ func checkMatrix(name string, m [][]float64, p int) error {
 	}
 	return nil
 }
+
+// Source returns the path of the first input the basis was fitted on, or
+// "basis" when it records none; a short name for titles and messages.
+func (b *Basis) Source() string {
+	if len(b.Inputs) == 0 {
+		return "basis"
+	}
+	return b.Inputs[0].Path
+}

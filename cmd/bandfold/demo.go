@@ -1,10 +1,15 @@
 package main
 
 import (
+	"bytes"
 	"context"
+	"encoding/json"
 	"fmt"
+	"io/fs"
+	"math"
 	"os"
 	"path/filepath"
+	"sort"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -54,8 +59,8 @@ type demoFiles struct {
 
 func (o *demoOptions) files() demoFiles {
 	j := func(n string) string { return filepath.Join(o.dir, n) }
-	return demoFiles{before: j("vessel-2023-06-14.tif"), after: j("vessel-2024-06-19.tif"),
-		truth: j("vessel-truth.tif"), hyper: j("vessel-hyper.tif")}
+	return demoFiles{before: j("scenario/vessel-2023-06-14.tif"), after: j("scenario/vessel-2024-06-19.tif"),
+		truth: j("scenario/vessel-truth.tif"), hyper: j("scenario/vessel-hyper.tif")}
 }
 
 // writeScenario renders the scenario's rasters tile by tile in parallel.
@@ -65,7 +70,7 @@ func writeScenario(ctx context.Context, g *globals, o *demoOptions) (demoFiles, 
 	if err != nil {
 		return files, nil, usageError{err}
 	}
-	if err := os.MkdirAll(o.dir, 0o755); err != nil {
+	if err := os.MkdirAll(filepath.Join(o.dir, "scenario"), 0o755); err != nil {
 		return files, nil, fmt.Errorf("demo folder %s: %w", o.dir, err)
 	}
 	wkt, err := raster.EPSG(c.EPSG())
@@ -136,43 +141,103 @@ func runDemo(ctx context.Context, g *globals, o *demoOptions) error {
 		g.info("  event %d: %s, %s -> %s, %d pixels (%.1f ha)", e.ID, e.Name, e.From, e.To, e.Area, float64(e.Area)*scenario.PixelSize*scenario.PixelSize/1e4)
 	}
 
-	outputs := []string{files.before, files.after, files.truth, files.hyper}
-	step := func(name string, args ...string) error {
+	j := func(n string) string { return filepath.Join(o.dir, n) }
+	rep := &demoReport{}
+	// step runs one bandfold command line in-process, its human text on
+	// our stderr, and decodes its --json summary into v.
+	step := func(v any, args ...string) error {
 		g.info("\n$ bandfold %s", strings.Join(args, " "))
-		sub := newRootCommand(&globals{stdout: g.stderr, stderr: g.stderr})
+		var out bytes.Buffer
+		sub := &globals{stdout: &out, stderr: g.stderr}
+		root := newRootCommand(sub)
+		full := append(args, "--json", "--workers", fmt.Sprint(g.workers))
 		if g.quiet {
-			args = append(args, "--quiet")
+			full = append(full, "--quiet")
 		}
-		args = append(args, "--workers", fmt.Sprint(g.workers))
-		sub.SetArgs(args)
-		sub.SetOut(g.stderr)
-		sub.SetErr(g.stderr)
-		if err := sub.ExecuteContext(ctx); err != nil {
-			return fmt.Errorf("demo step %s: %w", name, err)
+		if o.overwrite && args[0] != "inspect" {
+			full = append(full, "--overwrite")
+		}
+		root.SetArgs(full)
+		root.SetOut(g.stderr)
+		root.SetErr(g.stderr)
+		if err := root.ExecuteContext(ctx); err != nil {
+			return fmt.Errorf("demo step %q: %w", args[0], err)
+		}
+		if v != nil {
+			lines := strings.Split(strings.TrimSpace(out.String()), "\n")
+			return json.Unmarshal([]byte(lines[len(lines)-1]), v)
 		}
 		return nil
 	}
-	j := func(n string) string { return filepath.Join(o.dir, n) }
-	ow := func(args ...string) []string {
-		if o.overwrite {
-			return append(args, "--overwrite")
+	var hyperLearn, pairLearn basisSummary
+	var hyperFold foldResult
+	var hyperUnfold unfoldSummary
+	var folds [2]foldResult
+	var chg changeSummary
+	steps := []struct {
+		v    any
+		args []string
+	}{
+		{&hyperLearn, []string{"learn", files.hyper, "--variance", "0.995", "--out", j("hyper.basis.json")}},
+		{nil, []string{"inspect", j("hyper.basis.json"), "--plots", j("hyper-plots")}},
+		{&hyperFold, []string{"fold", files.hyper, "--basis", j("hyper.basis.json"), "--type", "int16", "--out", j("hyper.components.tif"), "--preview", j("hyper.components.png")}},
+		{&hyperUnfold, []string{"unfold", j("hyper.components.tif"), "--basis", j("hyper.basis.json"), "--out", j("hyper.restored.tif"), "--compare", files.hyper}},
+		{&pairLearn, []string{"learn", files.before, files.after, "--out", j("pair.basis.json")}},
+		{nil, []string{"inspect", j("pair.basis.json"), "--plots", j("pair-plots")}},
+		{&folds[0], []string{"fold", files.before, "--basis", j("pair.basis.json"), "--out", j("before.components.tif")}},
+		{&folds[1], []string{"fold", files.after, "--basis", j("pair.basis.json"), "--out", j("after.components.tif")}},
+		{&chg, []string{"change", files.before, files.after, "--out", j("change"), "--reference", files.truth, "--preview-bands", "3,2,1"}},
+	}
+	for _, st := range steps {
+		if err := step(st.v, st.args...); err != nil {
+			return err
 		}
-		return args
 	}
-	hyperBasis := j("vessel-hyper.basis.json")
-	if err := step("learn hyperspectral", ow("learn", files.hyper, "--variance", "0.995", "--out", hyperBasis)...); err != nil {
-		return err
-	}
-	outputs = append(outputs, hyperBasis)
-	pairBasis := j("vessel-pair.basis.json")
-	if err := step("learn multispectral pair", ow("learn", files.before, files.after, "--out", pairBasis)...); err != nil {
-		return err
-	}
-	outputs = append(outputs, pairBasis)
-
-	g.info("\noutputs:")
-	for _, p := range outputs {
-		g.info("  %s", p)
-	}
+	rep.print(g, o, files, c, &hyperLearn, &hyperFold, &hyperUnfold, &pairLearn, folds, &chg)
 	return nil
+}
+
+// demoReport prints the closing report of the demo.
+type demoReport struct{}
+
+func (demoReport) print(g *globals, o *demoOptions, files demoFiles, c *scenario.Catchment, hl *basisSummary, hf *foldResult, hu *unfoldSummary, pl *basisSummary, folds [2]foldResult, chg *changeSummary) {
+	if g.quiet {
+		return
+	}
+	w := g.stderr
+	fmt.Fprintf(w, "\n== %s (invented scenario): report\n", scenario.Name)
+	fmt.Fprintf(w, "compression of the %d-band hyperspectral cube:\n", hl.Bands)
+	fmt.Fprintf(w, "  %d components keep %.2f%% of the variance (broken-stick rule: %d)\n", hl.Components, 100*hl.Cumulative[hl.Components-1], hl.BrokenStick)
+	if hu.LossReport != nil && hu.CompressionRatio != nil {
+		psnr := math.NaN()
+		if hu.MeanPSNR != nil {
+			psnr = *hu.MeanPSNR
+		}
+		fmt.Fprintf(w, "  int16 components + basis: %.1f : 1 against lossless DEFLATE; rmse %.2f, mean PSNR %.1f dB, mean spectral angle %.2f deg\n",
+			*hu.CompressionRatio, hu.RMSE, psnr, hu.MeanSAM)
+	}
+	fmt.Fprintf(w, "multispectral pair: %d components keep %.2f%%; explained on %s %.4f, on %s %.4f\n",
+		pl.Components, 100*pl.Cumulative[pl.Components-1], c.Dates()[0], folds[0].ExplainedScene, c.Dates()[1], folds[1].ExplainedScene)
+	fmt.Fprintf(w, "change %s -> %s: %d changed pixels", c.Dates()[0], c.Dates()[1], chg.ChangedPixels)
+	if chg.ChangedAreaHa != nil {
+		fmt.Fprintf(w, ", mapped area of change %.1f ha", *chg.ChangedAreaHa)
+	}
+	fmt.Fprintf(w, ", %d patches\n", chg.Patches)
+	if r := chg.Reference; r != nil {
+		fmt.Fprintf(w, "  against the scenario's truth: recall %.3f, false alarms %.3f%% of unchanged pixels, precision %.3f, F1 %.3f\n",
+			r.Recall, 100*r.FalseAlarmRate, r.Precision, r.F1)
+	}
+	fmt.Fprintf(w, "  %s\n", caution)
+	fmt.Fprintf(w, "\noutputs in %s:\n", o.dir)
+	var paths []string
+	filepath.WalkDir(o.dir, func(p string, d fs.DirEntry, err error) error {
+		if err == nil && !d.IsDir() {
+			paths = append(paths, p)
+		}
+		return nil
+	})
+	sort.Strings(paths)
+	for _, p := range paths {
+		fmt.Fprintf(w, "  %s\n", p)
+	}
 }

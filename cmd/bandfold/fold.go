@@ -18,6 +18,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/bands"
+	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/raster"
 	"bandfold/tiles"
 	"bandfold/transform"
@@ -79,6 +80,7 @@ takes every N-th scene of the list.`,
 	f.BoolVar(&o.ignoreNames, "ignore-band-names", false, "accept bands named differently from the basis's if they match in order")
 	f.StringArrayVar(&o.co, "co", nil, "GDAL creation option KEY=VALUE (repeatable)")
 	f.BoolVar(&o.overwrite, "overwrite", false, "replace existing outputs")
+	f.StringVar(&o.preview, "preview", "", "also write an RGB quicklook PNG of components 1-3 (2-98% stretch)")
 	f.StringVar(&o.shard, "shard", "", `process only scenes I, I+N, ... of the list ("I/N", or "auto")`)
 	f.IntVar(&o.shardCount, "shard-count", 0, "number of shards for --shard auto in a Kubernetes Indexed Job")
 	cmd.MarkFlagRequired("basis")
@@ -129,9 +131,20 @@ func runFold(ctx context.Context, g *globals, o *foldOptions, args []string) err
 		return err
 	}
 	if o.out != "" {
+		if o.preview != "" {
+			if err := raster.CheckTarget(o.preview, o.overwrite); err != nil {
+				return err
+			}
+		}
 		res, err := foldScene(ctx, g, o, job, inputs[0], o.out)
 		if err != nil {
 			return err
+		}
+		if o.preview != "" {
+			if err := foldPreview(o.out, o.preview); err != nil {
+				return err
+			}
+			g.info("  quicklook %s", o.preview)
 		}
 		return g.emit(res)
 	}
@@ -167,6 +180,10 @@ func (o *foldOptions) prepare(args []string) (*foldJob, []string, shard, error) 
 		return nil, nil, shard{}, usagef("--out takes one input; use --out-dir for %d inputs", len(inputs))
 	case o.out != "" && sh.N > 1:
 		return nil, nil, shard{}, usagef("--shard applies to batches: use --out-dir")
+	case o.preview != "" && o.out == "":
+		return nil, nil, shard{}, usagef("--preview goes with --out (one input)")
+	case o.preview != "" && raster.IsVirtual(o.preview):
+		return nil, nil, shard{}, usagef("--preview %s: write the PNG to a local path", o.preview)
 	case o.outDir != "" && !strings.Contains(o.name, "{stem}"):
 		return nil, nil, shard{}, usagef("--name %q must contain {stem} so that scenes do not overwrite each other", o.name)
 	}
@@ -377,7 +394,7 @@ func foldScene(ctx context.Context, g *globals, o *foldOptions, job *foldJob, in
 	p := s.Len()
 	xs, ys := bands.NewMoments(p), bands.NewMoments(job.k)
 	pool := &sync.Pool{New: func() any { return &foldTile{x: bands.NewMoments(p), y: bands.NewMoments(job.k)} }}
-	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: g.workers},
+	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: g.workers, Progress: g.progress("fold", sc.pixels())},
 		func(int) (tiles.Worker[*foldTile], error) {
 			return &foldWorker{readWorker: sc.newReadWorker(), job: job, spec: &spec, proj: job.proj.Clone(), pool: pool}, nil
 		},
@@ -520,4 +537,17 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 // band without a description.
 func autoNamed(name, path string, index int) bool {
 	return name == fmt.Sprintf("%s:%d", raster.Stem(path), index)
+}
+
+// foldPreview writes an RGB quicklook of components 1-3 of a component image.
+func foldPreview(components, png string) error {
+	s, err := raster.Open([]string{components})
+	if err != nil {
+		return err
+	}
+	img, _, err := composite(s, [3]int{0, min(1, s.Len()-1), min(2, s.Len()-1)})
+	if err != nil {
+		return err
+	}
+	return figures.WritePNG(png, img)
 }

@@ -106,8 +106,8 @@ func fingerprints(stacks []*raster.Stack) []transform.Fingerprint {
 		for _, p := range s.Paths {
 			add(p)
 		}
-		if s.Mask != "" {
-			add(s.Mask)
+		for _, m := range s.Masks {
+			add(m)
 		}
 	}
 	return out
@@ -146,6 +146,15 @@ func newScanOn(scenes []*raster.Stack, gridOf func(*raster.Stack) tiles.Grid, st
 		}
 	}
 	return sc
+}
+
+// pixels returns the number of pixels the scan reads.
+func (sc *scan) pixels() int64 {
+	var n int64
+	for _, j := range sc.jobs {
+		n += int64(j.tile.Pixels())
+	}
+	return n
 }
 
 // runTiles numbers the jobs as tiles for the runner.
@@ -249,7 +258,7 @@ func (sc *scan) moments(ctx context.Context, g *globals) (*bands.Accumulator, er
 	p := sc.scenes[0].Len()
 	pool := &sync.Pool{New: func() any { return bands.NewAccumulator(p) }}
 	total := bands.NewAccumulator(p)
-	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: g.workers},
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: g.workers, Progress: g.progress("co-moments", sc.pixels())},
 		func(int) (tiles.Worker[*bands.Accumulator], error) {
 			return &momentWorker{readWorker: sc.newReadWorker(), pool: pool}, nil
 		},

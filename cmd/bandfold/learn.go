@@ -226,12 +226,21 @@ func reportBasis(g *globals, b *transform.Basis, path string) error {
 		}
 		fmt.Fprintf(w, "%4s | %14s | %12s | %8s | %9s | %12s\n", "pc", "eigenvalue", "sd", "share", "cum_share", "broken_stick")
 		stick := brokenStickShares(len(b.Eigenvalues))
-		for i, v := range b.Eigenvalues {
+		// Long tables (hyperspectral bases) stop after the kept components
+		// and a few more, unless --verbose.
+		rows := len(b.Eigenvalues)
+		if !g.verbose {
+			rows = min(rows, max(b.Components+5, 10))
+		}
+		for i, v := range b.Eigenvalues[:rows] {
 			mark := " "
 			if i < b.Components {
 				mark = "*"
 			}
 			fmt.Fprintf(w, "%3d%s | %14.6g | %12.6g | %8.5f | %9.5f | %12.5f\n", i+1, mark, v, math.Sqrt(max(v, 0)), s.Explained[i], s.Cumulative[i], stick[i])
+		}
+		if rows < len(b.Eigenvalues) {
+			fmt.Fprintf(w, "%4s | (%d more components, %.5f of the variance; --verbose lists them)\n", "...", len(b.Eigenvalues)-rows, 1-s.Cumulative[rows-1])
 		}
 		fmt.Fprintf(w, "kept (*): %d components, %.4f of the variance; broken-stick rule keeps %d", s.Components, s.Cumulative[s.Components-1], s.BrokenStick)
 		if s.Kaiser != nil {

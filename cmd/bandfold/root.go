@@ -130,6 +130,7 @@ image. A pixel counts only when it is valid in every selected band.`,
 		newMergeCommand(g),
 		newFoldCommand(g),
 		newUnfoldCommand(g),
+		newChangeCommand(g),
 		newInspectCommand(g),
 		newDemoCommand(g),
 	)

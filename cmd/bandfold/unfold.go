@@ -257,7 +257,7 @@ func runUnfold(ctx context.Context, g *globals, o *unfoldOptions, components str
 	loss, lossW := transform.NewLoss(p), transform.NewLoss(p)
 	var pixels int64
 	pool := &sync.Pool{New: func() any { return &unfoldTile{} }}
-	err = tiles.Run(ctx, csScan.runTiles(), tiles.Options{Workers: g.workers},
+	err = tiles.Run(ctx, csScan.runTiles(), tiles.Options{Workers: g.workers, Progress: g.progress("unfold", csScan.pixels())},
 		func(int) (tiles.Worker[*unfoldTile], error) {
 			w := &unfoldWorker{comp: csScan.newReadWorker(), proj: proj.Clone(), st: &st, p: p, pool: pool}
 			if origScan != nil {

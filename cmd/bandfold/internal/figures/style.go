@@ -1,0 +1,71 @@
+package figures
+
+import (
+	"image/color"
+	"io"
+
+	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
+	"gonum.org/v1/plot/vg"
+	"gonum.org/v1/plot/vg/vgimg"
+)
+
+// Figure geometry. Plot canvases are rendered at plotDPI, so one
+// point is plotDPI/72 pixels and a 12 pt font is 16 px tall.
+const (
+	plotDPI      = 96
+	titleSize    = 16 // points
+	axisSize     = 14
+	tickSize     = 12
+	legendSize   = 12
+	annotateSize = 16 // pixels (Annotate renders at 72 dpi)
+)
+
+// sansFont is the typeface of every figure.
+var sansFont = font.Font{Typeface: "Liberation", Variant: "Sans"}
+
+// Palette of the plots: our own choices, kept together so the figures
+// look like one family.
+var (
+	inkColour     = color.RGBA{0x26, 0x2b, 0x33, 0xff} // text, axes, markers
+	barColour     = color.RGBA{0x6f, 0x9b, 0xb8, 0xff} // per-component share
+	cumColour     = color.RGBA{0x8e, 0x2c, 0x5f, 0xff} // cumulative curve
+	stickColour   = color.RGBA{0xd8, 0x8a, 0x1c, 0xff} // broken-stick reference
+	panelColour   = color.RGBA{0xf7, 0xf6, 0xf2, 0xff} // Annotate panel
+	invalidColour = color.RGBA{0x2e, 0x2e, 0x2e, 0xff} // no-data pixels in RGB
+)
+
+// px converts a length in pixels of a plotDPI canvas to vg units.
+func px(n float64) vg.Length { return vg.Length(n) * vg.Inch / plotDPI }
+
+// newPlot returns a plot with the package's fonts and sizes.
+func newPlot(title string) *plot.Plot {
+	p := plot.New()
+	p.Title.Text = title
+	p.Title.TextStyle.Font = font.From(sansFont, titleSize)
+	p.Title.TextStyle.Color = inkColour
+	p.Title.Padding = vg.Points(8)
+	for _, a := range []*plot.Axis{&p.X, &p.Y} {
+		a.Label.TextStyle.Font = font.From(sansFont, axisSize)
+		a.Label.TextStyle.Color = inkColour
+		a.Tick.Label.Font = font.From(sansFont, tickSize)
+		a.Tick.Label.Color = inkColour
+		a.Color = inkColour
+		a.Tick.Color = inkColour
+	}
+	p.Legend.TextStyle.Font = font.From(sansFont, legendSize)
+	p.Legend.TextStyle.Color = inkColour
+	p.Legend.ThumbnailWidth = vg.Points(24)
+	return p
+}
+
+// newCanvas returns a white canvas of w×h pixels at plotDPI.
+func newCanvas(w, h int) *vgimg.Canvas {
+	return vgimg.NewWith(vgimg.UseWH(px(float64(w)), px(float64(h))), vgimg.UseDPI(plotDPI))
+}
+
+// writeCanvas encodes c as PNG to w.
+func writeCanvas(w io.Writer, c *vgimg.Canvas) error {
+	_, err := vgimg.PngCanvas{Canvas: c}.WriteTo(w)
+	return err
+}

@@ -1,0 +1,249 @@
+package raster
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+	"testing"
+
+	"github.com/airbusgeo/godal"
+)
+
+// utmK0 is the scale factor of UTM on its central meridian (0.9996, by the
+// definition of UTM): there, grid distances are ground distances times k0.
+const utmK0 = 0.9996
+
+// Ellipsoid constants of WGS84 (a, 1/f; from its definition).
+const wgs84A, wgs84InvF = 6378137.0, 298.257223563
+
+// lonLatBoxArea is the exact area (m²) of the WGS84 ellipsoid between two
+// meridians and two parallels (degrees), by the authalic-latitude formula
+// A = a²(1-e²)/2 Δλ [q(φ2) - q(φ1)], independent of PROJ.
+func lonLatBoxArea(lon1, lat1, lon2, lat2 float64) float64 {
+	f := 1 / wgs84InvF
+	e2 := f * (2 - f)
+	e := math.Sqrt(e2)
+	q := func(lat float64) float64 {
+		s := math.Sin(lat * math.Pi / 180)
+		return s/(1-e2*s*s) - math.Log((1-e*s)/(1+e*s))/(2*e)
+	}
+	return wgs84A * wgs84A * (1 - e2) / 2 * (lon2 - lon1) * math.Pi / 180 * (q(lat2) - q(lat1))
+}
+
+func epsgWKT(t *testing.T, code int) string {
+	t.Helper()
+	wkt, err := EPSG(code)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return wkt
+}
+
+func testGrid(t *testing.T, epsg, w, h int, gt [6]float64) Grid {
+	t.Helper()
+	g := Grid{Width: w, Height: h, GeoTransform: gt, HasGeoTransform: true}
+	if epsg != 0 {
+		g.Projection = epsgWKT(t, epsg)
+	}
+	return g
+}
+
+// reproject takes points from one EPSG CRS to another, in place, with GDAL
+// directly (axis order longitude, latitude).
+func reproject(t *testing.T, from, to int, xs, ys []float64) {
+	t.Helper()
+	src, err := godal.NewSpatialRefFromEPSG(from)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	dst, err := godal.NewSpatialRefFromEPSG(to)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer dst.Close()
+	tr, err := godal.NewTransform(src, dst)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tr.Close()
+	if err := tr.TransformEx(xs, ys, nil, nil); err != nil {
+		t.Fatal(err)
+	}
+}
+
+func relErr(got, want float64) float64 { return math.Abs(got-want) / math.Abs(want) }
+
+// totalArea sums At over the grid and checks it against Mean.
+func totalArea(t *testing.T, a *CellAreas, g Grid) float64 {
+	t.Helper()
+	var sum float64
+	for r := range g.Height {
+		for c := range g.Width {
+			sum += a.At(c, r)
+		}
+	}
+	if n := float64(g.Width * g.Height); relErr(sum/n, a.Mean()) > 1e-12 {
+		t.Errorf("mean %g, but the pixels average %g", a.Mean(), sum/n)
+	}
+	return sum
+}
+
+func TestCellAreas(t *testing.T) {
+	// A 1 km square of ground in UTM 33N centred on its central meridian
+	// (15°E, easting 500000 m), 100 x 100 pixels of 10 m.
+	utm := testGrid(t, utm33, 100, 100, [6]float64{499500, 10, 0, 4600500, 0, -10})
+	// The same ground on its own EPSG:4326 grid: the square's corners in
+	// longitude and latitude (on the central meridian the square's sides
+	// follow meridians and parallels to within 1e-5 of its size).
+	xs, ys := []float64{499500, 500500, 500500, 499500}, []float64{4600500, 4600500, 4599500, 4599500}
+	reproject(t, utm33, 4326, xs, ys)
+	west, east := (xs[0]+xs[3])/2, (xs[1]+xs[2])/2
+	north, south := (ys[0]+ys[1])/2, (ys[2]+ys[3])/2
+	geo := testGrid(t, 4326, 100, 100, [6]float64{west, (east - west) / 100, 0, north, 0, -(north - south) / 100})
+
+	// NAD83 / New York Long Island in metres (EPSG:32118) and in US survey
+	// feet (EPSG:2263): the same Lambert conformal conic, so a grid in feet
+	// whose numbers are the metre grid's times 3937/1200 (ftUS per metre,
+	// by the definition of the US survey foot) covers the same ground. The
+	// cone's scale is 1 on its standard parallels (40°40'N, 41°02'N) and
+	// within 1e-4 of it between them, so ground area is grid area in m².
+	const ftUS = 3937.0 / 1200
+	lim := testGrid(t, 32118, 100, 100, [6]float64{380000, 30, 0, 75000, 0, -30})
+	lif := testGrid(t, 2263, 100, 100, [6]float64{380000 * ftUS, 30 * ftUS, 0, 75000 * ftUS, 0, -30 * ftUS})
+
+	// Web Mercator (EPSG:3857) at 45°N: y = R ln tan(45° + φ/2) with
+	// R = 6378137 m. Spherical Mercator stretches both axes by 1/cos φ, so
+	// ground area is grid area times cos²(45°) = 1/2 (the ellipsoid's radii
+	// of curvature at 45°N change that by 1e-5).
+	y45 := wgs84A * math.Log(math.Tan(math.Pi/4+math.Pi/8))
+	merc := testGrid(t, 3857, 100, 100, [6]float64{-500, 10, 0, y45 + 500, 0, -10})
+
+	tests := []struct {
+		name string
+		g    Grid
+		want float64 // ground area (m²) of the whole grid
+		tol  float64
+	}{
+		{"UTM 33N", utm, 1e6 / (utmK0 * utmK0), 1e-4},
+		{"EPSG:4326 same ground", geo, 1e6 / (utmK0 * utmK0), 5e-3},
+		{"Long Island metres", lim, 3000 * 3000, 1e-4},
+		{"Long Island US survey feet", lif, 3000 * 3000, 1e-4},
+		{"Web Mercator 45N", merc, 1e6 / 2, 5e-3},
+		// 1° x 1° at the equator: 111.32 km x 110.57 km = 12,308.7 km²
+		// (reference values for a degree of longitude at the equator and
+		// a degree of latitude near it, from memory; the authalic formula
+		// gives 12,308.46 km²).
+		{"1 degree at the equator", testGrid(t, 4326, 1, 1, [6]float64{0, 1, 0, 1, 0, -1}), 111.32e3 * 110.57e3, 5e-3},
+	}
+	totals := map[string]float64{}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			a, err := NewCellAreas(tc.g)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got := totalArea(t, a, tc.g)
+			totals[tc.name] = got
+			if relErr(got, tc.want) > tc.tol {
+				t.Errorf("area %.6g m², want %.6g (relative error %.2g > %g)", got, tc.want, relErr(got, tc.want), tc.tol)
+			}
+		})
+	}
+	// The same ground measured on two grids.
+	for _, pair := range [][2]string{{"UTM 33N", "EPSG:4326 same ground"}, {"Long Island metres", "Long Island US survey feet"}} {
+		a, b := totals[pair[0]], totals[pair[1]]
+		if relErr(a, b) > 5e-3 {
+			t.Errorf("%s: %.6g m², %s: %.6g m²", pair[0], a, pair[1], b)
+		}
+	}
+	// Web Mercator grid area is twice the ground area at 45°N.
+	if ratio := 1e6 / totals["Web Mercator 45N"]; math.Abs(ratio-2) > 0.01 {
+		t.Errorf("Web Mercator grid area / ground area = %.4f, want 2", ratio)
+	}
+}
+
+// TestCellAreasCoarseGeographic checks per-pixel areas of coarse geographic
+// grids, where cell edges need densifying and a global grid needs several
+// planes (its far side is the antipode of any single centre), against the
+// exact formula of the ellipsoid.
+func TestCellAreasCoarseGeographic(t *testing.T) {
+	tests := []struct {
+		name string
+		g    Grid
+	}{
+		{"0-60N, 1 degree", testGrid(t, 4326, 10, 60, [6]float64{10, 1, 0, 60, 0, -1})},
+		{"global, 2 degrees", testGrid(t, 4326, 180, 90, [6]float64{-180, 2, 0, 90, 0, -2})},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			a, err := NewCellAreas(tc.g)
+			if err != nil {
+				t.Fatal(err)
+			}
+			gt := tc.g.GeoTransform
+			for r := range tc.g.Height {
+				for c := range tc.g.Width {
+					lon, lat := gt[0]+float64(c)*gt[1], gt[3]+float64(r)*gt[5]
+					want := lonLatBoxArea(lon, lat+gt[5], lon+gt[1], lat)
+					if got := a.At(c, r); relErr(got, want) > 1e-4 {
+						t.Fatalf("cell (%d,%d): %.6g m², want %.6g", c, r, got, want)
+					}
+				}
+			}
+		})
+	}
+}
+
+func TestCellAreasErrors(t *testing.T) {
+	g := testGrid(t, 0, 10, 10, [6]float64{0, 1, 0, 0, 0, -1})
+	if _, err := NewCellAreas(g); !errors.Is(err, ErrNoCRS) {
+		t.Errorf("no CRS: got %v, want ErrNoCRS", err)
+	}
+	g = testGrid(t, utm33, 10, 10, [6]float64{})
+	g.HasGeoTransform = false
+	if _, err := NewCellAreas(g); err == nil || !strings.Contains(err.Error(), "geotransform") {
+		t.Errorf("no geotransform: got %v", err)
+	}
+}
+
+func TestPolygonArea(t *testing.T) {
+	square := func(x0, y0, x1, y1 float64) string {
+		return fmt.Sprintf("POLYGON ((%[1]v %[2]v,%[3]v %[2]v,%[3]v %[4]v,%[1]v %[4]v,%[1]v %[2]v))", x0, y0, x1, y1)
+	}
+	// The UTM square of TestCellAreas, with a 100 m square hole.
+	holed := "POLYGON ((499500 4599500,500500 4599500,500500 4600500,499500 4600500,499500 4599500)," +
+		"(499900 4599900,499900 4600000,500000 4600000,500000 4599900,499900 4599900))"
+	tests := []struct {
+		name, wkt string
+		epsg      int
+		want, tol float64
+	}{
+		{"UTM square", square(499500, 4599500, 500500, 4600500), utm33, 1e6 / (utmK0 * utmK0), 1e-4},
+		{"UTM square with a hole", holed, utm33, 0.99e6 / (utmK0 * utmK0), 1e-4},
+		{"multipolygon", "MULTIPOLYGON (((499500 4599500,500000 4599500,500000 4600000,499500 4599500)),((500600 4599500,500700 4599500,500700 4599600,500600 4599500)))", utm33, 0.13e6 / (utmK0 * utmK0), 1e-4},
+		// Edges of 10° along meridians and parallels: cut into 25 km
+		// pieces before the plane, they follow the ellipsoid's box.
+		{"10 degree box", square(0, 0, 10, 10), 4326, lonLatBoxArea(0, 0, 10, 10), 1e-4},
+		{"1 degree at 60N", square(20, 60, 21, 61), 4326, lonLatBoxArea(20, 60, 21, 61), 1e-4},
+	}
+	for _, tc := range tests {
+		got, err := PolygonArea(tc.wkt, epsgWKT(t, tc.epsg))
+		if err != nil {
+			t.Errorf("%s: %v", tc.name, err)
+			continue
+		}
+		if relErr(got, tc.want) > tc.tol {
+			t.Errorf("%s: %.7g m², want %.7g", tc.name, got, tc.want)
+		}
+	}
+	if _, err := PolygonArea(square(0, 0, 1, 1), ""); !errors.Is(err, ErrNoCRS) {
+		t.Errorf("no CRS: got %v, want ErrNoCRS", err)
+	}
+	for _, bad := range []string{"POINT (1 2)", "POLYGON ((0 0"} {
+		if _, err := PolygonArea(bad, epsgWKT(t, utm33)); err == nil || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s: got %v, want a one-line error", bad, err)
+		}
+	}
+}

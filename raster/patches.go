@@ -1,0 +1,630 @@
+package raster
+
+/*
+#include <stdlib.h>
+#include <cpl_conv.h>
+#include <cpl_error.h>
+#include <gdal_alg.h>
+
+// bandfoldGoOn is the sieve's progress callback: it stops GDAL once *arg
+// is set.
+static int bandfoldGoOn(double done, const char *msg, void *arg) {
+	(void)done;
+	(void)msg;
+	return __atomic_load_n((int *)arg, __ATOMIC_RELAXED) == 0;
+}
+
+// bandfoldSieve runs GDAL's 8-connected sieve filter with errors kept off
+// stderr; on failure *msg holds GDAL's message (free it with VSIFree).
+static int bandfoldSieve(GDALRasterBandH src, GDALRasterBandH mask, GDALRasterBandH dst, int threshold, int *stop, char **msg) {
+	CPLPushErrorHandler(CPLQuietErrorHandler);
+	CPLErrorReset();
+	CPLErr err = GDALSieveFilter(src, mask, dst, threshold, 8, NULL, bandfoldGoOn, stop);
+	if (err != CE_None) {
+		*msg = CPLStrdup(CPLGetLastErrorMsg());
+	}
+	CPLPopErrorHandler();
+	return err;
+}
+*/
+import "C"
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"sync"
+	"sync/atomic"
+	"unsafe"
+
+	"github.com/airbusgeo/godal"
+)
+
+// Values of a change map.
+const (
+	flagNoChange uint8 = 0
+	flagChange   uint8 = 1
+	flagNoData   uint8 = 255
+)
+
+// Bands of a ChangeMask's MEM dataset (0-based).
+const (
+	maskRaw    = 0 // flags as written
+	maskTop    = 1 // top component, 1-based; 0 for none
+	maskSieved = 2 // flags after Sieve
+)
+
+// ChangeMask is an in-memory (GDAL MEM) uint8 change map of a grid: 1 change,
+// 0 no change, 255 nodata, plus a second uint8 band with the top component
+// (1-based; 0 for none) per pixel, and a third that receives the sieved
+// map. It takes 3 bytes per pixel. Fill it tile by tile from one goroutine:
+// a ChangeMask is not safe for concurrent use. (It is not named Mask: that
+// is the Open option naming a validity mask file.)
+type ChangeMask struct {
+	grid   Grid
+	ds     *godal.Dataset
+	sieved bool
+}
+
+// NewMask returns an empty change map of grid g (all pixels 0).
+func NewMask(g Grid) (*ChangeMask, error) {
+	ds, err := newMem(g, 3)
+	if err != nil {
+		return nil, fmt.Errorf("change map in memory (%dx%d): %w", g.Width, g.Height, err)
+	}
+	// 255 is nodata: the sieve's mask leaves those pixels out.
+	for _, b := range []int{maskRaw, maskSieved} {
+		if err := ds.Bands()[b].SetNoData(float64(flagNoData), errLogger); err != nil {
+			ds.Close(errLogger)
+			return nil, fmt.Errorf("change map in memory: %w", err)
+		}
+	}
+	return &ChangeMask{grid: g, ds: ds}, nil
+}
+
+// Write writes the flags (0, 1 or 255) and top components of window (x, y,
+// w, h), row by row, w*h values each. It undoes an earlier Sieve: sieve
+// again once the map is complete.
+func (m *ChangeMask) Write(x, y, w, h int, flags, top []uint8) error {
+	if err := checkWindow(m.grid, x, y, w, h, len(flags), len(top)); err != nil {
+		return fmt.Errorf("write change map: %w", err)
+	}
+	m.sieved = false
+	bands := m.ds.Bands()
+	if err := bands[maskRaw].Write(x, y, flags, w, h, errLogger); err != nil {
+		return fmt.Errorf("write change map at %d,%d: %w", x, y, err)
+	}
+	if err := bands[maskTop].Write(x, y, top, w, h, errLogger); err != nil {
+		return fmt.Errorf("write top components at %d,%d: %w", x, y, err)
+	}
+	return nil
+}
+
+// Sieve removes patches smaller than minPixels: SieveContext without
+// cancellation.
+func (m *ChangeMask) Sieve(minPixels int) error {
+	return m.SieveContext(context.Background(), minPixels)
+}
+
+// SieveContext removes patches smaller than minPixels with GDAL's sieve
+// filter, 8-connected, run on the in-memory map into a separate band: the
+// raw flags stay readable with ReadRaw. Nodata (255) is masked out and kept.
+//
+// Patches of either class smaller than minPixels are merged into their
+// largest neighbour: small change patches vanish into no change, and small
+// holes of no change inside change patches fill. A small patch whose only
+// neighbours are nodata or other small patches is kept as it is.
+// minPixels <= 1 copies the map unchanged.
+//
+// Cancelling ctx stops GDAL at its next progress report (every row) and
+// returns ctx's error; the map then reads as if Sieve had not run.
+func (m *ChangeMask) SieveContext(ctx context.Context, minPixels int) error {
+	m.sieved = false
+	bands := m.ds.Bands()
+	if minPixels <= 1 {
+		if err := ctx.Err(); err != nil {
+			return fmt.Errorf("sieve: %w", err)
+		}
+		if err := m.mapBand(bands[maskRaw], bands[maskSieved], nil); err != nil {
+			return fmt.Errorf("sieve: %w", err)
+		}
+		m.sieved = true
+		return nil
+	}
+	// GDAL reads *stop at each progress report; a context already done
+	// sets it before the first.
+	stop := (*C.int)(C.calloc(1, C.sizeof_int))
+	var mu sync.Mutex // guards stop against a late cancellation
+	release := context.AfterFunc(ctx, func() {
+		mu.Lock()
+		defer mu.Unlock()
+		if stop != nil {
+			atomic.StoreInt32((*int32)(unsafe.Pointer(stop)), 1)
+		}
+	})
+	defer func() {
+		release()
+		mu.Lock()
+		defer mu.Unlock()
+		C.free(unsafe.Pointer(stop))
+		stop = nil
+	}()
+	if ctx.Err() != nil {
+		atomic.StoreInt32((*int32)(unsafe.Pointer(stop)), 1)
+	}
+	var msg *C.char
+	rc := C.bandfoldSieve(bandHandle(bands[maskRaw]), bandHandle(bands[maskRaw].MaskBand()), bandHandle(bands[maskSieved]), C.int(minPixels), stop, &msg)
+	if rc != C.CE_None {
+		text := C.GoString(msg)
+		C.VSIFree(unsafe.Pointer(msg))
+		if err := ctx.Err(); err != nil {
+			return fmt.Errorf("sieve: %w", err)
+		}
+		return fmt.Errorf("sieve: %s", firstLine(text))
+	}
+	m.sieved = true
+	return nil
+}
+
+// Read reads the map of window (x, y, w, h) into dst (w*h values, row by
+// row): the sieved map once Sieve ran, the raw one before.
+func (m *ChangeMask) Read(x, y, w, h int, dst []uint8) error {
+	return m.read(m.current(), x, y, w, h, dst)
+}
+
+// ReadRaw reads the flags as written, sieved or not.
+func (m *ChangeMask) ReadRaw(x, y, w, h int, dst []uint8) error {
+	return m.read(maskRaw, x, y, w, h, dst)
+}
+
+func (m *ChangeMask) current() int {
+	if m.sieved {
+		return maskSieved
+	}
+	return maskRaw
+}
+
+func (m *ChangeMask) read(band, x, y, w, h int, dst []uint8) error {
+	if err := checkWindow(m.grid, x, y, w, h, len(dst)); err != nil {
+		return fmt.Errorf("read change map: %w", err)
+	}
+	if err := m.ds.Bands()[band].Read(x, y, dst, w, h, errLogger); err != nil {
+		return fmt.Errorf("read change map at %d,%d: %w", x, y, err)
+	}
+	return nil
+}
+
+// Close releases the map's memory.
+func (m *ChangeMask) Close() error {
+	if m.ds == nil {
+		return nil
+	}
+	err := m.ds.Close(errLogger)
+	m.ds = nil
+	return err
+}
+
+// mapBand copies band from into band to of the map's grid, strip by strip,
+// through f when not nil.
+func (m *ChangeMask) mapBand(from, to godal.Band, f func(uint8) uint8) error {
+	w := m.grid.Width
+	buf := make([]uint8, w*stripRows(w))
+	return strips(m.grid.Height, w, func(y, rows int) error {
+		b := buf[:w*rows]
+		if err := from.Read(0, y, b, w, rows, errLogger); err != nil {
+			return err
+		}
+		if f != nil {
+			for i, v := range b {
+				b[i] = f(v)
+			}
+		}
+		return to.Write(0, y, b, w, rows, errLogger)
+	})
+}
+
+// PatchSummary sums up the patches written by Patches.
+type PatchSummary struct {
+	// Count is the number of patches (polygons).
+	Count int
+	// AreaM2 is the sum of their ground areas (m²); NaN without a CRS.
+	AreaM2 float64
+}
+
+// Patches polygonizes the change patches (value 1) of the map, sieved if
+// Sieve ran, with GDAL's polygonize, 8-connected, and writes a GeoPackage at
+// path (written to a temporary name beside it and renamed on success; it
+// refuses an existing path unless overwrite), layer "changes", polygons in
+// the grid's CRS, fields:
+//
+//   - area_m2 (Real): ground area, PolygonArea's local equal-area method;
+//     null when the grid has no CRS. Patches share one plane per degree of
+//     latitude and longitude, which changes nothing measurable: the planes
+//     are equal-area everywhere.
+//   - area_ha (Real): the same in hectares.
+//   - z_mean, z_max (Real): mean and maximum of magnitude over the patch's
+//     valid pixels (not nodata, not NaN); null when there are none.
+//   - top_component (Integer): the most frequent top component (1-based)
+//     over the patch's pixels, the smallest on ties; pixels with top
+//     component 0 (filled holes) or 255 are not counted; null when none is
+//     left.
+//
+// magnitude is a raster file on the same grid (band 1 is used), such as the
+// magnitude.tif just written. Per patch, its polygon is rasterised over its
+// bounding window (pixel centres inside) and that window of magnitude and of
+// the top band is read.
+func (m *ChangeMask) Patches(path, magnitude string, overwrite bool) (PatchSummary, error) {
+	sum := PatchSummary{AreaM2: math.NaN()}
+	if err := CheckTarget(path, overwrite); err != nil {
+		return sum, err
+	}
+	mag, err := openDataset(magnitude)
+	if err != nil {
+		return sum, fmt.Errorf("magnitude %w", err)
+	}
+	defer mag.Close(errLogger)
+	if err := m.grid.Compare(gridOf(mag)); err != nil {
+		return sum, fmt.Errorf("magnitude %s is not on the grid of the change map: %w", magnitude, err)
+	}
+	polys, err := m.polygonize()
+	if err != nil {
+		return sum, fmt.Errorf("patches for %s: %w", path, err)
+	}
+	defer polys.Close(errLogger)
+	var ea *equalArea
+	if m.grid.Projection != "" {
+		if ea, err = newEqualArea(m.grid.Projection); err != nil {
+			return sum, fmt.Errorf("patches for %s: %w", path, err)
+		}
+		defer ea.Close()
+		sum.AreaM2 = 0
+	}
+	out, err := newPatchFile(path, m.grid.Projection)
+	if err != nil {
+		return sum, err
+	}
+	defer out.abort()
+	zs := patchStats{m: m, mag: mag.Bands()[0]}
+	zs.nodata, zs.hasND = zs.mag.NoData()
+	src := polys.Layers()[0]
+	for f := src.NextFeature(); f != nil; f = src.NextFeature() {
+		area, err := out.add(f.Geometry(), &zs, ea)
+		f.Close()
+		if err != nil {
+			return sum, fmt.Errorf("write %s: %w", path, err)
+		}
+		sum.Count++
+		sum.AreaM2 += area
+	}
+	if err := out.commit(); err != nil {
+		return sum, err
+	}
+	return sum, nil
+}
+
+// polygonize returns an OGR Memory dataset whose one layer holds the
+// polygons of the map's change patches.
+func (m *ChangeMask) polygonize() (*godal.Dataset, error) {
+	chg, err := newMem(m.grid, 1)
+	if err != nil {
+		return nil, err
+	}
+	defer chg.Close(errLogger)
+	band := chg.Bands()[0]
+	isChange := func(v uint8) uint8 {
+		if v == flagChange {
+			return 1
+		}
+		return 0
+	}
+	if err := m.mapBand(m.ds.Bands()[m.current()], band, isChange); err != nil {
+		return nil, err
+	}
+	vec, err := godal.CreateVector(godal.Memory, "", errLogger)
+	if err != nil {
+		return nil, err
+	}
+	layer, err := vec.CreateLayer("patches", nil, godal.GTPolygon, errLogger)
+	if err == nil {
+		// The band is its own mask: only change pixels make polygons.
+		err = band.Polygonize(layer, godal.Mask(band), godal.EightConnected(), errLogger)
+	}
+	if err != nil {
+		vec.Close(errLogger)
+		return nil, fmt.Errorf("polygonize: %w", err)
+	}
+	return vec, nil
+}
+
+// patchFile is a GeoPackage of patches being written under a temporary
+// name.
+type patchFile struct {
+	path, tmp string
+	ds        *godal.Dataset
+	layer     godal.Layer
+	done      bool
+}
+
+var patchFields = []struct {
+	name string
+	typ  godal.FieldType
+}{
+	{"area_m2", godal.FTReal}, {"area_ha", godal.FTReal}, {"z_mean", godal.FTReal}, {"z_max", godal.FTReal}, {"top_component", godal.FTInt},
+}
+
+func newPatchFile(path, crs string) (*patchFile, error) {
+	p := &patchFile{path: path, tmp: TempPath(path, ".gpkg")}
+	p.removeTemp()
+	var err error
+	if p.ds, err = godal.CreateVector(godal.GeoPackage, p.tmp, errLogger); err != nil {
+		p.removeTemp()
+		return nil, fmt.Errorf("create %s: %w", path, err)
+	}
+	var sr *godal.SpatialRef
+	if crs != "" {
+		if sr, err = godal.NewSpatialRefFromWKT(crs, errLogger); err != nil {
+			p.abort()
+			return nil, fmt.Errorf("create %s: read CRS: %w", path, err)
+		}
+		defer sr.Close()
+	}
+	var opts []godal.CreateLayerOption
+	for _, f := range patchFields {
+		opts = append(opts, godal.NewFieldDefinition(f.name, f.typ))
+	}
+	opts = append(opts, errLogger)
+	if p.layer, err = p.ds.CreateLayer("changes", sr, godal.GTPolygon, opts...); err == nil {
+		err = p.ds.StartTransaction(errLogger)
+	}
+	if err != nil {
+		p.abort()
+		return nil, fmt.Errorf("create %s: %w", path, err)
+	}
+	return p, nil
+}
+
+// add writes one patch and returns its ground area (0 without ea).
+func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (float64, error) {
+	z, err := zs.of(geom)
+	if err != nil {
+		return 0, err
+	}
+	var area float64
+	if ea != nil {
+		wkb, err := geom.WKB(errLogger)
+		if err != nil {
+			return 0, err
+		}
+		g, err := godal.NewGeometryFromWKB(wkb, nil, errLogger)
+		if err != nil {
+			return 0, err
+		}
+		area, err = ea.area(g, true)
+		g.Close()
+		if err != nil {
+			return 0, fmt.Errorf("patch area: %w", err)
+		}
+	}
+	f, err := p.layer.NewFeature(geom, errLogger)
+	if err != nil {
+		return 0, err
+	}
+	defer f.Close()
+	fields := f.Fields()
+	set := func(name string, v any) {
+		if err == nil {
+			err = f.SetFieldValue(fields[name], v, errLogger)
+		}
+	}
+	if ea != nil {
+		set("area_m2", area)
+		set("area_ha", area/1e4)
+	}
+	if z.n > 0 {
+		set("z_mean", z.sum/float64(z.n))
+		set("z_max", z.max)
+	}
+	if z.top > 0 {
+		set("top_component", z.top)
+	}
+	if err == nil {
+		err = p.layer.UpdateFeature(f, errLogger)
+	}
+	return area, err
+}
+
+// commit closes the GeoPackage and renames it into place.
+func (p *patchFile) commit() error {
+	err := p.ds.CommitTransaction(errLogger)
+	if cerr := p.ds.Close(errLogger); err == nil {
+		err = cerr
+	}
+	p.ds = nil
+	if err == nil {
+		err = os.Rename(p.tmp, p.path)
+	}
+	if err != nil {
+		p.abort()
+		return fmt.Errorf("write %s: %w", p.path, err)
+	}
+	p.done = true
+	return nil
+}
+
+// abort discards the GeoPackage; it does nothing after commit.
+func (p *patchFile) abort() {
+	if p.done {
+		return
+	}
+	if p.ds != nil {
+		p.ds.Close(errLogger)
+		p.ds = nil
+	}
+	p.removeTemp()
+	p.done = true
+}
+
+func (p *patchFile) removeTemp() {
+	for _, suffix := range []string{"", "-journal", "-wal", "-shm"} {
+		os.Remove(p.tmp + suffix)
+	}
+}
+
+// patchStats reads magnitude and top components under patches.
+type patchStats struct {
+	m      *ChangeMask
+	mag    godal.Band
+	nodata float64
+	hasND  bool
+	burn   []uint8
+	z      []float64
+	top    []uint8
+}
+
+type patchZ struct {
+	n        int
+	sum, max float64
+	top      int
+}
+
+// of rasterises geom over its bounding window, strip by strip, and sums up
+// magnitude and top components under it.
+func (s *patchStats) of(geom *godal.Geometry) (patchZ, error) {
+	out := patchZ{max: math.Inf(-1)}
+	bb, err := geom.Bounds()
+	if err != nil {
+		return out, err
+	}
+	g := s.m.grid
+	if !g.HasGeoTransform {
+		// GDAL's default, which polygonize used: pixel coordinates.
+		g.GeoTransform, g.HasGeoTransform = [6]float64{0, 1, 0, 0, 0, 1}, true
+	}
+	x0, y0, x1, y1, err := pixelWindow(g, bb)
+	if err != nil {
+		return out, err
+	}
+	w := x1 - x0
+	var counts [256]int
+	err = strips(y1-y0, w, func(dy, rows int) error {
+		n, y := w*rows, y0+dy
+		win := Grid{Width: w, Height: rows, HasGeoTransform: true, GeoTransform: g.GeoTransform}
+		win.GeoTransform[0], win.GeoTransform[3] = applyGT(g.GeoTransform, float64(x0), float64(y))
+		mem, err := newMem(win, 1)
+		if err != nil {
+			return err
+		}
+		defer mem.Close(errLogger)
+		if err := mem.RasterizeGeometry(geom, godal.Values(1), errLogger); err != nil {
+			return fmt.Errorf("rasterize patch: %w", err)
+		}
+		s.burn, s.z, s.top = grow(s.burn, n), grow(s.z, n), grow(s.top, n)
+		if err := mem.Bands()[0].Read(0, 0, s.burn, w, rows, errLogger); err != nil {
+			return err
+		}
+		if err := s.mag.Read(x0, y, s.z, w, rows, errLogger); err != nil {
+			return fmt.Errorf("read magnitude at %d,%d: %w", x0, y, err)
+		}
+		if err := s.m.ds.Bands()[maskTop].Read(x0, y, s.top, w, rows, errLogger); err != nil {
+			return fmt.Errorf("read top components at %d,%d: %w", x0, y, err)
+		}
+		for i, b := range s.burn {
+			if b == 0 {
+				continue
+			}
+			counts[s.top[i]]++
+			if z := s.z[i]; z == z && !(s.hasND && z == s.nodata) {
+				out.n++
+				out.sum += z
+				out.max = max(out.max, z)
+			}
+		}
+		return nil
+	})
+	for c := 1; c < int(flagNoData); c++ {
+		if counts[c] > 0 && (out.top == 0 || counts[c] > counts[out.top]) {
+			out.top = c
+		}
+	}
+	return out, err
+}
+
+// pixelWindow returns the window of whole pixels x0 <= col < x1,
+// y0 <= row < y1 of g covering the georeferenced box bb (minx, miny, maxx,
+// maxy), clipped to the grid. Box edges within 1e-6 pixel of a pixel edge
+// count as on it.
+func pixelWindow(g Grid, bb [4]float64) (x0, y0, x1, y1 int, err error) {
+	gt := g.GeoTransform
+	det := gt[1]*gt[5] - gt[2]*gt[4]
+	if det == 0 {
+		return 0, 0, 0, 0, errors.New("the grid's geotransform cannot be inverted")
+	}
+	minC, minR, maxC, maxR := math.Inf(1), math.Inf(1), math.Inf(-1), math.Inf(-1)
+	for _, p := range [][2]float64{{bb[0], bb[1]}, {bb[0], bb[3]}, {bb[2], bb[1]}, {bb[2], bb[3]}} {
+		dx, dy := p[0]-gt[0], p[1]-gt[3]
+		c, r := (gt[5]*dx-gt[2]*dy)/det, (gt[1]*dy-gt[4]*dx)/det
+		minC, maxC, minR, maxR = min(minC, c), max(maxC, c), min(minR, r), max(maxR, r)
+	}
+	clamp := func(v float64, hi int) int { return max(0, min(hi, int(v))) }
+	x0, x1 = clamp(math.Floor(minC+1e-6), g.Width), clamp(math.Ceil(maxC-1e-6), g.Width)
+	y0, y1 = clamp(math.Floor(minR+1e-6), g.Height), clamp(math.Ceil(maxR-1e-6), g.Height)
+	return x0, y0, x1, y1, nil
+}
+
+// newMem returns a GDAL MEM dataset of Byte bands on grid g.
+func newMem(g Grid, bands int) (*godal.Dataset, error) {
+	ds, err := godal.Create(godal.Memory, "", bands, godal.Byte, g.Width, g.Height, errLogger)
+	if err != nil {
+		return nil, err
+	}
+	if g.HasGeoTransform {
+		err = ds.SetGeoTransform(g.GeoTransform, errLogger)
+	}
+	if err == nil && g.Projection != "" {
+		err = ds.SetProjection(g.Projection, errLogger)
+	}
+	if err != nil {
+		ds.Close(errLogger)
+		return nil, err
+	}
+	return ds, nil
+}
+
+// stripRows is the number of rows of width w in a strip of about 1 MiB.
+func stripRows(w int) int { return max(1, (1<<20)/max(1, w)) }
+
+// strips calls fn for consecutive strips of rows of an h-row window of
+// width w, each about 1 MiB of pixels, stopping at the first error.
+func strips(h, w int, fn func(y, rows int) error) error {
+	step := stripRows(w)
+	for y := 0; y < h; y += step {
+		if err := fn(y, min(step, h-y)); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// checkWindow checks that window (x, y, w, h) lies in g and that buffers
+// of the given lengths hold its w*h values.
+func checkWindow(g Grid, x, y, w, h int, lens ...int) error {
+	if x < 0 || y < 0 || w <= 0 || h <= 0 || x+w > g.Width || y+h > g.Height {
+		return fmt.Errorf("window %d,%d %dx%d outside the %dx%d grid", x, y, w, h, g.Width, g.Height)
+	}
+	for _, n := range lens {
+		if n < w*h {
+			return fmt.Errorf("buffer of %d values for a %dx%d window", n, w, h)
+		}
+	}
+	return nil
+}
+
+// grow returns buf resliced to n values, reallocated when too small.
+func grow[T any](buf []T, n int) []T {
+	if cap(buf) < n {
+		return make([]T, n)
+	}
+	return buf[:n]
+}
