@@ -131,28 +131,28 @@ func (m minArea) pixels(areas *raster.CellAreas) (int, error) {
 
 // changeSummary is summary.json and the --json output.
 type changeSummary struct {
-	Before         string           `json:"before"`
-	After          string           `json:"after"`
-	ValidPixels    int64            `json:"valid_pixels"`
-	ChangedPixels  int64            `json:"changed_pixels"`
-	ChangedAreaM2  *float64         `json:"changed_area_m2"`
-	ChangedAreaHa  *float64         `json:"changed_area_ha"`
-	ChangedFrac    float64          `json:"changed_fraction"`
-	Threshold      thresholdSummary `json:"threshold"`
-	Components     int              `json:"components"`
-	Location       []float64        `json:"location"`
-	Covariance     [][]float64      `json:"covariance"`
-	Iterations     int              `json:"iterations"`
-	Converged      bool             `json:"converged"`
-	SamplePixels   int              `json:"sample_pixels"`
-	MinAreaPixels  int              `json:"min_area_pixels"`
-	Patches        int              `json:"patches"`
-	Basis          string           `json:"basis"`
-	Aligned        bool             `json:"aligned"`
-	Reference      *accuracy        `json:"reference,omitempty"`
-	Outputs        []string         `json:"outputs"`
-	AreaNote       string           `json:"area_note"`
-	Caution        string           `json:"caution"`
+	Before        string           `json:"before"`
+	After         string           `json:"after"`
+	ValidPixels   int64            `json:"valid_pixels"`
+	ChangedPixels int64            `json:"changed_pixels"`
+	ChangedAreaM2 *float64         `json:"changed_area_m2"`
+	ChangedAreaHa *float64         `json:"changed_area_ha"`
+	ChangedFrac   float64          `json:"changed_fraction"`
+	Threshold     thresholdSummary `json:"threshold"`
+	Components    int              `json:"components"`
+	Location      []float64        `json:"location"`
+	Covariance    [][]float64      `json:"covariance"`
+	Iterations    int              `json:"iterations"`
+	Converged     bool             `json:"converged"`
+	SamplePixels  int              `json:"sample_pixels"`
+	MinAreaPixels int              `json:"min_area_pixels"`
+	Patches       int              `json:"patches"`
+	Basis         string           `json:"basis"`
+	Aligned       bool             `json:"aligned"`
+	Reference     *accuracy        `json:"reference,omitempty"`
+	Outputs       []string         `json:"outputs"`
+	AreaNote      string           `json:"area_note"`
+	Caution       string           `json:"caution"`
 }
 
 type thresholdSummary struct {
