@@ -130,7 +130,7 @@ func firstLine(s string) string {
 func gridOf(ds *godal.Dataset) Grid {
 	st := ds.Structure()
 	g := Grid{Width: st.SizeX, Height: st.SizeY, Projection: ds.Projection()}
-	if gt, err := ds.GeoTransform(godal.ErrLogger(func(godal.ErrorCategory, int, string) error { return nil })); err == nil {
+	if gt, err := ds.GeoTransform(errLogger); err == nil {
 		g.GeoTransform, g.HasGeoTransform = gt, true
 	}
 	return g

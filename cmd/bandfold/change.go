@@ -593,7 +593,7 @@ func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (tileSample, error) {
 		return tileSample{}, err
 	}
 	k := w.proj.Components()
-	s := change.NewSampler(min(w.size, max(count, 1)), k, 1)
+	s := change.NewSampler(w.size, k, 1)
 	width := int64(w.ps.before.scenes[0].Width)
 	for i, ok := range valid {
 		if ok {
