@@ -42,12 +42,27 @@ func (m *Moments) Reset() {
 }
 
 // AddPixels adds the pixels of x (pixel-major, p values per pixel) whose
-// valid flag is set; valid may be nil when every pixel is valid.
+// valid flag is set; valid may be nil when every pixel is valid. The pixels
+// are taken in chunks small enough to stay in cache, each reduced in two
+// passes (mean, then centred squares) and merged.
 func (m *Moments) AddPixels(x []float64, valid []bool) {
 	p := m.p
 	if len(x)%p != 0 || (valid != nil && len(valid) != len(x)/p) {
 		panic(fmt.Sprintf("bands: %d values and %d flags for %d bands", len(x), len(valid), p))
 	}
+	n := len(x) / p
+	for start := 0; start < n; start += fusedChunk {
+		end := min(n, start+fusedChunk)
+		var v []bool
+		if valid != nil {
+			v = valid[start:end]
+		}
+		m.addChunk(x[start*p:end*p], v)
+	}
+}
+
+func (m *Moments) addChunk(x []float64, valid []bool) {
+	p := m.p
 	fill(m.bmean, 0)
 	fill(m.bm2, 0)
 	nb := 0.0

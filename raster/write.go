@@ -111,13 +111,17 @@ func dataType(name string) (godal.DataType, error) {
 
 // creationOptions merges bandfold's GeoTIFF defaults with the user's.
 func creationOptions(dt godal.DataType, user []string) []string {
-	predictor := "2"
+	predictor, level := "2", "6"
 	if dt == godal.Float32 || dt == godal.Float64 {
-		predictor = "3"
+		// Real-valued outputs (component scores, statistics) are close to
+		// incompressible: on 7 bands x 8192 x 8192 folded to 3 float32
+		// components, DEFLATE level 1 wrote a file 0.6% larger than the
+		// default level 6 in 70% of the time.
+		predictor, level = "3", "1"
 	}
 	// NUM_THREADS lets GDAL compress blocks on all cores while tiles are
 	// written in order from one goroutine.
-	opts := []string{"TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=DEFLATE", "PREDICTOR=" + predictor, "BIGTIFF=IF_SAFER", "NUM_THREADS=ALL_CPUS"}
+	opts := []string{"TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=DEFLATE", "PREDICTOR=" + predictor, "ZLEVEL=" + level, "BIGTIFF=IF_SAFER", "NUM_THREADS=ALL_CPUS"}
 	return mergeOptions(opts, user)
 }
 

@@ -8,9 +8,11 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"runtime/debug"
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 
 	"github.com/spf13/cobra"
 
@@ -314,10 +316,29 @@ func runChange(ctx context.Context, g *globals, o *changeOptions, beforeArg, aft
 	pair := &pairScan{before: newScan([]*raster.Stack{before}, o.input.tile, 1, 0, 1)}
 	pair.after = newScanOn([]*raster.Stack{after}, func(*raster.Stack) tiles.Grid { return grid(before, o.input.tile) }, 1, 0, 1)
 
-	// 1. The basis: fitted on the pixels valid on both dates, or given.
-	b, basisName, err := changeBasis(ctx, g, o, pair, before, after, beforeArg, afterArg)
+	// 1. One pass over both dates: the pooled statistics (unless --basis)
+	// and a bounded sample of band differences x_after - x_before.
+	var given *transform.Basis
+	if o.basis != "" {
+		if given, err = readChangeBasis(o.basis, before, beforeArg); err != nil {
+			return err
+		}
+	}
+	first, err := pair.firstPass(ctx, g, given == nil, o.sample)
 	if err != nil {
 		return err
+	}
+	if first.valid == 0 {
+		return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", beforeArg, afterArg)
+	}
+
+	// 2. The basis: fitted on the pixels valid on both dates, or given.
+	b, basisName := given, o.basis
+	if b == nil {
+		if b, err = pooledBasis(first.acc, before, after, beforeArg, afterArg); err != nil {
+			return err
+		}
+		basisName = "fitted on both dates"
 	}
 	k := b.Components
 	if o.components > 0 {
@@ -331,15 +352,17 @@ func runChange(ctx context.Context, g *globals, o *changeOptions, beforeArg, aft
 		return err
 	}
 
-	// 2. A sample of score differences, and the no-change model.
-	sampler, valid, err := pair.sample(ctx, g, proj, o.sample)
-	if err != nil {
-		return err
+	// 3. The sample's score differences d = W_k^T (x_after - x_before) / s,
+	// and the no-change model. Fold subtracts the mean, so it is given
+	// mean + difference.
+	_, diffs := first.sample.Pixels()
+	for i := 0; i < len(diffs); i += p {
+		for j := range p {
+			diffs[i+j] += b.Mean[j]
+		}
 	}
-	if valid == 0 {
-		return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", beforeArg, afterArg)
-	}
-	_, d := sampler.Pixels()
+	d := make([]float64, len(diffs)/p*k)
+	proj.Fold(d, diffs)
 	model, err := change.Fit(d, k, thr.Trim())
 	if err != nil {
 		return fmt.Errorf("no-change model of %s and %s: %w", beforeArg, afterArg, err)
@@ -350,7 +373,7 @@ func runChange(ctx context.Context, g *globals, o *changeOptions, beforeArg, aft
 	}
 	g.log.Debug("no-change model", "iterations", model.Iterations, "sample", model.Sample, "z", zcut)
 
-	// 3. Map every pixel.
+	// 4. Map every pixel.
 	mask, err := raster.NewMask(before.Grid)
 	if err != nil {
 		return err
@@ -361,8 +384,11 @@ func runChange(ctx context.Context, g *globals, o *changeOptions, beforeArg, aft
 		return err
 	}
 
-	// 4. Minimum mapping unit, the change map, areas and accuracy.
-	if err := mask.Sieve(minPixels); err != nil {
+	// 5. Minimum mapping unit, the change map, areas and accuracy. The tile
+	// buffers are garbage now: hand their pages back before the sieve and
+	// the polygons take their share.
+	debug.FreeOSMemory()
+	if err := mask.SieveContext(ctx, minPixels); err != nil {
 		return fmt.Errorf("sieve: %w", err)
 	}
 	sum := &changeSummary{Before: beforeArg, After: afterArg, Threshold: thresholdSummary{thr.String(), zcut},
@@ -454,32 +480,31 @@ func openAfter(g *globals, o *changeOptions, before *raster.Stack, arg string, o
 	return s, true, cleanup, nil
 }
 
-// changeBasis returns the basis: --basis, or one fitted on the pooled pixels
-// valid on both dates.
-func changeBasis(ctx context.Context, g *globals, o *changeOptions, pair *pairScan, before, after *raster.Stack, beforeArg, afterArg string) (*transform.Basis, string, error) {
-	if o.basis != "" {
-		b, err := transform.ReadBasis(o.basis)
-		if err != nil {
-			return nil, "", err
-		}
-		if err := checkBands(b, o.basis, before, beforeArg, false); err != nil {
-			return nil, "", err
-		}
-		return b, o.basis, nil
-	}
-	acc, err := pair.pooled(ctx, g)
+// readChangeBasis reads --basis and checks it against BEFORE's bands.
+func readChangeBasis(path string, before *raster.Stack, beforeArg string) (*transform.Basis, error) {
+	b, err := transform.ReadBasis(path)
 	if err != nil {
-		return nil, "", err
+		return nil, err
 	}
+	if err := checkBands(b, path, before, beforeArg, false); err != nil {
+		return nil, err
+	}
+	return b, nil
+}
+
+// pooledBasis fits the basis on the pooled pixels valid on both dates; it
+// keeps the fewest components reaching 99% of the variance, at least
+// min(p, 3).
+func pooledBasis(acc *bands.Accumulator, before, after *raster.Stack, beforeArg, afterArg string) (*transform.Basis, error) {
 	what := beforeArg + " and " + afterArg + " (pixels valid on both dates)"
 	b, err := fitBasis(acc, transform.Covariance, basisBands(before), what)
 	if err != nil {
-		return nil, "", err
+		return nil, err
 	}
 	b.Inputs = fingerprints([]*raster.Stack{before, after})
 	p := len(b.Bands)
 	b.Components = max(transform.ComponentsFor(b.Eigenvalues, 0.99), min(p, 3))
-	return b, "fitted on both dates", nil
+	return b, nil
 }
 
 // pairScan reads the same tiles of both dates.
@@ -523,31 +548,81 @@ func (r *pairReader) Close() error {
 	return errors.Join(r.b.Close(), r.a.Close())
 }
 
-type pooledWorker struct {
+// firstResult is what the first pass over both dates gathers.
+type firstResult struct {
+	acc    *bands.Accumulator // pooled co-moments, when fitting
+	sample *change.Sampler    // band differences x_after - x_before
+	valid  int64
+}
+
+type firstWorker struct {
 	*pairReader
-	p int
+	p, size int
+	fit     bool
+	width   int64
+	bound   *atomic.Uint64
+	diff    []float64
 }
 
-func (w *pooledWorker) Do(_ context.Context, t tiles.Tile) (*bands.Accumulator, error) {
-	xb, xa, valid, _, err := w.read(t.Index)
+func (w *firstWorker) Do(_ context.Context, t tiles.Tile) (firstResult, error) {
+	xb, xa, valid, count, err := w.read(t.Index)
 	if err != nil {
-		return nil, err
+		return firstResult{}, err
 	}
-	acc := bands.NewAccumulator(w.p)
-	acc.AddPixels(xb, valid)
-	acc.AddPixels(xa, valid)
-	return acc, nil
+	res := firstResult{sample: change.NewSampler(w.size, w.p, 1), valid: int64(count)}
+	if w.fit {
+		res.acc = bands.NewAccumulator(w.p)
+		res.acc.AddPixels(xb, valid)
+		res.acc.AddPixels(xa, valid)
+	}
+	if len(w.diff) < w.p {
+		w.diff = make([]float64, w.p)
+	}
+	// Pixels whose key is not below the sample's current bound can never
+	// be kept: skipping them keeps the per-tile samples small.
+	bound := w.bound.Load()
+	for i, ok := range valid {
+		if !ok {
+			continue
+		}
+		index := int64(t.Y+i/t.W)*w.width + int64(t.X+i%t.W)
+		if res.sample.Key(index) >= bound {
+			continue
+		}
+		for j := range w.p {
+			w.diff[j] = xa[i*w.p+j] - xb[i*w.p+j]
+		}
+		res.sample.Offer(index, w.diff)
+	}
+	return res, nil
 }
 
-// pooled accumulates the co-moments of both dates' pixels valid on both.
-func (ps *pairScan) pooled(ctx context.Context, g *globals) (*bands.Accumulator, error) {
+// firstPass reads both dates once: it accumulates the pooled co-moments of
+// the pixels valid on both (when fit is set) and draws a sample of at most
+// size band differences, the same for any number of workers (the sampler
+// keeps the pixels with the smallest hashes of their positions).
+func (ps *pairScan) firstPass(ctx context.Context, g *globals, fit bool, size int) (firstResult, error) {
 	p := ps.before.scenes[0].Len()
-	total := bands.NewAccumulator(p)
-	err := tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: g.workers, Progress: g.progress("basis", ps.before.pixels())},
-		func(int) (tiles.Worker[*bands.Accumulator], error) {
-			return &pooledWorker{pairReader: ps.newReader(), p: p}, nil
+	total := firstResult{sample: change.NewSampler(size, p, 1)}
+	if fit {
+		total.acc = bands.NewAccumulator(p)
+	}
+	var bound atomic.Uint64
+	bound.Store(total.sample.Bound())
+	err := tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: g.workers, Progress: g.progress("statistics", ps.before.pixels())},
+		func(int) (tiles.Worker[firstResult], error) {
+			return &firstWorker{pairReader: ps.newReader(), p: p, size: size, fit: fit,
+				width: int64(ps.before.scenes[0].Width), bound: &bound}, nil
 		},
-		func(_ tiles.Tile, acc *bands.Accumulator) error { total.Merge(acc); return nil })
+		func(_ tiles.Tile, r firstResult) error {
+			if fit {
+				total.acc.Merge(r.acc)
+			}
+			total.sample.Merge(r.sample)
+			bound.Store(total.sample.Bound())
+			total.valid += r.valid
+			return nil
+		})
 	return total, err
 }
 
@@ -574,52 +649,6 @@ func (w *diffWorker) diff(k int, t tiles.Tile) ([]float64, []bool, int, error) {
 		ya[i] -= yb[i]
 	}
 	return ya, valid, count, nil
-}
-
-type sampleWorker struct {
-	*diffWorker
-	size int
-	ps   *pairScan
-}
-
-type tileSample struct {
-	s     *change.Sampler
-	valid int
-}
-
-func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (tileSample, error) {
-	d, valid, count, err := w.diff(t.Index, t)
-	if err != nil {
-		return tileSample{}, err
-	}
-	k := w.proj.Components()
-	s := change.NewSampler(w.size, k, 1)
-	width := int64(w.ps.before.scenes[0].Width)
-	for i, ok := range valid {
-		if ok {
-			r, c := i/t.W, i%t.W
-			s.Offer(int64(t.Y+r)*width+int64(t.X+c), d[i*k:i*k+k])
-		}
-	}
-	return tileSample{s, count}, nil
-}
-
-// sample draws a bounded sample of score differences, the same for any
-// number of workers (the sampler keeps the pixels with the smallest hashes of
-// their positions).
-func (ps *pairScan) sample(ctx context.Context, g *globals, proj *transform.Projector, size int) (*change.Sampler, int64, error) {
-	total := change.NewSampler(size, proj.Components(), 1)
-	var valid int64
-	err := tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: g.workers, Progress: g.progress("sample", ps.before.pixels())},
-		func(int) (tiles.Worker[tileSample], error) {
-			return &sampleWorker{diffWorker: &diffWorker{pairReader: ps.newReader(), proj: proj.Clone()}, size: size, ps: ps}, nil
-		},
-		func(_ tiles.Tile, ts tileSample) error {
-			total.Merge(ts.s)
-			valid += int64(ts.valid)
-			return nil
-		})
-	return total, valid, err
 }
 
 // mapTile is one tile of the change statistic.

@@ -197,3 +197,95 @@ func TestChangeNoValidPixels(t *testing.T) {
 		t.Errorf("exit %d: %s", code, errs)
 	}
 }
+
+// TestChangeAlignAndNoCRS: --align warps AFTER onto BEFORE's grid (here the
+// same pixels written on a grid shifted by whole pixels, so the warp is
+// exact where both overlap), and images without a CRS give areas in pixels
+// only, with a warning.
+func TestChangeAlignAndNoCRS(t *testing.T) {
+	dir := t.TempDir()
+	o := &demoOptions{dir: dir, size: 256, seed: 3}
+	mustRunFn(t, func(g *globals) error {
+		_, _, err := writeScenario(t.Context(), g, o)
+		return err
+	})
+	f := o.files()
+	s, err := raster.Open([]string{f.after})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The after date cropped by 5 pixels on the left: another grid.
+	cropped := filepath.Join(dir, "cropped.tif")
+	g := s.Grid
+	g.Width -= 5
+	g.GeoTransform[0] += 5 * g.GeoTransform[1]
+	copyWindow(t, f.after, cropped, g, 5, 0)
+	code, _, errs := bandfold(t, "change", f.before, cropped, "--out", filepath.Join(dir, "no"))
+	if code != 1 || !strings.Contains(errs, "--align") {
+		t.Fatalf("grids differ: exit %d %s", code, errs)
+	}
+	out := mustRun(t, "change", f.before, cropped, "--align", "--resampling", "nearest", "--out", filepath.Join(dir, "aligned"), "--reference", f.truth, "--json", "--quiet")
+	var sum changeSummary
+	json.Unmarshal([]byte(out), &sum)
+	if !sum.Aligned || sum.Reference == nil || sum.Reference.Recall < 0.9 {
+		t.Errorf("aligned change: %+v", sum.Reference)
+	}
+	// No CRS: copy without georeferencing.
+	bare := func(src, dst string) {
+		s, _ := raster.Open([]string{src})
+		g := s.Grid
+		g.Projection = ""
+		copyWindow(t, src, dst, g, 0, 0)
+	}
+	a, b := filepath.Join(dir, "a.tif"), filepath.Join(dir, "b.tif")
+	bare(f.before, a)
+	bare(f.after, b)
+	code, out, errs = bandfold(t, "change", a, b, "--out", filepath.Join(dir, "bare"), "--json")
+	if code != 0 || !strings.Contains(errs, "no CRS") {
+		t.Fatalf("no CRS: exit %d, %s", code, errs)
+	}
+	json.Unmarshal([]byte(out), &sum)
+	if sum.ChangedAreaM2 != nil || sum.ChangedPixels == 0 {
+		t.Errorf("no CRS: area %v, pixels %d", sum.ChangedAreaM2, sum.ChangedPixels)
+	}
+}
+
+// copyWindow writes the pixels of src from column x0, row y0 onwards onto
+// grid g at dst, keeping nodata.
+func copyWindow(t *testing.T, src, dst string, g raster.Grid, x0, y0 int) {
+	t.Helper()
+	s, err := raster.Open([]string{src})
+	if err != nil {
+		t.Fatal(err)
+	}
+	r, err := s.NewReader()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer r.Close()
+	tl := tiles.Tile{X: x0, Y: y0, W: g.Width, H: g.Height}
+	p := s.Len()
+	buf := make([]float64, tl.Pixels()*p)
+	valid := make([]bool, tl.Pixels())
+	if _, err := r.Read(tl, buf, valid); err != nil {
+		t.Fatal(err)
+	}
+	nd := *s.Bands[0].NoData
+	for i, ok := range valid {
+		if !ok {
+			for b := range p {
+				buf[i*p+b] = nd
+			}
+		}
+	}
+	o, err := raster.Create(dst, raster.Spec{Grid: g, Bands: p, DataType: s.Bands[0].DataType, NoData: &nd})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := o.Write(tiles.Tile{W: g.Width, H: g.Height}, buf); err != nil {
+		t.Fatal(err)
+	}
+	if err := o.Commit(); err != nil {
+		t.Fatal(err)
+	}
+}

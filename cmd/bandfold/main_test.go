@@ -1,6 +1,7 @@
 package main
 
 import (
+	"archive/zip"
 	"bytes"
 	"encoding/json"
 	"math"
@@ -352,5 +353,64 @@ func TestLearnJSONSummary(t *testing.T) {
 	}
 	if s["components"].(float64) != 2 || s["pixels"].(float64) != 349*352 {
 		t.Errorf("summary %v", s)
+	}
+}
+
+func TestMoreBadInputs(t *testing.T) {
+	needLandsat(t)
+	dir := t.TempDir()
+	five := filepath.Join(dir, "five.tif")
+	mustRun(t, "demo", "synth", "--bands", "5", "--width", "40", "--height", "30", "--out", five, "--quiet")
+	basis := filepath.Join(dir, "b.json")
+	mustRun(t, "learn", landsat, "--out", basis, "--quiet")
+	file := filepath.Join(dir, "plain")
+	os.WriteFile(file, []byte("x"), 0o644)
+	tests := []struct {
+		name string
+		args []string
+		code int
+		want string
+	}{
+		{"pooled band counts", []string{"learn", landsat, five, "--out", filepath.Join(dir, "p.json")}, 1, "pooled scenes need the same bands"},
+		{"plots folder", []string{"inspect", basis, "--plots", filepath.Join(file, "plots")}, 1, "cannot be created"},
+		{"few pixels", []string{"learn", five, "--stride", "20", "--out", filepath.Join(dir, "f.json")}, 1, "need at least bands + 1"},
+		{"shard auto without scheduler", []string{"learn", landsat, "--partial", filepath.Join(dir, "x.json"), "--shard", "auto"}, 2, "no job array"},
+		{"batch into unwritable folder", []string{"fold", landsat, "--basis", basis, "--out-dir", file}, 1, "does not exist"},
+	}
+	for _, tc := range tests {
+		t.Setenv("SLURM_ARRAY_TASK_ID", "")
+		t.Setenv("JOB_COMPLETION_INDEX", "")
+		code, _, errs := bandfold(t, tc.args...)
+		if code != tc.code || !strings.Contains(errs, tc.want) || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
+			t.Errorf("%s: exit %d, stderr %q; want exit %d and one line containing %q", tc.name, code, errs, tc.code, tc.want)
+		}
+	}
+}
+
+// TestVirtualPathInput reads the Landsat subset through GDAL's /vsizip/
+// virtual file system: the same basis as from the plain file.
+func TestVirtualPathInput(t *testing.T) {
+	needLandsat(t)
+	dir := t.TempDir()
+	data, _ := os.ReadFile(landsat)
+	os.WriteFile(filepath.Join(dir, "l7.tif"), data, 0o644)
+	zf, err := os.Create(filepath.Join(dir, "l7.zip"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	zw := zip.NewWriter(zf)
+	w, _ := zw.Create("l7.tif")
+	w.Write(data)
+	if err := zw.Close(); err != nil {
+		t.Fatal(err)
+	}
+	zf.Close()
+	a, b := filepath.Join(dir, "a.json"), filepath.Join(dir, "b.json")
+	mustRun(t, "learn", "/vsizip/"+filepath.Join(dir, "l7.zip")+"/l7.tif", "--out", a, "--quiet")
+	mustRun(t, "learn", filepath.Join(dir, "l7.tif"), "--out", b, "--quiet")
+	ba, _ := transform.ReadBasis(a)
+	bb, _ := transform.ReadBasis(b)
+	if ba.Eigenvalues[0] != bb.Eigenvalues[0] || ba.Pixels != bb.Pixels {
+		t.Errorf("/vsizip/ basis differs: %v vs %v", ba.Eigenvalues[0], bb.Eigenvalues[0])
 	}
 }

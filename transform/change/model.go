@@ -434,9 +434,38 @@ func (s *Scorer) Centre(dst, d []float64) []float64 {
 // distuv.ChiSquared.Survival) rather than as 1 − CDF, which rounds to 0
 // beyond z ≈ 80 for k = 3 and loses all relative precision well before. For
 // z ≤ 0 it returns 1. PValue panics if k < 1.
+//
+// For k up to 100 and z up to 1400 it sums the closed form instead, which is
+// exact and several times faster (Abramowitz & Stegun 26.4.4 and 26.4.5):
+// Q(1, z) = erfc(sqrt(z/2)), Q(2, z) = exp(-z/2), and
+// Q(k+2, z) = Q(k, z) + a_k with a_k = (z/2)^(k/2) exp(-z/2) / Gamma(k/2 + 1),
+// a_(k+2) = a_k (z/2) / (k/2 + 1); every term is positive, so the sum keeps
+// full relative precision in the tail. Beyond those limits exp(-z/2) could
+// underflow while the sum does not, and gonum's routine is used.
 func PValue(z float64, k int) float64 {
 	if k < 1 {
 		panic(fmt.Sprintf("change: k = %d < 1", k))
 	}
-	return distuv.ChiSquared{K: float64(k)}.Survival(z)
+	if z <= 0 {
+		return 1
+	}
+	if k > 100 || z > 1400 || math.IsNaN(z) {
+		return distuv.ChiSquared{K: float64(k)}.Survival(z)
+	}
+	half := z / 2
+	var q, a float64
+	j := k % 2
+	if j == 1 {
+		q = math.Erfc(math.Sqrt(half))
+		a = math.Sqrt(2*z/math.Pi) * math.Exp(-half)
+	} else {
+		j = 2
+		q = math.Exp(-half)
+		a = half * q
+	}
+	for ; j < k; j += 2 {
+		q += a
+		a *= half / (float64(j)/2 + 1)
+	}
+	return q
 }

@@ -3,6 +3,7 @@ package change
 import (
 	"cmp"
 	"fmt"
+	"math"
 	"slices"
 )
 
@@ -67,6 +68,23 @@ func (s *Sampler) Offer(index int64, d []float64) {
 	}
 	s.seen++
 	s.offer(mix64(uint64(index)^s.salt), index, d)
+}
+
+// Key returns the priority of the pixel at position index: the Sampler keeps
+// the pixels with the smallest keys.
+func (s *Sampler) Key(index int64) uint64 { return mix64(uint64(index) ^ s.salt) }
+
+// Bound returns a key that no pixel offered from now on can enter the sample
+// with unless its key is smaller: the largest key kept once the Sampler is
+// full, the largest uint64 before. Bound only decreases, so a caller that
+// gathers pixels for a Sampler (in other goroutines, to be merged later) may
+// skip pixels whose Key is not below a Bound read at any earlier time: they
+// could never be kept, and the sample stays the same.
+func (s *Sampler) Bound() uint64 {
+	if len(s.heap) < s.n {
+		return math.MaxUint64
+	}
+	return s.heap[0].key
 }
 
 func (s *Sampler) offer(key uint64, index int64, d []float64) {

@@ -117,3 +117,39 @@ func BenchmarkSamplerOffer(b *testing.B) {
 		i++
 	}
 }
+
+// TestSamplerBoundFilter: skipping offers whose Key is not below a Bound read
+// earlier leaves the sample unchanged (known by construction of a bottom-k
+// sample), and the bound only decreases.
+func TestSamplerBoundFilter(t *testing.T) {
+	const n, k, total = 50, 2, 5000
+	full := NewSampler(n, k, 7)
+	filtered := NewSampler(n, k, 7)
+	prev := filtered.Bound()
+	for start := int64(0); start < total; start += 250 {
+		bound := filtered.Bound()
+		if bound > prev {
+			t.Fatalf("bound grew from %d to %d", prev, bound)
+		}
+		prev = bound
+		part := NewSampler(n, k, 7)
+		for i := start; i < start+250; i++ {
+			d := []float64{float64(i), -float64(i)}
+			full.Offer(i, d)
+			if part.Key(i) < bound {
+				part.Offer(i, d)
+			}
+		}
+		filtered.Merge(part)
+	}
+	a, _ := full.Pixels()
+	b, _ := filtered.Pixels()
+	if len(a) != n || len(b) != n {
+		t.Fatalf("sizes %d and %d", len(a), len(b))
+	}
+	for i := range a {
+		if a[i] != b[i] {
+			t.Fatalf("filtered sample differs at %d: %d vs %d", i, a[i], b[i])
+		}
+	}
+}

@@ -1,0 +1,97 @@
+package main
+
+import (
+	"strings"
+	"testing"
+)
+
+func TestParseShard(t *testing.T) {
+	env := func(kv ...string) func(string) string {
+		m := map[string]string{}
+		for i := 0; i < len(kv); i += 2 {
+			m[kv[i]] = kv[i+1]
+		}
+		return func(k string) string { return m[k] }
+	}
+	slurm := func(id, lo, hi, n string) func(string) string {
+		return env("SLURM_ARRAY_TASK_ID", id, "SLURM_ARRAY_TASK_MIN", lo, "SLURM_ARRAY_TASK_MAX", hi, "SLURM_ARRAY_TASK_COUNT", n)
+	}
+	tests := []struct {
+		name  string
+		spec  string
+		count int
+		env   func(string) string
+		want  shard
+		err   string
+	}{
+		{"none", "", 0, env(), shard{0, 1}, ""},
+		{"explicit", "2/5", 0, env(), shard{2, 5}, ""},
+		{"explicit ignores env", "0/2", 0, slurm("3", "0", "3", "4"), shard{0, 2}, ""},
+		{"I >= N", "5/5", 0, env(), shard{}, "need 0 <= I < N"},
+		{"negative", "-1/3", 0, env(), shard{}, "need 0 <= I < N"},
+		{"malformed", "1-3", 0, env(), shard{}, "want I/N"},
+		{"zero shards", "0/0", 0, env(), shard{}, "need 0 <= I < N"},
+		// Slurm: I is the position of the task id within MIN..MAX.
+		{"slurm", "auto", 0, slurm("3", "0", "3", "4"), shard{3, 4}, ""},
+		{"slurm offset array", "auto", 0, slurm("12", "10", "13", "4"), shard{2, 4}, ""},
+		{"slurm stepped array", "auto", 0, slurm("4", "0", "6", "4"), shard{}, "steps or gaps"},
+		{"slurm garbage", "auto", 0, slurm("x", "0", "3", "4"), shard{}, "is not a number"},
+		// Kubernetes Indexed Jobs.
+		{"kubernetes", "auto", 4, env("JOB_COMPLETION_INDEX", "1"), shard{1, 4}, ""},
+		{"kubernetes without count", "auto", 0, env("JOB_COMPLETION_INDEX", "1"), shard{}, "--shard-count"},
+		{"kubernetes index too large", "auto", 4, env("JOB_COMPLETION_INDEX", "4"), shard{}, "outside 0-3"},
+		{"no scheduler", "auto", 0, env(), shard{}, "no job array in the environment"},
+	}
+	for _, tc := range tests {
+		got, err := parseShard(tc.spec, tc.count, tc.env)
+		if tc.err != "" {
+			if err == nil || !strings.Contains(err.Error(), tc.err) {
+				t.Errorf("%s: got %v, %v; want an error containing %q", tc.name, got, err, tc.err)
+			}
+			if _, ok := err.(usageError); !ok {
+				t.Errorf("%s: %v is not a usage error", tc.name, err)
+			}
+			continue
+		}
+		if err != nil || got != tc.want {
+			t.Errorf("%s: got %v, %v; want %v", tc.name, got, err, tc.want)
+		}
+	}
+}
+
+func TestParseMinArea(t *testing.T) {
+	tests := []struct {
+		in      string
+		m2, px  float64
+		wantErr bool
+	}{
+		{"0.5ha", 5000, 0, false},
+		{"5000m2", 5000, 0, false},
+		{"1.2km2", 1.2e6, 0, false},
+		{"4px", 0, 4, false},
+		{"0", 0, 0, false},
+		{" 2 HA ", 20000, 0, false},
+		{"4", 0, 0, true},
+		{"-1ha", 0, 0, true},
+		{"5 acres", 0, 0, true},
+		{"ha", 0, 0, true},
+	}
+	for _, tc := range tests {
+		got, err := parseMinArea(tc.in)
+		if (err != nil) != tc.wantErr || got.m2 != tc.m2 || got.px != tc.px {
+			t.Errorf("parseMinArea(%q) = %+v, %v", tc.in, got, err)
+		}
+	}
+}
+
+func FuzzParseMinArea(f *testing.F) {
+	for _, s := range []string{"0.5ha", "4px", "0", "1e3m2", "km2"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		m, err := parseMinArea(s)
+		if err == nil && (m.m2 < 0 || m.px < 0 || m.m2 != m.m2 || m.px != m.px) {
+			t.Fatalf("parseMinArea(%q) = %+v", s, m)
+		}
+	})
+}
