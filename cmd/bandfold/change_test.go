@@ -19,25 +19,9 @@ import (
 // nothing changed.
 func noisyCopy(t *testing.T, path string, seed uint64, offset float64) {
 	t.Helper()
-	if err := raster.Init(raster.Config{}); err != nil {
-		t.Fatal(err)
-	}
-	s, err := raster.Open([]string{landsat})
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := s.NewReader()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
+	s, buf, _ := readImage(t, landsat, tiles.Tile{})
 	tl := tiles.Tile{W: s.Width, H: s.Height}
 	p := s.Len()
-	buf := make([]float64, tl.Pixels()*p)
-	valid := make([]bool, tl.Pixels())
-	if _, err := r.Read(tl, buf, valid); err != nil {
-		t.Fatal(err)
-	}
 	rng := rand.New(rand.NewPCG(seed, 99))
 	for i := range tl.Pixels() {
 		shared := rng.NormFloat64()
@@ -254,22 +238,8 @@ func TestChangeAlignAndNoCRS(t *testing.T) {
 // grid g at dst, keeping nodata.
 func copyWindow(t *testing.T, src, dst string, g raster.Grid, x0, y0 int) {
 	t.Helper()
-	s, err := raster.Open([]string{src})
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := s.NewReader()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
-	tl := tiles.Tile{X: x0, Y: y0, W: g.Width, H: g.Height}
+	s, buf, valid := readImage(t, src, tiles.Tile{X: x0, Y: y0, W: g.Width, H: g.Height})
 	p := s.Len()
-	buf := make([]float64, tl.Pixels()*p)
-	valid := make([]bool, tl.Pixels())
-	if _, err := r.Read(tl, buf, valid); err != nil {
-		t.Fatal(err)
-	}
 	nd := *s.Bands[0].NoData
 	for i, ok := range valid {
 		if !ok {

@@ -17,40 +17,6 @@ import (
 	"bandfold/transform"
 )
 
-// readValid reads every pixel of an image and returns the valid ones as an
-// n x p matrix.
-func readValid(t *testing.T, path string) *mat.Dense {
-	t.Helper()
-	if err := raster.Init(raster.Config{}); err != nil {
-		t.Fatal(err)
-	}
-	s, err := raster.Open([]string{path})
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := s.NewReader()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
-	tl := tiles.Tile{W: s.Width, H: s.Height}
-	buf := make([]float64, tl.Pixels()*s.Len())
-	valid := make([]bool, tl.Pixels())
-	n, err := r.Read(tl, buf, valid)
-	if err != nil {
-		t.Fatal(err)
-	}
-	x := mat.NewDense(n, s.Len(), nil)
-	row := 0
-	for i, ok := range valid {
-		if ok {
-			x.SetRow(row, buf[i*s.Len():(i+1)*s.Len()])
-			row++
-		}
-	}
-	return x
-}
-
 // TestComponentsAreUncorrelatedWithEigenvalueVariances checks, on the real
 // Landsat 7 subset (Debian's r-cran-stars), the defining properties of
 // principal components (common practice): the component images are

@@ -120,14 +120,14 @@ func TestUsageAndRuntimeErrors(t *testing.T) {
 	}
 }
 
-// landsatPixels reads every valid pixel of the Landsat subset into an n x 6
-// matrix, for in-memory reference computations.
-func landsatPixels(t *testing.T) *mat.Dense {
+// readImage reads window tl of every band of the raster at path (the whole
+// image when tl has no size), pixel-major, with the validity flags.
+func readImage(t *testing.T, path string, tl tiles.Tile) (*raster.Stack, []float64, []bool) {
 	t.Helper()
 	if err := raster.Init(raster.Config{}); err != nil {
 		t.Fatal(err)
 	}
-	s, err := raster.Open([]string{landsat})
+	s, err := raster.Open([]string{path})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -136,22 +136,30 @@ func landsatPixels(t *testing.T) *mat.Dense {
 		t.Fatal(err)
 	}
 	defer r.Close()
-	tl := tiles.Tile{W: s.Width, H: s.Height}
+	if tl.W == 0 {
+		tl = tiles.Tile{W: s.Width, H: s.Height}
+	}
 	buf := make([]float64, tl.Pixels()*s.Len())
 	valid := make([]bool, tl.Pixels())
-	n, err := r.Read(tl, buf, valid)
-	if err != nil {
+	if _, err := r.Read(tl, buf, valid); err != nil {
 		t.Fatal(err)
 	}
-	x := mat.NewDense(n, s.Len(), nil)
-	row := 0
+	return s, buf, valid
+}
+
+// readValid returns the valid pixels of the raster at path as an n x p
+// matrix, for in-memory reference computations.
+func readValid(t *testing.T, path string) *mat.Dense {
+	t.Helper()
+	s, buf, valid := readImage(t, path, tiles.Tile{})
+	p := s.Len()
+	var rows []float64
 	for i, ok := range valid {
 		if ok {
-			x.SetRow(row, buf[i*s.Len():(i+1)*s.Len()])
-			row++
+			rows = append(rows, buf[i*p:(i+1)*p]...)
 		}
 	}
-	return x
+	return mat.NewDense(len(rows)/p, p, rows)
 }
 
 // TestLearnMatchesInMemoryReference checks the streaming basis against
@@ -160,7 +168,7 @@ func landsatPixels(t *testing.T) *mat.Dense {
 // several tile sizes and worker counts.
 func TestLearnMatchesInMemoryReference(t *testing.T) {
 	needLandsat(t)
-	x := landsatPixels(t)
+	x := readValid(t, landsat)
 	var cov mat.SymDense
 	stat.CovarianceMatrix(&cov, x, nil)
 	var pc stat.PC
