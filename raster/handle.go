@@ -20,11 +20,6 @@ func bandHandle(b godal.Band) C.GDALRasterBandH {
 	return *(*C.GDALRasterBandH)(unsafe.Pointer(&b))
 }
 
-// datasetHandle does the same for a dataset.
-func datasetHandle(ds *godal.Dataset) C.GDALDatasetH {
-	return *(*C.GDALDatasetH)(unsafe.Pointer(ds))
-}
-
 var _ [unsafe.Sizeof(godal.Band{}) - unsafe.Sizeof(uintptr(0))]struct{}
 var _ [unsafe.Sizeof(uintptr(0)) - unsafe.Sizeof(godal.Band{})]struct{}
 

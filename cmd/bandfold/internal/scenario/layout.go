@@ -177,14 +177,13 @@ func (ly *layout) curveCols(f func(u float64) float64, x0, w int) curve {
 type win struct {
 	x0, y0, w, h int
 
-	elev, moist, mix, tex, outcrop                 []float32
-	lake, clearing, burn, town, village, quarry    []float32 // nil when missed
-	burnSev, burnIsland                            []float32 // with burn
-	river, road                                    curve
-	riverHW                                        []float64 // per column
-	streamX                                        []float64 // per row
-	clearBias, burnBias                            bool
-	streamTop, streamHW, wetWidth, roadHW, townRow float64
+	elev, moist, mix, tex, outcrop              []float32
+	lake, clearing, burn, town, village, quarry []float32 // nil when missed
+	burnSev, burnIsland                         []float32 // with burn
+	river, road                                 curve
+	riverHW                                     []float64 // per column
+	streamX                                     []float64 // per row
+	streamTop, streamHW, wetWidth, roadHW       float64
 }
 
 func fillNew(f field, x0, y0, w, h int) []float32 {
