@@ -133,12 +133,7 @@ func TestChangeBadInputs(t *testing.T) {
 	five := filepath.Join(dir, "five.tif")
 	mustRun(t, "demo", "synth", "--bands", "5", "--width", "40", "--height", "30", "--out", five, "--quiet")
 	out := filepath.Join(dir, "out")
-	tests := []struct {
-		name string
-		args []string
-		code int
-		want string
-	}{
+	tests := []badInput{
 		{"band counts", []string{"change", small, five, "--out", out}, 1, "both dates need the same bands"},
 		{"grids", []string{"change", landsat, small, "--out", out}, 1, "pass --align"},
 		{"threshold rule", []string{"change", landsat, landsat, "--out", out, "--threshold", "magic"}, 2, "magic"},
@@ -148,15 +143,7 @@ func TestChangeBadInputs(t *testing.T) {
 		{"preview bands", []string{"change", landsat, landsat, "--out", out, "--preview-bands", "1,2,9"}, 2, "--preview-bands"},
 		{"out parent", []string{"change", landsat, landsat, "--out", filepath.Join(dir, "no", "out")}, 1, "does not exist"},
 	}
-	for _, tc := range tests {
-		code, _, errs := bandfold(t, tc.args...)
-		if code != tc.code || !strings.Contains(errs, tc.want) || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
-			t.Errorf("%s: exit %d, stderr %q; want exit %d and one line containing %q", tc.name, code, errs, tc.code, tc.want)
-		}
-		if _, err := os.Stat(out); err == nil {
-			t.Fatalf("%s: wrote %s", tc.name, out)
-		}
-	}
+	checkBadInputs(t, tests, out)
 	if left, _ := filepath.Glob(filepath.Join(dir, ".*")); len(left) > 0 {
 		t.Errorf("temporary files left: %v", left)
 	}

@@ -152,12 +152,7 @@ func TestFoldUnfoldBadInputs(t *testing.T) {
 	renamed := filepath.Join(dir, "renamed.tif")
 	writeNamed(t, renamed, other, []string{"a", "b", "c", "e", "d", "f"})
 	out := filepath.Join(dir, "out.tif")
-	tests := []struct {
-		name string
-		args []string
-		code int
-		want string
-	}{
+	tests := []badInput{
 		{"band count", []string{"fold", landsat, "--basis", basis5, "--out", out}, 1, "has 6 bands but the basis"},
 		{"band names", []string{"fold", renamed, "--basis", namedBasis, "--out", out}, 1, "--ignore-band-names"},
 		{"too many components", []string{"fold", landsat, "--basis", basis, "--out", out, "-k", "7"}, 2, "--components 7"},
@@ -168,15 +163,7 @@ func TestFoldUnfoldBadInputs(t *testing.T) {
 		{"compare grid", []string{"unfold", comps, "--basis", basis, "--out", out, "--compare", other}, 1, "not on the grid"},
 		{"unfold bad basis", []string{"unfold", comps, "--basis", broken, "--out", out}, 1, "broken.json"},
 	}
-	for _, tc := range tests {
-		code, _, errs := bandfold(t, tc.args...)
-		if code != tc.code || !strings.Contains(errs, tc.want) || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
-			t.Errorf("%s: exit %d, stderr %q; want exit %d and one line containing %q", tc.name, code, errs, tc.code, tc.want)
-		}
-		if _, err := os.Stat(out); err == nil {
-			t.Fatalf("%s: wrote %s", tc.name, out)
-		}
-	}
+	checkBadInputs(t, tests, out)
 }
 
 func TestBatchFoldSkipsCompleteOutputsAndGoesOnAfterFailures(t *testing.T) {

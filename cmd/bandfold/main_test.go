@@ -84,12 +84,7 @@ func TestUsageAndRuntimeErrors(t *testing.T) {
 	text := filepath.Join(dir, "notes.txt")
 	os.WriteFile(text, []byte("not a raster"), 0o644)
 	out := filepath.Join(dir, "b.json")
-	tests := []struct {
-		name string
-		args []string
-		code int
-		want string
-	}{
+	tests := []badInput{
 		{"no image", []string{"learn", "--out", out}, 2, "requires at least 1 arg"},
 		{"no output", []string{"learn", landsat}, 2, "[out partial]"},
 		{"unknown flag", []string{"learn", landsat, "--out", out, "--frobnicate"}, 2, "unknown flag"},
@@ -109,10 +104,29 @@ func TestUsageAndRuntimeErrors(t *testing.T) {
 		{"bad workers", []string{"learn", landsat, "--out", out, "--workers", "0"}, 2, "--workers 0"},
 		{"bad basis", []string{"inspect", text}, 1, "notes.txt"},
 	}
+	checkBadInputs(t, tests, out)
+}
+
+// badInput is a command line that must fail: with exit code code and one
+// line on stderr containing want.
+type badInput struct {
+	name string
+	args []string
+	code int
+	want string
+}
+
+// checkBadInputs runs each bad command line and checks its exit code, its
+// one-line message and, when out is set, that nothing was written there.
+func checkBadInputs(t *testing.T, tests []badInput, out string) {
+	t.Helper()
 	for _, tc := range tests {
 		code, _, errs := bandfold(t, tc.args...)
 		if code != tc.code || !strings.Contains(errs, tc.want) || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
 			t.Errorf("%s: exit %d, stderr %q; want exit %d and one line containing %q", tc.name, code, errs, tc.code, tc.want)
+		}
+		if out == "" {
+			continue
 		}
 		if _, err := os.Stat(out); err == nil {
 			t.Fatalf("%s: wrote %s", tc.name, out)
@@ -373,26 +387,16 @@ func TestMoreBadInputs(t *testing.T) {
 	mustRun(t, "learn", landsat, "--out", basis, "--quiet")
 	file := filepath.Join(dir, "plain")
 	os.WriteFile(file, []byte("x"), 0o644)
-	tests := []struct {
-		name string
-		args []string
-		code int
-		want string
-	}{
+	tests := []badInput{
 		{"pooled band counts", []string{"learn", landsat, five, "--out", filepath.Join(dir, "p.json")}, 1, "pooled scenes need the same bands"},
 		{"plots folder", []string{"inspect", basis, "--plots", filepath.Join(file, "plots")}, 1, "cannot be created"},
 		{"few pixels", []string{"learn", five, "--stride", "20", "--out", filepath.Join(dir, "f.json")}, 1, "need at least bands + 1"},
 		{"shard auto without scheduler", []string{"learn", landsat, "--partial", filepath.Join(dir, "x.json"), "--shard", "auto"}, 2, "no job array"},
 		{"batch into unwritable folder", []string{"fold", landsat, "--basis", basis, "--out-dir", file}, 1, "does not exist"},
 	}
-	for _, tc := range tests {
-		t.Setenv("SLURM_ARRAY_TASK_ID", "")
-		t.Setenv("JOB_COMPLETION_INDEX", "")
-		code, _, errs := bandfold(t, tc.args...)
-		if code != tc.code || !strings.Contains(errs, tc.want) || strings.Count(strings.TrimSpace(errs), "\n") != 0 {
-			t.Errorf("%s: exit %d, stderr %q; want exit %d and one line containing %q", tc.name, code, errs, tc.code, tc.want)
-		}
-	}
+	t.Setenv("SLURM_ARRAY_TASK_ID", "")
+	t.Setenv("JOB_COMPLETION_INDEX", "")
+	checkBadInputs(t, tests, "")
 }
 
 // TestVirtualPathInput reads the Landsat subset through GDAL's /vsizip/
