@@ -111,6 +111,15 @@ func TestChangeOnTheDemoScenario(t *testing.T) {
 		t.Error("the summary lacks the caution")
 	}
 	t.Logf("recall %.4f precision %.4f false alarms %.5f", r.Recall, r.Precision, r.FalseAlarmRate)
+
+	// The same numbers with one worker: tiles are merged in order and the
+	// sample is chosen by pixel position, not by arrival.
+	out = mustRun(t, "change", f.before, f.after, "--out", filepath.Join(dir, "chg1"), "--reference", f.truth, "--json", "--quiet", "--workers", "1")
+	var one changeSummary
+	json.Unmarshal([]byte(out), &one)
+	if one.ChangedPixels != s.ChangedPixels || one.Threshold != s.Threshold || one.Location[0] != s.Location[0] || one.Covariance[0][0] != s.Covariance[0][0] {
+		t.Errorf("1 worker differs from 2: %+v vs %+v", one.Threshold, s.Threshold)
+	}
 }
 
 // mustRunFn runs f with globals set up as a command would have them.
