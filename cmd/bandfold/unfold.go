@@ -300,19 +300,13 @@ func compareReport(g *globals, o *unfoldOptions, sum *unfoldSummary, loss, lossW
 	sum.LossReport = &r
 	rw := lossW.Report().RMSE
 	sum.RMSEWritten = &rw
-	deflate, err := raster.DeflateSize(splitStack(o.compare)[0], filepath.Dir(o.out))
-	if err != nil {
-		return err
-	}
-	if len(splitStack(o.compare)) > 1 {
-		deflate = 0
-		for _, p := range splitStack(o.compare) {
-			n, err := raster.DeflateSize(p, filepath.Dir(o.out))
-			if err != nil {
-				return err
-			}
-			deflate += n
+	var deflate int64
+	for _, p := range splitStack(o.compare) {
+		n, err := raster.DeflateSize(p, filepath.Dir(o.out))
+		if err != nil {
+			return err
 		}
+		deflate += n
 	}
 	sum.OriginalDeflateBytes = deflate
 	sum.ComponentsBytes = fileSize(components)
