@@ -305,7 +305,7 @@ func runChange(ctx context.Context, g *globals, o *changeOptions, beforeArg, aft
 		if ref, err = raster.OpenReference(o.reference, before.Grid); err != nil {
 			return err
 		}
-		ref.Close() // opened per worker below; this checks it early
+		defer ref.Close()
 	}
 	dir, err := newOutDir(o.out, o.overwrite)
 	if err != nil {
@@ -402,7 +402,7 @@ func runChange(ctx context.Context, g *globals, o *changeOptions, beforeArg, aft
 		}
 		sum.Covariance = append(sum.Covariance, row)
 	}
-	if err := writeChangeMap(ctx, g, o, dir, mask, before, areas, sum); err != nil {
+	if err := writeChangeMap(ctx, o, dir, mask, before, areas, ref, sum); err != nil {
 		return err
 	}
 	outputs = append([]string{"change.tif"}, outputs...)
@@ -790,8 +790,8 @@ var changeColors = func() [][4]int16 {
 }()
 
 // writeChangeMap writes change.tif from the sieved mask and counts the
-// mapped change, its ground area and, with --reference, the agreement.
-func writeChangeMap(ctx context.Context, g *globals, o *changeOptions, dir *outDir, mask *raster.ChangeMask, before *raster.Stack, areas *raster.CellAreas, sum *changeSummary) error {
+// mapped change, its ground area and, with a reference, the agreement.
+func writeChangeMap(ctx context.Context, o *changeOptions, dir *outDir, mask *raster.ChangeMask, before *raster.Stack, areas *raster.CellAreas, ref *raster.Reference, sum *changeSummary) error {
 	nd := 255.0
 	out, err := raster.Create(dir.path("change.tif"), raster.Spec{Grid: before.Grid, Bands: 1, DataType: "Byte", NoData: &nd,
 		ColorTable: changeColors, Descriptions: []string{"change (1), no change (0), nodata (255)"},
@@ -800,13 +800,8 @@ func writeChangeMap(ctx context.Context, g *globals, o *changeOptions, dir *outD
 		return err
 	}
 	defer out.Abort()
-	var ref *raster.Reference
 	var acc *accuracy
-	if o.reference != "" {
-		if ref, err = raster.OpenReference(o.reference, before.Grid); err != nil {
-			return err
-		}
-		defer ref.Close()
+	if ref != nil {
 		acc = &accuracy{File: o.reference}
 	}
 	area := 0.0
