@@ -34,7 +34,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"os"
 	"sync"
 	"sync/atomic"
 	"unsafe"
@@ -285,7 +284,7 @@ func (m *ChangeMask) Patches(path, magnitude string, overwrite bool) (PatchSumma
 	if err != nil {
 		return sum, err
 	}
-	defer out.abort()
+	defer out.discard()
 	zs := patchStats{m: m, mag: mag.Bands()[0]}
 	zs.nodata, zs.hasND = zs.mag.NoData()
 	src := polys.Layers()[0]
@@ -341,10 +340,8 @@ func (m *ChangeMask) polygonize() (*godal.Dataset, error) {
 // patchFile is a GeoPackage of patches being written under a temporary
 // name.
 type patchFile struct {
-	path, tmp string
-	ds        *godal.Dataset
-	layer     godal.Layer
-	done      bool
+	pending
+	layer godal.Layer
 }
 
 var patchFields = []struct {
@@ -355,7 +352,7 @@ var patchFields = []struct {
 }
 
 func newPatchFile(path, crs string) (*patchFile, error) {
-	p := &patchFile{path: path, tmp: TempPath(path, ".gpkg")}
+	p := &patchFile{pending: pending{path: path, tmp: TempPath(path, ".gpkg"), sidecars: []string{"-journal", "-wal", "-shm"}}}
 	p.removeTemp()
 	var err error
 	if p.ds, err = godal.CreateVector(godal.GeoPackage, p.tmp, errLogger); err != nil {
@@ -365,7 +362,7 @@ func newPatchFile(path, crs string) (*patchFile, error) {
 	var sr *godal.SpatialRef
 	if crs != "" {
 		if sr, err = godal.NewSpatialRefFromWKT(crs, errLogger); err != nil {
-			p.abort()
+			p.discard()
 			return nil, fmt.Errorf("create %s: read CRS: %w", path, err)
 		}
 		defer sr.Close()
@@ -379,7 +376,7 @@ func newPatchFile(path, crs string) (*patchFile, error) {
 		err = p.ds.StartTransaction(errLogger)
 	}
 	if err != nil {
-		p.abort()
+		p.discard()
 		return nil, fmt.Errorf("create %s: %w", path, err)
 	}
 	return p, nil
@@ -443,33 +440,13 @@ func (p *patchFile) commit() error {
 	}
 	p.ds = nil
 	if err == nil {
-		err = os.Rename(p.tmp, p.path)
+		err = p.publish()
 	}
 	if err != nil {
-		p.abort()
+		p.discard()
 		return fmt.Errorf("write %s: %w", p.path, err)
 	}
-	p.done = true
 	return nil
-}
-
-// abort discards the GeoPackage; it does nothing after commit.
-func (p *patchFile) abort() {
-	if p.done {
-		return
-	}
-	if p.ds != nil {
-		p.ds.Close(errLogger)
-		p.ds = nil
-	}
-	p.removeTemp()
-	p.done = true
-}
-
-func (p *patchFile) removeTemp() {
-	for _, suffix := range []string{"", "-journal", "-wal", "-shm"} {
-		os.Remove(p.tmp + suffix)
-	}
 }
 
 // patchStats reads magnitude and top components under patches.

@@ -62,10 +62,49 @@ type Spec struct {
 // folder. Commit renames it into place; Abort removes it. Write from one
 // goroutine only.
 type Output struct {
+	pending
+	spec Spec
+}
+
+// pending is a file written under a temporary name beside its final path:
+// publish renames it into place, discard closes its dataset and removes it
+// with the sidecar files GDAL may have made (names tmp+suffix). After either,
+// both do nothing.
+type pending struct {
 	path, tmp string
-	spec      Spec
+	sidecars  []string
 	ds        *godal.Dataset
 	done      bool
+}
+
+// removeTemp removes the temporary file and its sidecars.
+func (p *pending) removeTemp() {
+	os.Remove(p.tmp)
+	for _, suffix := range p.sidecars {
+		os.Remove(p.tmp + suffix)
+	}
+}
+
+// publish renames the closed temporary file into place.
+func (p *pending) publish() error {
+	if err := os.Rename(p.tmp, p.path); err != nil {
+		return err
+	}
+	p.done = true
+	return nil
+}
+
+// discard closes the dataset, if open, and removes the temporary files.
+func (p *pending) discard() {
+	if p.done {
+		return
+	}
+	if p.ds != nil {
+		p.ds.Close(errLogger)
+		p.ds = nil
+	}
+	p.removeTemp()
+	p.done = true
 }
 
 // CheckTarget refuses output paths that cannot be written atomically: GDAL
@@ -159,7 +198,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
 	}
-	o := &Output{path: path, tmp: TempPath(path, ".tif"), spec: spec}
+	o := &Output{pending: pending{path: path, tmp: TempPath(path, ".tif"), sidecars: []string{".aux.xml"}}, spec: spec}
 	opts := creationOptions(dt, spec.CreationOptions)
 	if spec.Format == COG {
 		// The COG driver copies a finished dataset; write a plain tiled
@@ -168,7 +207,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	}
 	ds, err := godal.Create(godal.GTiff, o.tmp, spec.Bands, dt, spec.Width, spec.Height, godal.CreationOption(opts...), errLogger)
 	if err != nil {
-		os.Remove(o.tmp)
+		o.removeTemp()
 		return nil, fmt.Errorf("create %s: %w", path, err)
 	}
 	o.ds = ds
@@ -271,11 +310,10 @@ func (o *Output) Commit() error {
 			return err
 		}
 	}
-	if err := os.Rename(o.tmp, o.path); err != nil {
+	if err := o.publish(); err != nil {
 		o.Abort()
 		return fmt.Errorf("write %s: %w", o.path, err)
 	}
-	o.done = true
 	return nil
 }
 
@@ -310,18 +348,7 @@ func (o *Output) toCOG() error {
 // Abort discards the output: the dataset is closed and the temporary file
 // removed. It is safe to call after Commit (it then does nothing) and more
 // than once.
-func (o *Output) Abort() {
-	if o.done {
-		return
-	}
-	if o.ds != nil {
-		o.ds.Close(errLogger)
-		o.ds = nil
-	}
-	os.Remove(o.tmp)
-	os.Remove(o.tmp + ".aux.xml")
-	o.done = true
-}
+func (o *Output) Abort() { o.discard() }
 
 // Path returns the final path of the output.
 func (o *Output) Path() string { return o.path }
