@@ -39,6 +39,8 @@ import (
 	"unsafe"
 
 	"github.com/airbusgeo/godal"
+
+	"bandfold/raster/output"
 )
 
 // Values of a change map.
@@ -234,8 +236,9 @@ type PatchSummary struct {
 
 // Patches polygonizes the change patches (value 1) of the map, sieved if
 // Sieve ran, with GDAL's polygonize, 8-connected, and writes a GeoPackage at
-// path (written to a temporary name beside it and renamed on success; it
-// refuses an existing path unless overwrite), layer "changes", polygons in
+// path (an output.File: written under a temporary name beside it and
+// renamed on success; it refuses an existing path unless overwrite, also
+// one that appears while it writes), layer "changes", polygons in
 // the grid's CRS, fields:
 //
 //   - area_m2 (Real): ground area, PolygonArea's local equal-area method;
@@ -256,7 +259,7 @@ type PatchSummary struct {
 // the top band is read.
 func (m *ChangeMask) Patches(path, magnitude string, overwrite bool) (PatchSummary, error) {
 	sum := PatchSummary{AreaM2: math.NaN()}
-	if err := CheckTarget(path, overwrite); err != nil {
+	if err := output.Check(path, overwrite); err != nil {
 		return sum, err
 	}
 	mag, err := openDataset(magnitude)
@@ -280,7 +283,7 @@ func (m *ChangeMask) Patches(path, magnitude string, overwrite bool) (PatchSumma
 		defer ea.Close()
 		sum.AreaM2 = 0
 	}
-	out, err := newPatchFile(path, m.grid.Projection)
+	out, err := newPatchFile(path, m.grid.Projection, overwrite)
 	if err != nil {
 		return sum, err
 	}
@@ -335,118 +338,6 @@ func (m *ChangeMask) polygonize() (*godal.Dataset, error) {
 		return nil, fmt.Errorf("polygonize: %w", err)
 	}
 	return vec, nil
-}
-
-// patchFile is a GeoPackage of patches being written under a temporary
-// name.
-type patchFile struct {
-	pending
-	layer godal.Layer
-}
-
-var patchFields = []struct {
-	name string
-	typ  godal.FieldType
-}{
-	{"area_m2", godal.FTReal}, {"area_ha", godal.FTReal}, {"z_mean", godal.FTReal}, {"z_max", godal.FTReal}, {"top_component", godal.FTInt},
-}
-
-func newPatchFile(path, crs string) (*patchFile, error) {
-	p := &patchFile{pending: pending{path: path, tmp: TempPath(path, ".gpkg"), sidecars: []string{"-journal", "-wal", "-shm"}}}
-	p.removeTemp()
-	var err error
-	if p.ds, err = godal.CreateVector(godal.GeoPackage, p.tmp, errLogger); err != nil {
-		p.removeTemp()
-		return nil, fmt.Errorf("create %s: %w", path, err)
-	}
-	var sr *godal.SpatialRef
-	if crs != "" {
-		if sr, err = godal.NewSpatialRefFromWKT(crs, errLogger); err != nil {
-			p.discard()
-			return nil, fmt.Errorf("create %s: read CRS: %w", path, err)
-		}
-		defer sr.Close()
-	}
-	var opts []godal.CreateLayerOption
-	for _, f := range patchFields {
-		opts = append(opts, godal.NewFieldDefinition(f.name, f.typ))
-	}
-	opts = append(opts, errLogger)
-	if p.layer, err = p.ds.CreateLayer("changes", sr, godal.GTPolygon, opts...); err == nil {
-		err = p.ds.StartTransaction(errLogger)
-	}
-	if err != nil {
-		p.discard()
-		return nil, fmt.Errorf("create %s: %w", path, err)
-	}
-	return p, nil
-}
-
-// add writes one patch and returns its ground area (0 without ea).
-func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (float64, error) {
-	z, err := zs.of(geom)
-	if err != nil {
-		return 0, err
-	}
-	var area float64
-	if ea != nil {
-		wkb, err := geom.WKB(errLogger)
-		if err != nil {
-			return 0, err
-		}
-		g, err := godal.NewGeometryFromWKB(wkb, nil, errLogger)
-		if err != nil {
-			return 0, err
-		}
-		area, err = ea.area(g, true)
-		g.Close()
-		if err != nil {
-			return 0, fmt.Errorf("patch area: %w", err)
-		}
-	}
-	f, err := p.layer.NewFeature(geom, errLogger)
-	if err != nil {
-		return 0, err
-	}
-	defer f.Close()
-	fields := f.Fields()
-	set := func(name string, v any) {
-		if err == nil {
-			err = f.SetFieldValue(fields[name], v, errLogger)
-		}
-	}
-	if ea != nil {
-		set("area_m2", area)
-		set("area_ha", area/1e4)
-	}
-	if z.n > 0 {
-		set("z_mean", z.sum/float64(z.n))
-		set("z_max", z.max)
-	}
-	if z.top > 0 {
-		set("top_component", z.top)
-	}
-	if err == nil {
-		err = p.layer.UpdateFeature(f, errLogger)
-	}
-	return area, err
-}
-
-// commit closes the GeoPackage and renames it into place.
-func (p *patchFile) commit() error {
-	err := p.ds.CommitTransaction(errLogger)
-	if cerr := p.ds.Close(errLogger); err == nil {
-		err = cerr
-	}
-	p.ds = nil
-	if err == nil {
-		err = p.publish()
-	}
-	if err != nil {
-		p.discard()
-		return fmt.Errorf("write %s: %w", p.path, err)
-	}
-	return nil
 }
 
 // patchStats reads magnitude and top components under patches.

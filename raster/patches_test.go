@@ -11,6 +11,8 @@ import (
 	"slices"
 	"strings"
 	"testing"
+
+	"bandfold/raster/output"
 )
 
 // patchScene is a change map whose truth is known by construction, on a
@@ -331,7 +333,7 @@ func TestPatches(t *testing.T) {
 	onlyFiles(t, dir, "changes.gpkg", "magnitude.tif")
 
 	// An existing output is refused without overwrite, replaced with it.
-	if _, err := m.Patches(out, mag, false); !errors.Is(err, ErrExists) {
+	if _, err := m.Patches(out, mag, false); !errors.Is(err, output.ErrExists) {
 		t.Errorf("existing output: got %v, want ErrExists", err)
 	}
 	if _, err := m.Patches(out, mag, true); err != nil {

@@ -1,16 +1,44 @@
 package raster
 
+/*
+#include <stdlib.h>
+#include <cpl_conv.h>
+#include <cpl_error.h>
+#include <cpl_string.h>
+#include <gdal.h>
+
+// bandfoldValidateOption checks one KEY=VALUE creation option against the
+// driver's list with GDAL's own validation, errors kept off stderr. It
+// returns 0 when GDAL refuses it, with GDAL's message in *msg (free it with
+// VSIFree). An unknown driver, or GDAL_VALIDATE_CREATION_OPTIONS=NO, lets
+// every option through.
+static int bandfoldValidateOption(const char *driver, const char *kv, char **msg) {
+	GDALDriverH drv = GDALGetDriverByName(driver);
+	if (drv == NULL || !CPLTestBool(CPLGetConfigOption("GDAL_VALIDATE_CREATION_OPTIONS", "YES"))) {
+		return 1;
+	}
+	char *opts[2] = {(char *)kv, NULL};
+	CPLPushErrorHandler(CPLQuietErrorHandler);
+	CPLErrorReset();
+	int ok = GDALValidateCreationOptions(drv, opts);
+	if (!ok) {
+		*msg = CPLStrdup(CPLGetLastErrorMsg());
+	}
+	CPLPopErrorHandler();
+	return ok;
+}
+*/
+import "C"
+
 import (
-	"errors"
 	"fmt"
 	"os"
-	"path/filepath"
-	"strconv"
 	"strings"
-	"syscall"
+	"unsafe"
 
 	"github.com/airbusgeo/godal"
 
+	"bandfold/raster/output"
 	"bandfold/tiles"
 )
 
@@ -31,9 +59,6 @@ func ParseFormat(s string) (Format, error) {
 	}
 	return "", fmt.Errorf("format %q: want gtiff or cog: %w", s, ErrBadSpec)
 }
-
-// ErrExists is returned when an output exists and overwriting was not asked.
-var ErrExists = errors.New("exists (use --overwrite to replace it)")
 
 // Spec describes a raster output.
 type Spec struct {
@@ -58,85 +83,15 @@ type Spec struct {
 	Overwrite       bool
 }
 
-// Output is a raster being written under a temporary name in its target
-// folder. Commit renames it into place; Abort removes it. Write from one
-// goroutine only.
+// Output is a raster being written under a temporary name beside its
+// target (an output.File). Finish completes the file under that name,
+// Commit moves it into place, Abort removes it. Write from one goroutine
+// only.
 type Output struct {
-	pending
-	spec Spec
-}
-
-// pending is a file written under a temporary name beside its final path:
-// publish renames it into place, discard closes its dataset and removes it
-// with the sidecar files GDAL may have made (names tmp+suffix). After either,
-// both do nothing.
-type pending struct {
-	path, tmp string
-	sidecars  []string
-	ds        *godal.Dataset
-	done      bool
-}
-
-// removeTemp removes the temporary file and its sidecars.
-func (p *pending) removeTemp() {
-	os.Remove(p.tmp)
-	for _, suffix := range p.sidecars {
-		os.Remove(p.tmp + suffix)
-	}
-}
-
-// publish renames the closed temporary file into place.
-func (p *pending) publish() error {
-	if err := os.Rename(p.tmp, p.path); err != nil {
-		return err
-	}
-	p.done = true
-	return nil
-}
-
-// discard closes the dataset, if open, and removes the temporary files.
-func (p *pending) discard() {
-	if p.done {
-		return
-	}
-	if p.ds != nil {
-		p.ds.Close(errLogger)
-		p.ds = nil
-	}
-	p.removeTemp()
-	p.done = true
-}
-
-// CheckTarget refuses output paths that cannot be written atomically: GDAL
-// virtual paths, a missing folder, an existing file without overwrite.
-func CheckTarget(path string, overwrite bool) error {
-	if IsVirtual(path) {
-		return fmt.Errorf("output %s: a GDAL virtual path cannot be written atomically; write to a local path and copy it", path)
-	}
-	dir := filepath.Dir(path)
-	fi, err := os.Stat(dir)
-	if err != nil {
-		return fmt.Errorf("output %s: folder %s does not exist", path, dir)
-	}
-	if !fi.IsDir() {
-		return fmt.Errorf("output %s: %s is not a folder", path, dir)
-	}
-	if fi, err := os.Stat(path); err == nil {
-		if fi.IsDir() {
-			return fmt.Errorf("output %s: is a folder", path)
-		}
-		if !overwrite {
-			return fmt.Errorf("output %s %w", path, ErrExists)
-		}
-	}
-	return nil
-}
-
-// TempPath returns a hidden temporary name beside path, unique to this
-// process.
-func TempPath(path, suffix string) string {
-	dir, base := filepath.Split(path)
-	return filepath.Join(dir, fmt.Sprintf(".%s.%d.tmp%s", base, os.Getpid(), suffix))
+	file     *output.File
+	ds       *godal.Dataset
+	spec     Spec
+	finished bool
 }
 
 func dataType(name string) (godal.DataType, error) {
@@ -164,6 +119,11 @@ func creationOptions(dt godal.DataType, user []string) []string {
 	return mergeOptions(opts, user)
 }
 
+// cogOptions merges bandfold's COG defaults with the user's.
+func cogOptions(user []string) []string {
+	return mergeOptions([]string{"COMPRESS=DEFLATE", "BIGTIFF=IF_SAFER"}, user)
+}
+
 // mergeOptions returns base with each KEY=VALUE of over replacing the same key.
 func mergeOptions(base, over []string) []string {
 	out := append([]string(nil), base...)
@@ -182,13 +142,12 @@ func mergeOptions(base, over []string) []string {
 	return out
 }
 
-// Create starts writing a raster to path: it checks the target, then creates
-// a GeoTIFF under a temporary name in the same folder with the grid, nodata,
-// band descriptions, scale/offset and metadata of spec.
+// Create starts writing a raster to path: it checks the creation options
+// and the target, then creates a GeoTIFF under a temporary name beside path
+// (making missing parent folders) with the grid, nodata, band descriptions,
+// scale/offset and metadata of spec. A creation option that the driver does
+// not know, or a value it does not accept, is an error: GDAL would only warn.
 func Create(path string, spec Spec) (*Output, error) {
-	if err := CheckTarget(path, spec.Overwrite); err != nil {
-		return nil, err
-	}
 	for _, kv := range spec.CreationOptions {
 		if !strings.Contains(kv, "=") {
 			return nil, fmt.Errorf("output %s: creation option %q is not KEY=VALUE", path, kv)
@@ -198,16 +157,26 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
 	}
-	o := &Output{pending: pending{path: path, tmp: TempPath(path, ".tif"), sidecars: []string{".aux.xml"}}, spec: spec}
 	opts := creationOptions(dt, spec.CreationOptions)
+	driver, user := "GTiff", opts
 	if spec.Format == COG {
 		// The COG driver copies a finished dataset; write a plain tiled
 		// GeoTIFF first without the user's options, which are COG options.
-		opts = creationOptions(dt, nil)
+		opts, driver, user = creationOptions(dt, nil), "COG", cogOptions(spec.CreationOptions)
 	}
-	ds, err := godal.Create(godal.GTiff, o.tmp, spec.Bands, dt, spec.Width, spec.Height, godal.CreationOption(opts...), errLogger)
+	if err := validateOptions(driver, user); err != nil {
+		return nil, fmt.Errorf("output %s: %w", path, err)
+	}
+	f, err := output.Create(path, spec.Overwrite, ".tif")
 	if err != nil {
-		o.removeTemp()
+		return nil, err
+	}
+	// ".cog.tif" is the COG copy that Finish makes of the temporary.
+	f.Sidecars(".aux.xml", ".cog.tif")
+	o := &Output{file: f, spec: spec}
+	ds, err := godal.Create(godal.GTiff, f.Temp(), spec.Bands, dt, spec.Width, spec.Height, godal.CreationOption(opts...), errLogger)
+	if err != nil {
+		f.Abort()
 		return nil, fmt.Errorf("create %s: %w", path, err)
 	}
 	o.ds = ds
@@ -216,6 +185,27 @@ func Create(path string, spec Spec) (*Output, error) {
 		return nil, fmt.Errorf("create %s: %w", path, err)
 	}
 	return o, nil
+}
+
+// validateOptions checks creation options against the named driver's list,
+// as GDAL does before creating a file, but as an error naming the option.
+// GDAL_VALIDATE_CREATION_OPTIONS=NO in the environment turns the check off,
+// as it does GDAL's.
+func validateOptions(driver string, opts []string) error {
+	cd := C.CString(driver)
+	defer C.free(unsafe.Pointer(cd))
+	for _, kv := range opts {
+		ckv := C.CString(kv)
+		var msg *C.char
+		ok := C.bandfoldValidateOption(cd, ckv, &msg)
+		C.free(unsafe.Pointer(ckv))
+		if ok == 0 {
+			text := strings.TrimSpace(C.GoString(msg))
+			C.VSIFree(unsafe.Pointer(msg))
+			return fmt.Errorf("creation option %s: %s", kv, firstLine(text))
+		}
+	}
+	return nil
 }
 
 func (o *Output) describe() error {
@@ -268,8 +258,8 @@ func (o *Output) Write(t tiles.Tile, src []float64) error {
 	if len(src) < n {
 		panic(fmt.Sprintf("raster: %d values to write for %v of %d bands", len(src), t, o.spec.Bands))
 	}
-	if err := o.ds.Write(t.X, t.Y, src[:n], t.W, t.H, errLogger); err != nil {
-		return fmt.Errorf("write %s at %v: %w", o.path, t, err)
+	if err := o.dataset().Write(t.X, t.Y, src[:n], t.W, t.H, errLogger); err != nil {
+		return fmt.Errorf("write %s at %v: %w", o.Path(), t, err)
 	}
 	return nil
 }
@@ -277,8 +267,8 @@ func (o *Output) Write(t tiles.Tile, src []float64) error {
 // WriteBand writes window t of one 0-based band from src (t.W x t.H values)
 // of any numeric slice type GDAL accepts.
 func (o *Output) WriteBand(band int, t tiles.Tile, src any) error {
-	if err := o.ds.Bands()[band].Write(t.X, t.Y, src, t.W, t.H, errLogger); err != nil {
-		return fmt.Errorf("write %s band %d at %v: %w", o.path, band+1, t, err)
+	if err := o.dataset().Bands()[band].Write(t.X, t.Y, src, t.W, t.H, errLogger); err != nil {
+		return fmt.Errorf("write %s band %d at %v: %w", o.Path(), band+1, t, err)
 	}
 	return nil
 }
@@ -286,23 +276,38 @@ func (o *Output) WriteBand(band int, t tiles.Tile, src any) error {
 // SetMetadata sets a dataset metadata item, for example a completion record
 // written just before Commit.
 func (o *Output) SetMetadata(key, value string) error {
-	if err := o.ds.SetMetadata(key, value, errLogger); err != nil {
-		return fmt.Errorf("write %s: %w", o.path, err)
+	if err := o.dataset().SetMetadata(key, value, errLogger); err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), err)
 	}
 	return nil
 }
 
-// Commit finishes the output: it closes the dataset (write errors surface
-// there), converts to COG when asked, and renames the file into place.
-func (o *Output) Commit() error {
-	if o.done {
+// dataset returns the open dataset; writing after Finish is a programming
+// error.
+func (o *Output) dataset() *godal.Dataset {
+	if o.ds == nil {
+		panic("raster: write to a finished or aborted output")
+	}
+	return o.ds
+}
+
+// Finish completes the file under its temporary name: it closes the dataset
+// (write errors surface there) and converts to COG when asked. After it the
+// file at Temp is whole and can be opened by path, for checks before
+// Commit. On failure the output is aborted. Finish after Finish does
+// nothing.
+func (o *Output) Finish() error {
+	if o.finished {
 		return nil
+	}
+	if o.ds == nil {
+		return fmt.Errorf("write %s: output was aborted", o.Path())
 	}
 	ds := o.ds
 	o.ds = nil
 	if err := ds.Close(errLogger); err != nil {
 		o.Abort()
-		return fmt.Errorf("write %s: %w", o.path, err)
+		return fmt.Errorf("write %s: %w", o.Path(), err)
 	}
 	if o.spec.Format == COG {
 		if err := o.toCOG(); err != nil {
@@ -310,48 +315,63 @@ func (o *Output) Commit() error {
 			return err
 		}
 	}
-	if err := o.publish(); err != nil {
-		o.Abort()
-		return fmt.Errorf("write %s: %w", o.path, err)
-	}
+	o.finished = true
 	return nil
 }
 
+// Commit finishes the output, if Finish was not called, and moves the file
+// into place (output.File.Commit: without Overwrite, a file that appeared
+// at the path meanwhile is never replaced). On failure the output is
+// aborted.
+func (o *Output) Commit() error {
+	if err := o.Finish(); err != nil {
+		return err
+	}
+	return o.file.Commit()
+}
+
 func (o *Output) toCOG() error {
-	src, err := godal.Open(o.tmp, errLogger)
+	tmp := o.file.Temp()
+	src, err := godal.Open(tmp, errLogger)
 	if err != nil {
-		return fmt.Errorf("write %s: %w", o.path, err)
+		return fmt.Errorf("write %s: %w", o.Path(), err)
 	}
 	defer src.Close(errLogger)
-	cog := TempPath(o.path, ".cog.tif")
-	opts := mergeOptions([]string{"COMPRESS=DEFLATE", "BIGTIFF=IF_SAFER"}, o.spec.CreationOptions)
+	cog := tmp + ".cog.tif"
 	var sw []string
-	for _, kv := range opts {
+	for _, kv := range cogOptions(o.spec.CreationOptions) {
 		sw = append(sw, "-co", kv)
 	}
 	out, err := src.Translate(cog, append([]string{"-of", "COG"}, sw...), errLogger)
 	if err != nil {
-		os.Remove(cog)
-		return fmt.Errorf("write %s as COG: %w", o.path, err)
+		return fmt.Errorf("write %s as COG: %w", o.Path(), err)
 	}
 	if err := out.Close(errLogger); err != nil {
-		os.Remove(cog)
-		return fmt.Errorf("write %s as COG: %w", o.path, err)
+		return fmt.Errorf("write %s as COG: %w", o.Path(), err)
 	}
-	if err := os.Rename(cog, o.tmp); err != nil {
-		os.Remove(cog)
-		return fmt.Errorf("write %s: %w", o.path, err)
+	if err := os.Rename(cog, tmp); err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), err)
 	}
 	return nil
 }
 
 // Abort discards the output: the dataset is closed and the temporary file
-// removed. It is safe to call after Commit (it then does nothing) and more
-// than once.
-func (o *Output) Abort() { o.discard() }
+// removed, with the parent folders Create made. It is safe to call after
+// Commit (it then does nothing) and more than once.
+func (o *Output) Abort() {
+	if o.ds != nil {
+		o.ds.Close(errLogger)
+		o.ds = nil
+	}
+	o.file.Abort()
+}
 
 // Path returns the final path of the output.
-func (o *Output) Path() string { return o.path }
+func (o *Output) Path() string { return o.file.Path() }
+
+// Temp returns the temporary path the output is written to; after Finish
+// the file there is complete.
+func (o *Output) Temp() string { return o.file.Temp() }
 
 // DeflateSize returns the size in bytes of a lossless copy of the raster at
 // path with DEFLATE compression and the predictor suited to its data type:
@@ -398,22 +418,4 @@ func ReadMetadata(path string) (map[string]string, error) {
 	}
 	defer ds.Close(errLogger)
 	return ds.Metadatas(errLogger), nil
-}
-
-// RemoveStale removes temporary files that an earlier, killed process left
-// beside path (".NAME.PID.tmp*" whose process is gone).
-func RemoveStale(path string) {
-	dir, base := filepath.Split(path)
-	matches, _ := filepath.Glob(filepath.Join(dir, "."+base+".*.tmp*"))
-	for _, m := range matches {
-		rest := strings.TrimPrefix(filepath.Base(m), "."+base+".")
-		pidText, _, _ := strings.Cut(rest, ".")
-		pid, err := strconv.Atoi(pidText)
-		if err != nil || pid == os.Getpid() {
-			continue
-		}
-		if syscall.Kill(pid, 0) == syscall.ESRCH {
-			os.Remove(m)
-		}
-	}
 }

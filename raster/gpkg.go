@@ -1,0 +1,132 @@
+package raster
+
+import (
+	"fmt"
+
+	"github.com/airbusgeo/godal"
+
+	"bandfold/raster/output"
+)
+
+// patchFile is a GeoPackage of patches being written under a temporary
+// name.
+type patchFile struct {
+	file  *output.File
+	ds    *godal.Dataset
+	layer godal.Layer
+}
+
+var patchFields = []struct {
+	name string
+	typ  godal.FieldType
+}{
+	{"area_m2", godal.FTReal}, {"area_ha", godal.FTReal}, {"z_mean", godal.FTReal}, {"z_max", godal.FTReal}, {"top_component", godal.FTInt},
+}
+
+func newPatchFile(path, crs string, overwrite bool) (*patchFile, error) {
+	f, err := output.Create(path, overwrite, ".gpkg")
+	if err != nil {
+		return nil, err
+	}
+	f.Sidecars("-journal", "-wal", "-shm")
+	p := &patchFile{file: f}
+	if p.ds, err = godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger); err != nil {
+		f.Abort()
+		return nil, fmt.Errorf("create %s: %w", path, err)
+	}
+	var sr *godal.SpatialRef
+	if crs != "" {
+		if sr, err = godal.NewSpatialRefFromWKT(crs, errLogger); err != nil {
+			p.discard()
+			return nil, fmt.Errorf("create %s: read CRS: %w", path, err)
+		}
+		defer sr.Close()
+	}
+	var opts []godal.CreateLayerOption
+	for _, f := range patchFields {
+		opts = append(opts, godal.NewFieldDefinition(f.name, f.typ))
+	}
+	opts = append(opts, errLogger)
+	if p.layer, err = p.ds.CreateLayer("changes", sr, godal.GTPolygon, opts...); err == nil {
+		err = p.ds.StartTransaction(errLogger)
+	}
+	if err != nil {
+		p.discard()
+		return nil, fmt.Errorf("create %s: %w", path, err)
+	}
+	return p, nil
+}
+
+// add writes one patch and returns its ground area (0 without ea).
+func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (float64, error) {
+	z, err := zs.of(geom)
+	if err != nil {
+		return 0, err
+	}
+	var area float64
+	if ea != nil {
+		wkb, err := geom.WKB(errLogger)
+		if err != nil {
+			return 0, err
+		}
+		g, err := godal.NewGeometryFromWKB(wkb, nil, errLogger)
+		if err != nil {
+			return 0, err
+		}
+		area, err = ea.area(g, true)
+		g.Close()
+		if err != nil {
+			return 0, fmt.Errorf("patch area: %w", err)
+		}
+	}
+	f, err := p.layer.NewFeature(geom, errLogger)
+	if err != nil {
+		return 0, err
+	}
+	defer f.Close()
+	fields := f.Fields()
+	set := func(name string, v any) {
+		if err == nil {
+			err = f.SetFieldValue(fields[name], v, errLogger)
+		}
+	}
+	if ea != nil {
+		set("area_m2", area)
+		set("area_ha", area/1e4)
+	}
+	if z.n > 0 {
+		set("z_mean", z.sum/float64(z.n))
+		set("z_max", z.max)
+	}
+	if z.top > 0 {
+		set("top_component", z.top)
+	}
+	if err == nil {
+		err = p.layer.UpdateFeature(f, errLogger)
+	}
+	return area, err
+}
+
+// commit closes the GeoPackage and renames it into place.
+func (p *patchFile) commit() error {
+	err := p.ds.CommitTransaction(errLogger)
+	if cerr := p.ds.Close(errLogger); err == nil {
+		err = cerr
+	}
+	p.ds = nil
+	if err != nil {
+		p.discard()
+		return fmt.Errorf("write %s: %w", p.file.Path(), err)
+	}
+	return p.file.Commit()
+}
+
+// discard closes the GeoPackage, if open, and removes it. It does nothing
+// after commit.
+func (p *patchFile) discard() {
+	if p.ds != nil {
+		p.ds.Close(errLogger)
+		p.ds = nil
+	}
+	p.file.Abort()
+}
