@@ -36,6 +36,12 @@ var alignSeq atomic.Uint64
 // refused. A source without a CRS cannot go onto a grid with one. The VRT
 // refers to the source by its absolute path.
 func AlignTo(path string, g Grid, resampling string) (vrt string, cleanup func(), err error) {
+	return alignTo(path, g, resampling, nil)
+}
+
+// alignTo is AlignTo with nodata values that override those of the source's
+// (0-based) bands.
+func alignTo(path string, g Grid, resampling string, overrides map[int]float64) (vrt string, cleanup func(), err error) {
 	te, err := northUpBounds(g)
 	if err != nil {
 		return "", nil, fmt.Errorf("align %s: %w", path, err)
@@ -60,7 +66,7 @@ func AlignTo(path string, g Grid, resampling string) (vrt string, cleanup func()
 	if g.Projection != "" {
 		sw = append(sw, "-t_srs", g.Projection)
 	}
-	sw = append(sw, nodataSwitches(src.Bands())...)
+	sw = append(sw, nodataSwitches(src.Bands(), overrides)...)
 
 	name := fmt.Sprintf("/vsimem/bandfold/align-%d-%d-%s.vrt", os.Getpid(), alignSeq.Add(1), Stem(path))
 	cleanup = func() {
@@ -86,17 +92,25 @@ func AlignTo(path string, g Grid, resampling string) (vrt string, cleanup func()
 }
 
 // nodataSwitches returns the gdalwarp nodata switches for a source's bands
-// (see AlignTo).
-func nodataSwitches(bands []godal.Band) []string {
+// (see AlignTo), with overrides replacing the nodata of some bands.
+func nodataSwitches(bands []godal.Band, overrides map[int]float64) []string {
 	src, all, some, wide := make([]string, len(bands)), true, false, false
 	for i, b := range bands {
 		src[i] = "nan"
-		if nd, ok := b.NoData(); ok {
+		nd, ok := b.NoData()
+		if v, given := overrides[i]; given {
+			nd, ok = v, true
+		}
+		dt := b.Structure().DataType
+		if ok && math.IsNaN(nd) && integerBits(dt.String()) > 0 {
+			ok = false // no integer is NaN: the band has no nodata
+		}
+		if ok {
 			src[i], some = ftoa(nd), true
 		} else {
 			all = false
 		}
-		switch b.Structure().DataType {
+		switch dt {
 		case godal.Byte, godal.Int16, godal.UInt16, godal.Float32:
 		default:
 			wide = true // Float32 would round these values

@@ -1,8 +1,11 @@
 // Package raster is bandfold's only door to GDAL. It opens input stacks (one
 // multiband file or several files stacked in order as one logical p-band
-// image), checks that they share one grid, reads tile windows of all selected
-// bands into float64 buffers with a validity mask, and writes GeoTIFF,
-// Cloud Optimized GeoTIFF and GeoPackage outputs atomically.
+// image), checks that they share one grid or warps them onto the first
+// file's, applies quality masks and calibration (band scale and offset, or
+// Landsat top-of-atmosphere reflectance from the product's MTL file), reads
+// tile windows of all selected bands into float64 buffers with a validity
+// mask, and writes GeoTIFF, Cloud Optimized GeoTIFF and GeoPackage outputs
+// atomically.
 //
 // GDAL dataset handles are not safe to share across goroutines: a Stack holds
 // only descriptions, and every worker opens its own Reader.
@@ -12,6 +15,8 @@ package raster
 #cgo pkg-config: gdal
 #include <stdlib.h>
 #include <cpl_conv.h>
+#include <cpl_string.h>
+#include <cpl_vsi.h>
 #include <gdal.h>
 */
 import "C"
@@ -23,6 +28,7 @@ import (
 	"slices"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"unsafe"
 
 	"github.com/airbusgeo/godal"
@@ -36,11 +42,14 @@ type Config struct {
 	CacheMB int
 	// Options are extra KEY=VALUE configuration options.
 	Options []string
+	// Log receives GDAL's warnings at debug level; nil discards them.
+	Log *slog.Logger
 }
 
 var (
 	initOnce sync.Once
 	initErr  error
+	gdalLog  atomic.Pointer[slog.Logger]
 )
 
 // Init sets GDAL's configuration and registers its drivers. It must be
@@ -48,6 +57,9 @@ var (
 // Options already present in the environment win over bandfold's defaults, so
 // users keep the last word on GDAL's behaviour.
 func Init(cfg Config) error {
+	if cfg.Log != nil {
+		gdalLog.Store(cfg.Log)
+	}
 	initOnce.Do(func() {
 		if cfg.CacheMB <= 0 {
 			cfg.CacheMB = 64
@@ -92,6 +104,20 @@ func setConfig(k, v string) {
 	C.CPLSetConfigOption(ck, cv)
 }
 
+// vsiReadDir lists a folder of GDAL's virtual file systems (/vsizip/,
+// /vsis3/ ...), which godal does not offer; nil when it cannot be read.
+func vsiReadDir(dir string) []string {
+	cd := C.CString(dir)
+	defer C.free(unsafe.Pointer(cd))
+	list := C.VSIReadDir(cd)
+	defer C.CSLDestroy(list)
+	var names []string
+	for i := range int(C.CSLCount(list)) {
+		names = append(names, C.GoString(C.CSLGetField(list, C.int(i))))
+	}
+	return names
+}
+
 // quiet is the error handler given to GDAL calls: failures become errors,
 // warnings and notes are logged at debug level, so a harmless warning never
 // fails a read.
@@ -100,7 +126,9 @@ func quiet(ec godal.ErrorCategory, code int, msg string) error {
 		return errors.New(strings.TrimSpace(msg))
 	}
 	if ec == godal.CE_Warning {
-		slog.Debug("GDAL warning", "code", code, "msg", msg)
+		if l := gdalLog.Load(); l != nil {
+			l.Debug("GDAL warning", "code", code, "msg", strings.TrimSpace(msg))
+		}
 	}
 	return nil
 }

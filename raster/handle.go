@@ -13,9 +13,10 @@ import (
 )
 
 // bandHandle returns the GDAL band handle behind a godal.Band. godal (v0.0.18,
-// pinned in go.mod) keeps it as the struct's only field and offers no getter
-// for band scale and offset, so this reads it directly; the size assertion
-// below stops the build if that layout ever changes.
+// pinned in go.mod) keeps it as the struct's only field and offers no
+// cancellable sieve (GDALSieveFilter with a progress callback, used by
+// patches.go), so this reads it directly; the size assertion below stops the
+// build if that layout ever changes.
 func bandHandle(b godal.Band) C.GDALRasterBandH {
 	return *(*C.GDALRasterBandH)(unsafe.Pointer(&b))
 }
@@ -38,19 +39,3 @@ func geometryHandle(g *godal.Geometry) C.OGRGeometryH {
 
 var _ [unsafe.Sizeof(godal.Geometry{}) - unsafe.Sizeof(geometryMirror{})]struct{}
 var _ [unsafe.Sizeof(geometryMirror{}) - unsafe.Sizeof(godal.Geometry{})]struct{}
-
-// bandScaleOffset returns the band's scale and offset metadata (1 and 0 when
-// absent).
-func bandScaleOffset(b godal.Band) (scale, offset float64) {
-	h := bandHandle(b)
-	var ok C.int
-	scale = float64(C.GDALGetRasterScale(h, &ok))
-	if ok == 0 || scale == 0 {
-		scale = 1
-	}
-	offset = float64(C.GDALGetRasterOffset(h, &ok))
-	if ok == 0 {
-		offset = 0
-	}
-	return scale, offset
-}

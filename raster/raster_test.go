@@ -12,6 +12,7 @@ import (
 
 	"github.com/airbusgeo/godal"
 
+	"bandfold/raster/output"
 	"bandfold/tiles"
 )
 
@@ -392,15 +393,114 @@ func TestAtomicOutput(t *testing.T) {
 		t.Errorf("files left after abort: %v", entries)
 	}
 	os.WriteFile(out, []byte("keep me"), 0o644)
-	if _, err := Create(out, Spec{Grid: src.Grid, Bands: 1, DataType: "Float32"}); !errors.Is(err, ErrExists) {
+	if _, err := Create(out, Spec{Grid: src.Grid, Bands: 1, DataType: "Float32"}); !errors.Is(err, output.ErrExists) {
 		t.Errorf("existing output: got %v", err)
 	}
 	if b, _ := os.ReadFile(out); string(b) != "keep me" {
 		t.Error("existing output was touched")
 	}
-	for _, bad := range []string{filepath.Join(dir, "nope", "x.tif"), "/vsimem/x.tif"} {
+	for _, bad := range []string{filepath.Join(out, "x.tif"), "/vsimem/x.tif"} {
 		if _, err := Create(bad, Spec{Grid: src.Grid, Bands: 1, DataType: "Float32"}); err == nil || strings.Contains(err.Error(), "\n") {
 			t.Errorf("%s: got %v", bad, err)
 		}
+	}
+}
+
+// TestCreateMakesParentFolders: a missing folder is made by Create and
+// removed again by Abort; after Commit it stays.
+func TestCreateMakesParentFolders(t *testing.T) {
+	dir := t.TempDir()
+	src, _ := Open([]string{defaultRaster().write(t, filepath.Join(dir, "in.tif"))})
+	spec := Spec{Grid: src.Grid, Bands: 1, DataType: "Float32"}
+	out := filepath.Join(dir, "a", "b", "x.tif")
+	o, err := Create(out, spec)
+	if err != nil {
+		t.Fatal(err)
+	}
+	o.Abort()
+	if _, err := os.Stat(filepath.Join(dir, "a")); !errors.Is(err, os.ErrNotExist) {
+		t.Errorf("folder made by Create left after Abort: %v", err)
+	}
+	if o, err = Create(out, spec); err != nil {
+		t.Fatal(err)
+	}
+	if err := o.Commit(); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ReadMetadata(out); err != nil {
+		t.Error(err)
+	}
+}
+
+// TestFinishThenCommit: after Finish the temporary file is whole and
+// readable by path; Commit then moves it into place, as COG too.
+func TestFinishThenCommit(t *testing.T) {
+	dir := t.TempDir()
+	src, _ := Open([]string{defaultRaster().write(t, filepath.Join(dir, "in.tif"))})
+	for _, format := range []Format{GTiff, COG} {
+		out := filepath.Join(dir, "out-"+string(format)+".tif")
+		o, err := Create(out, Spec{Grid: src.Grid, Bands: 1, DataType: "Float32", Format: format, Metadata: map[string]string{"K": "v"}})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := o.Finish(); err != nil {
+			t.Fatal(err)
+		}
+		// The metadata item was set by construction above.
+		if md, err := ReadMetadata(o.Temp()); err != nil || md["K"] != "v" {
+			t.Errorf("%s: temporary after Finish: %v %v", format, md, err)
+		}
+		if _, err := os.Stat(out); !errors.Is(err, os.ErrNotExist) {
+			t.Errorf("%s: output in place before Commit", format)
+		}
+		if err := o.Commit(); err != nil {
+			t.Fatal(err)
+		}
+		if md, err := ReadMetadata(out); err != nil || md["K"] != "v" {
+			t.Errorf("%s: committed: %v %v", format, md, err)
+		}
+	}
+	if left, _ := filepath.Glob(filepath.Join(dir, ".*tmp*")); len(left) > 0 {
+		t.Errorf("temporary files left: %v", left)
+	}
+}
+
+// TestCreationOptionsChecked: options GDAL's drivers do not accept are
+// errors naming the option, checked with the real GDAL, before any file is
+// made; an item without '=' too.
+func TestCreationOptionsChecked(t *testing.T) {
+	dir := t.TempDir()
+	src, _ := Open([]string{defaultRaster().write(t, filepath.Join(dir, "in.tif"))})
+	out := filepath.Join(dir, "sub", "out.tif")
+	for _, c := range []struct {
+		format Format
+		co     string
+		want   string // start of the message; GDAL's text follows
+	}{
+		{GTiff, "COMPRESS=NOPE", "output " + out + ": creation option COMPRESS=NOPE: "},
+		{GTiff, "NO_SUCH_OPTION=1", "output " + out + ": creation option NO_SUCH_OPTION=1: "},
+		{COG, "COMPRESS=NOPE", "output " + out + ": creation option COMPRESS=NOPE: "},
+		{COG, "TILED=YES", "output " + out + ": creation option TILED=YES: "}, // a GTiff option, not COG's
+		{GTiff, "COMPRESS", "output " + out + `: creation option "COMPRESS" is not KEY=VALUE`},
+	} {
+		_, err := Create(out, Spec{Grid: src.Grid, Bands: 1, DataType: "Float32", Format: c.format, CreationOptions: []string{c.co}})
+		if err == nil || !strings.HasPrefix(err.Error(), c.want) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s %s: got %v, want %q...", c.format, c.co, err, c.want)
+		}
+	}
+	if _, err := os.Stat(filepath.Join(dir, "sub")); !errors.Is(err, os.ErrNotExist) {
+		t.Error("a refused output made its folder")
+	}
+	// Options GDAL accepts pass, for either driver.
+	for _, c := range []struct {
+		format Format
+		co     string
+	}{{GTiff, "COMPRESS=LZW"}, {COG, "COMPRESS=ZSTD"}} {
+		o, err := Create(out, Spec{Grid: src.Grid, Bands: 1, DataType: "Float32", Format: c.format, CreationOptions: []string{c.co}})
+		if err != nil {
+			t.Errorf("%s %s: %v", c.format, c.co, err)
+			continue
+		}
+		o.Abort()
 	}
 }

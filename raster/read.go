@@ -16,7 +16,7 @@ type Reader struct {
 	s       *Stack
 	ds      []*godal.Dataset
 	masks   []*godal.Dataset
-	maskBuf []float32
+	maskBuf []float64
 	nodata  []float64
 	hasND   []bool
 	scaled  bool
@@ -28,7 +28,7 @@ type Reader struct {
 // NewReader opens the stack's files for reading by one goroutine.
 func (s *Stack) NewReader() (*Reader, error) {
 	r := &Reader{s: s}
-	for _, p := range s.Paths {
+	for _, p := range s.sources {
 		ds, err := openDataset(p)
 		if err != nil {
 			r.Close()
@@ -36,7 +36,7 @@ func (s *Stack) NewReader() (*Reader, error) {
 		}
 		r.ds = append(r.ds, ds)
 	}
-	for _, m := range s.Masks {
+	for _, m := range s.maskSources {
 		ds, err := openDataset(m)
 		if err != nil {
 			r.Close()
@@ -77,9 +77,10 @@ func (r *Reader) Close() error {
 // Read reads window t of every selected band into dst, pixel-major (the p
 // band values of a pixel are consecutive; pixels row by row), and marks in
 // valid the pixels that are valid in every band: not nodata, not NaN or
-// infinite, and non-zero in the mask. Scale and offset are applied to the
-// values. It returns the number of valid pixels. dst needs at least
-// t.Pixels()*p values and valid t.Pixels().
+// infinite, and passing every mask rule. Validity is decided on the stored
+// values; then each band's Scale and Offset (its metadata, or its TOA
+// reflectance calibration) are applied. It returns the number of valid
+// pixels. dst needs at least t.Pixels()*p values and valid t.Pixels().
 func (r *Reader) Read(t tiles.Tile, dst []float64, valid []bool) (int, error) {
 	return r.read(t, t.W, t.H, dst, valid)
 }
@@ -110,14 +111,15 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 	}
 	for k, mask := range r.masks {
 		if cap(r.maskBuf) < n {
-			r.maskBuf = make([]float32, n)
+			r.maskBuf = make([]float64, n)
 		}
 		m := r.maskBuf[:n]
 		if err := mask.Read(t.X, t.Y, m, bw, bh, window, godal.Bands(0), errLogger); err != nil {
 			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Masks[k], t, err)
 		}
+		test := &r.s.maskTests[k]
 		for i, v := range m {
-			valid[i] = valid[i] && v != 0 && !math.IsNaN(float64(v))
+			valid[i] = valid[i] && test.valid(v)
 		}
 	}
 	count := 0
@@ -153,9 +155,5 @@ func (r *Reader) validPixel(px []float64) bool {
 
 // isInteger reports whether a GDAL data type name is an integer type.
 func isInteger(dataType string) bool {
-	switch dataType {
-	case "Byte", "Int8", "UInt16", "Int16", "UInt32", "Int32", "UInt64", "Int64":
-		return true
-	}
-	return false
+	return integerBits(dataType) > 0
 }

@@ -3,7 +3,6 @@ package raster
 import (
 	"errors"
 	"fmt"
-	"sync"
 
 	"github.com/airbusgeo/godal"
 )
@@ -12,9 +11,8 @@ import (
 //
 // A Reference on a raster file holds a GDAL handle: use it from one
 // goroutine, and open one per worker. On a vector file it holds the
-// polygons rasterised onto the grid, W*H bytes shared read-only by every
-// Reference open on the same file and grid (the first opener rasterises,
-// the last Close frees them).
+// polygons rasterised onto the grid when it was opened, W*H bytes of its
+// own, freed by Close; open it once and share its reads where memory counts.
 type Reference struct {
 	path   string
 	grid   Grid
@@ -22,7 +20,7 @@ type Reference struct {
 	nodata float64
 	hasND  bool
 	buf    []float64
-	burned *burnedVector // vector reference
+	burned []uint8 // vector reference: flags row by row
 }
 
 // OpenReference returns a reader for reference change data on grid g:
@@ -46,11 +44,11 @@ func OpenReference(path string, g Grid) (*Reference, error) {
 		r.nodata, r.hasND = ds.Bands()[0].NoData()
 		return r, nil
 	case errors.Is(err, ErrNotRaster):
-		b, err := burnVector(path, g)
+		pixels, err := rasterizeVector(path, g)
 		if err != nil {
 			return nil, err
 		}
-		return &Reference{path: path, grid: g, burned: b}, nil
+		return &Reference{path: path, grid: g, burned: pixels}, nil
 	default:
 		return nil, fmt.Errorf("reference %w", err)
 	}
@@ -62,10 +60,13 @@ func (r *Reference) Read(x, y, w, h int, dst []uint8) error {
 	if err := checkWindow(r.grid, x, y, w, h, len(dst)); err != nil {
 		return fmt.Errorf("read reference %s: %w", r.path, err)
 	}
+	if r.ds == nil && r.burned == nil {
+		return fmt.Errorf("read reference %s: closed", r.path)
+	}
 	if r.burned != nil {
 		for row := range h {
 			off := (y+row)*r.grid.Width + x
-			copy(dst[row*w:row*w+w], r.burned.pixels[off:off+w])
+			copy(dst[row*w:row*w+w], r.burned[off:off+w])
 		}
 		return nil
 	}
@@ -86,59 +87,15 @@ func (r *Reference) Read(x, y, w, h int, dst []uint8) error {
 	return nil
 }
 
-// Close releases the reader's GDAL handle or its share of the rasterised
-// polygons.
+// Close releases the reader's GDAL handle or its rasterised polygons.
 func (r *Reference) Close() error {
 	var err error
 	if r.ds != nil {
 		err = r.ds.Close(errLogger)
 		r.ds = nil
 	}
-	if r.burned != nil {
-		r.burned.release()
-		r.burned = nil
-	}
+	r.burned = nil
 	return err
-}
-
-// burnedVector is a vector reference rasterised on a grid, shared by the
-// References open on it.
-type burnedVector struct {
-	key    string
-	users  int
-	pixels []uint8
-}
-
-var burned = struct {
-	sync.Mutex
-	m map[string]*burnedVector
-}{m: map[string]*burnedVector{}}
-
-// burnVector returns the polygons of path rasterised on g, rasterising them
-// unless another Reference holds them.
-func burnVector(path string, g Grid) (*burnedVector, error) {
-	key := fmt.Sprintf("%s\x00%dx%d %v %v\x00%s", path, g.Width, g.Height, g.HasGeoTransform, g.GeoTransform, g.Projection)
-	burned.Lock()
-	defer burned.Unlock()
-	if b, ok := burned.m[key]; ok {
-		b.users++
-		return b, nil
-	}
-	pixels, err := rasterizeVector(path, g)
-	if err != nil {
-		return nil, err
-	}
-	b := &burnedVector{key: key, users: 1, pixels: pixels}
-	burned.m[key] = b
-	return b, nil
-}
-
-func (b *burnedVector) release() {
-	burned.Lock()
-	defer burned.Unlock()
-	if b.users--; b.users == 0 {
-		delete(burned.m, b.key)
-	}
 }
 
 // rasterizeVector burns every layer of the vector file at path onto g.

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -66,7 +67,8 @@ func parseBandNumber(s string) (int, error) {
 }
 
 // ParseNoData parses "--nodata": one value for all bands or a comma list with
-// one value per band. "nan" is accepted.
+// one value per band. "nan" (in any case, with or without a sign) gives NaN,
+// for float bands whose nodata is NaN; infinities are refused.
 func ParseNoData(spec string) ([]float64, error) {
 	spec = strings.TrimSpace(spec)
 	if spec == "" {
@@ -74,11 +76,58 @@ func ParseNoData(spec string) ([]float64, error) {
 	}
 	var out []float64
 	for _, part := range strings.Split(spec, ",") {
-		v, err := strconv.ParseFloat(strings.TrimSpace(part), 64)
-		if err != nil || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("nodata %q: %q is not a number: %w", spec, strings.TrimSpace(part), ErrBadSpec)
+		part = strings.TrimSpace(part)
+		v, err := parseNoDataValue(part)
+		if err != nil {
+			return nil, fmt.Errorf("nodata %q: %q is not a number: %w", spec, part, ErrBadSpec)
 		}
 		out = append(out, v)
 	}
 	return out, nil
+}
+
+func parseNoDataValue(s string) (float64, error) {
+	if strings.EqualFold(strings.TrimLeft(s, "+-"), "nan") && len(s) <= 4 {
+		return math.NaN(), nil
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsInf(v, 0) || math.IsNaN(v) {
+		return 0, ErrBadSpec
+	}
+	return v, nil
+}
+
+// resamplings are the gdalwarp -r names accepted for warping a stack onto
+// one grid.
+var resamplings = []string{"nearest", "bilinear", "cubic", "cubicspline", "lanczos", "average", "mode"}
+
+// ParseResampling checks a resampling name for AlignStack and AlignMasks:
+// one of nearest, bilinear, cubic, cubicspline, lanczos, average, mode (any
+// case; gdalwarp's "near" is taken as nearest). It returns the name in lower
+// case.
+func ParseResampling(s string) (string, error) {
+	name := strings.ToLower(strings.TrimSpace(s))
+	if name == "near" {
+		name = "nearest"
+	}
+	if !slices.Contains(resamplings, name) {
+		return "", fmt.Errorf("resampling %q: want one of %s: %w", s, strings.Join(resamplings, ", "), ErrBadSpec)
+	}
+	return name, nil
+}
+
+// Calibrations of Calibrate.
+const (
+	CalibrateScale = "scale"
+	CalibrateTOA   = "toa"
+)
+
+// ParseCalibration checks a calibration mode for Calibrate: "scale" or
+// "toa" (any case). It returns the name in lower case.
+func ParseCalibration(s string) (string, error) {
+	name := strings.ToLower(strings.TrimSpace(s))
+	if name != CalibrateScale && name != CalibrateTOA {
+		return "", fmt.Errorf("calibration %q: want %s or %s: %w", s, CalibrateScale, CalibrateTOA, ErrBadSpec)
+	}
+	return name, nil
 }

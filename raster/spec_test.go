@@ -4,6 +4,7 @@ import (
 	"errors"
 	"math"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -70,5 +71,78 @@ func TestParseNoData(t *testing.T) {
 		if _, err := ParseNoData(bad); !errors.Is(err, ErrBadSpec) {
 			t.Errorf("ParseNoData(%q) = %v, want ErrBadSpec", bad, err)
 		}
+	}
+}
+
+func TestParseNoDataNaN(t *testing.T) {
+	// Known by construction: every spelling of NaN gives NaN, in lists too.
+	for _, spec := range []string{"nan", "NaN", "NAN", "-nan", "+NaN"} {
+		got, err := ParseNoData(spec)
+		if err != nil || len(got) != 1 || !math.IsNaN(got[0]) {
+			t.Errorf("ParseNoData(%q) = %v, %v; want [NaN]", spec, got, err)
+		}
+	}
+	got, err := ParseNoData("NaN, 0 ,nan")
+	if err != nil || len(got) != 3 || !math.IsNaN(got[0]) || got[1] != 0 || !math.IsNaN(got[2]) {
+		t.Errorf("ParseNoData(\"NaN, 0 ,nan\") = %v, %v", got, err)
+	}
+	for _, bad := range []string{"nann", "--nan", "+-nan", "-inf", "Infinity", "1e999"} {
+		if _, err := ParseNoData(bad); !errors.Is(err, ErrBadSpec) {
+			t.Errorf("ParseNoData(%q) = %v, want ErrBadSpec", bad, err)
+		}
+	}
+}
+
+func FuzzParseNoData(f *testing.F) {
+	for _, s := range []string{"0", "-9999,nan", "NaN", " 1 , 2 ", "inf", "1,,2", "-nan,+NaN", "0x1p-2"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, spec string) {
+		got, err := ParseNoData(spec)
+		if err != nil {
+			if !errors.Is(err, ErrBadSpec) {
+				t.Fatalf("ParseNoData(%q) error %v does not wrap ErrBadSpec", spec, err)
+			}
+			return
+		}
+		if strings.TrimSpace(spec) == "" {
+			if got != nil {
+				t.Fatalf("ParseNoData(%q) = %v, want nil", spec, got)
+			}
+			return
+		}
+		if len(got) != strings.Count(spec, ",")+1 {
+			t.Fatalf("ParseNoData(%q) gave %d values for %d parts", spec, len(got), strings.Count(spec, ",")+1)
+		}
+		for _, v := range got {
+			if math.IsInf(v, 0) {
+				t.Fatalf("ParseNoData(%q) gave an infinity", spec)
+			}
+		}
+	})
+}
+
+func TestParseResampling(t *testing.T) {
+	for in, want := range map[string]string{"nearest": "nearest", "near": "nearest", " Average ": "average",
+		"bilinear": "bilinear", "cubic": "cubic", "cubicspline": "cubicspline", "lanczos": "lanczos", "MODE": "mode"} {
+		if got, err := ParseResampling(in); err != nil || got != want {
+			t.Errorf("ParseResampling(%q) = %q, %v; want %q", in, got, err, want)
+		}
+	}
+	for _, bad := range []string{"", "wobbly", "max", "rms"} {
+		if _, err := ParseResampling(bad); !errors.Is(err, ErrBadSpec) || !strings.Contains(err.Error(), "nearest, bilinear") {
+			t.Errorf("ParseResampling(%q) = %v, want ErrBadSpec listing the names", bad, err)
+		}
+	}
+}
+
+func TestParseCalibration(t *testing.T) {
+	for in, want := range map[string]string{"scale": CalibrateScale, "TOA": CalibrateTOA, " toa ": CalibrateTOA} {
+		if got, err := ParseCalibration(in); err != nil || got != want {
+			t.Errorf("ParseCalibration(%q) = %q, %v; want %q", in, got, err, want)
+		}
+	}
+	if _, err := ParseCalibration("radiance"); !errors.Is(err, ErrBadSpec) {
+		t.Errorf("ParseCalibration(radiance) = %v, want ErrBadSpec", err)
 	}
 }

@@ -1,11 +1,12 @@
 package raster
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
-	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 
 	"github.com/airbusgeo/godal"
@@ -33,38 +34,71 @@ type Grid struct {
 
 // Band describes one selected band of a stack.
 type Band struct {
-	// Name is the band description, or "<file stem>:<band number>".
+	// Name is the band description; for a stack of single-band files
+	// without descriptions, the part of the file names that tells the files
+	// apart ("B1" for "..._T1_B1.TIF"); otherwise "<file stem>:<band
+	// number>".
 	Name string
 	// Path and Index locate the band: its file and 1-based number there.
-	Path     string
-	Index    int
+	Path  string
+	Index int
+	// DataType is the GDAL type read: the file's, or the warped VRT's when
+	// the file was aligned onto the stack's grid.
 	DataType string
-	// NoData is the value that marks an invalid pixel, nil when none.
+	// NoData is the value that marks an invalid pixel (possibly NaN), nil
+	// when none.
 	NoData *float64
-	// Scale and Offset turn stored values into physical ones:
-	// value = stored * Scale + Offset.
+	// Scale and Offset turn stored values into the values read:
+	// value = stored * Scale + Offset. With Calibration "scale" they are
+	// the band's scale and offset metadata (1 and 0 when absent); with
+	// "toa" they are ReflMult/sin(SunElevation) and
+	// ReflAdd/sin(SunElevation).
 	Scale, Offset float64
+	// Calibration is CalibrateScale or CalibrateTOA (see Calibrate).
+	Calibration string
+	// ReflMult, ReflAdd and SunElevation are, for CalibrateTOA, the band's
+	// REFLECTANCE_MULT_BAND_n and REFLECTANCE_ADD_BAND_n and the scene's
+	// SUN_ELEVATION (degrees) from the product's MTL file; zero otherwise.
+	ReflMult, ReflAdd, SunElevation float64
 }
 
 // Stack is one logical p-band image made of one multiband file or several
-// files stacked in order, all on one grid. It holds descriptions only; read
-// it through a Reader, one per goroutine.
+// files stacked in order, on the first file's grid. It holds descriptions
+// only; read it through a Reader, one per goroutine. Close it when done:
+// files warped onto its grid live as temporary VRTs until then.
 type Stack struct {
 	Grid
 	Paths []string
 	Bands []Band
+	// Label names the stack for people: for single-band files told apart
+	// by their names, the shared part of the names and the range of bands
+	// ("LC08_L1TP_195025_20130707_20170503_01_T1 [B1-B7]"); for one file,
+	// its stem; otherwise the stems joined with commas.
+	Label string
 	// BlockW and BlockH are the internal block size of the first band,
 	// which tile sizes are aligned to.
 	BlockW, BlockH int
-	// Masks are optional validity mask files (same grid; a pixel is valid
-	// only where every mask is non-zero).
-	Masks []string
+	// MaskRules are the quality masks (see MaskRule); a pixel is valid only
+	// where it passes every rule. Masks are their files, in the same order.
+	MaskRules []MaskRule
+	Masks     []string
+	// Aligned are the files (of Paths and Masks) warped onto the grid.
+	Aligned []string
 	// Metadata is the first file's dataset metadata (default domain).
 	Metadata map[string]string
 	// runs group selected bands that can be read with one call: positions
 	// pos..pos+len(bands)-1 of the pixel vector come from the 0-based bands
 	// of one file.
 	runs []run
+	// sources are what readers open for Paths and masks: the file itself
+	// or its warped VRT.
+	sources, maskSources []string
+	maskTests            []maskTest
+	// parts are the names telling single-band files apart (by path), for
+	// the label; nil when the files are not such a stack.
+	parts       map[string]string
+	labelCommon string
+	cleanups    []func()
 }
 
 type run struct {
@@ -74,9 +108,12 @@ type run struct {
 }
 
 type openOptions struct {
-	bands  []int
-	nodata []float64
-	masks  []string
+	bands     []int
+	nodata    []float64
+	masks     []MaskRule
+	align     string
+	maskAlign string
+	calibrate string
 }
 
 // Option configures Open.
@@ -87,12 +124,47 @@ type Option func(*openOptions)
 func SelectBands(bands []int) Option { return func(o *openOptions) { o.bands = bands } }
 
 // NoData overrides the files' nodata: one value for all selected bands, or
-// one per selected band.
+// one per selected band. NaN is allowed.
 func NoData(values []float64) Option { return func(o *openOptions) { o.nodata = values } }
 
 // Mask adds a validity mask file on the stack's grid; non-zero means valid.
-// Several masks combine: a pixel must be valid in all of them.
-func Mask(path string) Option { return func(o *openOptions) { o.masks = append(o.masks, path) } }
+// It is MaskRules(MaskRule{Path: path}).
+func Mask(path string) Option { return MaskRules(MaskRule{Path: path}) }
+
+// MaskRules adds quality masks (see ParseMask). Several rules combine: a
+// pixel must pass all of them. A mask file may be one of the stack's files.
+// A mask on another grid is an error unless AlignMasks or AlignStack is
+// given.
+func MaskRules(rules ...MaskRule) Option {
+	return func(o *openOptions) { o.masks = append(o.masks, rules...) }
+}
+
+// AlignStack warps every file of the stack that is not on the first file's
+// grid onto it, through a GDAL warped VRT (see AlignTo: nothing is copied,
+// each read resamples), with the given resampling (see ParseResampling).
+// Nodata overrides given with NoData are honoured by the warp. Masks on
+// other grids are then warped too, with nearest neighbour unless AlignMasks
+// says otherwise. Close the stack to release the VRTs.
+func AlignStack(resampling string) Option { return func(o *openOptions) { o.align = resampling } }
+
+// AlignMasks warps masks that are not on the stack's grid onto it, with
+// resampling "nearest" or "mode": masks hold codes, which other kernels
+// would blend.
+func AlignMasks(resampling string) Option { return func(o *openOptions) { o.maskAlign = resampling } }
+
+// Calibrate sets how stored values become the values read: CalibrateScale
+// ("scale", the default) applies each band's scale and offset metadata;
+// CalibrateTOA ("toa") turns the digital numbers of Landsat Level-1 band
+// files into top-of-atmosphere reflectance with the coefficients of the
+// product's *_MTL.txt file beside them (see FindMTL):
+//
+//	rho = (M_rho * Q_cal + A_rho) / sin(theta_SE)
+//
+// with M_rho = REFLECTANCE_MULT_BAND_n, A_rho = REFLECTANCE_ADD_BAND_n and
+// theta_SE = SUN_ELEVATION, from the USGS "Landsat 8 (L8) Data Users
+// Handbook", section "Conversion to TOA Reflectance". Validity (nodata,
+// masks) is decided on the digital numbers, before calibration.
+func Calibrate(mode string) Option { return func(o *openOptions) { o.calibrate = mode } }
 
 // IsVirtual reports whether path is one of GDAL's virtual file system paths
 // (/vsizip/, /vsicurl/, /vsis3/, /vsimem/ ...).
@@ -127,83 +199,12 @@ func firstLine(s string) string {
 	return s
 }
 
-func gridOf(ds *godal.Dataset) Grid {
-	st := ds.Structure()
-	g := Grid{Width: st.SizeX, Height: st.SizeY, Projection: ds.Projection()}
-	if gt, err := ds.GeoTransform(errLogger); err == nil {
-		g.GeoTransform, g.HasGeoTransform = gt, true
-	}
-	return g
-}
-
-// Compare returns nil when g and o are the same grid: same size, geotransforms
-// equal to 1e-9 relative (of the pixel size for the offsets and rotation
-// terms), and the same CRS by GDAL's comparison. Otherwise the error says
-// what differs and wraps ErrGridMismatch.
-func (g Grid) Compare(o Grid) error {
-	if g.Width != o.Width || g.Height != o.Height {
-		return fmt.Errorf("size %dx%d against %dx%d: %w", o.Width, o.Height, g.Width, g.Height, ErrGridMismatch)
-	}
-	if g.HasGeoTransform != o.HasGeoTransform {
-		return fmt.Errorf("one has a geotransform, the other none: %w", ErrGridMismatch)
-	}
-	if g.HasGeoTransform {
-		scale := max(math.Abs(g.GeoTransform[1]), math.Abs(g.GeoTransform[5]), math.Abs(g.GeoTransform[2]), math.Abs(g.GeoTransform[4]))
-		for i := range 6 {
-			a, b := g.GeoTransform[i], o.GeoTransform[i]
-			tol := 1e-9 * max(math.Abs(a), math.Abs(b), scale)
-			if math.Abs(a-b) > tol {
-				return fmt.Errorf("geotransform %v against %v: %w", o.GeoTransform, g.GeoTransform, ErrGridMismatch)
-			}
-		}
-	}
-	same, err := sameCRS(g.Projection, o.Projection)
-	if err != nil {
-		return err
-	}
-	if !same {
-		return fmt.Errorf("CRS %s against %s: %w", crsName(o.Projection), crsName(g.Projection), ErrGridMismatch)
-	}
-	return nil
-}
-
-func sameCRS(a, b string) (bool, error) {
-	if a == "" || b == "" {
-		return a == b, nil
-	}
-	if a == b {
-		return true, nil
-	}
-	sa, err := godal.NewSpatialRefFromWKT(a, errLogger)
-	if err != nil {
-		return false, fmt.Errorf("read CRS: %w", err)
-	}
-	defer sa.Close()
-	sb, err := godal.NewSpatialRefFromWKT(b, errLogger)
-	if err != nil {
-		return false, fmt.Errorf("read CRS: %w", err)
-	}
-	defer sb.Close()
-	return sa.IsSame(sb), nil
-}
-
-// crsName gives a short name for a WKT CRS for error messages.
-func crsName(wkt string) string {
-	if wkt == "" {
-		return "(none)"
-	}
-	if _, rest, ok := strings.Cut(wkt, `"`); ok {
-		if name, _, ok := strings.Cut(rest, `"`); ok {
-			return fmt.Sprintf("%q", name)
-		}
-	}
-	return "(unnamed)"
-}
-
-// Open opens the files of a stack, checks that they share one grid, applies
-// the band selection and nodata overrides and, when asked, checks the mask.
-// Any GDAL-readable path works, virtual ones included.
-func Open(paths []string, opts ...Option) (*Stack, error) {
+// Open opens the files of a stack, checks that they share the first file's
+// grid (or warps them onto it, with AlignStack), names the bands, applies
+// the band selection, nodata overrides and calibration, and checks the
+// masks. Any GDAL-readable path works, virtual ones included. Close the
+// stack when done.
+func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	if len(paths) == 0 {
 		return nil, errors.New("no input image")
 	}
@@ -211,9 +212,30 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 	for _, opt := range opts {
 		opt(&o)
 	}
-	s := &Stack{Paths: paths, Masks: o.masks}
+	if o.align != "" {
+		if o.align, err = ParseResampling(o.align); err != nil {
+			return nil, fmt.Errorf("align: %w", err)
+		}
+		o.maskAlign = cmp.Or(o.maskAlign, "nearest")
+	}
+	if o.maskAlign != "" {
+		if o.maskAlign, err = maskResampling(o.maskAlign); err != nil {
+			return nil, err
+		}
+	}
+	if o.calibrate, err = ParseCalibration(cmp.Or(o.calibrate, CalibrateScale)); err != nil {
+		return nil, err
+	}
+
+	s := &Stack{Paths: paths}
+	defer func() {
+		if err != nil {
+			s.Close()
+		}
+	}()
 	var all []Band
-	var fileOf []int
+	var fileOf, counts []int
+	offGrids := map[int]bool{} // files to warp
 	for i, p := range paths {
 		ds, err := openDataset(p)
 		if err != nil {
@@ -226,17 +248,22 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 			s.BlockW, s.BlockH = st.BlockSizeX, st.BlockSizeY
 			s.Metadata = ds.Metadatas()
 		} else if err := s.Grid.Compare(g); err != nil {
-			ds.Close(errLogger)
-			return nil, fmt.Errorf("%s is not on the grid of %s: %w", p, paths[0], err)
+			if o.align == "" {
+				ds.Close(errLogger)
+				return nil, offGrid("", p, g, paths[0], s.Grid, err)
+			}
+			offGrids[i] = true
 		}
 		for j, b := range ds.Bands() {
 			all = append(all, describeBand(p, j+1, b))
 			fileOf = append(fileOf, i)
 		}
+		counts = append(counts, len(ds.Bands()))
 		if err := ds.Close(errLogger); err != nil {
 			return nil, fmt.Errorf("%s: %w", p, err)
 		}
 	}
+	s.nameBands(all, counts)
 
 	sel := o.bands
 	if len(sel) == 0 {
@@ -252,6 +279,8 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 		s.addBand(all[n-1], fileOf[n-1])
 	}
 
+	// overrides[f][j] is the nodata given for band j of file f.
+	overrides := make([]map[int]float64, len(paths))
 	switch len(o.nodata) {
 	case 0:
 	case 1, len(s.Bands):
@@ -259,35 +288,172 @@ func Open(paths []string, opts ...Option) (*Stack, error) {
 			v := o.nodata[min(i, len(o.nodata)-1)]
 			s.Bands[i].NoData = &v
 		}
+		for k, n := range sel {
+			f := fileOf[n-1]
+			if overrides[f] == nil {
+				overrides[f] = map[int]float64{}
+			}
+			overrides[f][all[n-1].Index-1] = o.nodata[min(k, len(o.nodata)-1)]
+		}
 	default:
 		return nil, fmt.Errorf("nodata: %d values given for %d bands (give one, or one per band): %w", len(o.nodata), len(s.Bands), ErrBadSpec)
 	}
 
-	for _, m := range o.masks {
-		ds, err := openDataset(m)
-		if err != nil {
-			return nil, fmt.Errorf("mask %w", err)
-		}
-		g := gridOf(ds)
-		ds.Close(errLogger)
-		if err := s.Grid.Compare(g); err != nil {
-			return nil, fmt.Errorf("mask %s is not on the grid of %s: %w", m, paths[0], err)
+	s.sources = slices.Clone(paths)
+	for i, p := range paths {
+		if offGrids[i] {
+			if err := s.align(i, p, o.align, overrides[i]); err != nil {
+				return nil, err
+			}
 		}
 	}
+	if err := s.calibrate(o.calibrate); err != nil {
+		return nil, err
+	}
+	if err := s.openMasks(o.masks, o.maskAlign); err != nil {
+		return nil, err
+	}
+	s.setLabel()
 	return s, nil
 }
 
+// align warps file i of the stack onto its grid and takes the types and
+// nodata read from the warped VRT; overrides are the nodata given for the
+// file's (0-based) bands.
+func (s *Stack) align(i int, path, resampling string, overrides map[int]float64) error {
+	vrt, cleanup, err := alignTo(path, s.Grid, resampling, overrides)
+	if err != nil {
+		return err
+	}
+	s.cleanups = append(s.cleanups, cleanup)
+	s.sources[i] = vrt
+	s.Aligned = append(s.Aligned, path)
+	ds, err := openDataset(vrt)
+	if err != nil {
+		return fmt.Errorf("align %w", err)
+	}
+	defer ds.Close(errLogger)
+	bands := ds.Bands()
+	for _, rn := range s.runs {
+		if rn.file != i {
+			continue
+		}
+		for k, j := range rn.bands {
+			b := &s.Bands[rn.pos+k]
+			b.DataType = bands[j].Structure().DataType.String()
+			if _, given := overrides[j]; !given {
+				b.NoData = nil
+				if nd, ok := bands[j].NoData(); ok {
+					b.NoData = &nd
+				}
+			}
+		}
+	}
+	return nil
+}
+
+// openMasks checks the mask rules against their files and the stack's
+// grid, warping masks on other grids when resampling is set.
+func (s *Stack) openMasks(rules []MaskRule, resampling string) error {
+	warped := map[string]string{}
+	for _, rule := range rules {
+		ds, err := openDataset(rule.Path)
+		if err != nil {
+			return fmt.Errorf("mask %w", err)
+		}
+		g := gridOf(ds)
+		b := ds.Bands()[0]
+		nd, hasND := b.NoData()
+		test, err := newMaskTest(rule, b.Structure().DataType.String(), nd, hasND)
+		ds.Close(errLogger)
+		if err != nil {
+			return err
+		}
+		source := rule.Path
+		if err := s.Grid.Compare(g); err != nil {
+			if resampling == "" {
+				return offGrid("mask ", rule.Path, g, s.Paths[0], s.Grid, err)
+			}
+			if source = warped[rule.Path]; source == "" {
+				vrt, cleanup, err := alignTo(rule.Path, s.Grid, resampling, nil)
+				if err != nil {
+					return fmt.Errorf("mask %w", err)
+				}
+				s.cleanups = append(s.cleanups, cleanup)
+				s.Aligned = append(s.Aligned, rule.Path)
+				warped[rule.Path], source = vrt, vrt
+			}
+		}
+		s.MaskRules = append(s.MaskRules, rule)
+		s.Masks = append(s.Masks, rule.Path)
+		s.maskSources = append(s.maskSources, source)
+		s.maskTests = append(s.maskTests, test)
+	}
+	return nil
+}
+
+// Close releases the VRTs of the files warped onto the stack's grid. Close
+// the stack's Readers first. A stack from Subset shares its parent's VRTs
+// and releases nothing. Close may be called more than once.
+func (s *Stack) Close() error {
+	if s == nil {
+		return nil
+	}
+	for _, c := range s.cleanups {
+		c()
+	}
+	s.cleanups = nil
+	return nil
+}
+
 func describeBand(path string, index int, b godal.Band) Band {
-	out := Band{Path: path, Index: index, DataType: b.Structure().DataType.String()}
+	st := b.Structure()
+	out := Band{Path: path, Index: index, DataType: st.DataType.String(), Scale: st.Scale, Offset: st.Offset}
 	if nd, ok := b.NoData(); ok {
 		out.NoData = &nd
 	}
-	out.Scale, out.Offset = bandScaleOffset(b)
-	out.Name = strings.TrimSpace(b.Description())
-	if out.Name == "" {
-		out.Name = fmt.Sprintf("%s:%d", Stem(path), index)
+	if out.Scale == 0 { // a zero scale would erase the values
+		out.Scale = 1
 	}
+	out.Name = strings.TrimSpace(b.Description())
 	return out
+}
+
+// nameBands names the bands without a description: for two or more
+// single-band files, by the part of their stems that tells them apart;
+// otherwise "<stem>:<band number>". counts are the bands per file.
+func (s *Stack) nameBands(all []Band, counts []int) {
+	if len(counts) >= 2 && !slices.ContainsFunc(counts, func(n int) bool { return n != 1 }) {
+		stems := make([]string, len(s.Paths))
+		for i, p := range s.Paths {
+			stems[i] = Stem(p)
+		}
+		if common, parts, ok := stemParts(stems); ok {
+			s.labelCommon, s.parts = common, map[string]string{}
+			for i := range all {
+				s.parts[all[i].Path] = parts[i]
+				if all[i].Name == "" {
+					all[i].Name = parts[i]
+				}
+			}
+		}
+	}
+	for i := range all {
+		if all[i].Name == "" {
+			all[i].Name = fmt.Sprintf("%s:%d", Stem(all[i].Path), all[i].Index)
+		}
+	}
+}
+
+// setLabel sets Label from the selected bands.
+func (s *Stack) setLabel() {
+	var names []string
+	if s.parts != nil {
+		for _, b := range s.Bands {
+			names = append(names, s.parts[b.Path])
+		}
+	}
+	s.Label = stackLabel(s.labelCommon, names, s.Paths)
 }
 
 // Stem is a file name without folders and extension ("a/b/scene.tif" ->
@@ -324,9 +490,13 @@ func (s *Stack) addBand(b Band, f int) {
 }
 
 // Subset returns a stack of the same files and masks holding only the bands
-// at the given 0-based positions of s.Bands, in that order.
+// at the given 0-based positions of s.Bands, in that order. It shares s's
+// warped VRTs: close s, not the subset, when both are done.
 func (s *Stack) Subset(positions []int) (*Stack, error) {
-	sub := &Stack{Grid: s.Grid, Paths: s.Paths, BlockW: s.BlockW, BlockH: s.BlockH, Masks: s.Masks, Metadata: s.Metadata}
+	sub := &Stack{Grid: s.Grid, Paths: s.Paths, BlockW: s.BlockW, BlockH: s.BlockH,
+		MaskRules: s.MaskRules, Masks: s.Masks, Aligned: s.Aligned, Metadata: s.Metadata,
+		sources: s.sources, maskSources: s.maskSources, maskTests: s.maskTests,
+		parts: s.parts, labelCommon: s.labelCommon}
 	fileOf := map[string]int{}
 	for i, p := range s.Paths {
 		fileOf[p] = i
@@ -338,5 +508,6 @@ func (s *Stack) Subset(positions []int) (*Stack, error) {
 		b := s.Bands[pos]
 		sub.addBand(b, fileOf[b.Path])
 	}
+	sub.setLabel()
 	return sub, nil
 }
