@@ -187,35 +187,65 @@ func (a *Accumulator) Covariance(dst *mat.SymDense) *mat.SymDense {
 	return a.scaled(dst, 1/(a.n-1))
 }
 
-// Correlation returns the correlation matrix
-//
-//	R_ij = M_ij / sqrt(M_ii · M_jj),
-//
-// with a unit diagonal. If a band has zero variance (including when fewer than
-// two pixels have been accumulated) it returns a *ZeroVarianceError naming the
-// lowest such band, which wraps ErrZeroVariance, and leaves dst unchanged.
-// dst is handled as in CoMoment.
+// Correlation returns the correlation matrix of the accumulated pixels,
+// CorrelationOf their co-moment matrix M (the divisor n − 1 cancels). A band
+// whose minimum and maximum coincide counts as having zero variance even if
+// rounding in a merged state left a tiny positive co-moment. If a band has
+// zero variance (including when fewer than two pixels have been accumulated)
+// it returns a *ZeroVarianceError naming the lowest such band, which wraps
+// ErrZeroVariance, and leaves dst unchanged. dst is handled as in CoMoment.
 func (a *Accumulator) Correlation(dst *mat.SymDense) (*mat.SymDense, error) {
 	p := a.p
 	for i := 0; i < p; i++ {
-		// A band whose extremes coincide is constant even if rounding in a
-		// merged state left a tiny positive co-moment.
 		if a.com[i*p+i] <= 0 || a.min[i] == a.max[i] {
 			return nil, &ZeroVarianceError{Band: i}
 		}
 	}
+	// The upper triangle of com, row-major, is M: view it without a copy.
+	m := mat.NewSymDense(p, a.com)
 	dst = a.matrix(dst)
+	if err := correlationTo(dst, m); err != nil {
+		return nil, err
+	}
+	return dst, nil
+}
+
+// CorrelationOf returns the correlation matrix of the covariance (or
+// co-moment) matrix cov,
+//
+//	R_ij = C_ij / (s_i · s_j),  s_i = sqrt(C_ii),
+//
+// with a unit diagonal. If a diagonal element is zero or negative it returns a
+// *ZeroVarianceError naming the lowest such band, which wraps
+// ErrZeroVariance. This is the one place bandfold turns a covariance into a
+// correlation.
+func CorrelationOf(cov mat.Symmetric) (*mat.SymDense, error) {
+	dst := mat.NewSymDense(cov.SymmetricDim(), nil)
+	if err := correlationTo(dst, cov); err != nil {
+		return nil, err
+	}
+	return dst, nil
+}
+
+// correlationTo stores the correlation matrix of cov in dst, which must have
+// its dimension, and leaves dst unchanged on error (see CorrelationOf).
+func correlationTo(dst *mat.SymDense, cov mat.Symmetric) error {
+	p := cov.SymmetricDim()
 	s := make([]float64, p)
 	for i := range s {
-		s[i] = math.Sqrt(a.com[i*p+i])
+		v := cov.At(i, i)
+		if v <= 0 {
+			return &ZeroVarianceError{Band: i}
+		}
+		s[i] = math.Sqrt(v)
 	}
 	for i := 0; i < p; i++ {
 		dst.SetSym(i, i, 1)
 		for j := i + 1; j < p; j++ {
-			dst.SetSym(i, j, a.com[i*p+j]/(s[i]*s[j]))
+			dst.SetSym(i, j, cov.At(i, j)/(s[i]*s[j]))
 		}
 	}
-	return dst, nil
+	return nil
 }
 
 func (a *Accumulator) scaled(dst *mat.SymDense, f float64) *mat.SymDense {

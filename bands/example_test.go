@@ -117,5 +117,5 @@ func ExampleFromState() {
 	// Output:
 	// {"count":3,"mean":[2,20],"comoment":[[2,20],[20,200]],"min":[1,10],"max":[3,30]}
 	// count: 6
-	// bands: invalid state: count -1 is not a finite non-negative number
+	// invalid state: count -1 is not a finite non-negative number
 }

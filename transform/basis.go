@@ -4,12 +4,15 @@ import (
 	"crypto/sha256"
 	"encoding/binary"
 	"encoding/hex"
+	"errors"
 	"fmt"
 	"math"
 	"os"
 	"time"
 
 	"gonum.org/v1/gonum/mat"
+
+	"bandfold/bands"
 )
 
 // BasisFormat is the value of the "format" member of a basis file.
@@ -27,9 +30,9 @@ type Band struct {
 	// DataType is the GDAL name of the band's storage type, for example
 	// "Int16" or "Float32".
 	DataType string `json:"data_type"`
-	// NoData is the band's nodata value, or nil if it has none. NaN samples
-	// are always invalid, so a NaN nodata value is recorded as nil (JSON has
-	// no NaN).
+	// NoData is the band's nodata value, or nil if it has none. It may be
+	// NaN, the usual nodata of floating-point rasters, which the file
+	// records as the string "nan" (JSON has no NaN); ±Inf is refused.
 	NoData *float64 `json:"nodata"`
 	// Scale and Offset convert stored values to physical ones,
 	// value = stored·Scale + Offset, as GDAL defines them (1 and 0 when the
@@ -39,7 +42,9 @@ type Band struct {
 	// Min and Max are the smallest and largest valid values of the band
 	// seen while fitting, in the units of Mean (after scale and offset).
 	// In a partial file they are zero: each shard's extremes are part of
-	// its accumulated statistics (bands.State), merged with them.
+	// its accumulated statistics (bands.State), merged with them. Both zero
+	// count as no recorded range; otherwise ReadBasis checks that Mean lies
+	// within it.
 	Min float64 `json:"min"`
 	Max float64 `json:"max"`
 }
@@ -122,30 +127,31 @@ type Basis struct {
 
 // NewBasis fits a basis to band statistics: count valid pixels with band
 // means mean and sample covariance matrix cov (divisor count-1), one Band in
-// bands per row of cov. In Covariance mode it decomposes cov; in Correlation
+// bs per row of cov. In Covariance mode it decomposes cov; in Correlation
 // mode the correlation matrix cov[i][j] / (sd[i]·sd[j]), sd[j] = √cov[j][j].
 //
 // Eigenvalues of a covariance matrix cannot be negative: slightly negative
-// ones, down to -1e-8·λ₁, are rounding error and are set to zero; more
-// negative ones are an error. Components is set to p, Stride to 1 and Created
-// to the current time; the caller fills in Tool and Inputs and adjusts
-// the rest before writing the basis.
+// ones, down to -5e-9·λ₁ (far beyond what rounding does, see eigenTol), are
+// rounding error and are set to zero; more negative ones are an error.
+// Components is set to p, Stride to 1 and Created to the current time; the
+// caller fills in Tool and Inputs and adjusts the rest before writing the
+// basis.
 //
 // NewBasis returns an error if the statistics are not finite, the shapes
 // disagree, count < 2, a Band is invalid (see ReadBasis) or, in correlation
 // mode, a band is constant.
-func NewBasis(mode Mode, bands []Band, count int64, mean []float64, cov mat.Symmetric) (*Basis, error) {
+func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetric) (*Basis, error) {
 	if !mode.valid() {
-		return nil, fmt.Errorf("transform: unknown mode %q", mode)
+		return nil, fmt.Errorf("unknown mode %q", mode)
 	}
 	p := cov.SymmetricDim()
 	switch {
 	case p == 0:
-		return nil, fmt.Errorf("transform: no bands")
-	case len(bands) != p || len(mean) != p:
-		return nil, fmt.Errorf("transform: %d bands and %d means for a %d×%d covariance matrix", len(bands), len(mean), p, p)
+		return nil, fmt.Errorf("no bands")
+	case len(bs) != p || len(mean) != p:
+		return nil, fmt.Errorf("%d bands and %d means for a %d×%d covariance matrix", len(bs), len(mean), p, p)
 	case count < 2:
-		return nil, fmt.Errorf("transform: %d pixels: a covariance needs at least 2", count)
+		return nil, fmt.Errorf("%d pixels: a covariance needs at least 2", count)
 	}
 	b := &Basis{
 		Format:     BasisFormat,
@@ -154,7 +160,7 @@ func NewBasis(mode Mode, bands []Band, count int64, mean []float64, cov mat.Symm
 		Mode:       mode,
 		Pixels:     count,
 		Stride:     1,
-		Bands:      append([]Band(nil), bands...),
+		Bands:      append([]Band(nil), bs...),
 		Mean:       append([]float64(nil), mean...),
 		StdDev:     make([]float64, p),
 		Covariance: make([][]float64, p),
@@ -168,23 +174,21 @@ func NewBasis(mode Mode, bands []Band, count int64, mean []float64, cov mat.Symm
 		b.StdDev[i] = math.Sqrt(cov.At(i, i))
 	}
 	if err := checkFinite("mean", b.Mean); err != nil {
-		return nil, fmt.Errorf("transform: %w", err)
+		return nil, fmt.Errorf("%w", err)
 	}
 	if err := checkFinite("stddev", b.StdDev); err != nil {
-		return nil, fmt.Errorf("transform: %w", err)
+		return nil, fmt.Errorf("%w", err)
 	}
 
 	target := cov
 	if mode == Correlation {
-		r := mat.NewSymDense(p, nil)
-		for i := range p {
-			if b.StdDev[i] == 0 {
-				return nil, fmt.Errorf("transform: band %d (%s) is constant: its correlation is undefined (use covariance mode)", i+1, b.Bands[i].Name)
-			}
-			r.SetSym(i, i, 1)
-			for j := i + 1; j < p; j++ {
-				r.SetSym(i, j, cov.At(i, j)/(b.StdDev[i]*b.StdDev[j]))
-			}
+		r, err := bands.CorrelationOf(cov)
+		var zv *bands.ZeroVarianceError
+		if errors.As(err, &zv) {
+			return nil, fmt.Errorf("band %d (%s) is constant: its correlation is undefined (use covariance mode)", zv.Band+1, b.Bands[zv.Band].Name)
+		}
+		if err != nil {
+			return nil, fmt.Errorf("%w", err)
 		}
 		target = r
 	}
@@ -192,10 +196,12 @@ func NewBasis(mode Mode, bands []Band, count int64, mean []float64, cov mat.Symm
 	if err != nil {
 		return nil, err
 	}
-	floor := -1e-8 * max(d.Values[0], 0)
+	// Half of eigenTol, so that an eigenvalue clamped to zero still passes
+	// the eigenpair check of validate.
+	floor := -eigenTol / 2 * max(d.Values[0], 0)
 	for j, v := range d.Values {
 		if v < floor {
-			return nil, fmt.Errorf("transform: %s matrix is not positive semi-definite: eigenvalue %d is %g", mode, j+1, v)
+			return nil, fmt.Errorf("%s matrix is not positive semi-definite: eigenvalue %d is %g", mode, j+1, v)
 		}
 		d.Values[j] = max(v, 0)
 	}
@@ -205,7 +211,7 @@ func NewBasis(mode Mode, bands []Band, count int64, mean []float64, cov mat.Symm
 		b.Eigenvectors[i] = mat.Col(nil, i, d.Vectors)
 	}
 	if err := b.validate(); err != nil {
-		return nil, fmt.Errorf("transform: %w", err)
+		return nil, fmt.Errorf("%w", err)
 	}
 	return b, nil
 }
@@ -219,10 +225,10 @@ func ReadBasis(path string) (*Basis, error) {
 
 func parseBasis(data []byte) (*Basis, error) { return parse[Basis](BasisFormat, data) }
 
-// WriteFile checks b and writes it to path atomically: to a temporary file in
-// the same folder, synced, then renamed over path. The temporary file is
-// removed on error.
-func (b *Basis) WriteFile(path string) error { return writeFile("basis", path, b) }
+// Marshal checks b and returns the content of its basis file: indented JSON,
+// each array of numbers on one line (a matrix one row per line), ending in a
+// newline. Writing it to disk is the caller's business.
+func (b *Basis) Marshal() ([]byte, error) { return marshal("basis", b) }
 
 // Fingerprint returns a short, stable identifier of the numeric content of b:
 // the first 16 hex digits of the SHA-256 of the mode, p, Mean, StdDev,
@@ -252,7 +258,10 @@ func (b *Basis) Fingerprint() string {
 	return hex.EncodeToString(h.Sum(nil))[:16]
 }
 
-// validate checks the invariants ReadBasis promises, without the file name.
+// validate checks the invariants ReadBasis promises, without the file name:
+// the shapes, finite values and ranges of every member, and then that the
+// numbers agree with each other (see consistent), so that a hand-edited or
+// mixed-up file is refused instead of folding images with exit status 0.
 func (b *Basis) validate() error {
 	if b.Format != BasisFormat {
 		return fmt.Errorf("format %q, want %q", b.Format, BasisFormat)
@@ -313,6 +322,148 @@ func (b *Basis) validate() error {
 	if b.Components < 1 || b.Components > p {
 		return fmt.Errorf("components %d out of range 1..%d", b.Components, p)
 	}
+	if err := b.checkMagnitudes(); err != nil {
+		return err
+	}
+	return b.consistent()
+}
+
+// maxMagnitude bounds the size of the numbers a basis may hold: |Mean|,
+// |Band.Min|, |Band.Max|, StdDev and √Eigenvalues up to 1e150, covariance
+// entries up to 1e300 and, in correlation mode, StdDev down to 1e-150. A
+// pixel within the fitted range then deviates from the mean by at most
+// 2e150, its scores are sums of p such deviations times loadings of at most
+// 1, divided by at most 1e-150 in correlation mode, so at most p·2e300, and
+// the checks of consistent multiply numbers of at most 1e300 by loadings:
+// nothing overflows to ±Inf (MaxFloat64 ≈ 1.8e308) for any band count below
+// 10⁷. Real data stays tens of orders of magnitude inside.
+const maxMagnitude = 1e150
+
+// checkMagnitudes refuses numbers beyond maxMagnitude.
+func (b *Basis) checkMagnitudes() error {
+	const limit, limit2 = maxMagnitude, maxMagnitude * maxMagnitude
+	for j, bd := range b.Bands {
+		for _, c := range []struct {
+			field    string
+			v, limit float64
+		}{
+			{fmt.Sprintf("mean[%d]", j), b.Mean[j], limit},
+			{fmt.Sprintf("stddev[%d]", j), b.StdDev[j], limit},
+			{fmt.Sprintf("eigenvalues[%d]", j), b.Eigenvalues[j], limit2},
+			{fmt.Sprintf("bands[%d].min", j), bd.Min, limit},
+			{fmt.Sprintf("bands[%d].max", j), bd.Max, limit},
+		} {
+			if !(math.Abs(c.v) <= c.limit) {
+				return fmt.Errorf("%s = %g is beyond ±%g: folding with it could overflow", c.field, c.v, c.limit)
+			}
+		}
+		for i, v := range b.Covariance[j] {
+			if !(math.Abs(v) <= limit2) {
+				return fmt.Errorf("covariance[%d][%d] = %g is beyond ±%g: folding with it could overflow", j, i, v, limit2)
+			}
+		}
+		if b.Mode == Correlation && b.StdDev[j] < 1/limit {
+			return fmt.Errorf("stddev[%d] = %g is below %g: dividing by it in correlation mode could overflow", j, b.StdDev[j], 1/limit)
+		}
+	}
+	return nil
+}
+
+// eigenTol is the relative tolerance, against the largest eigenvalue λ₁, of
+// the eigenpair checks of consistent. LAPACK's symmetric eigensolver (dsyev,
+// behind gonum's mat.EigenSym) is backward stable: each computed pair has a
+// residual ‖C v − λ v‖ ≤ c·p·ε·‖C‖₂ with ε = 2⁻⁵³ ≈ 1.1e-16 and c a modest
+// constant (LAPACK Users' Guide, 3rd ed., section 4.7.1), and ‖C‖₂ = λ₁ for a
+// covariance or correlation matrix. The file holds every float64 with up to
+// 17 significant digits, which read back exactly (one rounding of the last
+// digit would add only ε·λ₁), and evaluating the residual here adds another
+// p·ε·λ₁. For p = 1000 bands, p·ε ≈ 1.1e-13, so 1e-8 leaves a factor of
+// 10⁵ for c and the rounding of the check itself: no basis this package
+// computed is refused, while an edit that matters for folding (an
+// eigenvalue, a matrix entry or a loading changed by 1e-6 of λ₁ or of 1, a
+// vector from another pair) is far beyond it.
+const eigenTol = 1e-8
+
+// consistent checks that the numbers of b agree with each other:
+//
+//   - StdDev[j] = √Covariance[j][j] to 1e-9 relative;
+//   - every stored pair is an eigenpair of the decomposed matrix A (the
+//     covariance C, or in correlation mode R = D⁻¹ C D⁻¹ built from it):
+//     ‖A v − λ v‖ ≤ eigenTol·λ₁, and λ equals the Rayleigh quotient
+//     vᵀAv / vᵀv to eigenTol·λ₁;
+//   - in correlation mode the eigenvalues sum to p, the trace of R;
+//   - each Mean[j] lies within [Band.Min, Band.Max] (up to rounding), when
+//     the band records a range (Min and Max not both 0, as in a partial).
+func (b *Basis) consistent() error {
+	p := len(b.Bands)
+	for j, s := range b.StdDev {
+		want := math.Sqrt(b.Covariance[j][j])
+		if !(math.Abs(s-want) <= 1e-9*want) {
+			return fmt.Errorf("stddev[%d] = %g, but the square root of covariance[%d][%d] is %g", j, s, j, j, want)
+		}
+	}
+	for j, bd := range b.Bands {
+		if bd.Min == 0 && bd.Max == 0 {
+			continue // no range recorded
+		}
+		// A mean computed in floating point can pass its extremes by a
+		// few ulp; 1e-9 of their magnitude covers that.
+		slack := 1e-9 * max(math.Abs(bd.Min), math.Abs(bd.Max))
+		if !(b.Mean[j] >= bd.Min-slack && b.Mean[j] <= bd.Max+slack) {
+			return fmt.Errorf("mean[%d] = %g is outside the valid range [%g, %g] recorded for band %d", j, b.Mean[j], bd.Min, bd.Max, j+1)
+		}
+	}
+
+	a := mat.NewSymDense(p, nil)
+	for i := range p {
+		for j := i; j < p; j++ {
+			a.SetSym(i, j, b.Covariance[i][j])
+		}
+	}
+	name := "covariance"
+	if b.Mode == Correlation {
+		r, err := bands.CorrelationOf(a)
+		if err != nil { // stddev > 0 and = √C_jj, checked above
+			return fmt.Errorf("correlation: %w", err)
+		}
+		a, name = r, "correlation"
+		var sum float64
+		for _, v := range b.Eigenvalues {
+			sum += v
+		}
+		if !(math.Abs(sum-float64(p)) <= eigenTol*float64(p)) {
+			return fmt.Errorf("eigenvalues sum to %g, but those of a %d-band correlation matrix sum to %d", sum, p, p)
+		}
+	}
+	scale := b.Eigenvalues[0] // ‖A‖₂ = λ₁, unless the file lies about λ₁
+	for j := range p {
+		scale = max(scale, a.At(j, j))
+	}
+	tol := eigenTol * scale
+
+	v := mat.NewDense(p, p, nil) // eigenvectors by column
+	for i, row := range b.Eigenvectors {
+		v.SetCol(i, row)
+	}
+	var av mat.Dense
+	av.Mul(a, v)
+	for i, lambda := range b.Eigenvalues {
+		var res, vav, vv float64
+		for l := range p {
+			vil, avl := v.At(l, i), av.At(l, i)
+			r := avl - lambda*vil
+			res += r * r
+			vav += vil * avl
+			vv += vil * vil
+		}
+		if res = math.Sqrt(res); !(res <= tol) {
+			return fmt.Errorf("eigenvectors[%d] and eigenvalues[%d] = %g are not an eigenpair of the %s matrix: ‖A v − λ v‖ = %.3g > %.0e·λ₁",
+				i, i, lambda, name, res, eigenTol)
+		}
+		if q := vav / vv; !(math.Abs(q-lambda) <= tol) {
+			return fmt.Errorf("eigenvalues[%d] = %g differs from the Rayleigh quotient %g of eigenvectors[%d] on the %s matrix", i, lambda, q, i, name)
+		}
+	}
 	return nil
 }
 
@@ -343,8 +494,8 @@ func checkBands(bands []Band) error {
 		switch {
 		case bd.Index < 1:
 			return fmt.Errorf("band %d: index %d is not 1-based", j+1, bd.Index)
-		case bd.NoData != nil && !finite(*bd.NoData):
-			return fmt.Errorf("band %d: nodata %v is not finite", j+1, *bd.NoData)
+		case bd.NoData != nil && math.IsInf(*bd.NoData, 0):
+			return fmt.Errorf("band %d: nodata %v is infinite (NaN or a finite value is accepted)", j+1, *bd.NoData)
 		case !finite(bd.Scale) || bd.Scale == 0 || !finite(bd.Offset):
 			return fmt.Errorf("band %d: scale %v and offset %v", j+1, bd.Scale, bd.Offset)
 		case !finite(bd.Min) || !finite(bd.Max) || bd.Min > bd.Max:
@@ -389,4 +540,13 @@ func (b *Basis) Source() string {
 		return "basis"
 	}
 	return b.Inputs[0].Path
+}
+
+// scale returns s_j, the scale of band j in b's folding: 1 in covariance mode,
+// the band standard deviation in correlation mode.
+func (b *Basis) scale(j int) float64 {
+	if b.Mode == Correlation {
+		return b.StdDev[j]
+	}
+	return 1
 }

@@ -7,6 +7,8 @@ import (
 
 	"gonum.org/v1/gonum/floats"
 	"gonum.org/v1/gonum/mat"
+
+	"bandfold/bands"
 )
 
 // tieTol is the relative difference below which two loadings count as equally
@@ -42,18 +44,18 @@ type Decomposition struct {
 func Decompose(s mat.Symmetric) (Decomposition, error) {
 	p := s.SymmetricDim()
 	if p == 0 {
-		return Decomposition{}, errors.New("transform: decompose: empty matrix")
+		return Decomposition{}, errors.New("empty matrix")
 	}
 	for i := range p {
 		for j := i; j < p; j++ {
 			if v := s.At(i, j); !finite(v) {
-				return Decomposition{}, fmt.Errorf("transform: decompose: element (%d, %d) is %v", i, j, v)
+				return Decomposition{}, fmt.Errorf("element (%d, %d) is %v", i, j, v)
 			}
 		}
 	}
 	var eig mat.EigenSym
 	if !eig.Factorize(s, true) {
-		return Decomposition{}, errors.New("transform: decompose: eigen-decomposition failed")
+		return Decomposition{}, errors.New("eigen-decomposition failed")
 	}
 	asc := eig.Values(nil) // ascending
 	var q mat.Dense
@@ -126,11 +128,41 @@ func Cumulative(values []float64) []float64 {
 	return cum
 }
 
+// ExplainedOn returns the share of a scene's total variance carried by the
+// kept components of b: with scene the per-band moments of the scene's valid
+// pixels and scores the per-component moments of their scores (Fold's
+// output),
+//
+//	Σ_i var(y_i) / Σ_j (var(x_j) / s_j²),
+//
+// where s_j is the scale of band j in b (1 in covariance mode, StdDev[j] in
+// correlation mode). Both variances are about the scene's own means, so on
+// the pixels b was fitted on this is Cumulative(b.Eigenvalues)[k-1] for k
+// components; on another scene it tells how well the basis carries over. It
+// returns NaN when the scene's total variance is zero or undefined (fewer
+// than two pixels), where the share is undefined. ExplainedOn panics if the
+// band count of scene is not that of b.
+func ExplainedOn(b *Basis, scene, scores *bands.Moments) float64 {
+	v := scene.Variance(nil)
+	if len(v) != len(b.Bands) {
+		panic(fmt.Sprintf("transform: ExplainedOn: moments of %d bands for a basis of %d", len(v), len(b.Bands)))
+	}
+	total := 0.0
+	for j, x := range v {
+		s := b.scale(j)
+		total += x / (s * s)
+	}
+	if !(total > 0) {
+		return math.NaN()
+	}
+	return floats.Sum(scores.Variance(nil)) / total
+}
+
 // ValidateFraction reports whether f can be passed to ComponentsFor: a
 // fraction of the total variance in (0, 1].
 func ValidateFraction(f float64) error {
 	if !(f > 0 && f <= 1) {
-		return fmt.Errorf("transform: variance fraction %v is not in (0, 1]", f)
+		return fmt.Errorf("variance fraction %v is not in (0, 1]", f)
 	}
 	return nil
 }
@@ -156,31 +188,43 @@ func ComponentsFor(values []float64, fraction float64) int {
 	return len(values)
 }
 
-// BrokenStick returns the number of leading components retained by the
-// broken-stick rule (Jackson 1993, "Stopping rules in principal components
+// BrokenStickShares returns the expected shares of the broken-stick model
+// for p components (Jackson 1993, "Stopping rules in principal components
 // analysis: a comparison of heuristical and statistical approaches",
-// Ecology 74(8)): component k is kept while its share of the total exceeds
+// Ecology 74(8)):
 //
-//	b_k = (1/p) Σ_{i=k}^{p} 1/i,
+//	b_k = (1/p) Σ_{i=k}^{p} 1/i,  k = 1..p,
 //
-// the expected length of the k-th longest piece of a stick broken at random
-// into p pieces. Counting stops at the first component that fails, so the
-// result is between 0 and p-1 (the b_k sum to 1, as do the shares).
-func BrokenStick(values []float64) int {
-	p := len(values)
-	share := Explained(values)
+// the expected length of the k-th longest piece of a stick of unit length
+// broken at random into p pieces. They are descending and sum to 1. The sums
+// are taken from the smallest term up. BrokenStickShares panics if p is
+// negative.
+func BrokenStickShares(p int) []float64 {
+	if p < 0 {
+		panic(fmt.Sprintf("transform: BrokenStickShares(%d)", p))
+	}
 	stick := make([]float64, p)
 	var tail float64
 	for i := p; i >= 1; i-- {
 		tail += 1 / float64(i)
 		stick[i-1] = tail / float64(p)
 	}
-	for k := range p {
-		if !(share[k] > stick[k]) {
+	return stick
+}
+
+// BrokenStick returns the number of leading components retained by the
+// broken-stick rule: component k is kept while its share of the total
+// (Explained) exceeds the expected share b_k of BrokenStickShares. Counting
+// stops at the first component that fails, so the result is between 0 and
+// p-1 (the b_k sum to 1, as do the shares).
+func BrokenStick(values []float64) int {
+	share := Explained(values)
+	for k, b := range BrokenStickShares(len(values)) {
+		if !(share[k] > b) {
 			return k
 		}
 	}
-	return p
+	return len(values)
 }
 
 // KaiserCount returns the number of values greater than 1: the Kaiser–Guttman

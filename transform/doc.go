@@ -2,16 +2,23 @@
 // computed from it without touching a raster:
 //
 //   - the eigen-decomposition of a band covariance or correlation matrix
-//     (Decompose) and the rules for how many components to keep (ComponentsFor,
-//     BrokenStick, KaiserCount);
+//     (Decompose), the shares of variance (Explained, Cumulative, and
+//     ExplainedOn for a scene folded with a basis) and the rules for how many
+//     components to keep (ComponentsFor, BrokenStick with BrokenStickShares,
+//     KaiserCount);
 //   - the versioned JSON files: the basis (Basis, "bandfold-basis") and the
 //     un-decomposed statistics written by one cluster shard (Partial,
 //     "bandfold-partial"), with CheckSet to verify that a set of partials is
-//     one whole job and Combine to merge their statistics;
+//     one whole job and Combine to merge their statistics. Marshal gives a
+//     file's bytes and ReadBasis and ReadPartial read one back, refusing a
+//     basis whose numbers contradict each other; writing files is the
+//     caller's;
 //   - the projection of pixels onto the leading components and back
-//     (Projector.Fold and Projector.Unfold);
+//     (Projector.Fold and Projector.Unfold), and of band differences between
+//     two dates onto score differences (Projector.Difference);
 //   - the loss of a reconstruction (Loss, LossReport, SpectralAngle, PSNR);
-//   - the Int16 storage of component scores (Int16Scaling, QuantizeInt16).
+//   - the Int16 storage of component scores (Int16Scaling, QuantizeInt16)
+//     and the storage of reconstructed bands (Storage).
 //
 // Band statistics are accumulated tile by tile by package bands; reading and
 // writing images is done elsewhere. This package is pure Go on top of gonum,

@@ -6,8 +6,9 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"math"
 	"os"
-	"path/filepath"
+	"strings"
 )
 
 var (
@@ -16,7 +17,8 @@ var (
 	ErrUnknownVersion = errors.New("unknown version")
 	// ErrMalformed is wrapped by the errors of ReadBasis and ReadPartial for
 	// a file that is not valid JSON, names another format, or holds values
-	// that are missing, out of range or of inconsistent shapes.
+	// that are missing, out of range, of inconsistent shapes or, in a basis,
+	// contradict each other.
 	ErrMalformed = errors.New("malformed")
 )
 
@@ -58,16 +60,18 @@ func parse[T any, PT interface {
 	return v, nil
 }
 
-// writeFile validates v and writes it to path with writeJSON; kind names the
-// file in errors.
-func writeFile(kind, path string, v document) error {
+// marshal validates v and encodes it as the content of its file: indented
+// JSON with every array of numbers on one line, ending in a newline; kind
+// names the file in errors.
+func marshal(kind string, v document) ([]byte, error) {
 	if err := v.validate(); err != nil {
-		return fmt.Errorf("%s %s: %w", kind, path, err)
+		return nil, fmt.Errorf("invalid %s: %w", kind, err)
 	}
-	if err := writeJSON(path, v); err != nil {
-		return fmt.Errorf("%s %s: %w", kind, path, err)
+	data, err := json.MarshalIndent(v, "", "  ")
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", kind, err)
 	}
-	return nil
+	return append(flattenLeaves(data), '\n'), nil
 }
 
 // decodeVersioned decodes a version 1 file of the given format into v,
@@ -93,50 +97,6 @@ func decodeVersioned(data []byte, format string, v any) error {
 	}
 	if _, err := dec.Token(); err != io.EOF {
 		return fmt.Errorf("%w: data after the JSON object", ErrMalformed)
-	}
-	return nil
-}
-
-// writeJSON writes v as indented JSON, arrays of numbers on one line each, to
-// path atomically: to a temporary file in the same folder, synced, closed and
-// renamed over path. The temporary file is removed on error.
-func writeJSON(path string, v any) (err error) {
-	data, err := json.MarshalIndent(v, "", "  ")
-	if err != nil {
-		return err
-	}
-	data = append(flattenLeaves(data), '\n')
-
-	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".tmp*")
-	if err != nil {
-		return err
-	}
-	defer func() {
-		if err != nil {
-			f.Close()
-			os.Remove(f.Name())
-		}
-	}()
-	if _, err = f.Write(data); err != nil {
-		return err
-	}
-	if err = f.Chmod(0o644); err != nil {
-		return err
-	}
-	if err = f.Sync(); err != nil {
-		return err
-	}
-	if err = f.Close(); err != nil {
-		return err
-	}
-	if err = os.Rename(f.Name(), path); err != nil {
-		return err
-	}
-	// Make the rename itself durable. Some file systems cannot sync a
-	// folder; the file is in place by now, so that is not an error.
-	if d, derr := os.Open(filepath.Dir(path)); derr == nil {
-		d.Sync()
-		d.Close()
 	}
 	return nil
 }
@@ -209,4 +169,72 @@ func leafEnd(in []byte, i int) (end int, leaf bool) {
 		}
 	}
 	return len(in), false
+}
+
+// bandFile is Band as a file holds it: the same members in the same order,
+// with a nodata value that can be NaN. TestBandFileMirrorsBand keeps the two
+// in step.
+type bandFile struct {
+	Name     string      `json:"name"`
+	Source   string      `json:"source"`
+	Index    int         `json:"index"`
+	DataType string      `json:"data_type"`
+	NoData   *noDataJSON `json:"nodata"`
+	Scale    float64     `json:"scale"`
+	Offset   float64     `json:"offset"`
+	Min      float64     `json:"min"`
+	Max      float64     `json:"max"`
+}
+
+// MarshalJSON encodes b as a member of a basis or partial file, a NaN nodata
+// value as the string "nan".
+func (b Band) MarshalJSON() ([]byte, error) {
+	f := bandFile{Name: b.Name, Source: b.Source, Index: b.Index, DataType: b.DataType,
+		NoData: (*noDataJSON)(b.NoData), Scale: b.Scale, Offset: b.Offset, Min: b.Min, Max: b.Max}
+	return json.Marshal(f)
+}
+
+// UnmarshalJSON decodes a band written by MarshalJSON, rejecting unknown
+// members as the file readers do.
+func (b *Band) UnmarshalJSON(data []byte) error {
+	var f bandFile
+	dec := json.NewDecoder(bytes.NewReader(data))
+	dec.DisallowUnknownFields()
+	if err := dec.Decode(&f); err != nil {
+		return fmt.Errorf("band: %w", err)
+	}
+	*b = Band{Name: f.Name, Source: f.Source, Index: f.Index, DataType: f.DataType,
+		NoData: (*float64)(f.NoData), Scale: f.Scale, Offset: f.Offset, Min: f.Min, Max: f.Max}
+	return nil
+}
+
+// noDataJSON is a nodata value in a file: a JSON number, or the string "nan"
+// (read in any case) for NaN.
+type noDataJSON float64
+
+func (v noDataJSON) MarshalJSON() ([]byte, error) {
+	if math.IsNaN(float64(v)) {
+		return []byte(`"nan"`), nil
+	}
+	return json.Marshal(float64(v))
+}
+
+func (v *noDataJSON) UnmarshalJSON(data []byte) error {
+	if len(data) > 0 && data[0] == '"' {
+		var s string
+		if err := json.Unmarshal(data, &s); err != nil {
+			return err
+		}
+		if !strings.EqualFold(s, "nan") {
+			return fmt.Errorf("nodata %q: want a number or \"nan\"", s)
+		}
+		*v = noDataJSON(math.NaN())
+		return nil
+	}
+	var x float64
+	if err := json.Unmarshal(data, &x); err != nil {
+		return fmt.Errorf("nodata: %w", err)
+	}
+	*v = noDataJSON(x)
+	return nil
 }

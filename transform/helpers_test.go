@@ -45,25 +45,31 @@ func checkRelSlice(t *testing.T, what string, got, want []float64, ref, tol floa
 	}
 }
 
-// testBands returns p plausible band descriptions.
+// testBands returns p plausible band descriptions, with no valid range
+// recorded (Min and Max 0).
 func testBands(p int) []Band {
 	bs := make([]Band, p)
 	for j := range bs {
 		bs[j] = Band{
 			Name: "B" + strconv.Itoa(j+1), Source: "scene.tif", Index: j + 1,
-			DataType: "Float64", Scale: 1, Min: -math.MaxFloat64, Max: math.MaxFloat64,
+			DataType: "Float64", Scale: 1,
 		}
 	}
 	return bs
 }
 
 // fit accumulates the pixel-major block x of p bands with bands.Accumulator
-// and fits a basis to it.
+// and fits a basis to it, recording each band's range as learning does.
 func fit(t testing.TB, mode Mode, x []float64, p int) *Basis {
 	t.Helper()
 	acc := bands.NewAccumulator(p)
 	acc.AddPixels(x, nil)
-	b, err := NewBasis(mode, testBands(p), int64(acc.Count()), acc.Mean(nil), acc.Covariance(nil))
+	bs := testBands(p)
+	lo, hi := acc.Min(nil), acc.Max(nil)
+	for j := range bs {
+		bs[j].Min, bs[j].Max = lo[j], hi[j]
+	}
+	b, err := NewBasis(mode, bs, int64(acc.Count()), acc.Mean(nil), acc.Covariance(nil))
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -21,7 +21,7 @@ func ParseMode(s string) (Mode, error) {
 	case Covariance, Correlation:
 		return m, nil
 	}
-	return "", fmt.Errorf("transform: unknown mode %q (want %q or %q)", s, Covariance, Correlation)
+	return "", fmt.Errorf("unknown mode %q (want %q or %q)", s, Covariance, Correlation)
 }
 
 func (m Mode) valid() bool { return m == Covariance || m == Correlation }

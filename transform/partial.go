@@ -3,6 +3,7 @@ package transform
 import (
 	"errors"
 	"fmt"
+	"math"
 	"slices"
 	"time"
 
@@ -50,9 +51,11 @@ func ReadPartial(path string) (*Partial, error) {
 	return readFile[Partial]("partial", PartialFormat, path)
 }
 
-// WriteFile checks pt and writes it to path atomically, as Basis.WriteFile
-// does.
-func (pt *Partial) WriteFile(path string) error { return writeFile("partial", path, pt) }
+func parsePartial(data []byte) (*Partial, error) { return parse[Partial](PartialFormat, data) }
+
+// Marshal checks pt and returns the content of its partial file, formatted
+// as Basis.Marshal formats a basis.
+func (pt *Partial) Marshal() ([]byte, error) { return marshal("partial", pt) }
 
 func (pt *Partial) validate() error {
 	switch {
@@ -153,7 +156,7 @@ func describeDiff[T any](what string, a, b []T, same func(T, T) bool, str func(T
 }
 
 func sameBand(a, b Band) bool {
-	if (a.NoData == nil) != (b.NoData == nil) || (a.NoData != nil && *a.NoData != *b.NoData) {
+	if (a.NoData == nil) != (b.NoData == nil) || (a.NoData != nil && !sameValue(*a.NoData, *b.NoData)) {
 		return false
 	}
 	a.NoData, b.NoData = nil, nil
@@ -188,3 +191,7 @@ func Combine(parts []*Partial, paths []string) (*bands.Accumulator, error) {
 	}
 	return acc, nil
 }
+
+// sameValue reports whether x and y are the same nodata value: equal, or
+// both NaN.
+func sameValue(x, y float64) bool { return x == y || (math.IsNaN(x) && math.IsNaN(y)) }

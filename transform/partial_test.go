@@ -40,7 +40,7 @@ func goldenPartial() *Partial {
 }
 
 func TestPartialGolden(t *testing.T) {
-	goldenRoundTrip(t, goldenPartial(), "partial_v1.golden.json", (*Partial).WriteFile, ReadPartial)
+	goldenRoundTrip(t, goldenPartial(), "partial_v1.golden.json", (*Partial).Marshal, ReadPartial)
 }
 
 // shards splits n seeded pixels of p bands into N shards of consecutive
@@ -65,10 +65,10 @@ func TestPartialRoundTrip(t *testing.T) {
 	parts, _, _ := shards(t, 100, 5, 1)
 	pt := parts[0]
 	pt.Created = time.Now().UTC()
-	roundTrip(t, pt, (*Partial).WriteFile, ReadPartial)
+	roundTrip(t, pt, (*Partial).Marshal, parsePartial)
 	// An empty shard (no valid pixel) has no extremes and still round-trips.
 	pt.State = bands.NewAccumulator(5).State()
-	roundTrip(t, pt, (*Partial).WriteFile, ReadPartial)
+	roundTrip(t, pt, (*Partial).Marshal, parsePartial)
 }
 
 func TestReadPartialRejects(t *testing.T) {
@@ -91,7 +91,7 @@ func TestReadPartialRejects(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			pt := goldenPartial()
 			tc.edit(pt)
-			// Bypass WriteFile's check to produce the bad file.
+			// Bypass Marshal's check to produce the bad file.
 			path := filepath.Join(t.TempDir(), "bad.json")
 			data := mustJSON(t, pt)
 			if err := os.WriteFile(path, data, 0o644); err != nil {
@@ -101,8 +101,8 @@ func TestReadPartialRejects(t *testing.T) {
 			if !errors.Is(err, tc.want) || !strings.HasPrefix(err.Error(), "partial "+path+": ") {
 				t.Errorf("ReadPartial: %v, want an error naming the file and wrapping %v", err, tc.want)
 			}
-			if err := pt.WriteFile(path); err == nil {
-				t.Error("WriteFile accepted it")
+			if _, err := pt.Marshal(); err == nil {
+				t.Error("Marshal accepted it")
 			}
 		})
 	}
@@ -200,4 +200,49 @@ func TestCombine(t *testing.T) {
 	if _, err := Combine(parts[:2], paths[:2]); err == nil {
 		t.Error("Combine accepted an incomplete set")
 	}
+}
+
+// FuzzReadPartial is FuzzReadBasis for partial files; a partial has no
+// fingerprint, so the marshalled bytes must be stable instead.
+func FuzzReadPartial(f *testing.F) {
+	for _, name := range []string{"partial_v1.golden.json", "basis_v1.golden.json"} {
+		data, err := os.ReadFile(filepath.Join("testdata", name))
+		if err != nil {
+			f.Fatal(err)
+		}
+		f.Add(data)
+		f.Add(data[:len(data)/2])
+	}
+	empty := goldenPartial()
+	empty.Bands[0].NoData = new(math.NaN())
+	empty.State = bands.NewAccumulator(2).State()
+	data, err := empty.Marshal()
+	if err != nil {
+		f.Fatal(err)
+	}
+	f.Add(data)
+	f.Add([]byte(`{"format":"bandfold-partial","version":1,"state":{}}`))
+	f.Fuzz(func(t *testing.T, data []byte) {
+		pt, err := parsePartial(data)
+		if err != nil {
+			if pt != nil {
+				t.Fatal("non-nil partial with an error")
+			}
+			return
+		}
+		out, err := pt.Marshal()
+		if err != nil {
+			t.Fatalf("parsed partial does not marshal: %v", err)
+		}
+		again, err := parsePartial(out)
+		if err != nil {
+			t.Fatalf("marshalled partial does not parse: %v", err)
+		}
+		if out2, err := again.Marshal(); err != nil || string(out2) != string(out) {
+			t.Fatalf("second round trip changed the file (%v)", err)
+		}
+		if foreign(pt, again) != "" || pt.Shard != again.Shard {
+			t.Fatalf("round trip changed the job: %s", foreign(pt, again))
+		}
+	})
 }

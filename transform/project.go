@@ -60,11 +60,11 @@ func NewProjector(b *Basis, k int) (*Projector, error) {
 		panic("transform: NewProjector: nil basis")
 	}
 	if err := b.validate(); err != nil {
-		return nil, fmt.Errorf("transform: invalid basis: %w", err)
+		return nil, fmt.Errorf("invalid basis: %w", err)
 	}
 	p := len(b.Bands)
 	if k < 1 || k > p {
-		return nil, fmt.Errorf("transform: %d components out of range 1..%d", k, p)
+		return nil, fmt.Errorf("%d components out of range 1..%d", k, p)
 	}
 	pr := &Projector{
 		p:      p,
@@ -75,10 +75,7 @@ func NewProjector(b *Basis, k int) (*Projector, error) {
 	}
 	for c := range k {
 		for j, w := range b.Eigenvectors[c] {
-			s := 1.0
-			if b.Mode == Correlation {
-				s = b.StdDev[j]
-			}
+			s := b.scale(j)
 			pr.fold.Data[j*k+c] = w / s
 			pr.unfold.Data[c*p+j] = w * s
 		}
@@ -113,6 +110,26 @@ func (pr *Projector) Fold(dst, x []float64) {
 	pr.foldBLAS(dst, x, n)
 }
 
+// Difference stores in dst the differences of the k component scores of n
+// pixels between two dates, from the differences of their bands: dx holds
+// n = len(dx)/p pixels of p band differences x_after − x_before,
+// pixel-major, and dst receives
+//
+//	d = y_after − y_before = W_kᵀ (dx / s),
+//
+// n·k values, pixel-major. The mean cancels, so it is not subtracted; the
+// result equals Fold(after) − Fold(before) without the cancellation of two
+// nearly equal scores. It panics if len(dx) is not a multiple of p or
+// len(dst) is not n·k.
+func (pr *Projector) Difference(dst, dx []float64) {
+	n := blockSize("Difference", dst, dx, pr.k, pr.p)
+	if pr.fused() {
+		mulRows(dst, dx, pr.fold, nil, nil)
+		return
+	}
+	pr.gemmFold(dst, dx, n)
+}
+
 // foldChunk is the number of pixels foldBLAS centres and multiplies at a
 // time, which bounds its scratch to foldChunk·p values.
 const foldChunk = 1024
@@ -132,11 +149,20 @@ func (pr *Projector) foldBLAS(dst, x []float64, n int) {
 				zi[j] = xi[j] - m
 			}
 		}
-		blas64.Gemm(blas.NoTrans, blas.NoTrans, 1,
-			blas64.General{Rows: end - start, Cols: pr.p, Stride: pr.p, Data: z},
-			pr.fold, 0,
-			blas64.General{Rows: end - start, Cols: pr.k, Stride: pr.k, Data: dst[start*pr.k : end*pr.k]})
+		pr.gemmFold(dst[start*pr.k:end*pr.k], z, end-start)
 	}
+}
+
+// gemmFold sets the n×k block dst to the n×p block z times the fold matrix
+// with blas64.Gemm.
+func (pr *Projector) gemmFold(dst, z []float64, n int) {
+	if n == 0 {
+		return
+	}
+	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1,
+		blas64.General{Rows: n, Cols: pr.p, Stride: pr.p, Data: z},
+		pr.fold, 0,
+		blas64.General{Rows: n, Cols: pr.k, Stride: pr.k, Data: dst})
 }
 
 // Unfold stores in dst the reconstruction of each pixel from its scores: y

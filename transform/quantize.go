@@ -63,10 +63,7 @@ func QuantizeInt16(v, scale, offset float64) int16 {
 func (b *Basis) ScoreBound(i int) float64 {
 	bound := 0.0
 	for j, w := range b.Eigenvectors[i] {
-		dev := max(math.Abs(b.Bands[j].Min-b.Mean[j]), math.Abs(b.Bands[j].Max-b.Mean[j]))
-		if b.Mode == Correlation {
-			dev /= b.StdDev[j]
-		}
+		dev := max(math.Abs(b.Bands[j].Min-b.Mean[j]), math.Abs(b.Bands[j].Max-b.Mean[j])) / b.scale(j)
 		bound += math.Abs(w) * dev
 	}
 	return bound

@@ -34,7 +34,9 @@
 // A Model is fitted once, on a bounded sample of pixels drawn with a Sampler,
 // and then scores every pixel through a Scorer, one per worker goroutine.
 // Thresholds ("chisq:0.999", "sigma:3", "otsu", "value:25") are parsed by
-// ParseThreshold and resolved to a cut-off on Z by Threshold.Resolve.
+// ParseThreshold and resolved to a cut-off on Z by Threshold.Resolve. A map
+// is compared with reference data by counting a Confusion matrix, whose Rates
+// are the usual accuracy measures.
 //
 // Pixel blocks are pixel-major: n pixels of k components are a []float64 of
 // length n·k whose element i·k+j is component j of pixel i.

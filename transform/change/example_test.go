@@ -23,8 +23,8 @@ func ExampleParseThreshold() {
 	// sigma:3: trim 0.999, Z > 104.307 (<nil>)
 	// otsu: trim 0.999, Z > 11.650 (<nil>)
 	// value:25: trim 0.999, Z > 25.000 (<nil>)
-	// change: threshold "chisq:1": quantile 1 not in (0, 1)
-	// change: threshold "median": unknown rule "median" (want chisq:Q, sigma:N, otsu or value:Z)
+	// threshold "chisq:1": quantile 1 not in (0, 1)
+	// threshold "median": unknown rule "median" (want chisq:Q, sigma:N, otsu or value:Z)
 }
 
 func ExampleFit() {

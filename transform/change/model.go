@@ -8,6 +8,8 @@ import (
 
 	"gonum.org/v1/gonum/mat"
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"bandfold/bands"
 )
 
 // DefaultTrim is the trimming quantile q used by Fit when a threshold rule
@@ -39,12 +41,12 @@ var (
 	// ErrTooFewPixels is returned by Fit when there are fewer than k+1
 	// pixels, or fewer than k+1 are left unflagged, so that a k×k
 	// covariance cannot be estimated.
-	ErrTooFewPixels = errors.New("change: too few pixels")
+	ErrTooFewPixels = errors.New("too few pixels")
 	// ErrSingular is returned when the no-change covariance is not
 	// positive definite or is too ill-conditioned to invert (condition
 	// number above 1e12), for example when one component difference is
 	// constant or a linear combination of the others.
-	ErrSingular = errors.New("change: singular no-change covariance")
+	ErrSingular = errors.New("singular no-change covariance")
 )
 
 // Model is the no-change distribution of the component-score differences: a
@@ -129,7 +131,7 @@ func Fit(d []float64, k int, trim float64) (*Model, error) {
 	}
 	for i, v := range d {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("change: difference %v at pixel %d, component %d", v, i/k, i%k)
+			return nil, fmt.Errorf("difference %v at pixel %d, component %d", v, i/k, i%k)
 		}
 	}
 
@@ -141,16 +143,20 @@ func Fit(d []float64, k int, trim float64) (*Model, error) {
 		return nil, err
 	}
 
-	flags := make([]bool, n)
+	keep := make([]bool, n) // not flagged
+	for p := range keep {
+		keep[p] = true
+	}
+	acc := bands.NewAccumulator(k)
 	cov := mat.NewSymDense(k, nil)
 	for it := 1; ; it++ {
 		sc := m.Scorer()
 		changed, flagged := 0, 0
-		for p := range flags {
+		for p := range keep {
 			f := sc.Z(d[p*k:(p+1)*k]) > cut
-			if f != flags[p] {
+			if f == keep[p] {
 				changed++
-				flags[p] = f
+				keep[p] = !f
 			}
 			if f {
 				flagged++
@@ -160,7 +166,7 @@ func Fit(d []float64, k int, trim float64) (*Model, error) {
 			return nil, fmt.Errorf("%w: %d of %d pixels left after trimming at q = %v, need at least %d",
 				ErrTooFewPixels, n-flagged, n, trim, k+1)
 		}
-		trimmedMoments(m.loc, cov, d, k, flags, n-flagged)
+		trimmedMoments(acc, m.loc, cov, d, keep)
 		cov.ScaleSym(consistency, cov)
 		if err := m.factorise(cov); err != nil {
 			return nil, fmt.Errorf("%w (iteration %d, %d pixels retained)", err, it, n-flagged)
@@ -221,45 +227,14 @@ func median(s []float64) float64 {
 }
 
 // trimmedMoments sets loc to the mean and cov to the covariance (divisor
-// kept−1) of the pixels of d whose flag is false; kept is their number.
-func trimmedMoments(loc []float64, cov *mat.SymDense, d []float64, k int, flags []bool, kept int) {
-	clear(loc)
-	for p, f := range flags {
-		if f {
-			continue
-		}
-		for j, v := range d[p*k : (p+1)*k] {
-			loc[j] += v
-		}
-	}
-	for j := range loc {
-		loc[j] /= float64(kept)
-	}
-	// Upper triangle, packed row by row, accumulated on centred values.
-	acc := make([]float64, k*(k+1)/2)
-	c := make([]float64, k)
-	for p, f := range flags {
-		if f {
-			continue
-		}
-		for j, v := range d[p*k : (p+1)*k] {
-			c[j] = v - loc[j]
-		}
-		t := 0
-		for i, ci := range c {
-			for _, cj := range c[i:] {
-				acc[t] += ci * cj
-				t++
-			}
-		}
-	}
-	t := 0
-	for i := range k {
-		for j := i; j < k; j++ {
-			cov.SetSym(i, j, acc[t]/float64(kept-1))
-			t++
-		}
-	}
+// kept−1) of the pixels of d whose keep flag is set, accumulating them in acc
+// (emptied first), whose co-moment merge keeps full precision however far
+// the differences are from zero.
+func trimmedMoments(acc *bands.Accumulator, loc []float64, cov *mat.SymDense, d []float64, keep []bool) {
+	acc.Reset()
+	acc.AddPixels(d, keep)
+	acc.Mean(loc)
+	acc.Covariance(cov)
 }
 
 // factorise stores the lower Cholesky factor of cov in m.
@@ -301,13 +276,13 @@ func NewModel(location []float64, cov mat.Symmetric) (*Model, error) {
 	}
 	for j, v := range location {
 		if math.IsNaN(v) || math.IsInf(v, 0) {
-			return nil, fmt.Errorf("change: location %v at component %d", v, j)
+			return nil, fmt.Errorf("location %v at component %d", v, j)
 		}
 	}
 	for i := range k {
 		for j := i; j < k; j++ {
 			if v := cov.At(i, j); math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("change: covariance %v at (%d, %d)", v, i, j)
+				return nil, fmt.Errorf("covariance %v at (%d, %d)", v, i, j)
 			}
 		}
 	}

@@ -33,7 +33,7 @@ const OtsuBins = 256
 
 // ErrNoScores is returned by Threshold.Resolve when a rule that needs a sample
 // of Z values (sigma, otsu) is given fewer than two.
-var ErrNoScores = errors.New("change: too few Z values to resolve threshold")
+var ErrNoScores = errors.New("too few Z values to resolve threshold")
 
 const thresholdForms = "chisq:Q, sigma:N, otsu or value:Z"
 
@@ -55,32 +55,32 @@ type Threshold struct {
 // quantile not in (0, 1), a sigma multiple ≤ 0 or a negative Z value.
 func ParseThreshold(s string) (Threshold, error) {
 	if s == "" {
-		return Threshold{}, fmt.Errorf("change: empty threshold (want %s)", thresholdForms)
+		return Threshold{}, fmt.Errorf("empty threshold (want %s)", thresholdForms)
 	}
 	rule, arg, hasArg := strings.Cut(s, ":")
 	switch rule {
 	case RuleOtsu:
 		if hasArg {
-			return Threshold{}, fmt.Errorf("change: threshold %q: otsu takes no number", s)
+			return Threshold{}, fmt.Errorf("threshold %q: otsu takes no number", s)
 		}
 		return Threshold{Rule: RuleOtsu}, nil
 	case RuleChiSq, RuleSigma, RuleValue:
 	default:
-		return Threshold{}, fmt.Errorf("change: threshold %q: unknown rule %q (want %s)", s, rule, thresholdForms)
+		return Threshold{}, fmt.Errorf("threshold %q: unknown rule %q (want %s)", s, rule, thresholdForms)
 	}
 	if arg == "" {
-		return Threshold{}, fmt.Errorf("change: threshold %q: missing number after %q", s, rule+":")
+		return Threshold{}, fmt.Errorf("threshold %q: missing number after %q", s, rule+":")
 	}
 	v, err := strconv.ParseFloat(arg, 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return Threshold{}, fmt.Errorf("change: threshold %q: bad number %q", s, arg)
+		return Threshold{}, fmt.Errorf("threshold %q: bad number %q", s, arg)
 	}
 	if v == 0 {
 		v = 0 // no "-0"
 	}
 	t := Threshold{Rule: rule, Param: v}
 	if err := t.check(); err != nil {
-		return Threshold{}, fmt.Errorf("change: threshold %q: %v", s, err)
+		return Threshold{}, fmt.Errorf("threshold %q: %v", s, err)
 	}
 	return t, nil
 }
@@ -169,7 +169,7 @@ func (t Threshold) Resolve(k int, zs []float64) (float64, error) {
 	}
 	for i, z := range zs {
 		if !(z >= 0) || math.IsInf(z, 1) {
-			return 0, fmt.Errorf("change: Z value %v at %d is not finite and >= 0", z, i)
+			return 0, fmt.Errorf("Z value %v at %d is not finite and >= 0", z, i)
 		}
 	}
 	if t.Rule == RuleSigma {
@@ -194,7 +194,7 @@ func (t Threshold) Resolve(k int, zs []float64) (float64, error) {
 		lo, hi = min(lo, x), max(hi, x)
 	}
 	if !(hi > lo) {
-		return 0, fmt.Errorf("change: otsu: all %d Z values are equal", len(zs))
+		return 0, fmt.Errorf("otsu: all %d Z values are equal", len(zs))
 	}
 	width := (hi - lo) / OtsuBins
 	hist := make([]float64, OtsuBins)
