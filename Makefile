@@ -6,7 +6,7 @@ DEBS := libgdal-dev gdal-bin libopenblas-dev pkg-config
 VERSION := $(shell git describe --always --dirty 2>/dev/null || echo dev)
 export GOFLAGS := -buildvcs=false
 
-.PHONY: all deps build test unit testdata demo bench test-cluster clean
+.PHONY: all deps build test unit fuzz testdata demo bench test-cluster clean
 
 all: build
 
@@ -25,7 +25,10 @@ unit: deps testdata
 	$(GO) vet ./...
 	$(GO) test -count=1 ./...
 
-test: unit test-cluster
+test: unit fuzz test-cluster
+
+fuzz: deps testdata
+	@GO=$(GO) bash scripts/fuzz.sh
 
 test-cluster: build testdata
 	@BANDFOLD=$(BIN) bash scripts/test-cluster.sh

@@ -47,3 +47,21 @@ func (g *globals) progress(label string, pixels int64) func(done, total int) {
 		}
 	}
 }
+
+// progressHook, when set (by tests only), is called after every tile of
+// every pass, so a test can interrupt a run at a chosen point.
+var progressHook func(label string, done, total int)
+
+// passProgress is the job environment's progress: the bar, and the hook.
+func (g *globals) passProgress(label string, pixels int64) func(done, total int) {
+	bar := g.progress(label, pixels)
+	if progressHook == nil {
+		return bar
+	}
+	return func(done, total int) {
+		if bar != nil {
+			bar(done, total)
+		}
+		progressHook(label, done, total)
+	}
+}

@@ -15,8 +15,10 @@ import (
 	"syscall"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"bandfold/bands/openblas"
+	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/raster"
 )
 
@@ -27,9 +29,13 @@ var version = "0.1.0-dev"
 // Exit codes.
 const (
 	exitOK      = 0
-	exitFailure = 1 // runtime failure, including any failed item of a batch
+	exitFailure = 1 // runtime failure, including any failed scene of a batch
 	exitUsage   = 2 // bad command line
 )
+
+// runContext is the context of the running command line, cancelled by
+// SIGINT or SIGTERM; tests wait on it to interrupt a run deterministically.
+var runContext context.Context
 
 // globals holds the flags shared by every command and the streams commands
 // write to.
@@ -40,22 +46,15 @@ type globals struct {
 	workers int
 	stdout  io.Writer
 	stderr  io.Writer
-	log     *slog.Logger
+	// started is set when a command's own code begins: any error before
+	// that comes from parsing the command line.
+	started bool
 }
-
-// usageError marks an error in what the user typed, as opposed to a failure
-// while running; it maps to exit code 2.
-type usageError struct{ err error }
-
-func (e usageError) Error() string { return e.err.Error() }
-func (e usageError) Unwrap() error { return e.err }
-
-// usagef returns a usage error.
-func usagef(format string, args ...any) error { return usageError{fmt.Errorf(format, args...)} }
 
 func run(args []string, stdout, stderr io.Writer) int {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	defer stop()
+	runContext = ctx
 	g := &globals{stdout: stdout, stderr: stderr}
 	root := newRootCommand(g)
 	root.SetArgs(args)
@@ -65,35 +64,28 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if err == nil {
 		return exitOK
 	}
-	if errors.Is(err, errBatchFailed) {
-		return exitFailure // items already reported
+	code := exitFailure
+	if !g.started || job.IsUsage(err) {
+		code = exitUsage
 	}
 	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
-	if errors.Is(err, context.Canceled) {
+	switch {
+	case errors.Is(err, context.Canceled):
 		msg = "interrupted; partial outputs removed"
+	case errors.Is(err, job.ErrBatchFailed):
+		msg = "" // every failed scene was reported on its own line
 	}
-	fmt.Fprintf(stderr, "bandfold: %s\n", msg)
-	var ue usageError
-	if errors.As(err, &ue) || isCobraUsage(err) {
-		return exitUsage
+	if msg != "" {
+		fmt.Fprintf(stderr, "bandfold: %s\n", msg)
 	}
-	return exitFailure
-}
-
-// errBatchFailed is returned when some items of a batch failed; each was
-// reported on its own line already.
-var errBatchFailed = errors.New("some items failed")
-
-// isCobraUsage recognises cobra's own command-line errors (unknown flags,
-// bad flag values, wrong argument counts, unknown commands).
-func isCobraUsage(err error) bool {
-	s := err.Error()
-	for _, p := range []string{"unknown flag", "unknown shorthand", "unknown command", "invalid argument", "flag needs an argument", "accepts ", "requires at least", "requires at most", "required flag", "at least one of the flags", "if any flags in the group"} {
-		if strings.Contains(s, p) {
-			return true
+	if g.json {
+		if msg == "" {
+			msg = err.Error()
 		}
+		b, _ := json.Marshal(map[string]any{"error": msg, "exit_code": code})
+		fmt.Fprintf(stdout, "%s\n", b)
 	}
-	return false
+	return code
 }
 
 func newRootCommand(g *globals) *cobra.Command {
@@ -111,13 +103,11 @@ image. A pixel counts only when it is valid in every selected band.`,
 		Example: `  bandfold demo --dir demo-out
   bandfold learn scene.tif --out scene.basis.json
   bandfold fold scene.tif --basis scene.basis.json --out scene.components.tif`,
+		Version:       version,
 		SilenceErrors: true,
 		SilenceUsage:  true,
-		PersistentPreRunE: func(cmd *cobra.Command, _ []string) error {
-			return g.setup()
-		},
 	}
-	root.SetFlagErrorFunc(func(_ *cobra.Command, err error) error { return usageError{err} })
+	root.SetVersionTemplate("bandfold {{.Version}}\n")
 	f := root.PersistentFlags()
 	f.BoolVar(&g.json, "json", false, "print the command's summary as JSON on stdout (human text goes to stderr)")
 	f.IntVar(&g.workers, "workers", runtime.NumCPU(), "number of parallel workers")
@@ -137,30 +127,43 @@ image. A pixel counts only when it is valid in every selected band.`,
 	return root
 }
 
-// setup runs before every command: logging, worker count, memory limit and
-// GDAL's configuration, which must precede the first GDAL call.
-func (g *globals) setup() error {
-	level := slog.LevelInfo
+// runE wraps a command's work: it marks the command line as parsed, sets up
+// the process (memory limit, BLAS threads, GDAL) and builds the job
+// environment.
+func (g *globals) runE(work func(ctx context.Context, env job.Env, args []string) error) func(*cobra.Command, []string) error {
+	return func(cmd *cobra.Command, args []string) error {
+		g.started = true
+		if g.workers < 1 {
+			return job.Usagef("--workers %d: need at least 1", g.workers)
+		}
+		// A soft limit makes the collector work harder before the heap
+		// grows past what the tile buffers need; GOMEMLIMIT in the
+		// environment wins.
+		if os.Getenv("GOMEMLIMIT") == "" {
+			debug.SetMemoryLimit(192 << 20)
+		}
+		// Rank-k updates and projections go to OpenBLAS, one thread per
+		// worker, so rounding does not depend on the machine's core count.
+		openblas.Use()
+		env := g.env()
+		if err := raster.Init(raster.Config{CacheMB: 32, Log: env.Log}); err != nil {
+			return err
+		}
+		return work(cmd.Context(), env, args)
+	}
+}
+
+// env is the job environment of a command.
+func (g *globals) env() job.Env {
+	level := slog.LevelWarn
 	switch {
 	case g.verbose:
 		level = slog.LevelDebug
 	case g.quiet:
 		level = slog.LevelError
 	}
-	g.log = slog.New(slog.NewTextHandler(g.stderr, &slog.HandlerOptions{Level: level}))
-	slog.SetDefault(g.log)
-	if g.workers < 1 {
-		return usagef("--workers %d: need at least 1", g.workers)
-	}
-	// A soft limit makes the collector work harder before the heap grows
-	// past what the tile buffers need; GOMEMLIMIT in the environment wins.
-	if os.Getenv("GOMEMLIMIT") == "" {
-		debug.SetMemoryLimit(192 << 20)
-	}
-	// Rank-k updates and projections go to OpenBLAS, one thread per
-	// worker, so rounding does not depend on the machine's core count.
-	openblas.Use()
-	return raster.Init(raster.Config{CacheMB: 32})
+	return job.Env{Workers: g.workers, Version: version, Progress: g.passProgress,
+		Log: slog.New(&lineHandler{w: g.stderr, level: level, details: g.verbose})}
 }
 
 // info prints a line of human text on stderr unless --quiet.
@@ -181,4 +184,92 @@ func (g *globals) emit(v any) error {
 	}
 	_, err = fmt.Fprintf(g.stdout, "%s\n", b)
 	return err
+}
+
+// args wraps a cobra argument check so that its error is a usage error.
+func args(check cobra.PositionalArgs) cobra.PositionalArgs {
+	return func(cmd *cobra.Command, a []string) error {
+		if err := check(cmd, a); err != nil {
+			return &job.UsageError{Err: err}
+		}
+		return nil
+	}
+}
+
+// usagef is job.Usagef, for flag translation.
+var usagef = job.Usagef
+
+// lineHandler prints log records as one readable line each: "warning: ..."
+// for warnings, "debug: ..." with the record's attributes for details.
+type lineHandler struct {
+	w       io.Writer
+	level   slog.Level
+	details bool
+	attrs   []slog.Attr
+}
+
+func (h *lineHandler) Enabled(_ context.Context, l slog.Level) bool { return l >= h.level }
+
+func (h *lineHandler) Handle(_ context.Context, r slog.Record) error {
+	var b strings.Builder
+	b.WriteString(strings.ToLower(r.Level.String()))
+	if r.Level == slog.LevelWarn {
+		b.Reset()
+		b.WriteString("warning")
+	}
+	b.WriteString(": ")
+	b.WriteString(r.Message)
+	if h.details || r.Level < slog.LevelInfo {
+		add := func(a slog.Attr) bool {
+			fmt.Fprintf(&b, " %s=%v", a.Key, a.Value)
+			return true
+		}
+		for _, a := range h.attrs {
+			add(a)
+		}
+		r.Attrs(add)
+	}
+	b.WriteByte('\n')
+	_, err := io.WriteString(h.w, b.String())
+	return err
+}
+
+func (h *lineHandler) WithAttrs(as []slog.Attr) slog.Handler {
+	c := *h
+	c.attrs = append(append([]slog.Attr(nil), h.attrs...), as...)
+	return &c
+}
+
+func (h *lineHandler) WithGroup(string) slog.Handler { return h }
+
+// inputFlags are the flags that say how to read an input image.
+type inputFlags struct {
+	bands  string
+	nodata string
+	mask   string
+	tile   int
+}
+
+func (f *inputFlags) register(fs *pflag.FlagSet) {
+	fs.StringVar(&f.bands, "bands", "", `bands to use, 1-based lists and ranges such as "1-5,7" (default all)`)
+	fs.StringVar(&f.nodata, "nodata", "", `nodata value overriding the files': one for all bands, or a comma list with one per band ("nan" for NaN)`)
+	fs.StringVar(&f.mask, "mask", "", "validity mask on the same grid (non-zero = valid)")
+	fs.IntVar(&f.tile, "tile", 0, "tile size N for N x N pixel tiles (default: aligned to the file's blocks, about 16 MiB of float64 per tile)")
+}
+
+// input translates the flags.
+func (f *inputFlags) input() (job.Input, error) {
+	sel, err := raster.ParseBands(f.bands)
+	if err != nil {
+		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+	}
+	nd, err := raster.ParseNoData(f.nodata)
+	if err != nil {
+		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+	}
+	in := job.Input{Bands: sel, NoData: nd, Tile: f.tile}
+	if f.mask != "" {
+		in.Masks = []string{f.mask}
+	}
+	return in, nil
 }

@@ -8,10 +8,9 @@
 //     diverging colour scale centred on zero, with a colour bar.
 //   - Quicklook helpers: percentile stretch (Percentiles, Stretch),
 //     RGB composition (RGB), patch outlines (Outline), a legend panel
-//     with a scale bar and a line of text (Annotate), and an atomic
-//     PNG writer (WritePNG).
+//     with a scale bar and a line of text (Annotate).
 //
 // The package owns only drawing: it does not read rasters or compute
 // principal components. Callers pass plain slices (decimated first for
-// quicklooks, so memory stays bounded) and get PNG bytes or images back.
+// quicklooks, so memory stays bounded) and get PNG bytes or images back; writing files is the caller's.
 package figures

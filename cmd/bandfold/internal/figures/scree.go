@@ -1,6 +1,7 @@
 package figures
 
 import (
+	"bandfold/transform"
 	"errors"
 	"fmt"
 	"io"
@@ -68,7 +69,7 @@ func screeSeries(s ScreeData) (screeView, error) {
 	v := screeView{
 		shares:     make([]float64, p),
 		cumulative: make([]float64, p),
-		stick:      brokenStick(p),
+		stick:      transform.BrokenStickShares(p),
 	}
 	var run float64
 	for i, e := range s.Eigenvalues {
@@ -90,18 +91,6 @@ func screeSeries(s ScreeData) (screeView, error) {
 		v.title = fmt.Sprintf("%s (first %d of %d components)", v.title, v.shown, p)
 	}
 	return v, nil
-}
-
-// brokenStick returns the broken-stick expected shares for p
-// components (Jackson 1993): b_k = (1/p) Σ_{i=k..p} 1/i.
-func brokenStick(p int) []float64 {
-	b := make([]float64, p)
-	var tail float64
-	for k := p; k >= 1; k-- {
-		tail += 1 / float64(k)
-		b[k-1] = tail / float64(p)
-	}
-	return b
 }
 
 // Scree writes a scree plot of s as PNG (1000×600 px) to w: bars of the

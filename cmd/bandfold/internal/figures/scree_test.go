@@ -12,16 +12,6 @@ const tol = 1e-12
 
 func near(a, b float64) bool { return math.Abs(a-b) <= tol }
 
-func TestBrokenStickHandWorked(t *testing.T) {
-	want := []float64{25.0 / 48, 13.0 / 48, 7.0 / 48, 3.0 / 48}
-	got := brokenStick(4)
-	for i := range want {
-		if !near(got[i], want[i]) {
-			t.Errorf("b_%d = %v, want %v", i+1, got[i], want[i])
-		}
-	}
-}
-
 func TestScreeSeriesShares(t *testing.T) {
 	// Deliberately not sorted: the given order must be kept.
 	v, err := screeSeries(ScreeData{Eigenvalues: []float64{2, 5, 1, 2}, Chosen: 2})

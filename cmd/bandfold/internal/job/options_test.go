@@ -1,4 +1,4 @@
-package main
+package job
 
 import (
 	"strings"
@@ -21,34 +21,34 @@ func TestParseShard(t *testing.T) {
 		spec  string
 		count int
 		env   func(string) string
-		want  shard
+		want  Shard
 		err   string
 	}{
-		{"none", "", 0, env(), shard{0, 1}, ""},
-		{"explicit", "2/5", 0, env(), shard{2, 5}, ""},
-		{"explicit ignores env", "0/2", 0, slurm("3", "0", "3", "4"), shard{0, 2}, ""},
-		{"I >= N", "5/5", 0, env(), shard{}, "need 0 <= I < N"},
-		{"negative", "-1/3", 0, env(), shard{}, "need 0 <= I < N"},
-		{"malformed", "1-3", 0, env(), shard{}, "want I/N"},
-		{"zero shards", "0/0", 0, env(), shard{}, "need 0 <= I < N"},
+		{"none", "", 0, env(), Shard{0, 1}, ""},
+		{"explicit", "2/5", 0, env(), Shard{2, 5}, ""},
+		{"explicit ignores env", "0/2", 0, slurm("3", "0", "3", "4"), Shard{0, 2}, ""},
+		{"I >= N", "5/5", 0, env(), Shard{}, "need 0 <= I < N"},
+		{"negative", "-1/3", 0, env(), Shard{}, "need 0 <= I < N"},
+		{"malformed", "1-3", 0, env(), Shard{}, "want I/N"},
+		{"zero shards", "0/0", 0, env(), Shard{}, "need 0 <= I < N"},
 		// Slurm: I is the position of the task id within MIN..MAX.
-		{"slurm", "auto", 0, slurm("3", "0", "3", "4"), shard{3, 4}, ""},
-		{"slurm offset array", "auto", 0, slurm("12", "10", "13", "4"), shard{2, 4}, ""},
-		{"slurm stepped array", "auto", 0, slurm("4", "0", "6", "4"), shard{}, "steps or gaps"},
-		{"slurm garbage", "auto", 0, slurm("x", "0", "3", "4"), shard{}, "is not a number"},
+		{"slurm", "auto", 0, slurm("3", "0", "3", "4"), Shard{3, 4}, ""},
+		{"slurm offset array", "auto", 0, slurm("12", "10", "13", "4"), Shard{2, 4}, ""},
+		{"slurm stepped array", "auto", 0, slurm("4", "0", "6", "4"), Shard{}, "steps or gaps"},
+		{"slurm garbage", "auto", 0, slurm("x", "0", "3", "4"), Shard{}, "is not a number"},
 		// Kubernetes Indexed Jobs.
-		{"kubernetes", "auto", 4, env("JOB_COMPLETION_INDEX", "1"), shard{1, 4}, ""},
-		{"kubernetes without count", "auto", 0, env("JOB_COMPLETION_INDEX", "1"), shard{}, "--shard-count"},
-		{"kubernetes index too large", "auto", 4, env("JOB_COMPLETION_INDEX", "4"), shard{}, "outside 0-3"},
-		{"no scheduler", "auto", 0, env(), shard{}, "no job array in the environment"},
+		{"kubernetes", "auto", 4, env("JOB_COMPLETION_INDEX", "1"), Shard{1, 4}, ""},
+		{"kubernetes without count", "auto", 0, env("JOB_COMPLETION_INDEX", "1"), Shard{}, "--shard-count"},
+		{"kubernetes index too large", "auto", 4, env("JOB_COMPLETION_INDEX", "4"), Shard{}, "outside 0-3"},
+		{"no scheduler", "auto", 0, env(), Shard{}, "no job array in the environment"},
 	}
 	for _, tc := range tests {
-		got, err := parseShard(tc.spec, tc.count, tc.env)
+		got, err := ParseShard(tc.spec, tc.count, tc.env)
 		if tc.err != "" {
 			if err == nil || !strings.Contains(err.Error(), tc.err) {
 				t.Errorf("%s: got %v, %v; want an error containing %q", tc.name, got, err, tc.err)
 			}
-			if _, ok := err.(usageError); !ok {
+			if !IsUsage(err) {
 				t.Errorf("%s: %v is not a usage error", tc.name, err)
 			}
 			continue
@@ -77,9 +77,9 @@ func TestParseMinArea(t *testing.T) {
 		{"ha", 0, 0, true},
 	}
 	for _, tc := range tests {
-		got, err := parseMinArea(tc.in)
-		if (err != nil) != tc.wantErr || got.m2 != tc.m2 || got.px != tc.px {
-			t.Errorf("parseMinArea(%q) = %+v, %v", tc.in, got, err)
+		got, err := ParseMinArea(tc.in)
+		if (err != nil) != tc.wantErr || got.M2 != tc.m2 || got.Px != tc.px {
+			t.Errorf("ParseMinArea(%q) = %+v, %v", tc.in, got, err)
 		}
 	}
 }
@@ -89,9 +89,9 @@ func FuzzParseMinArea(f *testing.F) {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
-		m, err := parseMinArea(s)
-		if err == nil && (m.m2 < 0 || m.px < 0 || m.m2 != m.m2 || m.px != m.px) {
-			t.Fatalf("parseMinArea(%q) = %+v", s, m)
+		m, err := ParseMinArea(s)
+		if err == nil && (m.M2 < 0 || m.Px < 0 || m.M2 != m.M2 || m.Px != m.Px) {
+			t.Fatalf("ParseMinArea(%q) = %+v", s, m)
 		}
 	})
 }

@@ -1,0 +1,497 @@
+package job
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"path/filepath"
+	"runtime/debug"
+	"strconv"
+	"strings"
+
+	"bandfold/raster"
+	"bandfold/raster/output"
+	"bandfold/transform"
+	"bandfold/transform/change"
+)
+
+// Caution is repeated wherever a change map is reported.
+const Caution = "A change map is a screening result: verify mapped changes against imagery or field checks before acting on them; local regulations and licensed practice govern any action taken on it."
+
+// ChangeOptions are the options of Change.
+type ChangeOptions struct {
+	Before, After string
+	Input         Input
+	// MaskBefore and MaskAfter are validity masks of one date only, on
+	// BEFORE's grid.
+	MaskBefore, MaskAfter string
+	// Out is the output folder.
+	Out string
+	// Align warps AFTER onto BEFORE's grid with Resampling when the grids
+	// differ.
+	Align      bool
+	Resampling string
+	// Basis, when set, is used instead of fitting one on both dates.
+	Basis      string
+	Components int
+	Threshold  change.Threshold
+	MinArea    MinArea
+	// Differences also writes differences.tif.
+	Differences bool
+	// Reference is reference change data: a raster on the same grid
+	// (non-zero = changed) or a vector file of changed polygons.
+	Reference string
+	// PreviewBands are three 1-based bands of AFTER for preview.png.
+	PreviewBands []int
+	Sample       int
+	Overwrite    bool
+}
+
+// ChangeResult is summary.json.
+type ChangeResult struct {
+	Before        string           `json:"before"`
+	After         string           `json:"after"`
+	ValidPixels   int64            `json:"valid_pixels"`
+	ChangedPixels int64            `json:"changed_pixels"`
+	ChangedAreaM2 *float64         `json:"changed_area_m2"`
+	ChangedAreaHa *float64         `json:"changed_area_ha"`
+	ChangedFrac   float64          `json:"changed_fraction"`
+	Threshold     ThresholdSummary `json:"threshold"`
+	Components    int              `json:"components"`
+	Location      []float64        `json:"location"`
+	Covariance    [][]float64      `json:"covariance"`
+	Iterations    int              `json:"iterations"`
+	Converged     bool             `json:"converged"`
+	// Identical is set when the dates do not differ at all over the valid
+	// pixels: no change is mapped and no model is fitted.
+	Identical     bool            `json:"identical"`
+	SamplePixels  int             `json:"sample_pixels"`
+	MinAreaPixels int             `json:"min_area_pixels"`
+	Patches       int             `json:"patches"`
+	Basis         string          `json:"basis"`
+	Aligned       bool            `json:"aligned"`
+	Reference     *ChangeAccuracy `json:"reference,omitempty"`
+	Outputs       []string        `json:"outputs"`
+	AreaNote      string          `json:"area_note"`
+	Caution       string          `json:"caution"`
+}
+
+// ThresholdSummary is the threshold rule and the Z it resolved to.
+type ThresholdSummary struct {
+	Rule string  `json:"rule"`
+	Z    float64 `json:"z"`
+}
+
+// ChangeAccuracy compares the map with reference data over the pixels valid
+// in both; undefined rates are null.
+type ChangeAccuracy struct {
+	File string `json:"file"`
+	change.Confusion
+	change.Rates
+}
+
+// MinArea is a minimum mapping unit: a ground area in m² or a pixel count.
+type MinArea struct{ M2, Px float64 }
+
+// ParseMinArea reads "0.5ha", "5000m2", "1km2", "4px" or "0".
+func ParseMinArea(s string) (MinArea, error) {
+	s = strings.ToLower(strings.TrimSpace(s))
+	units := []struct {
+		suffix string
+		m2     float64
+	}{{"km2", 1e6}, {"m2", 1}, {"ha", 1e4}, {"px", 0}}
+	for _, u := range units {
+		if num, ok := strings.CutSuffix(s, u.suffix); ok {
+			v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
+			if err != nil || v < 0 || math.IsInf(v, 0) || math.IsNaN(v) {
+				break
+			}
+			if u.m2 == 0 {
+				return MinArea{Px: v}, nil
+			}
+			return MinArea{M2: v * u.m2}, nil
+		}
+	}
+	if v, err := strconv.ParseFloat(s, 64); err == nil && v == 0 {
+		return MinArea{}, nil
+	}
+	return MinArea{}, Usagef("--min-area %q: want a number with m2, ha, km2 or px (for example 0.5ha), or 0", s)
+}
+
+// pixels converts the minimum area to a pixel count for the sieve.
+func (m MinArea) pixels(areas *raster.CellAreas) (int, error) {
+	if m.M2 == 0 {
+		return int(math.Ceil(m.Px)), nil
+	}
+	if areas == nil {
+		return 0, Usagef("--min-area in m2, ha or km2 needs a CRS; give it in px")
+	}
+	return int(math.Ceil(m.M2 / areas.Mean())), nil
+}
+
+var resamplings = []string{"nearest", "bilinear", "cubic", "cubicspline", "lanczos", "average", "mode"}
+
+// Change maps land-cover change between two dates: it fits (or reads) a
+// basis, the robust no-change model of the score differences, maps every
+// pixel's change statistic, applies the minimum mapping unit, polygonizes
+// the patches and writes everything into the output folder at once.
+func Change(ctx context.Context, env Env, o ChangeOptions) (*ChangeResult, error) {
+	r := &changeRun{env: env, o: &o}
+	defer r.close()
+	steps := []func(context.Context) error{
+		r.open, r.scanPair, r.fitBasis, r.fitModel, r.mapPixels, r.sieve,
+		r.changeMap, r.patches, r.preview, r.summary,
+	}
+	for _, step := range steps {
+		if err := step(ctx); err != nil {
+			return nil, err
+		}
+	}
+	return r.sum, nil
+}
+
+// check refuses option values that cannot be right.
+func (o *ChangeOptions) check() error {
+	if o.Resampling == "" {
+		o.Resampling = "bilinear"
+	}
+	if !contains(resamplings, o.Resampling) {
+		return Usagef("--resampling %q: want %s", o.Resampling, strings.Join(resamplings, ", "))
+	}
+	if o.Sample == 0 {
+		o.Sample = change.DefaultSampleSize
+	}
+	if o.Sample < 100 {
+		return Usagef("--sample %d: need at least 100 pixels", o.Sample)
+	}
+	if o.Components < 0 {
+		return Usagef("--components %d: must be positive", o.Components)
+	}
+	if o.Threshold == (change.Threshold{}) {
+		t, err := change.ParseThreshold(change.DefaultThreshold)
+		if err != nil {
+			return err
+		}
+		o.Threshold = t
+	}
+	if o.Out == "" {
+		return Usagef("no output folder (--out)")
+	}
+	return o.Input.check()
+}
+
+func contains(list []string, s string) bool {
+	for _, v := range list {
+		if v == s {
+			return true
+		}
+	}
+	return false
+}
+
+// changeRun is one run of Change, a step per method.
+type changeRun struct {
+	env Env
+	o   *ChangeOptions
+
+	before, after *raster.Stack
+	aligned       bool
+	cleanups      []func()
+	areas         *raster.CellAreas
+	minPixels     int
+	ref           *raster.Reference
+	rgb           [3]int
+	dir           *output.Folder
+
+	pair      *pairScan
+	given     *transform.Basis
+	stats     pairStats
+	basis     *transform.Basis
+	basisName string
+	proj      *transform.Projector
+	model     *change.Model
+	identical bool
+	zcut      float64
+	mask      *raster.ChangeMask
+	outputs   []string
+	sum       *ChangeResult
+}
+
+func (r *changeRun) close() {
+	if r.dir != nil {
+		r.dir.Abort()
+	}
+	if r.mask != nil {
+		r.mask.Close()
+	}
+	for _, s := range []*raster.Stack{r.before, r.after} {
+		if s != nil {
+			s.Close()
+		}
+	}
+	if r.ref != nil {
+		r.ref.Close()
+	}
+	for _, c := range r.cleanups {
+		c()
+	}
+}
+
+// open checks the options, opens both dates (warping AFTER with Align),
+// the reference and the output folder.
+func (r *changeRun) open(context.Context) error {
+	o := r.o
+	if err := o.check(); err != nil {
+		return err
+	}
+	if err := output.CheckFolder(o.Out, o.Overwrite); err != nil {
+		return err
+	}
+	var err error
+	if r.before, err = openImage(o.Before, o.Input.options(o.MaskBefore)); err != nil {
+		return err
+	}
+	if err := r.openAfter(); err != nil {
+		return err
+	}
+	if err := r.distinct(); err != nil {
+		return err
+	}
+	if r.before.Len() != r.after.Len() {
+		return fmt.Errorf("%s has %d bands but %s has %d: both dates need the same bands", o.Before, r.before.Len(), o.After, r.after.Len())
+	}
+	if err := needTwoBands(r.before, o.Input.Bands); err != nil {
+		return err
+	}
+	if r.rgb, err = previewBands(o.PreviewBands, r.after.Len()); err != nil {
+		return err
+	}
+	r.areas, err = raster.NewCellAreas(r.before.Grid)
+	if errors.Is(err, raster.ErrNoCRS) {
+		r.env.warn("%s has no CRS: areas are given in pixels only", o.Before)
+		r.areas = nil
+	} else if err != nil {
+		return fmt.Errorf("%s: %w", o.Before, err)
+	}
+	if r.minPixels, err = o.MinArea.pixels(r.areas); err != nil {
+		return err
+	}
+	if o.Reference != "" {
+		if r.ref, err = raster.OpenReference(o.Reference, r.before.Grid); err != nil {
+			return err
+		}
+	}
+	if o.Basis != "" {
+		if r.given, err = transform.ReadBasis(o.Basis); err != nil {
+			return err
+		}
+		if err := checkBands(r.given, o.Basis, r.before, false); err != nil {
+			return err
+		}
+	}
+	r.dir, err = output.CreateFolder(o.Out, o.Overwrite)
+	return err
+}
+
+// distinct refuses an output folder that holds or is any input.
+func (r *changeRun) distinct() error {
+	ins := []output.Path{}
+	for _, s := range []*raster.Stack{r.before} {
+		for _, p := range s.Paths {
+			ins = append(ins, output.Path{Role: "BEFORE", Path: p})
+		}
+		for _, m := range s.Masks {
+			ins = append(ins, output.Path{Role: "mask", Path: m})
+		}
+	}
+	for _, p := range SplitStack(r.o.After) {
+		ins = append(ins, output.Path{Role: "AFTER", Path: p})
+	}
+	for _, extra := range []struct{ role, path string }{{"mask", r.o.MaskAfter}, {"basis", r.o.Basis}, {"reference", r.o.Reference}} {
+		if extra.path != "" {
+			ins = append(ins, output.Path{Role: extra.role, Path: extra.path})
+		}
+	}
+	return output.Distinct(ins, []output.Path{{Role: "output folder", Path: r.o.Out, Folder: true}})
+}
+
+// openAfter opens the AFTER stack, warped onto BEFORE's grid with Align when
+// the grids differ.
+func (r *changeRun) openAfter() error {
+	o := r.o
+	paths := SplitStack(o.After)
+	if len(paths) == 0 {
+		return Usagef("empty image argument %q", o.After)
+	}
+	opts := o.Input.options(o.MaskAfter)
+	// Masks of AFTER are on BEFORE's grid, so open the files alone first.
+	probe, err := raster.Open(paths)
+	if err != nil {
+		return err
+	}
+	defer probe.Close()
+	gridErr := r.before.Grid.Compare(probe.Grid)
+	if gridErr == nil {
+		r.after, err = raster.Open(paths, opts...)
+		return err
+	}
+	if !o.Align {
+		return fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", o.After, describe(r.before), gridErr)
+	}
+	var vrts []string
+	for _, p := range paths {
+		vrt, cleanup, err := raster.AlignTo(p, r.before.Grid, o.Resampling)
+		if err != nil {
+			return err
+		}
+		vrts = append(vrts, vrt)
+		r.cleanups = append(r.cleanups, cleanup)
+	}
+	r.env.warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", o.After, describe(r.before), o.Resampling)
+	if r.after, err = raster.Open(vrts, opts...); err != nil {
+		return err
+	}
+	r.aligned = true
+	return nil
+}
+
+// scanPair reads both dates once: the pooled co-moments (unless a basis is
+// given) and a bounded sample of band differences.
+func (r *changeRun) scanPair(ctx context.Context) error {
+	r.pair = newPairScan(r.before, r.after, r.o.Input.Tile)
+	var err error
+	if r.stats, err = r.pair.gather(ctx, r.env, r.given == nil, r.o.Sample); err != nil {
+		return err
+	}
+	if r.stats.valid == 0 {
+		return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", r.o.Before, r.o.After)
+	}
+	return nil
+}
+
+// fitBasis fits the basis on the pooled pixels valid on both dates, keeping
+// the fewest components reaching 99% of the variance, at least min(p, 3);
+// or takes the given one.
+func (r *changeRun) fitBasis(context.Context) error {
+	b, name := r.given, r.o.Basis
+	p := r.before.Len()
+	if b == nil {
+		what := r.o.Before + " and " + r.o.After + " (pixels valid on both dates)"
+		var err error
+		if b, err = fitBasis(r.env, r.stats.acc, transform.Covariance, basisBands(r.before), what); err != nil {
+			return err
+		}
+		if b.Inputs, err = fingerprints([]*raster.Stack{r.before, r.after}); err != nil {
+			return err
+		}
+		b.Components = max(transform.ComponentsFor(b.Eigenvalues, 0.99), min(p, 3))
+		name = "fitted on both dates"
+	}
+	k := b.Components
+	if r.o.Components > 0 {
+		k = r.o.Components
+	}
+	if k > p {
+		return Usagef("--components %d: the images have %d bands", k, p)
+	}
+	proj, err := transform.NewProjector(b, k)
+	if err != nil {
+		return err
+	}
+	r.basis, r.basisName, r.proj = b, name, proj
+	return nil
+}
+
+// fitModel fits the robust no-change model on the sample's score
+// differences d = W_k^T (x_after - x_before) / s and resolves the threshold.
+func (r *changeRun) fitModel(context.Context) error {
+	_, dx := r.stats.sample.Pixels()
+	k := r.proj.Components()
+	d := make([]float64, len(dx)/r.before.Len()*k)
+	r.proj.Difference(d, dx)
+	if allZero(dx) {
+		r.identical = true
+		r.env.warn("%s and %s are identical over the %d sampled pixels: no change is mapped", r.o.Before, r.o.After, r.stats.sample.Len())
+		r.zcut = 0 // every Z is 0, and a pixel is flagged only above the cut
+		return nil
+	}
+	model, err := change.Fit(d, k, r.o.Threshold.Trim())
+	if err != nil {
+		return fmt.Errorf("no-change model of %s and %s: %w", r.o.Before, r.o.After, err)
+	}
+	zcut, err := r.o.Threshold.Resolve(k, model.Scores(nil, d))
+	if err != nil {
+		return Usagef("--threshold %s: %v", r.o.Threshold, err)
+	}
+	r.env.log().Debug("no-change model", "iterations", model.Iterations, "sample", model.Sample, "z", zcut)
+	r.model, r.zcut = model, zcut
+	return nil
+}
+
+func allZero(x []float64) bool {
+	for _, v := range x {
+		if v != 0 {
+			return false
+		}
+	}
+	return true
+}
+
+// sieve applies the minimum mapping unit to the raw flags. The tile buffers
+// are garbage by now: their pages go back before the sieve and the polygons
+// take their share.
+func (r *changeRun) sieve(ctx context.Context) error {
+	debug.FreeOSMemory()
+	if err := r.mask.SieveContext(ctx, r.minPixels); err != nil {
+		return fmt.Errorf("sieve: %w", err)
+	}
+	o := r.o
+	r.sum = &ChangeResult{Before: o.Before, After: o.After, Threshold: ThresholdSummary{o.Threshold.String(), r.zcut},
+		Components: r.proj.Components(), MinAreaPixels: r.minPixels, Basis: r.basisName, Aligned: r.aligned,
+		Identical: r.identical, Caution: Caution, Location: []float64{}, Covariance: [][]float64{},
+		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}
+	if r.identical {
+		r.sum.Converged = true
+		return nil
+	}
+	m := r.model
+	r.sum.Location, r.sum.Iterations, r.sum.Converged, r.sum.SamplePixels = m.Location, m.Iterations, m.Converged, m.Sample
+	k := r.proj.Components()
+	for i := range k {
+		row := make([]float64, k)
+		for j := range k {
+			row[j] = m.Covariance.At(i, j)
+		}
+		r.sum.Covariance = append(r.sum.Covariance, row)
+	}
+	return nil
+}
+
+// patches polygonizes the change patches into changes.gpkg.
+func (r *changeRun) patches(context.Context) error {
+	ps, err := r.mask.Patches(r.dir.Path("changes.gpkg"), r.dir.Path("magnitude.tif"), false)
+	if err != nil {
+		return err
+	}
+	r.sum.Patches = ps.Count
+	r.outputs = append(r.outputs, "changes.gpkg")
+	return nil
+}
+
+// summary writes summary.json and moves the folder into place.
+func (r *changeRun) summary(context.Context) error {
+	r.outputs = append(r.outputs, "summary.json")
+	for _, name := range r.outputs {
+		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.dir.Final(), name))
+	}
+	js, err := json.MarshalIndent(r.sum, "", "  ")
+	if err != nil {
+		return fmt.Errorf("summary of %s: %w", r.o.Out, err)
+	}
+	if err := output.WriteFile(r.dir.Path("summary.json"), append(js, '\n'), false); err != nil {
+		return err
+	}
+	return r.dir.Commit()
+}

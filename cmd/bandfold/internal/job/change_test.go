@@ -1,0 +1,327 @@
+package job
+
+import (
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"bandfold/raster"
+	"bandfold/tiles"
+	"bandfold/transform/change"
+)
+
+// changeOutputs are the files of a change folder without --differences.
+var changeOutputs = []string{"change.tif", "magnitude.tif", "pvalue.tif", "changes.gpkg", "preview.png", "summary.json"}
+
+// runChange runs Change, which must succeed.
+func runChange(t *testing.T, env Env, o ChangeOptions) *ChangeResult {
+	t.Helper()
+	res, err := Change(t.Context(), env, o)
+	if err != nil {
+		t.Fatalf("change %s %s: %v", o.Before, o.After, err)
+	}
+	return res
+}
+
+// TestChangeCalibrationOnUnchangedLandsat: the real Landsat 7 subset
+// (Debian's r-cran-stars) against itself, each date with its own noise that
+// correlates across bands, and a radiometric offset on one date. Nothing
+// changed, so the differences are Gaussian by construction and Z follows the
+// chi-square law the threshold assumes: at chisq:0.999 without sieving, the
+// flagged fraction must be 0.1%. Tolerance: with n = 122,848 pixels the
+// binomial standard error of 0.001 is 9.0e-5; the no-change covariance is
+// itself estimated from the same pixels (relative error about
+// sqrt(2/n) per entry, moving the tail by a few percent of 0.001), so we
+// accept 0.001 +- 0.0004, about 4.4 standard errors.
+func TestChangeCalibrationOnUnchangedLandsat(t *testing.T) {
+	needLandsat(t)
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a.tif"), filepath.Join(dir, "b.tif")
+	noisyCopy(t, a, 1, 0)
+	noisyCopy(t, b, 2, 3)
+	s := runChange(t, testEnv, ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, "chg")})
+	if s.ValidPixels != landsatPixels {
+		t.Errorf("valid pixels %d, want %d", s.ValidPixels, landsatPixels)
+	}
+	// The default threshold and no minimum area (the zero MinArea).
+	if s.Threshold.Rule != change.DefaultThreshold || s.MinAreaPixels != 0 || s.Identical || !s.Converged {
+		t.Errorf("threshold %+v, min area %d px, identical %v, converged %v", s.Threshold, s.MinAreaPixels, s.Identical, s.Converged)
+	}
+	if math.Abs(s.ChangedFrac-0.001) > 0.0004 {
+		t.Errorf("flagged %.5f of unchanged pixels at chisq:0.999, want 0.001 +- 0.0004", s.ChangedFrac)
+	}
+	// Known by construction: the fraction is the count over the valid
+	// pixels.
+	if s.ChangedFrac != float64(s.ChangedPixels)/float64(s.ValidPixels) {
+		t.Errorf("fraction %v for %d of %d pixels", s.ChangedFrac, s.ChangedPixels, s.ValidPixels)
+	}
+	// The offset between dates goes to the location, not into Z.
+	if len(s.Location) != s.Components || math.Abs(s.Location[0]) < 1 {
+		t.Errorf("location %v does not absorb the radiometric offset", s.Location)
+	}
+	t.Logf("flagged fraction %.5f, iterations %d, threshold %v", s.ChangedFrac, s.Iterations, s.Threshold)
+}
+
+// TestChangeOnTheDemoScenario runs change with the command's defaults
+// (chisq:0.999, 4 px minimum area) on a 512-pixel run of the invented
+// scenario, whose truth is known by construction: recall at least 0.9 and
+// false alarms at most 0.5% of the unchanged pixels.
+func TestChangeOnTheDemoScenario(t *testing.T) {
+	dir := t.TempDir()
+	f := scenarioFiles(t, dir, 512, 7)
+	out := filepath.Join(dir, "chg")
+	s := runChange(t, testEnv, ChangeOptions{Before: f.Before, After: f.After, Out: out, Reference: f.Truth, MinArea: MinArea{Px: 4}})
+	r := s.Reference
+	if r == nil || r.Recall == nil || r.FalseAlarmRate == nil {
+		t.Fatalf("no reference rates in the summary: %+v", r)
+	}
+	if *r.Recall < 0.9 || *r.FalseAlarmRate > 0.005 {
+		t.Errorf("recall %.3f (want >= 0.9), false alarms %.4f (want <= 0.005)", *r.Recall, *r.FalseAlarmRate)
+	}
+	// Known by construction: the truth is compared on valid pixels only.
+	if n := r.TruePositive + r.FalsePositive + r.FalseNegative + r.TrueNegative; n == 0 || n > s.ValidPixels || r.File != f.Truth {
+		t.Errorf("reference %s counts %d pixels of %d valid", r.File, n, s.ValidPixels)
+	}
+	// The scenario's pixels are 10 m: 100 m² each, 1% for the projection.
+	if s.ChangedAreaHa == nil || s.ChangedAreaM2 == nil || s.ChangedPixels == 0 ||
+		math.Abs(*s.ChangedAreaHa-float64(s.ChangedPixels)*100/1e4) > 0.01**s.ChangedAreaHa || !relClose(*s.ChangedAreaM2, *s.ChangedAreaHa*1e4, 1e-12) {
+		t.Errorf("area %v ha (%v m2) for %d pixels of 10 m", s.ChangedAreaHa, s.ChangedAreaM2, s.ChangedPixels)
+	}
+	if s.MinAreaPixels != 4 || s.Patches == 0 || s.Aligned || s.Identical || s.Basis != "fitted on both dates" || s.Components < 3 {
+		t.Errorf("summary %+v", s)
+	}
+	if len(s.Outputs) != len(changeOutputs) {
+		t.Errorf("outputs %v, want %v", s.Outputs, changeOutputs)
+	}
+	for _, name := range changeOutputs {
+		path := filepath.Join(out, name)
+		if !contains(s.Outputs, path) {
+			t.Errorf("outputs %v lack %s", s.Outputs, path)
+		}
+		if _, err := os.Stat(path); err != nil {
+			t.Errorf("missing %s: %v", name, err)
+		}
+	}
+	if s.Caution != Caution || !strings.Contains(s.Caution, "screening result") {
+		t.Errorf("the summary's caution is %q", s.Caution)
+	}
+	noTemporaries(t, dir)
+	if r.Precision != nil {
+		t.Logf("recall %.4f precision %.4f false alarms %.5f", *r.Recall, *r.Precision, *r.FalseAlarmRate)
+	}
+}
+
+// TestChangeIsIdenticalForAnyWorkerCount: 1, 2 and 7 workers give the same
+// summary and the same change statistic at every pixel, to the last bit:
+// tiles are merged in order and the sample is chosen by pixel position, not
+// by arrival.
+func TestChangeIsIdenticalForAnyWorkerCount(t *testing.T) {
+	dir := t.TempDir()
+	f := scenarioFiles(t, dir, 512, 7)
+	type run struct {
+		sum   *ChangeResult
+		z     []float64
+		valid []bool
+	}
+	runs := map[int]run{}
+	for _, w := range []int{1, 2, 7} {
+		out := filepath.Join(dir, fmt.Sprintf("w%d", w))
+		s := runChange(t, workersEnv(w), ChangeOptions{Before: f.Before, After: f.After, Out: out, Reference: f.Truth, MinArea: MinArea{Px: 4}})
+		_, z, valid := readImage(t, filepath.Join(out, "magnitude.tif"), tiles.Tile{})
+		runs[w] = run{s, z, valid}
+	}
+	one := runs[1]
+	for _, w := range []int{2, 7} {
+		r := runs[w]
+		a, b := r.sum, one.sum
+		if a.ChangedAreaM2 == nil || b.ChangedAreaM2 == nil || a.Reference == nil || b.Reference == nil {
+			t.Fatalf("workers %d: no area or reference: %+v, 1 worker %+v", w, a, b)
+		}
+		if a.ChangedPixels != b.ChangedPixels || a.ValidPixels != b.ValidPixels || a.Patches != b.Patches || a.Threshold != b.Threshold ||
+			a.Iterations != b.Iterations || a.SamplePixels != b.SamplePixels || a.Components != b.Components || *a.ChangedAreaM2 != *b.ChangedAreaM2 ||
+			a.Reference.Confusion != b.Reference.Confusion {
+			t.Errorf("workers %d: summary %+v, 1 worker %+v", w, a, b)
+		}
+		for i := range b.Location {
+			if a.Location[i] != b.Location[i] {
+				t.Errorf("workers %d: location %v, 1 worker %v", w, a.Location, b.Location)
+			}
+			for j := range b.Location {
+				if a.Covariance[i][j] != b.Covariance[i][j] {
+					t.Errorf("workers %d: covariance %v, 1 worker %v", w, a.Covariance, b.Covariance)
+				}
+			}
+		}
+		for i := range one.valid {
+			if r.valid[i] != one.valid[i] || (one.valid[i] && r.z[i] != one.z[i]) {
+				t.Fatalf("workers %d: Z at pixel %d is %v (valid %v), 1 worker %v (valid %v)", w, i, r.z[i], r.valid[i], one.z[i], one.valid[i])
+			}
+		}
+	}
+}
+
+// TestChangeAlignAndNoCRS: Align warps AFTER onto BEFORE's grid (here the
+// same pixels written on a grid shifted by whole pixels, so the warp is
+// exact where both overlap), and images without a CRS give areas in pixels
+// only, with a warning.
+func TestChangeAlignAndNoCRS(t *testing.T) {
+	dir := t.TempDir()
+	f := scenarioFiles(t, dir, 256, 3)
+	s, err := raster.Open([]string{f.After})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// The after date cropped by 5 pixels on the left: another grid.
+	cropped := filepath.Join(dir, "cropped.tif")
+	g := s.Grid
+	g.Width -= 5
+	g.GeoTransform[0] += 5 * g.GeoTransform[1]
+	copyWindow(t, f.After, cropped, g, 5, 0)
+	_, err = Change(t.Context(), testEnv, ChangeOptions{Before: f.Before, After: cropped, Out: filepath.Join(dir, "no")})
+	wantError(t, "grids differ", err, false, "cropped.tif is not on the grid of", "pass --align to warp it onto that grid")
+	mustNotExist(t, "grids differ", filepath.Join(dir, "no"))
+
+	env, log := loggingEnv()
+	sum := runChange(t, env, ChangeOptions{Before: f.Before, After: cropped, Align: true, Resampling: "nearest",
+		Out: filepath.Join(dir, "aligned"), Reference: f.Truth, MinArea: MinArea{Px: 4}})
+	// Truth of the scenario, known by construction, as on the same grid.
+	if !sum.Aligned || sum.Reference == nil || sum.Reference.Recall == nil || *sum.Reference.Recall < 0.9 {
+		t.Errorf("aligned change: aligned %v, reference %+v", sum.Aligned, sum.Reference)
+	}
+	if !strings.Contains(log.String(), "was warped onto the grid of") || !strings.Contains(log.String(), "nearest resampling") {
+		t.Errorf("no warning of the warp: %q", log.String())
+	}
+	// The 5 columns AFTER lacks are invalid.
+	if want := int64(s.Width-5) * int64(s.Height); sum.ValidPixels > want {
+		t.Errorf("aligned change: %d valid pixels, at most %d overlap", sum.ValidPixels, want)
+	}
+
+	// No CRS: copies without georeferencing.
+	bare := func(src, dst string) {
+		s, err := raster.Open([]string{src})
+		if err != nil {
+			t.Fatal(err)
+		}
+		g := s.Grid
+		g.Projection = ""
+		copyWindow(t, src, dst, g, 0, 0)
+	}
+	a, b := filepath.Join(dir, "a.tif"), filepath.Join(dir, "b.tif")
+	bare(f.Before, a)
+	bare(f.After, b)
+	env, log = loggingEnv()
+	bareOut := filepath.Join(dir, "bare")
+	sum = runChange(t, env, ChangeOptions{Before: a, After: b, Out: bareOut, MinArea: MinArea{Px: 4}, Differences: true})
+	if !strings.Contains(log.String(), "no CRS: areas are given in pixels only") {
+		t.Errorf("no warning of the missing CRS: %q", log.String())
+	}
+	// Differences adds differences.tif, one band per component.
+	diffs := filepath.Join(bareOut, "differences.tif")
+	if !contains(sum.Outputs, diffs) || len(sum.Outputs) != len(changeOutputs)+1 {
+		t.Errorf("outputs %v lack %s", sum.Outputs, diffs)
+	} else if ds, err := raster.Open([]string{diffs}); err != nil {
+		t.Error(err)
+	} else if ds.Len() != sum.Components {
+		t.Errorf("%s has %d bands for %d components", diffs, ds.Len(), sum.Components)
+	}
+	if sum.ChangedAreaM2 != nil || sum.ChangedAreaHa != nil || sum.ChangedPixels == 0 {
+		t.Errorf("no CRS: area %v m2 %v ha, pixels %d", sum.ChangedAreaM2, sum.ChangedAreaHa, sum.ChangedPixels)
+	}
+	// A minimum area on the ground needs a CRS.
+	_, err = Change(t.Context(), testEnv, ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, "bare-ha"), MinArea: MinArea{M2: 5000}})
+	wantError(t, "ground area without CRS", err, true, "needs a CRS", "px")
+	mustNotExist(t, "ground area without CRS", filepath.Join(dir, "bare-ha"))
+}
+
+// TestChangeOfIdenticalDates: a scene against itself maps nothing and fits
+// no model (known by construction: every difference is zero).
+func TestChangeOfIdenticalDates(t *testing.T) {
+	needLandsat(t)
+	dir := t.TempDir()
+	env, log := loggingEnv()
+	s := runChange(t, env, ChangeOptions{Before: landsat, After: landsat, Out: filepath.Join(dir, "same")})
+	if !s.Identical || s.ChangedPixels != 0 || s.Patches != 0 || s.ValidPixels != landsatPixels || s.Threshold.Z != 0 || len(s.Location) != 0 {
+		t.Errorf("identical dates: %+v", s)
+	}
+	if !strings.Contains(log.String(), "are identical over the") {
+		t.Errorf("no warning of identical dates: %q", log.String())
+	}
+	// A given basis is used as it is, with its own k.
+	b, basis := learnLandsat(t, dir)
+	s = runChange(t, testEnv, ChangeOptions{Before: landsat, After: landsat, Basis: basis, Out: filepath.Join(dir, "given")})
+	if s.Basis != basis || s.Components != b.Components || !s.Identical {
+		t.Errorf("given basis %s (k=%d): summary basis %q, %d components, identical %v", basis, b.Components, s.Basis, s.Components, s.Identical)
+	}
+}
+
+// TestChangeNoValidPixels: a mask that is zero everywhere leaves no pixel
+// valid on both dates; nothing is written.
+func TestChangeNoValidPixels(t *testing.T) {
+	dir := t.TempDir()
+	a := filepath.Join(dir, "a.tif")
+	synth(t, a, 4, 40, 30, 1)
+	zero := filepath.Join(dir, "zero.tif")
+	s, err := raster.Open([]string{a})
+	if err != nil {
+		t.Fatal(err)
+	}
+	writeRasterFile(t, zero, raster.Spec{Grid: s.Grid, Bands: 1, DataType: "Byte"}, make([]float64, 40*30))
+	out := filepath.Join(dir, "out")
+	res, err := Change(t.Context(), testEnv, ChangeOptions{Before: a, After: a, Out: out, MaskAfter: zero})
+	if res != nil {
+		t.Errorf("a result without valid pixels: %+v", res)
+	}
+	wantError(t, "no valid pixels", err, false, "no pixel is valid on both dates", "a.tif")
+	mustNotExist(t, "no valid pixels", out)
+	noTemporaries(t, dir)
+}
+
+// TestChangeRefusals: dates and data that do not go together, and bad
+// options, are refused with a message naming the problem, and leave no
+// output folder or temporary behind.
+func TestChangeRefusals(t *testing.T) {
+	needLandsat(t)
+	dir := t.TempDir()
+	small := filepath.Join(dir, "small.tif")
+	synth(t, small, 6, 40, 30, 1)
+	five := filepath.Join(dir, "five.tif")
+	synth(t, five, 5, 40, 30, 2)
+	out := filepath.Join(dir, "out")
+	tests := []struct {
+		name  string
+		o     ChangeOptions
+		usage bool
+		want  []string
+	}{
+		{"band counts", ChangeOptions{Before: small, After: five}, false, []string{"small.tif has 6 bands but", "five.tif has 5", "both dates need the same bands"}},
+		{"grids", ChangeOptions{Before: landsat, After: small}, false, []string{"small.tif is not on the grid of", "pass --align"}},
+		{"reference grid", ChangeOptions{Before: landsat, After: landsat, Reference: small}, false, []string{"reference", "small.tif", "is not on the grid of the images"}},
+		{"preview bands", ChangeOptions{Before: landsat, After: landsat, PreviewBands: []int{1, 2, 9}}, true, []string{"--preview-bands", "band 9 out of range", "6 bands"}},
+		{"resampling", ChangeOptions{Before: landsat, After: landsat, Resampling: "sinc"}, true, []string{`--resampling "sinc"`}},
+		{"sample", ChangeOptions{Before: landsat, After: landsat, Sample: 10}, true, []string{"--sample 10", "at least 100"}},
+		{"components", ChangeOptions{Before: landsat, After: landsat, Components: 7}, true, []string{"--components 7", "6 bands"}},
+		// Missing parent folders are made; a file in the way is refused.
+		{"out under a file", ChangeOptions{Before: landsat, After: landsat, Out: filepath.Join(small, "out")}, false, []string{"small.tif/out"}},
+		{"out is a file", ChangeOptions{Before: landsat, After: landsat, Out: small}, false, []string{"small.tif is a file, not a folder"}},
+		{"no output", ChangeOptions{Before: landsat, After: landsat, Out: "-"}, true, []string{"no output folder"}},
+	}
+	for _, tc := range tests {
+		o := tc.o
+		switch o.Out {
+		case "":
+			o.Out = out
+		case "-":
+			o.Out = ""
+		}
+		res, err := Change(t.Context(), testEnv, o)
+		if res != nil {
+			t.Errorf("%s: a result %+v", tc.name, res)
+		}
+		wantError(t, tc.name, err, tc.usage, tc.want...)
+		mustNotExist(t, tc.name, out)
+	}
+	noTemporaries(t, dir)
+}

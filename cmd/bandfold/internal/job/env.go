@@ -1,0 +1,97 @@
+// Package job runs bandfold's whole jobs: learn, merge, inspect, fold (one
+// scene or a batch), unfold, change, the demo and the synthetic cubes. Each
+// job is a function of a typed options struct returning a typed result; none
+// touches flags, standard streams or the process's exit. Progress, logging
+// and the worker count come in through an Env.
+//
+// Every file and folder a job writes goes through the output lifecycle of
+// bandfold/raster/output: written under a temporary name beside its target,
+// renamed into place on success, removed on any error or cancellation.
+package job
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"log/slog"
+	"runtime"
+)
+
+// Env is what the caller gives every job: the worker count, a logger for
+// warnings and debug messages, an optional progress display and the tool
+// version recorded in outputs.
+type Env struct {
+	// Workers is the number of tiles processed at once (at least 1; 0 means
+	// one per CPU).
+	Workers int
+	// Log receives warnings (slog.LevelWarn) and details (slog.LevelDebug);
+	// nil discards them.
+	Log *slog.Logger
+	// Progress, when set, returns the callback of one pass over pixels
+	// (tiles done of total), or nil for none.
+	Progress func(label string, pixels int64) func(done, total int)
+	// Version is the tool version recorded in every output.
+	Version string
+}
+
+func (e Env) workers() int {
+	if e.Workers < 1 {
+		return runtime.NumCPU()
+	}
+	return e.Workers
+}
+
+func (e Env) log() *slog.Logger {
+	if e.Log == nil {
+		return slog.New(slog.NewTextHandler(io.Discard, nil))
+	}
+	return e.Log
+}
+
+func (e Env) progress(label string, pixels int64) func(done, total int) {
+	if e.Progress == nil {
+		return nil
+	}
+	return e.Progress(label, pixels)
+}
+
+// warn logs a warning for the user.
+func (e Env) warn(format string, args ...any) {
+	e.log().Warn(fmt.Sprintf(format, args...))
+}
+
+// UsageError marks an error in the options a user gave, as opposed to a
+// failure while running; commands map it to exit code 2.
+type UsageError struct{ Err error }
+
+func (e *UsageError) Error() string { return e.Err.Error() }
+func (e *UsageError) Unwrap() error { return e.Err }
+
+// Usagef returns a usage error.
+func Usagef(format string, args ...any) error {
+	return &UsageError{fmt.Errorf(format, args...)}
+}
+
+// usage marks err as a usage error (nil stays nil).
+func usage(err error) error {
+	if err == nil {
+		return nil
+	}
+	return &UsageError{err}
+}
+
+// IsUsage reports whether err is, or wraps, a usage error.
+func IsUsage(err error) bool {
+	var ue *UsageError
+	return errors.As(err, &ue)
+}
+
+// ErrBatchFailed is returned when some scenes of a batch failed; each was
+// reported in the batch's result.
+var ErrBatchFailed = errors.New("some scenes failed")
+
+// canceled reports whether err comes from a cancelled context.
+func canceled(err error) bool {
+	return errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)
+}

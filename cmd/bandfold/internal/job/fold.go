@@ -1,0 +1,450 @@
+package job
+
+import (
+	"context"
+	"crypto/sha256"
+	"encoding/hex"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"sync"
+	"time"
+
+	"bandfold/bands"
+	"bandfold/raster"
+	"bandfold/raster/output"
+	"bandfold/tiles"
+	"bandfold/transform"
+)
+
+// FoldOptions are the options of Fold and FoldBatch.
+type FoldOptions struct {
+	// Scenes are the IMAGE arguments (FoldBatch also reads List).
+	Scenes []string
+	// List is a file with one input per line (FoldBatch); relative paths
+	// are relative to the list file's folder.
+	List  string
+	Input Input
+	Basis string
+	// Out is the component image of one scene (Fold); OutDir and Name
+	// (with {stem}) place those of many (FoldBatch).
+	Out, OutDir, Name string
+	// Components is the number of components; 0 takes the basis's k.
+	Components int
+	Format     raster.Format
+	// Type is float32, float64 or int16 (scaled per component).
+	Type            string
+	IgnoreBandNames bool
+	CreationOptions []string
+	Overwrite       bool
+	// Preview, with Out, also writes an RGB quicklook of components 1-3.
+	Preview string
+	// Shard takes scenes I, I+N, ... of the list (FoldBatch).
+	Shard Shard
+	// OnScene, when set, receives each scene's result of a batch as it
+	// finishes.
+	OnScene func(FoldScene)
+}
+
+// FoldScene is the result of folding one scene.
+type FoldScene struct {
+	Input  string `json:"input"`
+	Output string `json:"output"`
+	// Status is written, skipped (complete already) or failed.
+	Status     string `json:"status"`
+	Error      string `json:"error,omitempty"`
+	Pixels     int64  `json:"pixels,omitempty"`
+	Components int    `json:"components,omitempty"`
+	Type       string `json:"type,omitempty"`
+	// ExplainedFit is the kept share of variance on the fitting scene,
+	// ExplainedScene on this one (nil when undefined: no variance).
+	ExplainedFit   float64  `json:"explained_fit,omitempty"`
+	ExplainedScene *float64 `json:"explained_scene"`
+	// Saturated is the share of valid scores clamped by --type int16.
+	Saturated float64 `json:"saturated_fraction"`
+	Preview   string  `json:"preview,omitempty"`
+	Seconds   float64 `json:"seconds"`
+}
+
+// folding is what every scene of a run shares.
+type folding struct {
+	env    Env
+	o      *FoldOptions
+	basis  *transform.Basis
+	proj   *transform.Projector
+	k      int
+	dtype  string
+	format raster.Format
+}
+
+var foldTypes = map[string]string{"float32": "Float32", "float64": "Float64", "int16": "Int16"}
+
+// prepare checks the options and reads the basis.
+func prepareFold(env Env, o *FoldOptions) (*folding, error) {
+	if o.Type == "" {
+		o.Type = "float32"
+	}
+	dtype, ok := foldTypes[strings.ToLower(o.Type)]
+	if !ok {
+		return nil, Usagef("--type %q: want float32, float64 or int16", o.Type)
+	}
+	if o.Format == "" {
+		o.Format = raster.GTiff
+	}
+	if o.Components < 0 {
+		return nil, Usagef("--components %d: must be positive", o.Components)
+	}
+	if err := o.Input.check(); err != nil {
+		return nil, err
+	}
+	if o.Preview != "" && raster.IsVirtual(o.Preview) {
+		return nil, Usagef("--preview %s: write the PNG to a local path", o.Preview)
+	}
+	b, err := transform.ReadBasis(o.Basis)
+	if err != nil {
+		return nil, err
+	}
+	k := b.Components
+	if o.Components > 0 {
+		k = o.Components
+	}
+	if k > len(b.Bands) {
+		return nil, Usagef("--components %d: the basis %s has %d components", k, o.Basis, len(b.Bands))
+	}
+	proj, err := transform.NewProjector(b, k)
+	if err != nil {
+		return nil, fmt.Errorf("basis %s: %w", o.Basis, err)
+	}
+	return &folding{env: env, o: o, basis: b, proj: proj, k: k, dtype: dtype, format: o.Format}, nil
+}
+
+// Fold projects one scene onto the kept components of a basis and writes
+// the component image (and, with Preview, its quicklook).
+func Fold(ctx context.Context, env Env, o FoldOptions) (*FoldScene, error) {
+	if len(o.Scenes) != 1 || o.Out == "" {
+		return nil, Usagef("fold writes one scene to --out; use --out-dir for %d scenes", len(o.Scenes))
+	}
+	if o.Shard.orWhole().N > 1 {
+		return nil, Usagef("--shard applies to batches: use --out-dir")
+	}
+	f, err := prepareFold(env, &o)
+	if err != nil {
+		return nil, err
+	}
+	if err := output.Check(o.Out, o.Overwrite); err != nil {
+		return nil, err
+	}
+	if o.Preview != "" {
+		if err := output.Check(o.Preview, o.Overwrite); err != nil {
+			return nil, err
+		}
+	}
+	res, err := f.scene(ctx, o.Scenes[0], o.Out, false)
+	if err != nil {
+		return nil, err
+	}
+	return &res, nil
+}
+
+// checkBands requires the image's bands to match the basis's, by count and,
+// where both sides carry real names, by name in order.
+func checkBands(b *transform.Basis, basisPath string, s *raster.Stack, ignoreNames bool) error {
+	if s.Len() != len(b.Bands) {
+		return fmt.Errorf("%s has %d bands but the basis %s has %d", describe(s), s.Len(), basisPath, len(b.Bands))
+	}
+	if ignoreNames {
+		return nil
+	}
+	var have, want []string
+	differ := false
+	for i, band := range s.Bands {
+		have = append(have, band.Name)
+		want = append(want, b.Bands[i].Name)
+		// Names made up from the file name ("scene:3") say nothing about
+		// the band, so they are not compared.
+		if !autoNamed(band.Name, band.Path, band.Index) && !autoNamed(b.Bands[i].Name, b.Bands[i].Source, b.Bands[i].Index) {
+			differ = differ || band.Name != b.Bands[i].Name
+		}
+	}
+	if differ {
+		return fmt.Errorf("%s has bands [%s] but the basis %s has [%s]; if they match in order, pass --ignore-band-names",
+			describe(s), strings.Join(have, ", "), basisPath, strings.Join(want, ", "))
+	}
+	return nil
+}
+
+// autoNamed reports whether name is the "<file stem>:<band>" name given to a
+// band without a description.
+func autoNamed(name, path string, index int) bool {
+	return name == fmt.Sprintf("%s:%d", raster.Stem(path), index)
+}
+
+// completeKey is the metadata item holding a component image's completion
+// record.
+const completeKey = "BANDFOLD_COMPLETE"
+
+// record identifies a finished component image by everything that shapes
+// its bytes: the basis, the inputs (path, size, time), the bands, nodata
+// and masks, the components, type, format and creation options, and the
+// tool version. A batch rerun skips an output only on an exact match.
+func (f *folding) record(s *raster.Stack) (string, error) {
+	fps, err := fingerprints([]*raster.Stack{s})
+	if err != nil {
+		return "", err
+	}
+	h := sha256.New()
+	for _, fp := range fps {
+		fmt.Fprintf(h, "input %s|%d|%s\n", fp.Path, fp.Size, fp.ModTime.Format(time.RFC3339Nano))
+	}
+	in := f.o.Input
+	fmt.Fprintf(h, "bands %v\nnodata %v\nmasks %q\ntile %d\n", in.Bands, in.NoData, in.Masks, in.Tile)
+	fmt.Fprintf(h, "format %s\nco %q\nversion %s\n", f.format, f.o.CreationOptions, f.env.Version)
+	return fmt.Sprintf("basis=%s components=%d type=%s options=%s", f.basis.Fingerprint(), f.k, f.dtype, hex.EncodeToString(h.Sum(nil))[:16]), nil
+}
+
+// scene folds one image into out. In a batch, a complete output with the
+// same record is skipped.
+func (f *folding) scene(ctx context.Context, input, out string, batch bool) (FoldScene, error) {
+	start := time.Now()
+	res := FoldScene{Input: input, Output: out, Components: f.k, Type: f.dtype}
+	s, err := openImage(input, f.o.Input.options())
+	if err != nil {
+		return res, err
+	}
+	defer s.Close()
+	outs := []output.Path{{Role: "output", Path: out}}
+	if f.o.Preview != "" {
+		outs = append(outs, output.Path{Role: "preview", Path: f.o.Preview})
+	}
+	if err := distinctFromStacks([]*raster.Stack{s}, outs...); err != nil {
+		return res, err
+	}
+	if err := output.Distinct([]output.Path{{Role: "basis", Path: f.o.Basis}}, outs); err != nil {
+		return res, err
+	}
+	if err := checkBands(f.basis, f.o.Basis, s, f.o.IgnoreBandNames); err != nil {
+		return res, err
+	}
+	record, err := f.record(s)
+	if err != nil {
+		return res, err
+	}
+	overwrite := f.o.Overwrite
+	if batch && !overwrite {
+		if md, err := raster.ReadMetadata(out); err == nil {
+			if md[completeKey] == record {
+				res.Status = "skipped"
+				return res, nil
+			}
+			return res, fmt.Errorf("output %s exists but was written with other inputs or options (use --overwrite to replace it)", out)
+		}
+	}
+	spec := f.spec(s)
+	spec.Overwrite = overwrite
+	dst, err := raster.Create(out, spec)
+	if err != nil {
+		return res, err
+	}
+	defer dst.Abort()
+	stats, err := f.project(ctx, s, dst, &spec)
+	if err != nil {
+		return res, err
+	}
+	if stats.x.Count() == 0 {
+		return res, fmt.Errorf("no valid pixels in %s after nodata and mask", describe(s))
+	}
+	res.Pixels = int64(stats.x.Count())
+	res.ExplainedFit = transform.Cumulative(f.basis.Eigenvalues)[f.k-1]
+	if e := transform.ExplainedOn(f.basis, stats.x, stats.y); !math.IsNaN(e) {
+		res.ExplainedScene = &e
+	}
+	res.Saturated = float64(stats.saturated) / float64(int64(f.k)*res.Pixels)
+	if err := dst.SetMetadata(completeKey, record); err != nil {
+		return res, err
+	}
+	if err := dst.Finish(); err != nil {
+		return res, err
+	}
+	// The preview is made and written under its temporary name before the
+	// image is committed, so a failure leaves neither.
+	var preview *output.File
+	if f.o.Preview != "" {
+		if preview, err = f.writePreview(dst.Temp(), out, overwrite); err != nil {
+			return res, err
+		}
+		defer preview.Abort()
+	}
+	if err := dst.Commit(); err != nil {
+		return res, err
+	}
+	if preview != nil {
+		if err := preview.Commit(); err != nil {
+			os.Remove(out)
+			return res, err
+		}
+		res.Preview = f.o.Preview
+	}
+	res.Status = "written"
+	res.Seconds = time.Since(start).Seconds()
+	f.warnings(&res)
+	return res, nil
+}
+
+// writePreview draws the quicklook of the component image at components
+// (its temporary name) and writes it under the preview's temporary name.
+func (f *folding) writePreview(components, out string, overwrite bool) (*output.File, error) {
+	data, err := componentPreview(components)
+	if err != nil {
+		return nil, fmt.Errorf("preview of %s: %w", out, err)
+	}
+	pv, err := output.Create(f.o.Preview, overwrite, ".png")
+	if err != nil {
+		return nil, err
+	}
+	if err := os.WriteFile(pv.Temp(), data, 0o644); err != nil {
+		pv.Abort()
+		return nil, fmt.Errorf("write %s: %w", f.o.Preview, unwrapPath(err))
+	}
+	return pv, nil
+}
+
+// warnings tells the user when the basis fits the scene badly or int16
+// storage clamped scores.
+func (f *folding) warnings(res *FoldScene) {
+	if e := res.ExplainedScene; e != nil && *e < res.ExplainedFit-0.05 {
+		f.env.warn("%s: the kept components explain %.1f points less of its variance than of the fitting scene's (%.4f against %.4f): the basis may no longer fit this scene; consider refitting it (bandfold learn)",
+			res.Input, 100*(res.ExplainedFit-*e), *e, res.ExplainedFit)
+	}
+	if res.Saturated > 0.001 {
+		f.env.warn("%s: %.2f%% of the valid scores exceed the int16 range and were clamped: the scene is far outside the fitting scene's range; use --type float32 or refit the basis", res.Output, 100*res.Saturated)
+	}
+}
+
+// spec describes the component image.
+func (f *folding) spec(s *raster.Stack) raster.Spec {
+	explained := transform.Explained(f.basis.Eigenvalues)
+	spec := raster.Spec{Grid: s.Grid, Bands: f.k, DataType: f.dtype, Format: f.format,
+		CreationOptions: f.o.CreationOptions}
+	var eig []string
+	for i := range f.k {
+		spec.Descriptions = append(spec.Descriptions, fmt.Sprintf("PC%d (%.2f%% of variance)", i+1, 100*explained[i]))
+		eig = append(eig, strconv.FormatFloat(f.basis.Eigenvalues[i], 'g', -1, 64))
+	}
+	nd := math.NaN()
+	if f.dtype == "Int16" {
+		nd = float64(transform.Int16NoData)
+		for i := range f.k {
+			scale, offset := f.basis.Int16Scaling(i)
+			spec.Scales = append(spec.Scales, scale)
+			spec.Offsets = append(spec.Offsets, offset)
+		}
+	}
+	spec.NoData = &nd
+	spec.Metadata = map[string]string{
+		"BANDFOLD_BASIS":       f.basis.Fingerprint(),
+		"BANDFOLD_BASIS_FILE":  filepath.Base(f.o.Basis),
+		"BANDFOLD_MODE":        string(f.basis.Mode),
+		"BANDFOLD_EIGENVALUES": strings.Join(eig, ","),
+		"BANDFOLD_COMPONENTS":  strconv.Itoa(f.k),
+		"BANDFOLD_VERSION":     f.env.Version,
+	}
+	if v, ok := s.Metadata["SCENARIO"]; ok {
+		spec.Metadata["SCENARIO"] = v
+	}
+	return spec
+}
+
+// foldStats are the moments of a scene's bands and scores and the count of
+// clamped scores.
+type foldStats struct {
+	x, y      *bands.Moments
+	saturated int64
+}
+
+// project folds every tile of s into dst.
+func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Output, spec *raster.Spec) (foldStats, error) {
+	sc := newScan([]*raster.Stack{s}, tileGrid(f.o.Input.Tile), 1, Shard{})
+	p := s.Len()
+	st := foldStats{x: bands.NewMoments(p), y: bands.NewMoments(f.k)}
+	pool := &sync.Pool{New: func() any { return &foldTile{x: bands.NewMoments(p), y: bands.NewMoments(f.k)} }}
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: f.env.workers(), Progress: f.env.progress("fold", sc.pixels())},
+		func(int) (tiles.Worker[*foldTile], error) {
+			return &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s)}, nil
+		},
+		func(t tiles.Tile, ft *foldTile) error {
+			err := dst.Write(t, ft.out)
+			st.x.Merge(ft.x)
+			st.y.Merge(ft.y)
+			st.saturated += ft.saturated
+			pool.Put(ft)
+			return err
+		})
+	return st, err
+}
+
+// foldTile is one tile's result: the values to write, the moments of its
+// valid pixels and the count of clamped scores.
+type foldTile struct {
+	out       []float64
+	x, y      *bands.Moments
+	saturated int64
+}
+
+type foldWorker struct {
+	*reader
+	k     int
+	spec  *raster.Spec
+	proj  *transform.Projector
+	pool  *sync.Pool
+	input string
+}
+
+func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
+	x, valid, _, err := w.read(t.Index)
+	if err != nil {
+		return nil, err
+	}
+	ft := w.pool.Get().(*foldTile)
+	k, n := w.k, t.Pixels()
+	ft.out = grow(ft.out, n*k)
+	w.proj.Fold(ft.out, x)
+	ft.x.Reset()
+	ft.y.Reset()
+	ft.saturated = 0
+	nd := *w.spec.NoData
+	for i := range n {
+		px := ft.out[i*k : i*k+k]
+		if !valid[i] {
+			continue
+		}
+		for c, v := range px {
+			if math.IsNaN(v) || math.IsInf(v, 0) {
+				return nil, fmt.Errorf("%s: the score of component %d at pixel (%d, %d) is %v: the values overflow the basis's scaling", w.input, c+1, t.X+i%t.W, t.Y+i/t.W, v)
+			}
+		}
+	}
+	ft.x.AddPixels(x, valid)
+	ft.y.AddPixels(ft.out, valid)
+	for i := range n {
+		px := ft.out[i*k : i*k+k]
+		if !valid[i] {
+			for c := range px {
+				px[c] = nd
+			}
+			continue
+		}
+		if w.spec.Scales != nil {
+			for c, v := range px {
+				q := (v - w.spec.Offsets[c]) / w.spec.Scales[c]
+				if math.Abs(q) > math.MaxInt16-0.5 {
+					ft.saturated++
+				}
+				px[c] = float64(transform.QuantizeInt16(v, w.spec.Scales[c], w.spec.Offsets[c]))
+			}
+		}
+	}
+	return ft, nil
+}

@@ -1,0 +1,91 @@
+package job
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"io"
+	"path/filepath"
+
+	"bandfold/cmd/bandfold/internal/figures"
+	"bandfold/raster/output"
+	"bandfold/transform"
+)
+
+// InspectOptions are the options of Inspect.
+type InspectOptions struct {
+	Basis string
+	// Plots, when set, is the folder for scree.png and loadings.png.
+	Plots     string
+	Overwrite bool
+}
+
+// InspectResult describes a basis file and the plots written.
+type InspectResult struct {
+	Basis   *transform.Basis
+	Summary BasisSummary
+	Plots   []string
+}
+
+// Inspect reads a basis and, with Plots, draws its figures.
+func Inspect(_ context.Context, _ Env, o InspectOptions) (*InspectResult, error) {
+	b, err := transform.ReadBasis(o.Basis)
+	if err != nil {
+		return nil, err
+	}
+	res := &InspectResult{Basis: b, Summary: Summarize(b, o.Basis)}
+	if o.Plots == "" {
+		return res, nil
+	}
+	draws := basisPlots(b)
+	var outs []output.Path
+	for _, d := range draws {
+		path := filepath.Join(o.Plots, d.name)
+		if err := output.Check(path, o.Overwrite); err != nil {
+			return nil, err
+		}
+		outs = append(outs, output.Path{Role: "plot", Path: path})
+	}
+	if err := output.Distinct([]output.Path{{Role: "basis", Path: o.Basis}}, outs); err != nil {
+		return nil, err
+	}
+	// Draw everything first, so a failing plot leaves no file.
+	data := make([][]byte, len(draws))
+	for i, d := range draws {
+		var buf bytes.Buffer
+		if err := d.draw(&buf); err != nil {
+			return nil, fmt.Errorf("plot %s: %w", d.name, err)
+		}
+		data[i] = buf.Bytes()
+	}
+	for i := range draws {
+		path := outs[i].Path
+		if err := output.WriteFile(path, data[i], o.Overwrite); err != nil {
+			return nil, err
+		}
+		res.Plots = append(res.Plots, path)
+	}
+	return res, nil
+}
+
+type plotDraw struct {
+	name string
+	draw func(io.Writer) error
+}
+
+// basisPlots are the figures of a basis: the scree plot and the loadings.
+func basisPlots(b *transform.Basis) []plotDraw {
+	var names []string
+	for _, band := range b.Bands {
+		names = append(names, band.Name)
+	}
+	title := fmt.Sprintf("%s, %s mode, %d pixels", filepath.Base(b.Source()), b.Mode, b.Pixels)
+	return []plotDraw{
+		{"scree.png", func(w io.Writer) error {
+			return figures.Scree(w, figures.ScreeData{Title: "Variance by component: " + title, Eigenvalues: b.Eigenvalues, Chosen: b.Components})
+		}},
+		{"loadings.png", func(w io.Writer) error {
+			return figures.Loadings(w, figures.LoadingsData{Title: "Loadings: " + title, BandNames: names, Vectors: b.Eigenvectors, Components: b.Components})
+		}},
+	}
+}

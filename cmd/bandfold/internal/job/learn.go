@@ -1,0 +1,216 @@
+package job
+
+import (
+	"context"
+	"fmt"
+	"time"
+
+	"bandfold/raster"
+	"bandfold/raster/output"
+	"bandfold/transform"
+)
+
+// LearnOptions are the options of Learn.
+type LearnOptions struct {
+	// Scenes are IMAGE arguments (files joined with commas form one stack),
+	// pooled: they must have the same bands.
+	Scenes []string
+	Input  Input
+	// Out is the basis file to write; Partial, instead, the shard's
+	// un-decomposed statistics for Merge. Exactly one is set.
+	Out, Partial string
+	Mode         transform.Mode
+	// Components is the number of components to keep; 0 chooses the fewest
+	// reaching Variance.
+	Components int
+	Variance   float64
+	// Stride fits on every Stride-th row and column only.
+	Stride    int
+	Shard     Shard
+	Overwrite bool
+}
+
+// LearnResult is what Learn wrote.
+type LearnResult struct {
+	// Basis and Summary are set when a basis was written to Path.
+	Basis   *transform.Basis
+	Summary BasisSummary
+	// Partial is set when partial statistics were written to Path.
+	Partial *transform.Partial
+	Path    string
+}
+
+func (o *LearnOptions) check() error {
+	if len(o.Scenes) == 0 {
+		return Usagef("no input image")
+	}
+	if (o.Out == "") == (o.Partial == "") {
+		return Usagef("give exactly one of --out and --partial")
+	}
+	if o.Mode == "" {
+		o.Mode = transform.Covariance
+	}
+	if o.Stride == 0 {
+		o.Stride = 1
+	}
+	if o.Stride < 1 {
+		return Usagef("--stride %d: must be at least 1", o.Stride)
+	}
+	if o.Shard.orWhole().N > 1 && o.Partial == "" {
+		return Usagef("--shard needs --partial: a shard sees only part of the image, so it cannot write a basis")
+	}
+	if err := checkChoice(o.Components, o.Variance); err != nil {
+		return err
+	}
+	return o.Input.check()
+}
+
+// Learn accumulates the band covariance of the scenes tile by tile and
+// writes a basis (or a shard's partial statistics).
+func Learn(ctx context.Context, env Env, o LearnOptions) (*LearnResult, error) {
+	if err := o.check(); err != nil {
+		return nil, err
+	}
+	target := o.Out
+	if o.Partial != "" {
+		target = o.Partial
+	}
+	if err := output.Check(target, o.Overwrite); err != nil {
+		return nil, err
+	}
+	scenes := make([]*raster.Stack, 0, len(o.Scenes))
+	defer func() {
+		for _, s := range scenes {
+			s.Close()
+		}
+	}()
+	for _, a := range o.Scenes {
+		s, err := openImage(a, o.Input.options())
+		if err != nil {
+			return nil, err
+		}
+		scenes = append(scenes, s)
+	}
+	if err := distinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil {
+		return nil, err
+	}
+	if err := checkBandCounts(scenes); err != nil {
+		return nil, err
+	}
+	if err := needTwoBands(scenes[0], o.Input.Bands); err != nil {
+		return nil, err
+	}
+	p := scenes[0].Len()
+	if o.Components > p {
+		return nil, Usagef("--components %d: the images have only %d bands", o.Components, p)
+	}
+	inputs, err := fingerprints(scenes)
+	if err != nil {
+		return nil, err
+	}
+	sh := o.Shard.orWhole()
+	sc := newScan(scenes, tileGrid(o.Input.Tile), o.Stride, sh)
+	env.log().Debug("learn", "scenes", len(scenes), "bands", p, "tiles", len(sc.items), "shard", sh.String())
+	acc, err := sc.moments(ctx, env)
+	if err != nil {
+		return nil, err
+	}
+	if o.Partial != "" {
+		part := &transform.Partial{
+			Format: transform.PartialFormat, Version: 1, Created: time.Now().UTC(),
+			Shard: sh.I, Shards: sh.N, TileSize: o.Input.Tile, Stride: o.Stride,
+			Mode: o.Mode, Bands: basisBands(scenes[0]), Inputs: inputs,
+			State: acc.State(), Tool: env.Version,
+		}
+		data, err := part.Marshal()
+		if err != nil {
+			return nil, fmt.Errorf("write partial %s: %w", o.Partial, err)
+		}
+		if err := output.WriteFile(o.Partial, data, o.Overwrite); err != nil {
+			return nil, err
+		}
+		return &LearnResult{Partial: part, Path: o.Partial}, nil
+	}
+	b, err := fitBasis(env, acc, o.Mode, basisBands(scenes[0]), describeAll(scenes))
+	if err != nil {
+		return nil, err
+	}
+	b.Stride = o.Stride
+	b.Inputs = inputs
+	choose(b, o.Components, o.Variance)
+	if err := writeBasis(b, o.Out, o.Overwrite); err != nil {
+		return nil, err
+	}
+	return &LearnResult{Basis: b, Summary: Summarize(b, o.Out), Path: o.Out}, nil
+}
+
+// distinctFromStacks refuses outputs that are the same file as any file or
+// mask of the stacks, or as each other.
+func distinctFromStacks(stacks []*raster.Stack, outs ...output.Path) error {
+	var ins []output.Path
+	for _, s := range stacks {
+		for _, p := range s.Paths {
+			ins = append(ins, output.Path{Role: "input", Path: p})
+		}
+		for _, m := range s.Masks {
+			ins = append(ins, output.Path{Role: "mask", Path: m})
+		}
+	}
+	return output.Distinct(ins, outs)
+}
+
+// MergeOptions are the options of Merge.
+type MergeOptions struct {
+	Parts      []string
+	Out        string
+	Components int
+	Variance   float64
+	Overwrite  bool
+}
+
+// Merge combines the partial statistics of all shards into a basis.
+func Merge(_ context.Context, env Env, o MergeOptions) (*LearnResult, error) {
+	if err := checkChoice(o.Components, o.Variance); err != nil {
+		return nil, err
+	}
+	if len(o.Parts) == 0 {
+		return nil, Usagef("no partial file")
+	}
+	if err := output.Check(o.Out, o.Overwrite); err != nil {
+		return nil, err
+	}
+	var ins []output.Path
+	for _, p := range o.Parts {
+		ins = append(ins, output.Path{Role: "partial", Path: p})
+	}
+	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}}); err != nil {
+		return nil, err
+	}
+	parts := make([]*transform.Partial, len(o.Parts))
+	for i, p := range o.Parts {
+		part, err := transform.ReadPartial(p)
+		if err != nil {
+			return nil, err
+		}
+		parts[i] = part
+	}
+	total, err := transform.Combine(parts, o.Parts)
+	if err != nil {
+		return nil, err
+	}
+	first := parts[0]
+	if o.Components > len(first.Bands) {
+		return nil, Usagef("--components %d: the partials have only %d bands", o.Components, len(first.Bands))
+	}
+	b, err := fitBasis(env, total, first.Mode, append([]transform.Band(nil), first.Bands...), fmt.Sprintf("the %d partial files", len(parts)))
+	if err != nil {
+		return nil, err
+	}
+	b.Stride = first.Stride
+	b.Inputs = first.Inputs
+	choose(b, o.Components, o.Variance)
+	if err := writeBasis(b, o.Out, o.Overwrite); err != nil {
+		return nil, err
+	}
+	return &LearnResult{Basis: b, Summary: Summarize(b, o.Out), Path: o.Out}, nil
+}

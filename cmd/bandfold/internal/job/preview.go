@@ -1,0 +1,98 @@
+package job
+
+import (
+	"bytes"
+	"image"
+	"image/png"
+	"math"
+
+	"bandfold/cmd/bandfold/internal/figures"
+	"bandfold/raster"
+	"bandfold/tiles"
+)
+
+// previewSide is the longest side of a quicklook, in pixels.
+const previewSide = 1024
+
+// previewSize scales w x h down to fit previewSide.
+func previewSize(w, h int) (int, int) {
+	f := math.Max(1, float64(max(w, h))/previewSide)
+	return max(1, int(math.Round(float64(w)/f))), max(1, int(math.Round(float64(h)/f)))
+}
+
+// composite reads three bands of s (0-based positions) decimated to the
+// preview size and stretches each from its 2nd to its 98th percentile.
+func composite(s *raster.Stack, rgb [3]int) (*image.RGBA, error) {
+	sub, err := s.Subset(rgb[:])
+	if err != nil {
+		return nil, err
+	}
+	r, err := sub.NewReader()
+	if err != nil {
+		return nil, err
+	}
+	defer r.Close()
+	pw, ph := previewSize(s.Width, s.Height)
+	vals := make([]float64, pw*ph*3)
+	valid := make([]bool, pw*ph)
+	if _, err := r.ReadScaled(tiles.Tile{W: s.Width, H: s.Height}, pw, ph, vals, valid); err != nil {
+		return nil, err
+	}
+	var ch [3][]uint8
+	band := make([]float64, pw*ph)
+	for c := range 3 {
+		for i := range band {
+			band[i] = vals[i*3+c]
+		}
+		lim := figures.Percentiles(band, valid, 2, 98)
+		ch[c] = figures.Stretch(band, valid, lim[0], lim[1])
+	}
+	return figures.RGB(pw, ph, ch[0], ch[1], ch[2], valid), nil
+}
+
+// firstThree are the positions of the first three bands of p (the first
+// band repeated when there are fewer).
+func firstThree(p int) [3]int { return [3]int{0, min(1, p-1), min(2, p-1)} }
+
+// previewBands checks three 1-based band numbers of an image with p bands;
+// none means the first three.
+func previewBands(sel []int, p int) ([3]int, error) {
+	if len(sel) == 0 {
+		return firstThree(p), nil
+	}
+	if len(sel) != 3 {
+		return [3]int{}, Usagef("--preview-bands %v: want three band numbers such as 3,2,1", sel)
+	}
+	var out [3]int
+	for i, b := range sel {
+		if b < 1 || b > p {
+			return out, Usagef("--preview-bands: band %d out of range (the image has %d bands)", b, p)
+		}
+		out[i] = b - 1
+	}
+	return out, nil
+}
+
+// encodePNG encodes img.
+func encodePNG(img image.Image) ([]byte, error) {
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, img); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
+}
+
+// componentPreview returns an RGB quicklook of components 1-3 of the
+// component image at path.
+func componentPreview(path string) ([]byte, error) {
+	s, err := raster.Open([]string{path})
+	if err != nil {
+		return nil, err
+	}
+	defer s.Close()
+	img, err := composite(s, firstThree(s.Len()))
+	if err != nil {
+		return nil, err
+	}
+	return encodePNG(img)
+}

@@ -1,0 +1,147 @@
+package main
+
+import (
+	"reflect"
+	"strings"
+	"testing"
+
+	"github.com/spf13/cobra"
+
+	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/raster"
+	"bandfold/transform"
+	"bandfold/transform/change"
+)
+
+// parseArgs parses argv with cmd's flags and returns the positional
+// arguments, as cobra does before running a command.
+func parseArgs(t *testing.T, cmd *cobra.Command, argv []string) []string {
+	t.Helper()
+	if err := cmd.ParseFlags(argv); err != nil {
+		t.Fatalf("%v: %v", argv, err)
+	}
+	return cmd.Flags().Args()
+}
+
+// noEnv is a scheduler environment with nothing set.
+func noEnv(string) string { return "" }
+
+// checkOptionError requires err to be a usage error containing want.
+func checkOptionError(t *testing.T, argv []string, err error, want string) {
+	t.Helper()
+	if err == nil || !strings.Contains(err.Error(), want) || !job.IsUsage(err) {
+		t.Errorf("%v: error %v; want a usage error containing %q", argv, err, want)
+	}
+}
+
+// optionCase is one command line and the options (or the usage error) it
+// must give.
+type optionCase[T any] struct {
+	argv []string
+	want T
+	err  string
+}
+
+// checkOptions parses every case with parse and compares the options.
+func checkOptions[T any](t *testing.T, tests []optionCase[T], parse func(argv []string) (T, error)) {
+	t.Helper()
+	for _, tc := range tests {
+		o, err := parse(tc.argv)
+		if tc.err != "" {
+			checkOptionError(t, tc.argv, err, tc.err)
+			continue
+		}
+		if err != nil || !reflect.DeepEqual(o, tc.want) {
+			t.Errorf("%v:\n got %+v, %v\nwant %+v", tc.argv, o, err, tc.want)
+		}
+	}
+}
+
+// The expected option values below are known by construction: each is the
+// flag's documented default or the value typed.
+func TestLearnFlagsToOptions(t *testing.T) {
+	tests := []optionCase[job.LearnOptions]{
+		{[]string{"a.tif", "--out", "b.json"}, job.LearnOptions{Scenes: []string{"a.tif"}, Out: "b.json", Mode: transform.Covariance,
+			Variance: 0.99, Stride: 1, Shard: job.Shard{I: 0, N: 1}}, ""},
+		{[]string{"a.tif", "b.tif", "--partial", "p.json", "--bands", "1-3,5", "--nodata", "0", "--mask", "m.tif", "--tile", "64",
+			"--mode", "correlation", "-k", "3", "--variance", "0.9", "--stride", "2", "--shard", "1/4", "--overwrite"},
+			job.LearnOptions{Scenes: []string{"a.tif", "b.tif"}, Partial: "p.json", Mode: transform.Correlation, Components: 3, Variance: 0.9,
+				Stride: 2, Shard: job.Shard{I: 1, N: 4}, Overwrite: true,
+				Input: job.Input{Bands: []int{1, 2, 3, 5}, NoData: []float64{0}, Masks: []string{"m.tif"}, Tile: 64}}, ""},
+		{[]string{"a.tif", "--out", "b.json", "--mode", "spectral"}, job.LearnOptions{}, `--mode "spectral"`},
+		{[]string{"a.tif", "--out", "b.json", "--bands", "3-1"}, job.LearnOptions{}, `--bands "3-1": range 3-1 runs backwards`},
+		{[]string{"a.tif", "--out", "b.json", "--nodata", "zero"}, job.LearnOptions{}, `--nodata "zero"`},
+		{[]string{"a.tif", "--partial", "p.json", "--shard", "4/4"}, job.LearnOptions{}, "need 0 <= I < N"},
+		{[]string{"a.tif", "--partial", "p.json", "--shard", "auto"}, job.LearnOptions{}, "no job array in the environment"},
+	}
+	checkOptions(t, tests, func(argv []string) (job.LearnOptions, error) {
+		fl := &learnFlags{}
+		return fl.options(parseArgs(t, learnCommand(&globals{}, fl), argv), noEnv)
+	})
+}
+
+func TestFoldFlagsToOptions(t *testing.T) {
+	tests := []optionCase[job.FoldOptions]{
+		{[]string{"a.tif", "--basis", "b.json", "--out", "c.tif"}, job.FoldOptions{Scenes: []string{"a.tif"}, Basis: "b.json", Out: "c.tif",
+			Name: "{stem}.components.tif", Format: raster.GTiff, Type: "float32", Shard: job.Shard{I: 0, N: 1}}, ""},
+		{[]string{"a.tif", "b.tif", "-b", "b.json", "--out-dir", "d", "--name", "{stem}.pc.tif", "-k", "2", "--format", "cog", "--type", "int16",
+			"--ignore-band-names", "--co", "ZLEVEL=9", "--co", "BLOCKXSIZE=512", "--overwrite", "--shard", "0/2", "--tile", "128"},
+			job.FoldOptions{Scenes: []string{"a.tif", "b.tif"}, Basis: "b.json", OutDir: "d", Name: "{stem}.pc.tif", Components: 2,
+				Format: raster.COG, Type: "int16", IgnoreBandNames: true, CreationOptions: []string{"ZLEVEL=9", "BLOCKXSIZE=512"},
+				Overwrite: true, Shard: job.Shard{I: 0, N: 2}, Input: job.Input{Tile: 128}}, ""},
+		{[]string{"a.tif", "-b", "b.json", "--out", "c.tif", "--format", "png"}, job.FoldOptions{}, `--format "png"`},
+		{[]string{"a.tif", "-b", "b.json", "--out", "c.tif", "--co", "FOO"}, job.FoldOptions{}, `--co "FOO": want KEY=VALUE`},
+		{[]string{"a.tif", "b.tif", "-b", "b.json", "--out", "c.tif"}, job.FoldOptions{}, "--out takes one input"},
+		{[]string{"a.tif", "-b", "b.json", "--out-dir", "d", "--preview", "p.png"}, job.FoldOptions{}, "--preview goes with --out"},
+		{[]string{"-b", "b.json", "--out", "c.tif", "--list", "l.txt"}, job.FoldOptions{}, "--list goes with --out-dir"},
+	}
+	checkOptions(t, tests, func(argv []string) (job.FoldOptions, error) {
+		fl := &foldFlags{}
+		return fl.options(parseArgs(t, foldCommand(&globals{}, fl), argv), noEnv)
+	})
+}
+
+func TestUnfoldFlagsToOptions(t *testing.T) {
+	tests := []optionCase[job.UnfoldOptions]{
+		{[]string{"c.tif", "--basis", "b.json", "--out", "r.tif"}, job.UnfoldOptions{Components: "c.tif", Basis: "b.json", Out: "r.tif",
+			Type: "same", Format: raster.GTiff}, ""},
+		{[]string{"c.tif", "-b", "b.json", "-o", "r.tif", "--type", "float64", "--compare", "a.tif", "--bands", "2-3", "--format", "cog",
+			"--co", "ZLEVEL=1", "--overwrite", "--ignore-basis-mismatch"},
+			job.UnfoldOptions{Components: "c.tif", Basis: "b.json", Out: "r.tif", Type: "float64", Compare: "a.tif", Format: raster.COG,
+				CreationOptions: []string{"ZLEVEL=1"}, Overwrite: true, IgnoreBasisMismatch: true, Input: job.Input{Bands: []int{2, 3}}}, ""},
+		{[]string{"c.tif", "-b", "b.json", "-o", "r.tif", "--format", "jpeg"}, job.UnfoldOptions{}, `--format "jpeg"`},
+	}
+	checkOptions(t, tests, func(argv []string) (job.UnfoldOptions, error) {
+		fl := &unfoldFlags{}
+		return fl.options(parseArgs(t, unfoldCommand(&globals{}, fl), argv)[0])
+	})
+}
+
+func TestChangeFlagsToOptions(t *testing.T) {
+	def, err := change.ParseThreshold(change.DefaultThreshold)
+	if err != nil {
+		t.Fatal(err)
+	}
+	sigma, err := change.ParseThreshold("sigma:4")
+	if err != nil {
+		t.Fatal(err)
+	}
+	tests := []optionCase[job.ChangeOptions]{
+		{[]string{"a.tif", "b.tif", "--out", "d"}, job.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d", Resampling: "bilinear",
+			Threshold: def, MinArea: job.MinArea{Px: 4}, Sample: change.DefaultSampleSize}, ""},
+		{[]string{"a.tif", "b.tif", "-o", "d", "--mask-before", "ma.tif", "--mask-after", "mb.tif", "--align", "--resampling", "average",
+			"-b", "p.json", "-k", "2", "--threshold", "sigma:4", "--min-area", "0.5ha", "--differences", "--reference", "r.gpkg",
+			"--preview-bands", "3,2,1", "--sample", "5000", "--overwrite"},
+			job.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d", MaskBefore: "ma.tif", MaskAfter: "mb.tif", Align: true, Resampling: "average",
+				Basis: "p.json", Components: 2, Threshold: sigma, MinArea: job.MinArea{M2: 5000}, Differences: true, Reference: "r.gpkg",
+				PreviewBands: []int{3, 2, 1}, Sample: 5000, Overwrite: true}, ""},
+		{[]string{"a.tif", "b.tif", "--out", "d", "--threshold", "magic"}, job.ChangeOptions{}, `--threshold "magic"`},
+		{[]string{"a.tif", "b.tif", "--out", "d", "--min-area", "5 acres"}, job.ChangeOptions{}, `--min-area "5 acres"`},
+		{[]string{"a.tif", "b.tif", "--out", "d", "--preview-bands", "1,2"}, job.ChangeOptions{}, `--preview-bands "1,2"`},
+	}
+	checkOptions(t, tests, func(argv []string) (job.ChangeOptions, error) {
+		fl := &changeFlags{}
+		a := parseArgs(t, changeCommand(&globals{}, fl), argv)
+		return fl.options(a[0], a[1])
+	})
+}
