@@ -18,17 +18,66 @@ const utmK0 = 0.9996
 const wgs84A, wgs84InvF = 6378137.0, 298.257223563
 
 // lonLatBoxArea is the exact area (m²) of the WGS84 ellipsoid between two
-// meridians and two parallels (degrees), by the authalic-latitude formula
-// A = a²(1-e²)/2 Δλ [q(φ2) - q(φ1)], independent of PROJ.
+// meridians and two parallels (degrees), the ellipsoidal quadrangle
+//
+//	A = (λ2 − λ1) b² [q(φ2) − q(φ1)] / 2,
+//	q(φ) = sin φ / (1 − e² sin² φ) + 1/(2e) ln((1 + e sin φ) / (1 − e sin φ)),
+//
+// with b = a(1 − f) and e² = f(2 − f), so b² = a²(1 − e²). This is the
+// authalic-latitude formula of Snyder (1987), Map Projections: A Working
+// Manual, USGS Professional Paper 1395, eq. 3-12 and the text around it
+// (Snyder's q carries the factor 1 − e², here moved into b²): the zone
+// between the equator and φ over Δλ has area Δλ b² q(φ) / 2, so that the
+// whole ellipsoid has 2π b² q(90°) = 4π R_q², R_q Snyder's authalic radius.
+// It is written out here, independent of PROJ.
 func lonLatBoxArea(lon1, lat1, lon2, lat2 float64) float64 {
 	f := 1 / wgs84InvF
+	b := wgs84A * (1 - f)
 	e2 := f * (2 - f)
 	e := math.Sqrt(e2)
 	q := func(lat float64) float64 {
 		s := math.Sin(lat * math.Pi / 180)
-		return s/(1-e2*s*s) - math.Log((1-e*s)/(1+e*s))/(2*e)
+		return s/(1-e2*s*s) + math.Log((1+e*s)/(1-e*s))/(2*e)
 	}
-	return wgs84A * wgs84A * (1 - e2) / 2 * (lon2 - lon1) * math.Pi / 180 * (q(lat2) - q(lat1))
+	return (lon2 - lon1) * math.Pi / 180 * b * b * (q(lat2) - q(lat1)) / 2
+}
+
+// TestLonLatBoxArea checks the closed form of lonLatBoxArea against PROJ's
+// cylindrical equal-area projection on WGS84 (+proj=cea), which maps
+// meridians and parallels to straight lines, so the box becomes a rectangle
+// whose planar area is the box's ground area exactly, with no sampling.
+// PROJ evaluates the same q, so the two differ by rounding only: about 1e-16
+// relative in each q, magnified by the subtraction q(φ2) − q(φ1) (for a 1°
+// box at 60°N, q changes by 1/100 of itself) to some 1e-14, so 1e-12.
+// The boxes include the whole ellipsoid. (GDAL's geodesic polygon area,
+// OGR_G_GeodesicArea, needs GDAL 3.9, newer than the 3.6 bandfold builds
+// on, so it is not used here.)
+func TestLonLatBoxArea(t *testing.T) {
+	geo, err := godal.NewSpatialRefFromProj4("+proj=longlat +ellps=WGS84 +no_defs")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer geo.Close()
+	cea, err := godal.NewSpatialRefFromProj4("+proj=cea +lat_ts=0 +lon_0=0 +ellps=WGS84 +units=m +no_defs")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer cea.Close()
+	tr, err := godal.NewTransform(geo, cea)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer tr.Close()
+	for _, box := range [][4]float64{{0, 0, 1, 1}, {20, 60, 21, 61}, {0, 0, 10, 10}, {-180, -90, 180, 90}, {10, -35, 12.5, -34}} {
+		xs, ys := []float64{box[0], box[2]}, []float64{box[1], box[3]}
+		if err := tr.TransformEx(xs, ys, nil, nil); err != nil {
+			t.Fatal(err)
+		}
+		want := (xs[1] - xs[0]) * (ys[1] - ys[0])
+		if got := lonLatBoxArea(box[0], box[1], box[2], box[3]); relErr(got, want) > 1e-12 {
+			t.Errorf("box %v: closed form %.15g m², PROJ cea %.15g m² (relative difference %.2g)", box, got, want, relErr(got, want))
+		}
+	}
 }
 
 func epsgWKT(t *testing.T, code int) string {
@@ -131,11 +180,15 @@ func TestCellAreas(t *testing.T) {
 		{"Long Island metres", lim, 3000 * 3000, 1e-4},
 		{"Long Island US survey feet", lif, 3000 * 3000, 1e-4},
 		{"Web Mercator 45N", merc, 1e6 / 2, 5e-3},
-		// 1° x 1° at the equator: 111.32 km x 110.57 km = 12,308.7 km²
-		// (reference values for a degree of longitude at the equator and
-		// a degree of latitude near it, from memory; the authalic formula
-		// gives 12,308.46 km²).
-		{"1 degree at the equator", testGrid(t, 4326, 1, 1, [6]float64{0, 1, 0, 1, 0, -1}), 111.32e3 * 110.57e3, 5e-3},
+		// 1° x 1° at the equator: the closed form of the ellipsoidal
+		// quadrangle (lonLatBoxArea, Snyder 1987 eq. 3-12), about
+		// 12,308 km². NewCellAreas cuts each of the cell's 111 km edges into
+		// 5 pieces (at most 25 km on the ground), takes their ends to a
+		// Lambert equal-area plane and measures the polygon there; its
+		// chords stand for the curved images of the edges to within 1e-5
+		// of the area (maxSegment), so 1e-4 holds with a margin, as in the
+		// per-cell check of TestCellAreasCoarseGeographic.
+		{"1 degree at the equator", testGrid(t, 4326, 1, 1, [6]float64{0, 1, 0, 1, 0, -1}), lonLatBoxArea(0, 0, 1, 1), 1e-4},
 	}
 	totals := map[string]float64{}
 	for _, tc := range tests {

@@ -134,3 +134,38 @@ func quiet(ec godal.ErrorCategory, code int, msg string) error {
 }
 
 var errLogger = godal.ErrLogger(quiet)
+
+// tidyError is a GDAL error whose message is shortened to one line: GDAL
+// and libtiff repeat a failure once per block or directory, so the distinct
+// lines are kept in order, and a full disk is said plainly.
+type tidyError struct {
+	msg string
+	err error
+}
+
+func (e *tidyError) Error() string { return e.msg }
+func (e *tidyError) Unwrap() error { return e.err }
+
+// tidy returns err with a one-line message (nil stays nil).
+func tidy(err error) error {
+	if err == nil {
+		return nil
+	}
+	lines := strings.Split(err.Error(), "\n")
+	var keep []string
+	seen := map[string]bool{}
+	for _, l := range lines {
+		l = strings.TrimSpace(l)
+		if strings.Contains(l, "No space left on device") {
+			return &tidyError{"no space left on device", err}
+		}
+		if l != "" && !seen[l] {
+			seen[l] = true
+			keep = append(keep, l)
+		}
+	}
+	if len(keep) > 3 {
+		keep = append(keep[:3], fmt.Sprintf("and %d more GDAL messages", len(keep)-3))
+	}
+	return &tidyError{strings.Join(keep, "; "), err}
+}

@@ -29,6 +29,12 @@ func ParseBands(spec string) ([]int, error) {
 	seen := map[int]bool{}
 	for _, part := range strings.Split(spec, ",") {
 		part = strings.TrimSpace(part)
+		if part == "" {
+			return nil, fmt.Errorf("bands %q: an empty item between commas: %w", spec, ErrBadSpec)
+		}
+		if strings.HasPrefix(part, "-") {
+			return nil, fmt.Errorf("bands %q: %s is not a band number (bands count from 1): %w", spec, part, ErrBadSpec)
+		}
 		lo, hi, isRange := strings.Cut(part, "-")
 		a, err := parseBandNumber(lo)
 		if err != nil {

@@ -177,12 +177,12 @@ func Create(path string, spec Spec) (*Output, error) {
 	ds, err := godal.Create(godal.GTiff, f.Temp(), spec.Bands, dt, spec.Width, spec.Height, godal.CreationOption(opts...), errLogger)
 	if err != nil {
 		f.Abort()
-		return nil, fmt.Errorf("create %s: %w", path, err)
+		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	o.ds = ds
 	if err := o.describe(); err != nil {
 		o.Abort()
-		return nil, fmt.Errorf("create %s: %w", path, err)
+		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	return o, nil
 }
@@ -259,7 +259,7 @@ func (o *Output) Write(t tiles.Tile, src []float64) error {
 		panic(fmt.Sprintf("raster: %d values to write for %v of %d bands", len(src), t, o.spec.Bands))
 	}
 	if err := o.dataset().Write(t.X, t.Y, src[:n], t.W, t.H, errLogger); err != nil {
-		return fmt.Errorf("write %s at %v: %w", o.Path(), t, err)
+		return fmt.Errorf("write %s at %v: %w", o.Path(), t, tidy(err))
 	}
 	return nil
 }
@@ -268,7 +268,7 @@ func (o *Output) Write(t tiles.Tile, src []float64) error {
 // of any numeric slice type GDAL accepts.
 func (o *Output) WriteBand(band int, t tiles.Tile, src any) error {
 	if err := o.dataset().Bands()[band].Write(t.X, t.Y, src, t.W, t.H, errLogger); err != nil {
-		return fmt.Errorf("write %s band %d at %v: %w", o.Path(), band+1, t, err)
+		return fmt.Errorf("write %s band %d at %v: %w", o.Path(), band+1, t, tidy(err))
 	}
 	return nil
 }
@@ -277,7 +277,7 @@ func (o *Output) WriteBand(band int, t tiles.Tile, src any) error {
 // written just before Commit.
 func (o *Output) SetMetadata(key, value string) error {
 	if err := o.dataset().SetMetadata(key, value, errLogger); err != nil {
-		return fmt.Errorf("write %s: %w", o.Path(), err)
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
 	return nil
 }
@@ -307,7 +307,7 @@ func (o *Output) Finish() error {
 	o.ds = nil
 	if err := ds.Close(errLogger); err != nil {
 		o.Abort()
-		return fmt.Errorf("write %s: %w", o.Path(), err)
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
 	if o.spec.Format == COG {
 		if err := o.toCOG(); err != nil {
@@ -334,7 +334,7 @@ func (o *Output) toCOG() error {
 	tmp := o.file.Temp()
 	src, err := godal.Open(tmp, errLogger)
 	if err != nil {
-		return fmt.Errorf("write %s: %w", o.Path(), err)
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
 	defer src.Close(errLogger)
 	cog := tmp + ".cog.tif"
@@ -344,13 +344,13 @@ func (o *Output) toCOG() error {
 	}
 	out, err := src.Translate(cog, append([]string{"-of", "COG"}, sw...), errLogger)
 	if err != nil {
-		return fmt.Errorf("write %s as COG: %w", o.Path(), err)
+		return fmt.Errorf("write %s as COG: %w", o.Path(), tidy(err))
 	}
 	if err := out.Close(errLogger); err != nil {
-		return fmt.Errorf("write %s as COG: %w", o.Path(), err)
+		return fmt.Errorf("write %s as COG: %w", o.Path(), tidy(err))
 	}
 	if err := os.Rename(cog, tmp); err != nil {
-		return fmt.Errorf("write %s: %w", o.Path(), err)
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
 	return nil
 }

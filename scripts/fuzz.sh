@@ -10,7 +10,11 @@ while IFS=: read -r file name; do
 	file=${file#./}
 	pkg=./$(dirname "$file")
 	echo "fuzz $pkg $name ($fuzztime)"
-	"$go" test -run '^$' -fuzz "^${name}\$" -fuzztime "$fuzztime" "$pkg" >/dev/null
+	if ! log=$("$go" test -run '^$' -fuzz "^${name}\$" -fuzztime "$fuzztime" "$pkg" 2>&1); then
+		printf '%s\n' "$log" | tail -n 30 >&2
+		echo "fuzz: $count passed, 1 failed" >&2
+		exit 1
+	fi
 	count=$((count + 1))
 done < <(grep -rHo --include='*_test.go' '^func Fuzz[A-Za-z0-9_]*' . | sed 's/func //' | sort)
 echo "fuzz: $count passed, 0 failed"

@@ -146,10 +146,33 @@ func Change(ctx context.Context, env Env, o ChangeOptions) (*ChangeResult, error
 	}
 	for _, step := range steps {
 		if err := step(ctx); err != nil {
-			return nil, err
+			return nil, r.finalNames(err)
 		}
 	}
 	return r.sum, nil
+}
+
+// renamedError is an error whose message names the output folder by its
+// final path instead of its temporary one.
+type renamedError struct {
+	msg string
+	err error
+}
+
+func (e *renamedError) Error() string { return e.msg }
+func (e *renamedError) Unwrap() error { return e.err }
+
+// finalNames rewrites the temporary folder's path in err's message to the
+// folder's final path, which is what the user asked for.
+func (r *changeRun) finalNames(err error) error {
+	if r.dir == nil {
+		return err
+	}
+	tmp := filepath.Dir(r.dir.Path("x"))
+	if !strings.Contains(err.Error(), tmp) {
+		return err
+	}
+	return &renamedError{strings.ReplaceAll(err.Error(), tmp, r.dir.Final()), err}
 }
 
 // check refuses option values that cannot be right.
@@ -334,7 +357,7 @@ func (r *changeRun) openAfter() error {
 	defer probe.Close()
 	gridErr := r.before.Grid.Compare(probe.Grid)
 	if gridErr == nil {
-		r.after, err = raster.Open(paths, opts...)
+		r.after, err = openStack(paths, opts)
 		return err
 	}
 	if !o.Align {
@@ -350,7 +373,7 @@ func (r *changeRun) openAfter() error {
 		r.cleanups = append(r.cleanups, cleanup)
 	}
 	r.env.warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", o.After, describe(r.before), o.Resampling)
-	if r.after, err = raster.Open(vrts, opts...); err != nil {
+	if r.after, err = openStack(vrts, opts); err != nil {
 		return err
 	}
 	r.aligned = true

@@ -254,7 +254,7 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 		return res, err
 	}
 	if stats.x.Count() == 0 {
-		return res, fmt.Errorf("no valid pixels in %s after nodata and mask", describe(s))
+		return res, noValidPixels(ctx, f.env, s, f.o.Input.Tile)
 	}
 	res.Pixels = int64(stats.x.Count())
 	res.ExplainedFit = transform.Cumulative(f.basis.Eigenvalues)[f.k-1]
@@ -372,7 +372,11 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 	pool := &sync.Pool{New: func() any { return &foldTile{x: bands.NewMoments(p), y: bands.NewMoments(f.k)} }}
 	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: f.env.workers(), Progress: f.env.progress("fold", sc.pixels())},
 		func(int) (tiles.Worker[*foldTile], error) {
-			return &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s)}, nil
+			limit := math.MaxFloat64
+			if spec.DataType == "Float32" {
+				limit = math.MaxFloat32
+			}
+			return &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s), limit: limit}, nil
 		},
 		func(t tiles.Tile, ft *foldTile) error {
 			err := dst.Write(t, ft.out)
@@ -400,6 +404,9 @@ type foldWorker struct {
 	proj  *transform.Projector
 	pool  *sync.Pool
 	input string
+	// limit is the largest magnitude the output type holds as a finite
+	// value.
+	limit float64
 }
 
 func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
@@ -421,8 +428,9 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 			continue
 		}
 		for c, v := range px {
-			if math.IsNaN(v) || math.IsInf(v, 0) {
-				return nil, fmt.Errorf("%s: the score of component %d at pixel (%d, %d) is %v: the values overflow the basis's scaling", w.input, c+1, t.X+i%t.W, t.Y+i/t.W, v)
+			if !(math.Abs(v) <= w.limit) {
+				return nil, fmt.Errorf("%s: the score of component %d at pixel (%d, %d) is %g, beyond what %s holds: the values are far outside the basis's range (use --type float64, or refit the basis)",
+					w.input, c+1, t.X+i%t.W, t.Y+i/t.W, v, w.spec.DataType)
 			}
 		}
 	}

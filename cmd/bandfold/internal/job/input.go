@@ -1,6 +1,7 @@
 package job
 
 import (
+	"errors"
 	"fmt"
 	"strings"
 
@@ -63,7 +64,26 @@ func openImage(arg string, opts []raster.Option) (*raster.Stack, error) {
 	if len(paths) == 0 {
 		return nil, Usagef("empty image argument %q", arg)
 	}
-	return raster.Open(paths, opts...)
+	return openStack(paths, opts)
+}
+
+// openStack opens paths as one stack. A band selection, nodata list or mask
+// rule that does not fit the files is a usage error: the flag is wrong, not
+// the data.
+func openStack(paths []string, opts []raster.Option) (*raster.Stack, error) {
+	s, err := raster.Open(paths, opts...)
+	switch {
+	case err == nil:
+		return s, nil
+	case errors.Is(err, raster.ErrBandRange):
+		return nil, usage(err)
+	case errors.Is(err, raster.ErrBadSpec):
+		if name := strings.Join(paths, ","); !strings.Contains(err.Error(), paths[0]) {
+			err = fmt.Errorf("%s: %w", name, err)
+		}
+		return nil, usage(err)
+	}
+	return nil, err
 }
 
 // gridFor returns the tile grid over s: N x N tiles when tile > 0, otherwise

@@ -115,6 +115,9 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (*LearnResult, error) {
 	if err != nil {
 		return nil, err
 	}
+	if acc.Count() == 0 && sh.N == 1 && o.Stride == 1 {
+		return nil, noValidPixels(ctx, env, scenes[0], o.Input.Tile)
+	}
 	if o.Partial != "" {
 		part := &transform.Partial{
 			Format: transform.PartialFormat, Version: 1, Created: time.Now().UTC(),

@@ -95,3 +95,28 @@ func FuzzParseMinArea(f *testing.F) {
 		}
 	})
 }
+
+// FuzzParseShard: any --shard text either fails with a usage error or
+// gives 0 <= I < N that prints back to the same value (known by
+// construction).
+func FuzzParseShard(f *testing.F) {
+	for _, s := range []string{"", "0/1", "3/4", "4/4", "auto", "-1/2", "1/0", " 2/3 ", "x/y", "1//2"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		sh, err := ParseShard(s, 0, func(string) string { return "" })
+		if err != nil {
+			if !IsUsage(err) || strings.Contains(err.Error(), "\n") {
+				t.Fatalf("ParseShard(%q): %v is not a one-line usage error", s, err)
+			}
+			return
+		}
+		if sh.N < 1 || sh.I < 0 || sh.I >= sh.N {
+			t.Fatalf("ParseShard(%q) = %v", s, sh)
+		}
+		again, err := ParseShard(sh.String(), 0, nil)
+		if err != nil || again != sh {
+			t.Fatalf("ParseShard(%q) = %v, reprinted %v, %v", s, sh, again, err)
+		}
+	})
+}

@@ -2,6 +2,8 @@ package job
 
 import (
 	"context"
+	"fmt"
+	"strings"
 	"sync"
 
 	"bandfold/bands"
@@ -171,4 +173,49 @@ func (sc *scan) moments(ctx context.Context, env Env) (*bands.Accumulator, error
 		return nil, err
 	}
 	return total, nil
+}
+
+// countValid counts the valid pixels of a stack in one pass.
+func countValid(ctx context.Context, env Env, s *raster.Stack, tile int) (int64, error) {
+	sc := newScan([]*raster.Stack{s}, tileGrid(tile), 1, Shard{})
+	var total int64
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers()},
+		func(int) (tiles.Worker[int], error) { return &countWorker{sc.newReader()}, nil },
+		func(_ tiles.Tile, n int) error { total += int64(n); return nil })
+	return total, err
+}
+
+type countWorker struct{ *reader }
+
+func (w *countWorker) Do(_ context.Context, t tiles.Tile) (int, error) {
+	_, _, n, err := w.read(t.Index)
+	return n, err
+}
+
+// noValidPixels explains why a stack has no valid pixel: it names the bands
+// that are invalid everywhere (all nodata or NaN), or says that no pixel is
+// valid in all bands at once. It reads each band once, so it runs only on
+// this error path.
+func noValidPixels(ctx context.Context, env Env, s *raster.Stack, tile int) error {
+	var empty []string
+	for j, b := range s.Bands {
+		sub, err := s.Subset([]int{j})
+		if err != nil {
+			return err
+		}
+		n, err := countValid(ctx, env, sub, tile)
+		if err != nil {
+			return err
+		}
+		if n == 0 {
+			empty = append(empty, fmt.Sprintf("%d (%s)", j+1, b.Name))
+		}
+	}
+	switch {
+	case len(empty) == 1:
+		return fmt.Errorf("no valid pixels in %s: band %s is nodata or NaN everywhere (leave it out with --bands)", describe(s), empty[0])
+	case len(empty) > 1:
+		return fmt.Errorf("no valid pixels in %s: bands %s are nodata or NaN everywhere (leave them out with --bands)", describe(s), strings.Join(empty, ", "))
+	}
+	return fmt.Errorf("no valid pixels in %s after nodata and mask: no pixel is valid in every selected band at once", describe(s))
 }
