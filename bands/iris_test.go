@@ -3,11 +3,14 @@ package bands
 import (
 	"encoding/csv"
 	"errors"
+	"fmt"
 	"io/fs"
 	"math"
 	"os"
 	"strconv"
 	"testing"
+
+	"gonum.org/v1/gonum/stat"
 )
 
 // irisPath is Fisher's iris data as shipped in Debian's python3-sklearn
@@ -52,52 +55,145 @@ func readIris(t *testing.T) []float64 {
 	return x
 }
 
+// irisTwoPass holds statistics of pixel-major data computed by the textbook
+// two-pass method, written out here so that it shares no code with
+// Accumulator (nor with gonum): pass one sums each band and divides by n;
+// pass two sums the products of deviations from those means and divides by
+// n − 1.
+type irisTwoPass struct {
+	mean, sd []float64
+	cov      [][]float64 // sample covariance, n − 1 denominator
+	corr     [][]float64 // cov[j][k] / (sd[j] sd[k])
+}
+
+func twoPass(x []float64, p int) irisTwoPass {
+	n := len(x) / p
+	r := irisTwoPass{mean: make([]float64, p), sd: make([]float64, p), cov: make([][]float64, p), corr: make([][]float64, p)}
+	for i := range n {
+		for j := range p {
+			r.mean[j] += x[i*p+j]
+		}
+	}
+	for j := range p {
+		r.mean[j] /= float64(n)
+	}
+	for j := range p {
+		r.cov[j], r.corr[j] = make([]float64, p), make([]float64, p)
+		for k := range p {
+			var s float64
+			for i := range n {
+				s += (x[i*p+j] - r.mean[j]) * (x[i*p+k] - r.mean[k])
+			}
+			r.cov[j][k] = s / float64(n-1)
+		}
+	}
+	for j := range p {
+		r.sd[j] = math.Sqrt(r.cov[j][j])
+	}
+	for j := range p {
+		for k := range p {
+			r.corr[j][k] = r.cov[j][k] / (r.sd[j] * r.sd[k])
+		}
+	}
+	return r
+}
+
+// tolIris bounds the elementwise relative difference between two float64
+// computations of the same iris statistic that differ only in the order of
+// their operations. Each statistic is a sum of at most 150 terms, so rounding
+// moves it by at most about 150 ε ≈ 1.7e-14 of the sum of the terms'
+// magnitudes; for the weakest correlation (sepal length with sepal width,
+// r ≈ −0.118) that sum is at most 1/0.118 ≈ 8.5 times the result (by
+// Cauchy–Schwarz), so the bound is about 1.4e-13 of the result. 1e-12 leaves a margin over that and
+// is still far below anything a wrong formula (a wrong denominator moves a
+// result by 1/150) or a lost pixel would produce.
+const tolIris = 1e-12
+
+// TestIris checks the means, standard deviations, covariances and
+// correlations of Fisher's iris data, accumulated by Accumulator in unequal
+// chunks, against a plain two-pass computation of the same file (the
+// reference) and against gonum's stat.MeanStdDev, stat.Covariance and
+// stat.Correlation.
 func TestIris(t *testing.T) {
 	const p = 4
 	x := readIris(t)
-	ref := referenceStats(x, nil, p)
+	if n := len(x) / p; n != 150 {
+		t.Fatalf("%d iris rows, want 150", n)
+	}
+	ref := twoPass(x, p)
 
 	a := NewAccumulator(p)
 	// Feed the rows in unequal parts to exercise the merge of chunks.
 	for _, part := range [][2]int{{0, 1}, {1, 40}, {40, 41}, {41, 150}} {
 		a.AddPixels(x[part[0]*p:part[1]*p], nil)
 	}
-
-	// gonum stat.CovarianceMatrix and stat.MeanStdDev (reference library).
-	checkRel(t, "covariance", relDiffSym(a.Covariance(nil), ref.cov), tolExact)
-	checkRel(t, "mean", relDiff(a.Mean(nil), ref.mean), tolExact)
-	checkRel(t, "sd", relDiff(a.StdDev(nil), ref.sd), tolExact)
-
-	// Published values, printed to 7 significant digits, so compared to a
-	// relative 1e-6 (the printing error is below 1e-7 relative).
-	const tolPrinted = 1e-6
-	for _, c := range []struct {
-		name      string
-		got, want []float64
-	}{
-		// R's colMeans(iris[, 1:4]), quoted from memory.
-		{"mean", a.Mean(nil), []float64{5.843333, 3.057333, 3.758000, 1.199333}},
-		// R's sapply(iris[, 1:4], sd), quoted from memory.
-		{"sd", a.StdDev(nil), []float64{0.8280661, 0.4358663, 1.7652982, 0.7622377}},
-	} {
-		for i := range c.want {
-			if d := math.Abs(c.got[i]-c.want[i]) / math.Abs(c.want[i]); d > tolPrinted {
-				t.Errorf("%s[%d] = %.7f, want %.7f (relative difference %.2g)", c.name, i, c.got[i], c.want[i], d)
-			}
-		}
-	}
 	corr, err := a.Correlation(nil)
 	if err != nil {
 		t.Fatal(err)
 	}
-	// R's cor(iris$Petal.Length, iris$Petal.Width) and
-	// cor(iris$Sepal.Length, iris$Petal.Length), quoted from memory.
+	cov := a.Covariance(nil)
+	mean, sd := a.Mean(nil), a.StdDev(nil)
+
+	// gonum's in-memory routines on the columns of the same data.
+	cols := make([][]float64, p)
+	for j := range p {
+		for i := range len(x) / p {
+			cols[j] = append(cols[j], x[i*p+j])
+		}
+	}
+
+	check := func(what string, got, want float64) {
+		t.Helper()
+		if d := math.Abs(got-want) / math.Abs(want); !(d <= tolIris) {
+			t.Errorf("%s = %.17g, want %.17g (relative difference %.2g > %g)", what, got, want, d, tolIris)
+		}
+	}
+	for j := range p {
+		gMean, gSD := stat.MeanStdDev(cols[j], nil)
+		// Accumulator against the two-pass reference.
+		check(fmt.Sprintf("Accumulator mean[%d]", j), mean[j], ref.mean[j])
+		check(fmt.Sprintf("Accumulator sd[%d]", j), sd[j], ref.sd[j])
+		// gonum against the two-pass reference, and Accumulator against gonum.
+		check(fmt.Sprintf("stat.MeanStdDev mean[%d]", j), gMean, ref.mean[j])
+		check(fmt.Sprintf("stat.MeanStdDev sd[%d]", j), gSD, ref.sd[j])
+		check(fmt.Sprintf("Accumulator mean[%d] vs stat.MeanStdDev", j), mean[j], gMean)
+		check(fmt.Sprintf("Accumulator sd[%d] vs stat.MeanStdDev", j), sd[j], gSD)
+		for k := range p {
+			gCov := stat.Covariance(cols[j], cols[k], nil)
+			gCorr := stat.Correlation(cols[j], cols[k], nil)
+			check(fmt.Sprintf("Accumulator covariance(%d, %d)", j, k), cov.At(j, k), ref.cov[j][k])
+			check(fmt.Sprintf("Accumulator correlation(%d, %d)", j, k), corr.At(j, k), ref.corr[j][k])
+			check(fmt.Sprintf("stat.Covariance(%d, %d)", j, k), gCov, ref.cov[j][k])
+			check(fmt.Sprintf("stat.Correlation(%d, %d)", j, k), gCorr, ref.corr[j][k])
+			check(fmt.Sprintf("Accumulator correlation(%d, %d) vs stat.Correlation", j, k), corr.At(j, k), gCorr)
+		}
+	}
+
+	// An additional cross-check, not the reference: values R prints for its
+	// own copy of the iris data (colMeans(iris[, 1:4]), sapply(iris[, 1:4],
+	// sd), cor(iris$Petal.Length, iris$Petal.Width) and
+	// cor(iris$Sepal.Length, iris$Petal.Length)), quoted from memory. The
+	// reference computation above must round to every printed digit: it may
+	// differ from each by at most half a unit in the last printed place.
 	for _, c := range []struct {
-		i, j int
-		want float64
-	}{{2, 3, 0.9628654}, {0, 2, 0.8717538}} {
-		if got := corr.At(c.i, c.j); math.Abs(got-c.want)/c.want > tolPrinted {
-			t.Errorf("correlation(%d, %d) = %.7f, want %.7f", c.i, c.j, got, c.want)
+		name   string
+		got    float64
+		want   float64
+		places int // decimals printed
+	}{
+		{"mean[0]", ref.mean[0], 5.843333, 6},
+		{"mean[1]", ref.mean[1], 3.057333, 6},
+		{"mean[2]", ref.mean[2], 3.758000, 6},
+		{"mean[3]", ref.mean[3], 1.199333, 6},
+		{"sd[0]", ref.sd[0], 0.8280661, 7},
+		{"sd[1]", ref.sd[1], 0.4358663, 7},
+		{"sd[2]", ref.sd[2], 1.7652982, 7},
+		{"sd[3]", ref.sd[3], 0.7622377, 7},
+		{"correlation(2, 3)", ref.corr[2][3], 0.9628654, 7},
+		{"correlation(0, 2)", ref.corr[0][2], 0.8717538, 7},
+	} {
+		if half := 0.5 * math.Pow(10, -float64(c.places)); math.Abs(c.got-c.want) > half*(1+1e-9) {
+			t.Errorf("two-pass %s = %.*f, but R prints %.*f (quoted from memory)", c.name, c.places+2, c.got, c.places, c.want)
 		}
 	}
 }

@@ -24,8 +24,8 @@ func TestParseBands(t *testing.T) {
 		{"1,1", nil, `bands "1,1": band 1 selected twice: bad specification`},
 		{"1-3,2", nil, `bands "1-3,2": band 2 selected twice: bad specification`},
 		{"a", nil, `bands "a": "a" is not a band number: bad specification`},
-		{"1,", nil, `bands "1,": "" is not a band number: bad specification`},
-		{"-2", nil, `bands "-2": "" is not a band number: bad specification`},
+		{"1,", nil, `bands "1,": an empty item between commas: bad specification`},
+		{"-2", nil, `bands "-2": -2 is not a band number (bands count from 1): bad specification`},
 		{"1-2-3", nil, `bands "1-2-3": "2-3" is not a band number: bad specification`},
 		{"1-999999999", nil, `bands "1-999999999": band 999999999 out of range (bands count from 1): bad specification`},
 	}

@@ -10,7 +10,7 @@ func TestInt16Scaling(t *testing.T) {
 		eigenvalue, scale float64
 	}{
 		{1, 16.0 / 32767},                          // σ = 1: 16σ onto 32767
-		{202.0922, 16 * 14.21591361819563 / 32767}, // Gao (2009) Table 6.5 λ₁; σ = √202.0922
+		{202.0922, 16 * 14.21591361819563 / 32767}, // an arbitrary eigenvalue; σ = √202.0922 = 14.21591361819563 (float64, correctly rounded)
 		{0, 1}, // zero variance: scale 1 by definition
 	} {
 		scale, offset := Int16Scaling(tc.eigenvalue)

@@ -78,7 +78,7 @@ func TestUsageAndRuntimeErrors(t *testing.T) {
 		{"too many components", []string{"learn", landsat, "--out", out, "--components", "7"}, 2, "--components 7: the images have only 6 bands"},
 		{"bad mode", []string{"learn", landsat, "--out", out, "--mode", "spectral"}, 2, "spectral"},
 		{"bad bands", []string{"learn", landsat, "--out", out, "--bands", "3-1"}, 2, "runs backwards"},
-		{"band out of range", []string{"learn", landsat, "--out", out, "--bands", "1-9"}, 1, "band 7 selected but the stack has 6 bands"},
+		{"band out of range", []string{"learn", landsat, "--out", out, "--bands", "1-9"}, 2, "band 7 selected but the stack has 6 bands"},
 		{"one band", []string{"learn", landsat, "--out", out, "--bands", "2"}, 2, "has 6 bands but --bands selects only 1"},
 		{"missing file", []string{"learn", filepath.Join(dir, "none.tif"), "--out", out}, 1, "none.tif: no such file"},
 		{"not a raster", []string{"learn", text, "--out", out}, 1, "notes.txt: not a raster"},
