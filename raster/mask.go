@@ -57,14 +57,14 @@ func ParseMask(spec string) (MaskRule, error) {
 		return MaskRule{}, fmt.Errorf("mask %q: %w", spec, err)
 	}
 	if strings.TrimSpace(r.Path) == "" {
-		return MaskRule{}, fmt.Errorf("mask %q: no file: %w", spec, ErrBadSpec)
+		return MaskRule{}, specErr(ErrBadSpec, "mask %q: no file", spec)
 	}
 	return r, nil
 }
 
 func parseBits(list string) ([]int, error) {
 	if strings.TrimSpace(list) == "" {
-		return nil, fmt.Errorf("empty bit list: %w", ErrBadSpec)
+		return nil, specErr(ErrBadSpec, "empty bit list")
 	}
 	var set uint64
 	for _, part := range strings.Split(list, ",") {
@@ -80,7 +80,7 @@ func parseBits(list string) ([]int, error) {
 				return nil, err
 			}
 			if b < a {
-				return nil, fmt.Errorf("bit range %s runs backwards: %w", part, ErrBadSpec)
+				return nil, specErr(ErrBadSpec, "bit range %s runs backwards", part)
 			}
 		}
 		for n := a; n <= b; n++ {
@@ -94,10 +94,10 @@ func parseBit(s string) (int, error) {
 	s = strings.TrimSpace(s)
 	n, err := strconv.Atoi(s)
 	if err != nil {
-		return 0, fmt.Errorf("%q is not a bit number: %w", shorten(s), ErrBadSpec)
+		return 0, specErr(ErrBadSpec, "%q is not a bit number", shorten(s))
 	}
 	if n < 0 || n > maxMaskBit {
-		return 0, fmt.Errorf("bit %d out of range (bits count from 0, the least significant, to %d): %w", n, maxMaskBit, ErrBadSpec)
+		return 0, specErr(ErrBadSpec, "bit %d out of range (bits count from 0, the least significant, to %d)", n, maxMaskBit)
 	}
 	return n, nil
 }
@@ -114,17 +114,17 @@ func bitList(set uint64) []int {
 
 func parseValues(list string) ([]ValueRange, error) {
 	if strings.TrimSpace(list) == "" {
-		return nil, fmt.Errorf("empty value list: %w", ErrBadSpec)
+		return nil, specErr(ErrBadSpec, "empty value list")
 	}
 	var out []ValueRange
 	for _, part := range strings.Split(list, ",") {
 		part = strings.TrimSpace(part)
 		r, ok := parseValueRange(part)
 		if !ok {
-			return nil, fmt.Errorf("%q is not a number or a range of numbers: %w", shorten(part), ErrBadSpec)
+			return nil, specErr(ErrBadSpec, "%q is not a number or a range of numbers", shorten(part))
 		}
 		if r.Hi < r.Lo {
-			return nil, fmt.Errorf("value range %s runs backwards: %w", part, ErrBadSpec)
+			return nil, specErr(ErrBadSpec, "value range %s runs backwards", part)
 		}
 		out = append(out, r)
 	}
@@ -268,7 +268,7 @@ func maskResampling(s string) (string, error) {
 		return "", fmt.Errorf("mask %w", err)
 	}
 	if !slices.Contains([]string{"nearest", "mode"}, name) {
-		return "", fmt.Errorf("mask resampling %s: masks hold codes, warp them with nearest or mode: %w", name, ErrBadSpec)
+		return "", specErr(ErrBadSpec, "mask resampling %s: masks hold codes, warp them with nearest or mode", name)
 	}
 	return name, nil
 }

@@ -103,7 +103,7 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], bw, bh, window,
 			godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*bw), godal.BandStride(1), errLogger)
 		if err != nil {
-			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, err)
+			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, tidy(err))
 		}
 	}
 	for i := range valid {
@@ -115,7 +115,7 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 		}
 		m := r.maskBuf[:n]
 		if err := mask.Read(t.X, t.Y, m, bw, bh, window, godal.Bands(0), errLogger); err != nil {
-			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Masks[k], t, err)
+			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Masks[k], t, tidy(err))
 		}
 		test := &r.s.maskTests[k]
 		for i, v := range m {

@@ -30,10 +30,10 @@ func ParseBands(spec string) ([]int, error) {
 	for _, part := range strings.Split(spec, ",") {
 		part = strings.TrimSpace(part)
 		if part == "" {
-			return nil, fmt.Errorf("bands %q: an empty item between commas: %w", spec, ErrBadSpec)
+			return nil, specErr(ErrBadSpec, "bands %q: an empty item between commas", spec)
 		}
 		if strings.HasPrefix(part, "-") {
-			return nil, fmt.Errorf("bands %q: %s is not a band number (bands count from 1): %w", spec, part, ErrBadSpec)
+			return nil, specErr(ErrBadSpec, "bands %q: %s is not a band number (bands count from 1)", spec, part)
 		}
 		lo, hi, isRange := strings.Cut(part, "-")
 		a, err := parseBandNumber(lo)
@@ -46,12 +46,12 @@ func ParseBands(spec string) ([]int, error) {
 				return nil, fmt.Errorf("bands %q: %w", spec, err)
 			}
 			if b < a {
-				return nil, fmt.Errorf("bands %q: range %s runs backwards: %w", spec, part, ErrBadSpec)
+				return nil, specErr(ErrBadSpec, "bands %q: range %s runs backwards", spec, part)
 			}
 		}
 		for n := a; n <= b; n++ {
 			if seen[n] {
-				return nil, fmt.Errorf("bands %q: band %d selected twice: %w", spec, n, ErrBadSpec)
+				return nil, specErr(ErrBadSpec, "bands %q: band %d selected twice", spec, n)
 			}
 			seen[n] = true
 			out = append(out, n)
@@ -64,10 +64,10 @@ func parseBandNumber(s string) (int, error) {
 	s = strings.TrimSpace(s)
 	n, err := strconv.Atoi(s)
 	if err != nil {
-		return 0, fmt.Errorf("%q is not a band number: %w", s, ErrBadSpec)
+		return 0, specErr(ErrBadSpec, "%q is not a band number", s)
 	}
 	if n < 1 || n > maxBandNumber {
-		return 0, fmt.Errorf("band %d out of range (bands count from 1): %w", n, ErrBadSpec)
+		return 0, specErr(ErrBadSpec, "band %d out of range (bands count from 1)", n)
 	}
 	return n, nil
 }
@@ -85,7 +85,7 @@ func ParseNoData(spec string) ([]float64, error) {
 		part = strings.TrimSpace(part)
 		v, err := parseNoDataValue(part)
 		if err != nil {
-			return nil, fmt.Errorf("nodata %q: %q is not a number: %w", spec, part, ErrBadSpec)
+			return nil, specErr(ErrBadSpec, "nodata %q: %q is not a number", spec, part)
 		}
 		out = append(out, v)
 	}
@@ -117,7 +117,7 @@ func ParseResampling(s string) (string, error) {
 		name = "nearest"
 	}
 	if !slices.Contains(resamplings, name) {
-		return "", fmt.Errorf("resampling %q: want one of %s: %w", s, strings.Join(resamplings, ", "), ErrBadSpec)
+		return "", specErr(ErrBadSpec, "resampling %q: want one of %s", s, strings.Join(resamplings, ", "))
 	}
 	return name, nil
 }
@@ -133,7 +133,23 @@ const (
 func ParseCalibration(s string) (string, error) {
 	name := strings.ToLower(strings.TrimSpace(s))
 	if name != CalibrateScale && name != CalibrateTOA {
-		return "", fmt.Errorf("calibration %q: want %s or %s: %w", s, CalibrateScale, CalibrateTOA, ErrBadSpec)
+		return "", specErr(ErrBadSpec, "calibration %q: want %s or %s", s, CalibrateScale, CalibrateTOA)
 	}
 	return name, nil
+}
+
+// specError is a refused specification: its message says what is wrong,
+// and it matches its sentinel (ErrBadSpec or ErrBandRange) with errors.Is
+// without repeating the sentinel's text.
+type specError struct {
+	msg  string
+	kind error
+}
+
+func (e *specError) Error() string { return e.msg }
+func (e *specError) Unwrap() error { return e.kind }
+
+// specErr returns a specError of kind with a formatted message.
+func specErr(kind error, format string, args ...any) error {
+	return &specError{fmt.Sprintf(format, args...), kind}
 }

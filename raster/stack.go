@@ -274,7 +274,7 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	}
 	for _, n := range sel {
 		if n < 1 || n > len(all) {
-			return nil, fmt.Errorf("%s: band %d selected but the stack has %d bands: %w", strings.Join(paths, ", "), n, len(all), ErrBandRange)
+			return nil, specErr(ErrBandRange, "%s: band %d selected but the stack has %d bands", strings.Join(paths, ", "), n, len(all))
 		}
 		s.addBand(all[n-1], fileOf[n-1])
 	}
@@ -296,7 +296,7 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 			overrides[f][all[n-1].Index-1] = o.nodata[min(k, len(o.nodata)-1)]
 		}
 	default:
-		return nil, fmt.Errorf("nodata: %d values given for %d bands (give one, or one per band): %w", len(o.nodata), len(s.Bands), ErrBadSpec)
+		return nil, specErr(ErrBadSpec, "nodata: %d values given for %d bands (give one, or one per band)", len(o.nodata), len(s.Bands))
 	}
 
 	s.sources = slices.Clone(paths)
@@ -503,7 +503,7 @@ func (s *Stack) Subset(positions []int) (*Stack, error) {
 	}
 	for _, pos := range positions {
 		if pos < 0 || pos >= len(s.Bands) {
-			return nil, fmt.Errorf("%s: band %d selected but the stack has %d bands: %w", strings.Join(s.Paths, ", "), pos+1, len(s.Bands), ErrBandRange)
+			return nil, specErr(ErrBandRange, "%s: band %d selected but the stack has %d bands", strings.Join(s.Paths, ", "), pos+1, len(s.Bands))
 		}
 		b := s.Bands[pos]
 		sub.addBand(b, fileOf[b.Path])

@@ -57,7 +57,7 @@ func ParseFormat(s string) (Format, error) {
 	case GTiff, COG:
 		return f, nil
 	}
-	return "", fmt.Errorf("format %q: want gtiff or cog: %w", s, ErrBadSpec)
+	return "", specErr(ErrBadSpec, "format %q: want gtiff or cog", s)
 }
 
 // Spec describes a raster output.
@@ -202,7 +202,7 @@ func validateOptions(driver string, opts []string) error {
 		if ok == 0 {
 			text := strings.TrimSpace(C.GoString(msg))
 			C.VSIFree(unsafe.Pointer(msg))
-			return fmt.Errorf("creation option %s: %s", kv, firstLine(text))
+			return specErr(ErrBadSpec, "creation option %s: %s", kv, firstLine(text))
 		}
 	}
 	return nil
