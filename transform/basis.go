@@ -47,6 +47,11 @@ type Band struct {
 	// within it.
 	Min float64 `json:"min"`
 	Max float64 `json:"max"`
+	// Calibration is how the band's stored values became the values
+	// fitted: empty for the band's scale and offset metadata, "toa" for
+	// Landsat top-of-atmosphere reflectance (Scale and Offset then hold the
+	// reflectance coefficients divided by the sine of the sun elevation).
+	Calibration string `json:"calibration,omitempty"`
 }
 
 // Fingerprint identifies an input file by path, size and modification time,
@@ -55,6 +60,17 @@ type Fingerprint struct {
 	Path    string    `json:"path"`
 	Size    int64     `json:"size"`
 	ModTime time.Time `json:"mod_time"`
+}
+
+// Calibration returns how the basis's bands were calibrated: "toa" when
+// they are top-of-atmosphere reflectance, else "scale".
+func (b *Basis) Calibration() string {
+	for _, band := range b.Bands {
+		if band.Calibration != "" {
+			return band.Calibration
+		}
+	}
+	return "scale"
 }
 
 // FileFingerprint returns the Fingerprint of the file at path, with the

@@ -175,22 +175,23 @@ func leafEnd(in []byte, i int) (end int, leaf bool) {
 // with a nodata value that can be NaN. TestBandFileMirrorsBand keeps the two
 // in step.
 type bandFile struct {
-	Name     string      `json:"name"`
-	Source   string      `json:"source"`
-	Index    int         `json:"index"`
-	DataType string      `json:"data_type"`
-	NoData   *noDataJSON `json:"nodata"`
-	Scale    float64     `json:"scale"`
-	Offset   float64     `json:"offset"`
-	Min      float64     `json:"min"`
-	Max      float64     `json:"max"`
+	Name        string      `json:"name"`
+	Source      string      `json:"source"`
+	Index       int         `json:"index"`
+	DataType    string      `json:"data_type"`
+	NoData      *noDataJSON `json:"nodata"`
+	Scale       float64     `json:"scale"`
+	Offset      float64     `json:"offset"`
+	Min         float64     `json:"min"`
+	Max         float64     `json:"max"`
+	Calibration string      `json:"calibration,omitempty"`
 }
 
 // MarshalJSON encodes b as a member of a basis or partial file, a NaN nodata
 // value as the string "nan".
 func (b Band) MarshalJSON() ([]byte, error) {
 	f := bandFile{Name: b.Name, Source: b.Source, Index: b.Index, DataType: b.DataType,
-		NoData: (*noDataJSON)(b.NoData), Scale: b.Scale, Offset: b.Offset, Min: b.Min, Max: b.Max}
+		NoData: (*noDataJSON)(b.NoData), Scale: b.Scale, Offset: b.Offset, Min: b.Min, Max: b.Max, Calibration: b.Calibration}
 	return json.Marshal(f)
 }
 
@@ -204,7 +205,7 @@ func (b *Band) UnmarshalJSON(data []byte) error {
 		return fmt.Errorf("band: %w", err)
 	}
 	*b = Band{Name: f.Name, Source: f.Source, Index: f.Index, DataType: f.DataType,
-		NoData: (*float64)(f.NoData), Scale: f.Scale, Offset: f.Offset, Min: f.Min, Max: f.Max}
+		NoData: (*float64)(f.NoData), Scale: f.Scale, Offset: f.Offset, Min: f.Min, Max: f.Max, Calibration: f.Calibration}
 	return nil
 }
 

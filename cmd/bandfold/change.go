@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"strings"
 
 	"github.com/spf13/cobra"
 
@@ -16,6 +17,10 @@ type changeFlags struct {
 	threshold    string
 	minArea      string
 	previewBands string
+	maskBefore   []string
+	maskAfter    []string
+	bandsBefore  string
+	bandsAfter   string
 	o            job.ChangeOptions
 }
 
@@ -58,10 +63,12 @@ manifest. --overwrite replaces only a previous change output.
 		}),
 	}
 	f := cmd.Flags()
-	fl.input.register(f)
+	fl.input.register(f, false)
 	o := &fl.o
-	f.StringVar(&o.MaskBefore, "mask-before", "", "validity mask of the BEFORE date only (non-zero = valid)")
-	f.StringVar(&o.MaskAfter, "mask-after", "", "validity mask of the AFTER date only, on BEFORE's grid (non-zero = valid)")
+	f.StringArrayVar(&fl.maskBefore, "mask-before", nil, "quality mask of the BEFORE date only, as --mask (repeatable)")
+	f.StringArrayVar(&fl.maskAfter, "mask-after", nil, "quality mask of the AFTER date only, on BEFORE's grid, as --mask (repeatable)")
+	f.StringVar(&fl.bandsBefore, "bands-before", "", "bands of BEFORE only, as --bands (for a change of sensor)")
+	f.StringVar(&fl.bandsAfter, "bands-after", "", "bands of AFTER only, as --bands; the same number as BEFORE's")
 	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
 	f.BoolVar(&o.Align, "align", false, "warp AFTER onto BEFORE's grid with GDAL when the grids differ")
 	f.StringVar(&o.Resampling, "resampling", "bilinear", "resampling for --align: bilinear, nearest (categorical data), cubic, cubicspline, lanczos, average, mode")
@@ -95,6 +102,22 @@ func (fl *changeFlags) options(before, after string) (job.ChangeOptions, error) 
 	if o.Input, err = fl.input.input(); err != nil {
 		return o, err
 	}
+	if o.MaskBefore, err = parseMasks("--mask-before", fl.maskBefore); err != nil {
+		return o, err
+	}
+	if o.MaskAfter, err = parseMasks("--mask-after", fl.maskAfter); err != nil {
+		return o, err
+	}
+	for _, b := range []struct {
+		flag, spec string
+		dst        *[]int
+	}{{"bands-before", fl.bandsBefore, &o.BandsBefore}, {"bands-after", fl.bandsAfter, &o.BandsAfter}} {
+		sel, err := raster.ParseBands(b.spec)
+		if err != nil {
+			return o, usagef("--%s %q: %v", b.flag, b.spec, strings.TrimPrefix(err.Error(), fmt.Sprintf("bands %q: ", b.spec)))
+		}
+		*b.dst = sel
+	}
 	return o, nil
 }
 
@@ -104,7 +127,7 @@ func (g *globals) reportChange(s *job.ChangeResult) {
 		return
 	}
 	w := g.stderr
-	fmt.Fprintf(w, "change between %s and %s (%d components, threshold %s at Z = %.4g)\n", s.Before, s.After, s.Components, s.Threshold.Rule, s.Threshold.Z)
+	fmt.Fprintf(w, "change between %s and %s (%d components, threshold %s at Z = %.4g)\n", s.BeforeLabel, s.AfterLabel, s.Components, s.Threshold.Rule, s.Threshold.Z)
 	fmt.Fprintf(w, "  %-28s %d\n", "valid pixels", s.ValidPixels)
 	fmt.Fprintf(w, "  %-28s %d (%.4f of valid)\n", "changed pixels", s.ChangedPixels, s.ChangedFrac)
 	if s.ChangedAreaHa != nil {

@@ -62,7 +62,7 @@ the list.`,
 		}),
 	}
 	f := cmd.Flags()
-	fl.input.register(f)
+	fl.input.register(f, true)
 	o := &fl.o
 	f.StringVarP(&o.Basis, "basis", "b", "", "basis file from learn or merge")
 	f.StringVarP(&o.Out, "out", "o", "", "component image to write (one input)")
@@ -87,7 +87,7 @@ the list.`,
 // options translates the flags.
 func (fl *foldFlags) options(scenes []string, getenv func(string) string) (job.FoldOptions, error) {
 	o := fl.o
-	o.Scenes = scenes
+	o.Scenes = fl.input.scenes(scenes)
 	var err error
 	if o.Format, err = raster.ParseFormat(fl.format); err != nil {
 		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
@@ -98,16 +98,14 @@ func (fl *foldFlags) options(scenes []string, getenv func(string) string) (job.F
 	if o.Input, err = fl.input.input(); err != nil {
 		return o, err
 	}
-	for _, kv := range o.CreationOptions {
-		if !strings.Contains(kv, "=") {
-			return o, usagef("--co %q: want KEY=VALUE", kv)
-		}
+	if err := checkCreationOptions(o.CreationOptions); err != nil {
+		return o, err
 	}
 	switch {
 	case o.Out != "" && o.List != "":
 		return o, usagef("--list goes with --out-dir")
-	case o.Out != "" && len(scenes) != 1:
-		return o, usagef("--out takes one input; use --out-dir for %d inputs", len(scenes))
+	case o.Out != "" && len(o.Scenes) != 1:
+		return o, usagef("--out takes one input; use --out-dir for %d inputs, or --stack to read them as one stack", len(o.Scenes))
 	case o.Preview != "" && o.Out == "":
 		return o, usagef("--preview goes with --out (one input)")
 	}

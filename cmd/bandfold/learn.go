@@ -59,7 +59,7 @@ and the un-decomposed statistics are written for "bandfold merge".`,
 		}),
 	}
 	f := cmd.Flags()
-	fl.input.register(f)
+	fl.input.register(f, true)
 	f.StringVarP(&fl.out, "out", "o", "", "basis file to write (JSON)")
 	f.StringVar(&fl.partial, "partial", "", "write the shard's un-decomposed statistics to this file instead of a basis")
 	f.StringVar(&fl.mode, "mode", "covariance", "covariance or correlation (standardised bands)")
@@ -76,6 +76,9 @@ and the un-decomposed statistics are written for "bandfold merge".`,
 
 // options translates the flags; getenv reads the scheduler's environment.
 func (fl *learnFlags) options(scenes []string, getenv func(string) string) (job.LearnOptions, error) {
+	if fl.stride < 1 {
+		return job.LearnOptions{}, usagef("--stride %d: must be at least 1", fl.stride)
+	}
 	mode, err := transform.ParseMode(fl.mode)
 	if err != nil {
 		return job.LearnOptions{}, usagef("--mode %q: want covariance or correlation", fl.mode)
@@ -88,7 +91,7 @@ func (fl *learnFlags) options(scenes []string, getenv func(string) string) (job.
 	if err != nil {
 		return job.LearnOptions{}, err
 	}
-	return job.LearnOptions{Scenes: scenes, Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
+	return job.LearnOptions{Scenes: fl.input.scenes(scenes), Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
 		Components: fl.components, Variance: fl.variance, Stride: fl.stride, Shard: sh, Overwrite: fl.overwrite}, nil
 }
 

@@ -244,17 +244,29 @@ func (h *lineHandler) WithGroup(string) slog.Handler { return h }
 
 // inputFlags are the flags that say how to read an input image.
 type inputFlags struct {
-	bands  string
-	nodata string
-	mask   string
-	tile   int
+	bands      string
+	nodata     string
+	masks      []string
+	tile       int
+	calibrate  string
+	align      bool
+	resampling string
+	stack      bool
 }
 
-func (f *inputFlags) register(fs *pflag.FlagSet) {
+// register adds the input flags; alignment flags only where the command
+// does not define --align itself (change warps AFTER onto BEFORE with it).
+func (f *inputFlags) register(fs *pflag.FlagSet, align bool) {
 	fs.StringVar(&f.bands, "bands", "", `bands to use, 1-based lists and ranges such as "1-5,7" (default all)`)
 	fs.StringVar(&f.nodata, "nodata", "", `nodata value overriding the files': one for all bands, or a comma list with one per band ("nan" for NaN)`)
-	fs.StringVar(&f.mask, "mask", "", "validity mask on the same grid (non-zero = valid)")
+	fs.StringArrayVar(&f.masks, "mask", nil, `quality mask (repeatable; a pixel must pass all): FILE (non-zero = valid), FILE:bits=0-4,9 (invalid where a listed bit is set) or FILE:values=0,3,8-10 (invalid at those values)`)
 	fs.IntVar(&f.tile, "tile", 0, "tile size N for N x N pixel tiles (default: aligned to the file's blocks, about 16 MiB of float64 per tile)")
+	fs.StringVar(&f.calibrate, "calibrate", "", `scale (the bands' scale/offset metadata) or toa (Landsat Level-1 digital numbers to top-of-atmosphere reflectance from the *_MTL.txt beside the bands); default scale, or the basis's`)
+	if align {
+		fs.BoolVar(&f.align, "align", false, "warp every file of a stack onto its first file's grid with GDAL (for bands at other resolutions)")
+		fs.StringVar(&f.resampling, "resampling", "bilinear", "resampling for --align: nearest, bilinear, cubic, cubicspline, lanczos, average, mode")
+		fs.BoolVar(&f.stack, "stack", false, "read the IMAGE arguments as one stack of bands, in the order given (for one file per band)")
+	}
 }
 
 // input translates the flags.
@@ -267,9 +279,52 @@ func (f *inputFlags) input() (job.Input, error) {
 	if err != nil {
 		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
-	in := job.Input{Bands: sel, NoData: nd, Tile: f.tile}
-	if f.mask != "" {
-		in.Masks = []string{f.mask}
+	masks, err := parseMasks("--mask", f.masks)
+	if err != nil {
+		return job.Input{}, err
+	}
+	in := job.Input{Bands: sel, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
+	if f.align {
+		if in.Resampling, err = raster.ParseResampling(f.resampling); err != nil {
+			return job.Input{}, usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
+		}
+	}
+	if f.calibrate != "" {
+		if in.Calibrate, err = raster.ParseCalibration(f.calibrate); err != nil {
+			return job.Input{}, usagef("--calibrate %q: want scale or toa", f.calibrate)
+		}
 	}
 	return in, nil
+}
+
+// scenes applies --stack: all arguments become one stack.
+func (f *inputFlags) scenes(args []string) []string {
+	if f.stack && len(args) > 1 {
+		return []string{strings.Join(args, ",")}
+	}
+	return args
+}
+
+// parseMasks reads repeated mask flags.
+func parseMasks(flag string, specs []string) ([]raster.MaskRule, error) {
+	var out []raster.MaskRule
+	for _, spec := range specs {
+		r, err := raster.ParseMask(spec)
+		if err != nil {
+			return nil, usagef("%s %q: %v", flag, spec, err)
+		}
+		out = append(out, r)
+	}
+	return out, nil
+}
+
+// checkCreationOptions refuses --co items that are not KEY=VALUE; GDAL
+// checks the keys and values when the output is created.
+func checkCreationOptions(co []string) error {
+	for _, kv := range co {
+		if k, _, ok := strings.Cut(kv, "="); !ok || strings.TrimSpace(k) == "" {
+			return usagef("--co %q: want KEY=VALUE", kv)
+		}
+	}
+	return nil
 }

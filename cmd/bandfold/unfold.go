@@ -50,7 +50,7 @@ copy of the original.`,
 		}),
 	}
 	f := cmd.Flags()
-	fl.input.register(f)
+	fl.input.register(f, true)
 	o := &fl.o
 	f.StringVarP(&o.Basis, "basis", "b", "", "basis file the components were folded with")
 	f.StringVarP(&o.Out, "out", "o", "", "restored image to write")
@@ -74,6 +74,9 @@ func (fl *unfoldFlags) options(components string) (job.UnfoldOptions, error) {
 		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
 	if o.Input, err = fl.input.input(); err != nil {
+		return o, err
+	}
+	if err := checkCreationOptions(o.CreationOptions); err != nil {
 		return o, err
 	}
 	return o, nil

@@ -90,6 +90,9 @@ type BasisSummary struct {
 	Components        int       `json:"components"`
 	BrokenStick       int       `json:"broken_stick"`
 	Kaiser            *int      `json:"eigenvalue_above_one,omitempty"`
+	// Loadings are the eigenvectors of the kept components, component-major:
+	// Loadings[i][j] is the loading of band j on component i+1.
+	Loadings [][]float64 `json:"loadings"`
 }
 
 // Summarize describes basis b read from or written to path.
@@ -100,6 +103,7 @@ func Summarize(b *transform.Basis, path string) BasisSummary {
 		Cumulative: transform.Cumulative(b.Eigenvalues), Components: b.Components,
 		BrokenStick:       transform.BrokenStick(b.Eigenvalues),
 		BrokenStickShares: transform.BrokenStickShares(len(b.Eigenvalues)),
+		Loadings:          keptLoadings(b),
 	}
 	for _, band := range b.Bands {
 		s.BandNames = append(s.BandNames, band.Name)

@@ -31,7 +31,8 @@ type BatchResult struct {
 // with the same completion record are skipped, so a rerun after a crash
 // finishes only what is missing; a failing scene is reported and the rest
 // go on (the error is then ErrBatchFailed).
-func FoldBatch(ctx context.Context, env Env, o FoldOptions) (*BatchResult, error) {
+func FoldBatch(ctx context.Context, env Env, o FoldOptions) (_ *BatchResult, err error) {
+	defer func() { err = classify(err) }()
 	if o.OutDir == "" {
 		return nil, Usagef("a batch needs --out-dir")
 	}
@@ -182,13 +183,36 @@ func CollectInputs(args []string, list string) ([]string, error) {
 // outputName applies the name template to an input; a name that would
 // leave dir is refused.
 func outputName(dir, template, input string) (string, error) {
-	name := strings.ReplaceAll(template, "{stem}", raster.Stem(SplitStack(input)[0]))
+	name := strings.ReplaceAll(template, "{stem}", stackStem(SplitStack(input)))
 	out := filepath.Join(dir, name)
 	rel, err := filepath.Rel(filepath.Clean(dir), out)
 	if err != nil || rel == "." || strings.HasPrefix(rel, "..") || filepath.IsAbs(name) {
 		return "", Usagef("--name %q: output %s would leave --out-dir %s", template, out, dir)
 	}
 	return out, nil
+}
+
+// stackStem names a stack in output names: the file's stem, or for several
+// files the part their stems share ("LC08_..._T1" of "LC08_..._T1_B1.TIF",
+// ...), else the first file's stem.
+func stackStem(paths []string) string {
+	stem := raster.Stem(paths[0])
+	if len(paths) == 1 {
+		return stem
+	}
+	common := stem
+	for _, p := range paths[1:] {
+		s := raster.Stem(p)
+		n := 0
+		for n < len(common) && n < len(s) && common[n] == s[n] {
+			n++
+		}
+		common = common[:n]
+	}
+	if common = strings.TrimRight(common, "_-. "); common == "" {
+		return stem
+	}
+	return common
 }
 
 // unwrapPath drops the path that os errors repeat, since messages name it

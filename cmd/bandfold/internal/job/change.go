@@ -24,9 +24,12 @@ const Caution = "A change map is a screening result: verify mapped changes again
 type ChangeOptions struct {
 	Before, After string
 	Input         Input
-	// MaskBefore and MaskAfter are validity masks of one date only, on
+	// MaskBefore and MaskAfter are quality masks of one date only, on
 	// BEFORE's grid.
-	MaskBefore, MaskAfter string
+	MaskBefore, MaskAfter []raster.MaskRule
+	// BandsBefore and BandsAfter select different bands of each date (for
+	// a change of sensor); nil takes Input.Bands.
+	BandsBefore, BandsAfter []int
 	// Out is the output folder.
 	Out string
 	// Align warps AFTER onto BEFORE's grid with Resampling when the grids
@@ -51,8 +54,11 @@ type ChangeOptions struct {
 
 // ChangeResult is summary.json.
 type ChangeResult struct {
-	Before        string           `json:"before"`
-	After         string           `json:"after"`
+	Before string `json:"before"`
+	After  string `json:"after"`
+	// BeforeLabel and AfterLabel name the dates' stacks for people.
+	BeforeLabel   string           `json:"before_label"`
+	AfterLabel    string           `json:"after_label"`
 	ValidPixels   int64            `json:"valid_pixels"`
 	ChangedPixels int64            `json:"changed_pixels"`
 	ChangedAreaM2 *float64         `json:"changed_area_m2"`
@@ -137,7 +143,8 @@ var resamplings = []string{"nearest", "bilinear", "cubic", "cubicspline", "lancz
 // basis, the robust no-change model of the score differences, maps every
 // pixel's change statistic, applies the minimum mapping unit, polygonizes
 // the patches and writes everything into the output folder at once.
-func Change(ctx context.Context, env Env, o ChangeOptions) (*ChangeResult, error) {
+func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err error) {
+	defer func() { err = classify(err) }()
 	r := &changeRun{env: env, o: &o}
 	defer r.close()
 	steps := []func(context.Context) error{
@@ -202,6 +209,9 @@ func (o *ChangeOptions) check() error {
 	if o.Out == "" {
 		return Usagef("no output folder (--out)")
 	}
+	if o.Align {
+		o.Input.Align, o.Input.Resampling = true, o.Resampling
+	}
 	return o.Input.check()
 }
 
@@ -212,6 +222,15 @@ func contains(list []string, s string) bool {
 		}
 	}
 	return false
+}
+
+// dateInput is Input with one date's own band selection, if any.
+func (o *ChangeOptions) dateInput(bands []int) Input {
+	in := o.Input
+	if bands != nil {
+		in.Bands = bands
+	}
+	return in
 }
 
 // changeRun is one run of Change, a step per method.
@@ -269,11 +288,28 @@ func (r *changeRun) open(context.Context) error {
 	if err := o.check(); err != nil {
 		return err
 	}
+	ins := append(argPaths("BEFORE", []string{o.Before}, append(o.Input.Masks, o.MaskBefore...)), argPaths("AFTER", []string{o.After}, o.MaskAfter)...)
+	for _, extra := range []output.Path{{Role: "basis", Path: o.Basis}, {Role: "reference", Path: o.Reference}} {
+		if extra.Path != "" {
+			ins = append(ins, extra)
+		}
+	}
+	if err := output.Distinct(ins, []output.Path{{Role: "output folder", Path: o.Out, Folder: true}}); err != nil {
+		return err
+	}
 	if err := output.CheckFolder(o.Out, o.Overwrite); err != nil {
 		return err
 	}
 	var err error
-	if r.before, err = openImage(o.Before, o.Input.options(o.MaskBefore)); err != nil {
+	if o.Basis != "" {
+		if r.given, err = transform.ReadBasis(o.Basis); err != nil {
+			return err
+		}
+		if o.Input, err = o.Input.withBasis(r.given, o.Basis); err != nil {
+			return err
+		}
+	}
+	if r.before, err = openImage(o.Before, o.dateInput(o.BandsBefore).options(o.MaskBefore...)); err != nil {
 		return err
 	}
 	if err := r.openAfter(); err != nil {
@@ -283,7 +319,10 @@ func (r *changeRun) open(context.Context) error {
 		return err
 	}
 	if r.before.Len() != r.after.Len() {
-		return fmt.Errorf("%s has %d bands but %s has %d: both dates need the same bands", o.Before, r.before.Len(), o.After, r.after.Len())
+		if o.BandsBefore != nil || o.BandsAfter != nil {
+			return Usagef("--bands-before selects %d bands of %s but --bands-after %d of %s: both dates need the same number", r.before.Len(), describe(r.before), r.after.Len(), describe(r.after))
+		}
+		return fmt.Errorf("%s has %d bands but %s has %d: both dates need the same bands (select them per date with --bands-before and --bands-after)", describe(r.before), r.before.Len(), describe(r.after), r.after.Len())
 	}
 	if err := needTwoBands(r.before, o.Input.Bands); err != nil {
 		return err
@@ -293,6 +332,9 @@ func (r *changeRun) open(context.Context) error {
 	}
 	r.areas, err = raster.NewCellAreas(r.before.Grid)
 	if errors.Is(err, raster.ErrNoCRS) {
+		if o.MinArea.M2 > 0 {
+			return Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", describe(r.before))
+		}
 		r.env.warn("%s has no CRS: areas are given in pixels only", o.Before)
 		r.areas = nil
 	} else if err != nil {
@@ -306,11 +348,8 @@ func (r *changeRun) open(context.Context) error {
 			return err
 		}
 	}
-	if o.Basis != "" {
-		if r.given, err = transform.ReadBasis(o.Basis); err != nil {
-			return err
-		}
-		if err := checkBands(r.given, o.Basis, r.before, false); err != nil {
+	if r.given != nil {
+		if err := checkBands(r.given, o.Basis, r.before, bandCheck{selected: o.Input.Bands != nil || o.BandsBefore != nil}); err != nil {
 			return err
 		}
 	}
@@ -332,7 +371,10 @@ func (r *changeRun) distinct() error {
 	for _, p := range SplitStack(r.o.After) {
 		ins = append(ins, output.Path{Role: "AFTER", Path: p})
 	}
-	for _, extra := range []struct{ role, path string }{{"mask", r.o.MaskAfter}, {"basis", r.o.Basis}, {"reference", r.o.Reference}} {
+	for _, m := range maskPaths(r.o.MaskAfter) {
+		ins = append(ins, output.Path{Role: "mask", Path: m})
+	}
+	for _, extra := range []struct{ role, path string }{{"basis", r.o.Basis}, {"reference", r.o.Reference}} {
 		if extra.path != "" {
 			ins = append(ins, output.Path{Role: extra.role, Path: extra.path})
 		}
@@ -348,7 +390,7 @@ func (r *changeRun) openAfter() error {
 	if len(paths) == 0 {
 		return Usagef("empty image argument %q", o.After)
 	}
-	opts := o.Input.options(o.MaskAfter)
+	opts := o.dateInput(o.BandsAfter).options(o.MaskAfter...)
 	// Masks of AFTER are on BEFORE's grid, so open the files alone first.
 	probe, err := raster.Open(paths)
 	if err != nil {
@@ -471,7 +513,7 @@ func (r *changeRun) sieve(ctx context.Context) error {
 		return fmt.Errorf("sieve: %w", err)
 	}
 	o := r.o
-	r.sum = &ChangeResult{Before: o.Before, After: o.After, Threshold: ThresholdSummary{o.Threshold.String(), r.zcut},
+	r.sum = &ChangeResult{Before: o.Before, After: o.After, BeforeLabel: describe(r.before), AfterLabel: describe(r.after), Threshold: ThresholdSummary{o.Threshold.String(), r.zcut},
 		Components: r.proj.Components(), MinAreaPixels: r.minPixels, Basis: r.basisName, Aligned: r.aligned,
 		Identical: r.identical, Caution: Caution, Location: []float64{}, Covariance: [][]float64{},
 		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}

@@ -270,7 +270,7 @@ func TestChangeNoValidPixels(t *testing.T) {
 	}
 	writeRasterFile(t, zero, raster.Spec{Grid: s.Grid, Bands: 1, DataType: "Byte"}, make([]float64, 40*30))
 	out := filepath.Join(dir, "out")
-	res, err := Change(t.Context(), testEnv, ChangeOptions{Before: a, After: a, Out: out, MaskAfter: zero})
+	res, err := Change(t.Context(), testEnv, ChangeOptions{Before: a, After: a, Out: out, MaskAfter: []raster.MaskRule{{Path: zero}}})
 	if res != nil {
 		t.Errorf("a result without valid pixels: %+v", res)
 	}

@@ -7,6 +7,7 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
+	"strings"
 
 	"bandfold/cmd/bandfold/internal/scenario"
 	"bandfold/raster"
@@ -52,7 +53,8 @@ func (o *DemoOptions) files() DemoFiles {
 // Demo writes the invented scenario and runs the whole job on it:
 // compression of the hyperspectral cube, and the change map between the
 // two multispectral dates scored against the scenario's truth.
-func Demo(ctx context.Context, env Env, o DemoOptions) (*DemoResult, error) {
+func Demo(ctx context.Context, env Env, o DemoOptions) (_ *DemoResult, err error) {
+	defer func() { err = classify(err) }()
 	res := &DemoResult{Files: o.files()}
 	c, err := writeScenario(ctx, env, &o)
 	if err != nil {
@@ -114,7 +116,7 @@ func writeScenario(ctx context.Context, env Env, o *DemoOptions) (*scenario.Catc
 	files := o.files()
 	c, err := scenario.NewCatchment(o.Size, o.Size, o.Seed)
 	if err != nil {
-		return nil, usage(err)
+		return nil, Usagef("--size %d: %v", o.Size, strings.TrimPrefix(err.Error(), "scenario: "))
 	}
 	if err := os.MkdirAll(filepath.Join(o.Dir, "scenario"), 0o755); err != nil {
 		return nil, fmt.Errorf("demo folder %s: %w", o.Dir, unwrapPath(err))

@@ -16,6 +16,9 @@ import (
 	"io"
 	"log/slog"
 	"runtime"
+
+	"bandfold/raster"
+	"bandfold/raster/output"
 )
 
 // Env is what the caller gives every job: the worker count, a logger for
@@ -94,4 +97,17 @@ var ErrBatchFailed = errors.New("some scenes failed")
 // canceled reports whether err comes from a cancelled context.
 func canceled(err error) bool {
 	return errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)
+}
+
+// classify marks as usage errors the refusals that come from what the user
+// typed rather than from the data: a band selection, nodata list, mask rule
+// or creation option that cannot apply, and a GDAL virtual path as output.
+func classify(err error) error {
+	if err == nil || IsUsage(err) {
+		return err
+	}
+	if errors.Is(err, raster.ErrBadSpec) || errors.Is(err, raster.ErrBandRange) || errors.Is(err, output.ErrVirtual) {
+		return &UsageError{err}
+	}
+	return err
 }

@@ -118,12 +118,16 @@ func prepareFold(env Env, o *FoldOptions) (*folding, error) {
 	if err != nil {
 		return nil, fmt.Errorf("basis %s: %w", o.Basis, err)
 	}
+	if o.Input, err = o.Input.withBasis(b, o.Basis); err != nil {
+		return nil, err
+	}
 	return &folding{env: env, o: o, basis: b, proj: proj, k: k, dtype: dtype, format: o.Format}, nil
 }
 
 // Fold projects one scene onto the kept components of a basis and writes
 // the component image (and, with Preview, its quicklook).
-func Fold(ctx context.Context, env Env, o FoldOptions) (*FoldScene, error) {
+func Fold(ctx context.Context, env Env, o FoldOptions) (_ *FoldScene, err error) {
+	defer func() { err = classify(err) }()
 	if len(o.Scenes) != 1 || o.Out == "" {
 		return nil, Usagef("fold writes one scene to --out; use --out-dir for %d scenes", len(o.Scenes))
 	}
@@ -132,6 +136,14 @@ func Fold(ctx context.Context, env Env, o FoldOptions) (*FoldScene, error) {
 	}
 	f, err := prepareFold(env, &o)
 	if err != nil {
+		return nil, err
+	}
+	outs := []output.Path{{Role: "output", Path: o.Out}}
+	if o.Preview != "" {
+		outs = append(outs, output.Path{Role: "preview", Path: o.Preview})
+	}
+	ins := append(argPaths("input", o.Scenes, o.Input.Masks), output.Path{Role: "basis", Path: o.Basis})
+	if err := output.Distinct(ins, outs); err != nil {
 		return nil, err
 	}
 	if err := output.Check(o.Out, o.Overwrite); err != nil {
@@ -151,27 +163,45 @@ func Fold(ctx context.Context, env Env, o FoldOptions) (*FoldScene, error) {
 
 // checkBands requires the image's bands to match the basis's, by count and,
 // where both sides carry real names, by name in order.
-func checkBands(b *transform.Basis, basisPath string, s *raster.Stack, ignoreNames bool) error {
-	if s.Len() != len(b.Bands) {
-		return fmt.Errorf("%s has %d bands but the basis %s has %d", describe(s), s.Len(), basisPath, len(b.Bands))
+func checkBands(b *transform.Basis, basisPath string, s *raster.Stack, how bandCheck) error {
+	if s.Len() != len(b.Bands) && how.selected {
+		return Usagef("--bands selects %d bands of %s but the basis %s has %d", s.Len(), describe(s), basisPath, len(b.Bands))
 	}
-	if ignoreNames {
+	if s.Len() != len(b.Bands) {
+		hint := ""
+		if s.Len() == 1 && len(b.Bands) > 1 {
+			hint = " (give --stack, or join the band files with commas, to read one file per band as one stack)"
+		}
+		return fmt.Errorf("%s has %d bands but the basis %s has %d%s", describe(s), s.Len(), basisPath, len(b.Bands), hint)
+	}
+	if how.ignoreNames {
 		return nil
 	}
-	var have, want []string
+	return sameBandNames(describe(s), basisBands(s), "the basis "+basisPath, b.Bands)
+}
+
+// bandCheck says how checkBands compares: whether --bands made the
+// selection, and whether names are compared.
+type bandCheck struct{ selected, ignoreNames bool }
+
+// sameBandNames requires two band lists of one length to carry the same
+// names in the same order, where both sides have real names: a reordered
+// stack would otherwise pass with a silently wrong result.
+func sameBandNames(haveName string, have []transform.Band, wantName string, want []transform.Band) error {
+	var hs, ws []string
 	differ := false
-	for i, band := range s.Bands {
-		have = append(have, band.Name)
-		want = append(want, b.Bands[i].Name)
+	for i := range have {
+		hs = append(hs, have[i].Name)
+		ws = append(ws, want[i].Name)
 		// Names made up from the file name ("scene:3") say nothing about
 		// the band, so they are not compared.
-		if !autoNamed(band.Name, band.Path, band.Index) && !autoNamed(b.Bands[i].Name, b.Bands[i].Source, b.Bands[i].Index) {
-			differ = differ || band.Name != b.Bands[i].Name
+		if !autoNamed(have[i].Name, have[i].Source, have[i].Index) && !autoNamed(want[i].Name, want[i].Source, want[i].Index) {
+			differ = differ || have[i].Name != want[i].Name
 		}
 	}
 	if differ {
-		return fmt.Errorf("%s has bands [%s] but the basis %s has [%s]; if they match in order, pass --ignore-band-names",
-			describe(s), strings.Join(have, ", "), basisPath, strings.Join(want, ", "))
+		return fmt.Errorf("%s has bands [%s] but %s has [%s]; give the bands in the same order, or pass --ignore-band-names if they match in order",
+			haveName, strings.Join(hs, ", "), wantName, strings.Join(ws, ", "))
 	}
 	return nil
 }
@@ -200,9 +230,19 @@ func (f *folding) record(s *raster.Stack) (string, error) {
 		fmt.Fprintf(h, "input %s|%d|%s\n", fp.Path, fp.Size, fp.ModTime.Format(time.RFC3339Nano))
 	}
 	in := f.o.Input
-	fmt.Fprintf(h, "bands %v\nnodata %v\nmasks %q\ntile %d\n", in.Bands, in.NoData, in.Masks, in.Tile)
+	fmt.Fprintf(h, "bands %v\nnodata %v\nmasks %q\ntile %d\n", in.Bands, in.NoData, maskRules(in.Masks), in.Tile)
+	fmt.Fprintf(h, "align %v %s\ncalibrate %s\n", in.Align, in.Resampling, in.Calibrate)
 	fmt.Fprintf(h, "format %s\nco %q\nversion %s\n", f.format, f.o.CreationOptions, f.env.Version)
 	return fmt.Sprintf("basis=%s components=%d type=%s options=%s", f.basis.Fingerprint(), f.k, f.dtype, hex.EncodeToString(h.Sum(nil))[:16]), nil
+}
+
+// maskRules prints mask rules as ParseMask reads them.
+func maskRules(rules []raster.MaskRule) []string {
+	var out []string
+	for _, r := range rules {
+		out = append(out, r.String())
+	}
+	return out
 }
 
 // scene folds one image into out. In a batch, a complete output with the
@@ -225,7 +265,7 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 	if err := output.Distinct([]output.Path{{Role: "basis", Path: f.o.Basis}}, outs); err != nil {
 		return res, err
 	}
-	if err := checkBands(f.basis, f.o.Basis, s, f.o.IgnoreBandNames); err != nil {
+	if err := checkBands(f.basis, f.o.Basis, s, bandCheck{selected: f.o.Input.Bands != nil, ignoreNames: f.o.IgnoreBandNames}); err != nil {
 		return res, err
 	}
 	record, err := f.record(s)

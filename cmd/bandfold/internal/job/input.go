@@ -1,26 +1,38 @@
 package job
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"strings"
 
 	"bandfold/raster"
+	"bandfold/raster/output"
 	"bandfold/tiles"
 	"bandfold/transform"
 )
 
 // Input says how to read the input images: which bands, what is invalid,
-// and how to tile them.
+// how to calibrate and align them, and how to tile them.
 type Input struct {
 	// Bands are 1-based band numbers of the stack; nil means all.
 	Bands []int
 	// NoData overrides the files' nodata: one value for all bands, or one
 	// per selected band; nil keeps the files'.
 	NoData []float64
-	// Masks are validity masks on the image grid (non-zero = valid); a
-	// pixel must pass all.
-	Masks []string
+	// Masks are quality masks (raster.ParseMask: non-zero = valid, or bit
+	// and value rules); a pixel must pass all.
+	Masks []raster.MaskRule
+	// Align warps every file of a stack onto its first file's grid (a
+	// warped VRT, no copy) with Resampling; masks on another grid are
+	// warped with nearest neighbour.
+	Align      bool
+	Resampling string
+	// Calibrate is how stored values become the values used: "scale" (the
+	// bands' scale/offset metadata, the default) or "toa" (Landsat Level-1
+	// digital numbers to top-of-atmosphere reflectance from the MTL file).
+	// Empty means "scale", or the basis's calibration where a basis is read.
+	Calibrate string
 	// Tile is the side of square tiles; 0 aligns tiles to the file's
 	// blocks, about tiles.DefaultBudget bytes of float64 per tile.
 	Tile int
@@ -31,18 +43,50 @@ func (in Input) check() error {
 	if in.Tile < 0 {
 		return Usagef("--tile %d: must be positive", in.Tile)
 	}
+	if in.Resampling != "" && !contains(resamplings, in.Resampling) {
+		return Usagef("--resampling %q: want %s", in.Resampling, strings.Join(resamplings, ", "))
+	}
+	if in.Calibrate != "" && in.Calibrate != raster.CalibrateScale && in.Calibrate != raster.CalibrateTOA {
+		return Usagef("--calibrate %q: want scale or toa", in.Calibrate)
+	}
 	return nil
 }
 
 // options turns Input into raster options; extra masks come last.
-func (in Input) options(extraMasks ...string) []raster.Option {
+func (in Input) options(extra ...raster.MaskRule) []raster.Option {
 	opts := []raster.Option{raster.SelectBands(in.Bands), raster.NoData(in.NoData)}
-	for _, m := range append(append([]string(nil), in.Masks...), extraMasks...) {
-		if m != "" {
-			opts = append(opts, raster.Mask(m))
-		}
+	if rules := append(append([]raster.MaskRule(nil), in.Masks...), extra...); len(rules) > 0 {
+		opts = append(opts, raster.MaskRules(rules...))
+	}
+	if in.Align {
+		opts = append(opts, raster.AlignStack(cmp.Or(in.Resampling, "bilinear")), raster.AlignMasks("nearest"))
+	}
+	if in.Calibrate != "" {
+		opts = append(opts, raster.Calibrate(in.Calibrate))
 	}
 	return opts
+}
+
+// withBasis is in with the basis's calibration when none was asked for; a
+// different one is an error, since the scores would be meaningless.
+func (in Input) withBasis(b *transform.Basis, path string) (Input, error) {
+	want := b.Calibration()
+	switch {
+	case in.Calibrate == "":
+		in.Calibrate = want
+	case in.Calibrate != want:
+		return in, Usagef("--calibrate %s: the basis %s was fitted on %s values", in.Calibrate, path, want)
+	}
+	return in, nil
+}
+
+// maskPaths are the files of mask rules.
+func maskPaths(rules []raster.MaskRule) []string {
+	var out []string
+	for _, r := range rules {
+		out = append(out, r.Path)
+	}
+	return out
 }
 
 // SplitStack splits an IMAGE argument: several files joined with commas are
@@ -102,6 +146,9 @@ func basisBands(s *raster.Stack) []transform.Band {
 	for i, b := range s.Bands {
 		out[i] = transform.Band{Name: b.Name, Source: b.Path, Index: b.Index, DataType: b.DataType,
 			NoData: b.NoData, Scale: b.Scale, Offset: b.Offset}
+		if b.Calibration == raster.CalibrateTOA {
+			out[i].Calibration = b.Calibration
+		}
 	}
 	return out
 }
@@ -132,8 +179,14 @@ func fingerprints(stacks []*raster.Stack) ([]transform.Fingerprint, error) {
 	return out, nil
 }
 
-// describe names a stack for messages.
-func describe(s *raster.Stack) string { return strings.Join(s.Paths, ",") }
+// describe names a stack for messages: its file, or for a stack of
+// several files its label (the files' common name and the band range).
+func describe(s *raster.Stack) string {
+	if len(s.Paths) == 1 || s.Label == "" {
+		return strings.Join(s.Paths, ",")
+	}
+	return s.Label
+}
 
 // describeAll names several stacks for messages.
 func describeAll(scenes []*raster.Stack) string {
@@ -144,12 +197,26 @@ func describeAll(scenes []*raster.Stack) string {
 	return strings.Join(names, ", ")
 }
 
-// checkBandCounts requires every scene to have the band count of the first.
-func checkBandCounts(scenes []*raster.Stack) error {
+// checkPooled requires every scene to have the bands of the first, by
+// count and, where named, by name in order; several one-band images are
+// most likely one stack given without --stack.
+func checkPooled(scenes []*raster.Stack) error {
+	if len(scenes) > 1 {
+		single := true
+		for _, s := range scenes {
+			single = single && s.Len() == 1
+		}
+		if single {
+			return Usagef("the %d images have 1 band each: give --stack to read them as one stack of bands, or join them with commas", len(scenes))
+		}
+	}
 	for _, s := range scenes[1:] {
 		if s.Len() != scenes[0].Len() {
 			return fmt.Errorf("%s has %d bands but %s has %d: pooled scenes need the same bands",
 				describe(s), s.Len(), describe(scenes[0]), scenes[0].Len())
+		}
+		if err := sameBandNames(describe(s), basisBands(s), describe(scenes[0]), basisBands(scenes[0])); err != nil {
+			return err
 		}
 	}
 	return nil
@@ -170,4 +237,19 @@ func needTwoBands(s *raster.Stack, sel []int) error {
 		return Usagef("%s has %d bands but --bands selects only 1: principal components need at least 2", describe(s), all.Len())
 	}
 	return fmt.Errorf("%s has 1 band: principal components need at least 2 (stack single-band files with commas)", describe(s))
+}
+
+// argPaths are the files named by IMAGE arguments and mask rules, for the
+// same-file check that runs before anything is opened.
+func argPaths(role string, args []string, masks []raster.MaskRule) []output.Path {
+	var out []output.Path
+	for _, a := range args {
+		for _, p := range SplitStack(a) {
+			out = append(out, output.Path{Role: role, Path: p})
+		}
+	}
+	for _, m := range maskPaths(masks) {
+		out = append(out, output.Path{Role: "mask", Path: m})
+	}
+	return out
 }

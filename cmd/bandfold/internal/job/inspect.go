@@ -28,7 +28,8 @@ type InspectResult struct {
 }
 
 // Inspect reads a basis and, with Plots, draws its figures.
-func Inspect(_ context.Context, _ Env, o InspectOptions) (*InspectResult, error) {
+func Inspect(_ context.Context, _ Env, o InspectOptions) (_ *InspectResult, err error) {
+	defer func() { err = classify(err) }()
 	b, err := transform.ReadBasis(o.Basis)
 	if err != nil {
 		return nil, err
@@ -66,6 +67,17 @@ func Inspect(_ context.Context, _ Env, o InspectOptions) (*InspectResult, error)
 		res.Plots = append(res.Plots, path)
 	}
 	return res, nil
+}
+
+// keptLoadings returns the eigenvectors of the kept components of b, copied
+// and component-major: element [i][j] is the loading of band j on component
+// i+1, for i < b.Components.
+func keptLoadings(b *transform.Basis) [][]float64 {
+	out := make([][]float64, b.Components)
+	for i := range out {
+		out[i] = append([]float64(nil), b.Eigenvectors[i]...)
+	}
+	return out
 }
 
 type plotDraw struct {

@@ -3,6 +3,7 @@ package job
 import (
 	"context"
 	"fmt"
+	"strings"
 	"time"
 
 	"bandfold/raster"
@@ -67,13 +68,17 @@ func (o *LearnOptions) check() error {
 
 // Learn accumulates the band covariance of the scenes tile by tile and
 // writes a basis (or a shard's partial statistics).
-func Learn(ctx context.Context, env Env, o LearnOptions) (*LearnResult, error) {
+func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err error) {
+	defer func() { err = classify(err) }()
 	if err := o.check(); err != nil {
 		return nil, err
 	}
 	target := o.Out
 	if o.Partial != "" {
 		target = o.Partial
+	}
+	if err := output.Distinct(argPaths("input", o.Scenes, o.Input.Masks), []output.Path{{Role: "output", Path: target}}); err != nil {
+		return nil, err
 	}
 	if err := output.Check(target, o.Overwrite); err != nil {
 		return nil, err
@@ -94,7 +99,7 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (*LearnResult, error) {
 	if err := distinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil {
 		return nil, err
 	}
-	if err := checkBandCounts(scenes); err != nil {
+	if err := checkPooled(scenes); err != nil {
 		return nil, err
 	}
 	if err := needTwoBands(scenes[0], o.Input.Bands); err != nil {
@@ -172,21 +177,22 @@ type MergeOptions struct {
 }
 
 // Merge combines the partial statistics of all shards into a basis.
-func Merge(_ context.Context, env Env, o MergeOptions) (*LearnResult, error) {
+func Merge(_ context.Context, env Env, o MergeOptions) (_ *LearnResult, err error) {
+	defer func() { err = classify(err) }()
 	if err := checkChoice(o.Components, o.Variance); err != nil {
 		return nil, err
 	}
 	if len(o.Parts) == 0 {
 		return nil, Usagef("no partial file")
 	}
-	if err := output.Check(o.Out, o.Overwrite); err != nil {
-		return nil, err
-	}
 	var ins []output.Path
 	for _, p := range o.Parts {
 		ins = append(ins, output.Path{Role: "partial", Path: p})
 	}
 	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}}); err != nil {
+		return nil, err
+	}
+	if err := output.Check(o.Out, o.Overwrite); err != nil {
 		return nil, err
 	}
 	parts := make([]*transform.Partial, len(o.Parts))
@@ -199,7 +205,7 @@ func Merge(_ context.Context, env Env, o MergeOptions) (*LearnResult, error) {
 	}
 	total, err := transform.Combine(parts, o.Parts)
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("partials %s: %w", strings.Join(o.Parts, ", "), err)
 	}
 	first := parts[0]
 	if o.Components > len(first.Bands) {

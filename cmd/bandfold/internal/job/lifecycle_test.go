@@ -123,7 +123,7 @@ func TestOutputSameAsAnInputIsRefused(t *testing.T) {
 			}},
 			{"fold --out = mask", func() error {
 				_, err := Fold(ctx, lcEnv, FoldOptions{Scenes: []string{f.scene}, Basis: f.basis, Out: f.mask, Overwrite: overwrite,
-					Input: Input{Masks: []string{f.mask}}})
+					Input: Input{Masks: []raster.MaskRule{{Path: f.mask}}}})
 				return err
 			}},
 			{"fold --preview = --out", func() error {
@@ -320,7 +320,7 @@ func TestFailedCommandsLeaveNoOutput(t *testing.T) {
 	before := lcSnapshot(t, f.dir)
 	restored := filepath.Join(f.dir, "restored.tif")
 	_, err = Unfold(ctx, lcEnv, UnfoldOptions{Components: f.comps, Basis: f.basis, Out: restored, Compare: f.scene,
-		Input: Input{Masks: []string{zero}}})
+		Input: Input{Masks: []raster.MaskRule{{Path: zero}}}})
 	if err == nil || !strings.Contains(err.Error(), "no pixel is valid in both") {
 		t.Errorf("unfold --compare with no valid pixel: %v", err)
 	}

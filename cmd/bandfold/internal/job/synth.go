@@ -36,8 +36,20 @@ var synthTypes = map[string]string{"int16": "Int16", "uint16": "UInt16", "float3
 
 // Synth writes an invented cube of spectrally correlated bands, tiled and
 // uncompressed, for benchmarks.
-func Synth(ctx context.Context, env Env, o SynthOptions) (*SynthResult, error) {
+func Synth(ctx context.Context, env Env, o SynthOptions) (_ *SynthResult, err error) {
+	defer func() { err = classify(err) }()
 	s := scenario.Synth{Bands: o.Bands, Width: o.Width, Height: o.Height, Type: strings.ToLower(o.Type), Seed: o.Seed}
+	for _, v := range []struct {
+		flag string
+		n    int
+	}{{"bands", o.Bands}, {"width", o.Width}, {"height", o.Height}} {
+		if v.n < 1 {
+			return nil, Usagef("--%s %d: must be at least 1", v.flag, v.n)
+		}
+	}
+	if _, ok := synthTypes[s.Type]; !ok {
+		return nil, Usagef("--type %q: want int16, uint16 or float32", o.Type)
+	}
 	if err := s.Validate(); err != nil {
 		return nil, usage(err)
 	}

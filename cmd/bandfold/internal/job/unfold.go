@@ -64,7 +64,8 @@ type unfolding struct {
 // Unfold rebuilds every band from component scores, x = mean + s (W_k y),
 // writes them, and with Compare measures the loss. A failure at any step
 // leaves no output.
-func Unfold(ctx context.Context, env Env, o UnfoldOptions) (*UnfoldResult, error) {
+func Unfold(ctx context.Context, env Env, o UnfoldOptions) (_ *UnfoldResult, err error) {
+	defer func() { err = classify(err) }()
 	u := &unfolding{env: env, o: &o}
 	defer u.close()
 	if err := u.open(); err != nil {
@@ -127,19 +128,19 @@ func (u *unfolding) open() error {
 	if err := o.Input.check(); err != nil {
 		return err
 	}
-	if err := output.Check(o.Out, o.Overwrite); err != nil {
-		return err
-	}
 	ins := []output.Path{{Role: "components", Path: o.Components}, {Role: "basis", Path: o.Basis}}
 	if o.Compare != "" {
 		for _, p := range SplitStack(o.Compare) {
 			ins = append(ins, output.Path{Role: "original", Path: p})
 		}
 	}
-	for _, m := range o.Input.Masks {
+	for _, m := range maskPaths(o.Input.Masks) {
 		ins = append(ins, output.Path{Role: "mask", Path: m})
 	}
 	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}}); err != nil {
+		return err
+	}
+	if err := output.Check(o.Out, o.Overwrite); err != nil {
 		return err
 	}
 	b, err := transform.ReadBasis(o.Basis)
@@ -156,7 +157,7 @@ func (u *unfolding) open() error {
 	if u.comps, err = openImage(o.Components, nil); err != nil {
 		return err
 	}
-	k, p := u.comps.Len(), len(b.Bands)
+	k := u.comps.Len()
 	if k > len(b.Eigenvectors) {
 		return fmt.Errorf("%s has %d bands but the basis %s has only %d components", o.Components, k, o.Basis, len(b.Eigenvectors))
 	}
@@ -171,11 +172,14 @@ func (u *unfolding) open() error {
 	if o.Compare == "" {
 		return nil
 	}
+	if o.Input, err = o.Input.withBasis(b, o.Basis); err != nil {
+		return err
+	}
 	if u.orig, err = openImage(o.Compare, o.Input.options()); err != nil {
 		return err
 	}
-	if u.orig.Len() != p {
-		return fmt.Errorf("%s has %d bands but the basis %s has %d", o.Compare, u.orig.Len(), o.Basis, p)
+	if err := checkBands(b, o.Basis, u.orig, bandCheck{selected: o.Input.Bands != nil}); err != nil {
+		return err
 	}
 	if err := u.comps.Grid.Compare(u.orig.Grid); err != nil {
 		return fmt.Errorf("%s is not on the grid of %s: %w", o.Compare, o.Components, err)
