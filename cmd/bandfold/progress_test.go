@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"bandfold/cmd/bandfold/internal/cli"
 )
 
 // TestNoProgressOffTerminal: progress bars are drawn only on a terminal
@@ -23,7 +25,7 @@ func TestNoProgressOffTerminal(t *testing.T) {
 		{stderr: os.Stderr, json: true},
 		{stderr: os.Stderr, quiet: true},
 	} {
-		if g.progress("x", 100) != nil && !isTerminal(g.stderr) {
+		if g.progress("x", 100) != nil && !cli.IsTerminal(g.stderr) {
 			t.Errorf("progress drawn for %+v", g)
 		}
 		if (g.json || g.quiet) && g.progress("x", 100) != nil {

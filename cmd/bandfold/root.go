@@ -18,6 +18,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"bandfold/bands/openblas"
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/raster"
 )
@@ -163,7 +164,7 @@ func (g *globals) env() job.Env {
 		level = slog.LevelError
 	}
 	return job.Env{Workers: g.workers, Version: version, Progress: g.passProgress,
-		Log: slog.New(&lineHandler{w: g.stderr, level: level, details: g.verbose})}
+		Log: slog.New(&cli.LineHandler{W: g.stderr, Level: level, Details: g.verbose})}
 }
 
 // info prints a line of human text on stderr unless --quiet.
@@ -199,132 +200,14 @@ func args(check cobra.PositionalArgs) cobra.PositionalArgs {
 // usagef is job.Usagef, for flag translation.
 var usagef = job.Usagef
 
-// lineHandler prints log records as one readable line each: "warning: ..."
-// for warnings, "debug: ..." with the record's attributes for details.
-type lineHandler struct {
-	w       io.Writer
-	level   slog.Level
-	details bool
-	attrs   []slog.Attr
-}
+// inputFlags are the input flags of a command (see cli.InputFlags).
+type inputFlags struct{ cli.InputFlags }
 
-func (h *lineHandler) Enabled(_ context.Context, l slog.Level) bool { return l >= h.level }
+func (f *inputFlags) register(fs *pflag.FlagSet, align bool) { f.Register(fs, align) }
+func (f *inputFlags) input() (job.Input, error)              { return f.Input() }
+func (f *inputFlags) scenes(args []string) []string          { return f.Scenes(args) }
 
-func (h *lineHandler) Handle(_ context.Context, r slog.Record) error {
-	var b strings.Builder
-	b.WriteString(strings.ToLower(r.Level.String()))
-	if r.Level == slog.LevelWarn {
-		b.Reset()
-		b.WriteString("warning")
-	}
-	b.WriteString(": ")
-	b.WriteString(r.Message)
-	if h.details || r.Level < slog.LevelInfo {
-		add := func(a slog.Attr) bool {
-			fmt.Fprintf(&b, " %s=%v", a.Key, a.Value)
-			return true
-		}
-		for _, a := range h.attrs {
-			add(a)
-		}
-		r.Attrs(add)
-	}
-	b.WriteByte('\n')
-	_, err := io.WriteString(h.w, b.String())
-	return err
-}
-
-func (h *lineHandler) WithAttrs(as []slog.Attr) slog.Handler {
-	c := *h
-	c.attrs = append(append([]slog.Attr(nil), h.attrs...), as...)
-	return &c
-}
-
-func (h *lineHandler) WithGroup(string) slog.Handler { return h }
-
-// inputFlags are the flags that say how to read an input image.
-type inputFlags struct {
-	bands      string
-	nodata     string
-	masks      []string
-	tile       int
-	calibrate  string
-	align      bool
-	resampling string
-	stack      bool
-}
-
-// register adds the input flags; alignment flags only where the command
-// does not define --align itself (change warps AFTER onto BEFORE with it).
-func (f *inputFlags) register(fs *pflag.FlagSet, align bool) {
-	fs.StringVar(&f.bands, "bands", "", `bands to use, 1-based lists and ranges such as "1-5,7" (default all)`)
-	fs.StringVar(&f.nodata, "nodata", "", `nodata value overriding the files': one for all bands, or a comma list with one per band ("nan" for NaN)`)
-	fs.StringArrayVar(&f.masks, "mask", nil, `quality mask (repeatable; a pixel must pass all): FILE (non-zero = valid), FILE:bits=0-4,9 (invalid where a listed bit is set) or FILE:values=0,3,8-10 (invalid at those values)`)
-	fs.IntVar(&f.tile, "tile", 0, "tile size N for N x N pixel tiles (default: aligned to the file's blocks, about 16 MiB of float64 per tile)")
-	fs.StringVar(&f.calibrate, "calibrate", "", `scale (the bands' scale/offset metadata) or toa (Landsat Level-1 digital numbers to top-of-atmosphere reflectance from the *_MTL.txt beside the bands); default scale, or the basis's`)
-	if align {
-		fs.BoolVar(&f.align, "align", false, "warp every file of a stack onto its first file's grid with GDAL (for bands at other resolutions)")
-		fs.StringVar(&f.resampling, "resampling", "bilinear", "resampling for --align: nearest, bilinear, cubic, cubicspline, lanczos, average, mode")
-		fs.BoolVar(&f.stack, "stack", false, "read the IMAGE arguments as one stack of bands, in the order given (for one file per band)")
-	}
-}
-
-// input translates the flags.
-func (f *inputFlags) input() (job.Input, error) {
-	sel, err := raster.ParseBands(f.bands)
-	if err != nil {
-		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
-	}
-	nd, err := raster.ParseNoData(f.nodata)
-	if err != nil {
-		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
-	}
-	masks, err := parseMasks("--mask", f.masks)
-	if err != nil {
-		return job.Input{}, err
-	}
-	in := job.Input{Bands: sel, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
-	if f.align {
-		if in.Resampling, err = raster.ParseResampling(f.resampling); err != nil {
-			return job.Input{}, usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
-		}
-	}
-	if f.calibrate != "" {
-		if in.Calibrate, err = raster.ParseCalibration(f.calibrate); err != nil {
-			return job.Input{}, usagef("--calibrate %q: want scale or toa", f.calibrate)
-		}
-	}
-	return in, nil
-}
-
-// scenes applies --stack: all arguments become one stack.
-func (f *inputFlags) scenes(args []string) []string {
-	if f.stack && len(args) > 1 {
-		return []string{strings.Join(args, ",")}
-	}
-	return args
-}
-
-// parseMasks reads repeated mask flags.
-func parseMasks(flag string, specs []string) ([]raster.MaskRule, error) {
-	var out []raster.MaskRule
-	for _, spec := range specs {
-		r, err := raster.ParseMask(spec)
-		if err != nil {
-			return nil, usagef("%s %q: %v", flag, spec, err)
-		}
-		out = append(out, r)
-	}
-	return out, nil
-}
-
-// checkCreationOptions refuses --co items that are not KEY=VALUE; GDAL
-// checks the keys and values when the output is created.
-func checkCreationOptions(co []string) error {
-	for _, kv := range co {
-		if k, _, ok := strings.Cut(kv, "="); !ok || strings.TrimSpace(k) == "" {
-			return usagef("--co %q: want KEY=VALUE", kv)
-		}
-	}
-	return nil
-}
+var (
+	parseMasks           = cli.ParseMasks
+	checkCreationOptions = cli.CheckCreationOptions
+)
