@@ -2,6 +2,7 @@ package raster
 
 import (
 	"fmt"
+	"slices"
 
 	"github.com/airbusgeo/godal"
 
@@ -14,6 +15,7 @@ type patchFile struct {
 	file  *output.File
 	ds    *godal.Dataset
 	layer godal.Layer
+	dates string
 }
 
 var patchFields = []struct {
@@ -23,13 +25,13 @@ var patchFields = []struct {
 	{"area_m2", godal.FTReal}, {"area_ha", godal.FTReal}, {"z_mean", godal.FTReal}, {"z_max", godal.FTReal}, {"top_component", godal.FTInt},
 }
 
-func newPatchFile(path, crs string, overwrite bool) (*patchFile, error) {
-	f, err := output.Create(path, overwrite, ".gpkg")
+func newPatchFile(path, crs string, o PatchOptions) (*patchFile, error) {
+	f, err := output.Create(path, o.Overwrite, ".gpkg")
 	if err != nil {
 		return nil, err
 	}
 	f.Sidecars("-journal", "-wal", "-shm")
-	p := &patchFile{file: f}
+	p := &patchFile{file: f, dates: o.Dates}
 	if p.ds, err = godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger); err != nil {
 		f.Abort()
 		return nil, fmt.Errorf("create %s: %w", path, err)
@@ -46,8 +48,23 @@ func newPatchFile(path, crs string, overwrite bool) (*patchFile, error) {
 	for _, f := range patchFields {
 		opts = append(opts, godal.NewFieldDefinition(f.name, f.typ))
 	}
+	if o.Dates != "" {
+		opts = append(opts, godal.NewFieldDefinition("dates", godal.FTString))
+	}
 	opts = append(opts, errLogger)
 	if p.layer, err = p.ds.CreateLayer("changes", sr, godal.GTPolygon, opts...); err == nil {
+		keys := make([]string, 0, len(o.Metadata))
+		for k := range o.Metadata {
+			keys = append(keys, k)
+		}
+		slices.Sort(keys)
+		for _, k := range keys {
+			if err == nil {
+				err = p.layer.SetMetadata(k, o.Metadata[k], errLogger)
+			}
+		}
+	}
+	if err == nil {
 		err = p.ds.StartTransaction(errLogger)
 	}
 	if err != nil {
@@ -100,6 +117,9 @@ func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (fl
 	}
 	if z.top > 0 {
 		set("top_component", z.top)
+	}
+	if p.dates != "" {
+		set("dates", p.dates)
 	}
 	if err == nil {
 		err = p.layer.UpdateFeature(f, errLogger)

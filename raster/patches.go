@@ -226,6 +226,18 @@ func (m *ChangeMask) mapBand(from, to godal.Band, f func(uint8) uint8) error {
 	})
 }
 
+// PatchOptions are the options of Patches.
+type PatchOptions struct {
+	// Magnitude is the change statistic raster on the map's grid.
+	Magnitude string
+	// Overwrite allows replacing an existing file.
+	Overwrite bool
+	// Metadata is written as the layer's metadata (default domain).
+	Metadata map[string]string
+	// Dates fills the dates field of every patch; empty leaves it out.
+	Dates string
+}
+
 // PatchSummary sums up the patches written by Patches.
 type PatchSummary struct {
 	// Count is the number of patches (polygons).
@@ -245,20 +257,29 @@ type PatchSummary struct {
 //     null when the grid has no CRS. Patches share one plane per degree of
 //     latitude and longitude, which changes nothing measurable: the planes
 //     are equal-area everywhere.
+//
 //   - area_ha (Real): the same in hectares.
+//
 //   - z_mean, z_max (Real): mean and maximum of magnitude over the patch's
 //     valid pixels (not nodata, not NaN); null when there are none.
+//
 //   - top_component (Integer): the most frequent top component (1-based)
 //     over the patch's pixels, the smallest on ties; pixels with top
 //     component 0 (filled holes) or 255 are not counted; null when none is
 //     left.
 //
-// magnitude is a raster file on the same grid (band 1 is used), such as the
-// magnitude.tif just written. Per patch, its polygon is rasterised over its
-// bounding window (pixel centres inside) and that window of magnitude and of
-// the top band is read.
-func (m *ChangeMask) Patches(path, magnitude string, overwrite bool) (PatchSummary, error) {
+//   - dates (String): o.Dates, e.g. "2001-06-14 to 2013-07-02", when set.
+//
+// The layer carries o.Metadata as GDAL layer metadata (the provenance of the
+// map: dates, settings, tool version, caution).
+//
+// o.Magnitude is a raster file on the same grid (band 1 is used), such as
+// the magnitude.tif just written. Per patch, its polygon is rasterised over
+// its bounding window (pixel centres inside) and that window of magnitude
+// and of the top band is read.
+func (m *ChangeMask) Patches(path string, o PatchOptions) (PatchSummary, error) {
 	sum := PatchSummary{AreaM2: math.NaN()}
+	magnitude, overwrite := o.Magnitude, o.Overwrite
 	if err := output.Check(path, overwrite); err != nil {
 		return sum, err
 	}
@@ -283,7 +304,7 @@ func (m *ChangeMask) Patches(path, magnitude string, overwrite bool) (PatchSumma
 		defer ea.Close()
 		sum.AreaM2 = 0
 	}
-	out, err := newPatchFile(path, m.grid.Projection, overwrite)
+	out, err := newPatchFile(path, m.grid.Projection, o)
 	if err != nil {
 		return sum, err
 	}

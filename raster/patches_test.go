@@ -1,6 +1,8 @@
 package raster
 
 import (
+	"github.com/airbusgeo/godal"
+
 	"context"
 	"encoding/json"
 	"errors"
@@ -287,7 +289,7 @@ func TestPatches(t *testing.T) {
 		t.Fatal(err)
 	}
 	out := filepath.Join(dir, "changes.gpkg")
-	sum, err := m.Patches(out, mag, false)
+	sum, err := m.Patches(out, PatchOptions{Magnitude: mag, Overwrite: false})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -333,10 +335,10 @@ func TestPatches(t *testing.T) {
 	onlyFiles(t, dir, "changes.gpkg", "magnitude.tif")
 
 	// An existing output is refused without overwrite, replaced with it.
-	if _, err := m.Patches(out, mag, false); !errors.Is(err, output.ErrExists) {
+	if _, err := m.Patches(out, PatchOptions{Magnitude: mag, Overwrite: false}); !errors.Is(err, output.ErrExists) {
 		t.Errorf("existing output: got %v, want ErrExists", err)
 	}
-	if _, err := m.Patches(out, mag, true); err != nil {
+	if _, err := m.Patches(out, PatchOptions{Magnitude: mag, Overwrite: true}); err != nil {
 		t.Errorf("overwrite: %v", err)
 	}
 	onlyFiles(t, dir, "changes.gpkg", "magnitude.tif")
@@ -347,7 +349,7 @@ func TestPatchesWithoutCRS(t *testing.T) {
 	s := newPatchScene(t, 0)
 	mag := s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif"))
 	m := s.mask(t) // not sieved: the raw map, blob A included
-	sum, err := m.Patches(filepath.Join(dir, "changes.gpkg"), mag, false)
+	sum, err := m.Patches(filepath.Join(dir, "changes.gpkg"), PatchOptions{Magnitude: mag, Overwrite: false})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -387,7 +389,7 @@ func TestPatchesErrorsLeaveNoFiles(t *testing.T) {
 		{"missing magnitude", filepath.Join(dir, "missing.tif"), ErrNotFound},
 	}
 	for _, tc := range tests {
-		_, err := m.Patches(filepath.Join(dir, "changes.gpkg"), tc.magnitude, false)
+		_, err := m.Patches(filepath.Join(dir, "changes.gpkg"), PatchOptions{Magnitude: tc.magnitude, Overwrite: false})
 		if !errors.Is(err, tc.is) || !strings.Contains(err.Error(), filepath.Base(tc.magnitude)) || strings.Contains(err.Error(), "\n") {
 			t.Errorf("%s: got %v, want %v naming the file", tc.name, err, tc.is)
 		}
@@ -411,5 +413,42 @@ func onlyFiles(t *testing.T, dir string, names ...string) {
 	slices.Sort(names)
 	if !slices.Equal(got, names) {
 		t.Errorf("%s holds %v, want %v", dir, got, names)
+	}
+}
+
+// TestPatchesProvenance: the layer carries the given metadata and every
+// polygon the dates (known by construction), read back through GDAL.
+func TestPatchesProvenance(t *testing.T) {
+	dir := t.TempDir()
+	s := newPatchScene(t, utm33)
+	mag := s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif"))
+	m := s.mask(t)
+	out := filepath.Join(dir, "changes.gpkg")
+	md := map[string]string{"BANDFOLD_BEFORE": "2001-06-14 (a.tif)", "BANDFOLD_CAUTION": "verify before acting"}
+	if _, err := m.Patches(out, PatchOptions{Magnitude: mag, Metadata: md, Dates: "2001-06-14 to 2013-07-02"}); err != nil {
+		t.Fatal(err)
+	}
+	ds, err := godal.Open(out, godal.VectorOnly())
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ds.Close()
+	layer := ds.Layers()[0]
+	got := layer.Metadatas()
+	for k, v := range md {
+		if got[k] != v {
+			t.Errorf("layer metadata %s = %q, want %q", k, got[k], v)
+		}
+	}
+	n := 0
+	for f := layer.NextFeature(); f != nil; f = layer.NextFeature() {
+		if v := f.Fields()["dates"].String(); v != "2001-06-14 to 2013-07-02" {
+			t.Errorf("feature dates %q", v)
+		}
+		f.Close()
+		n++
+	}
+	if n == 0 {
+		t.Error("no patches")
 	}
 }

@@ -20,9 +20,15 @@ type Reader struct {
 	nodata  []float64
 	hasND   []bool
 	scaled  bool
+	// signed marks the bands stored as GDAL 3.6's signed byte, which GDAL
+	// reads as 0..255: values from 128 are turned into v - 256.
+	signed    []bool
+	anySigned bool
 	// check is false when no value can be invalid: integer bands (never
 	// NaN or infinite) without nodata.
 	check bool
+	// average makes ReadScaled average instead of taking the nearest pixel.
+	average bool
 }
 
 // NewReader opens the stack's files for reading by one goroutine.
@@ -57,6 +63,8 @@ func (s *Stack) NewReader() (*Reader, error) {
 		if b.Scale != 1 || b.Offset != 0 {
 			r.scaled = true
 		}
+		r.signed = append(r.signed, b.DataType == SignedByte)
+		r.anySigned = r.anySigned || b.DataType == SignedByte
 	}
 	return r, nil
 }
@@ -92,6 +100,14 @@ func (r *Reader) ReadScaled(t tiles.Tile, w, h int, dst []float64, valid []bool)
 	return r.read(t, w, h, dst, valid)
 }
 
+// ReadAveraged is ReadScaled with GDAL's average resampling: each output
+// pixel is the mean of the valid pixels under it, for reduced quicklooks.
+func (r *Reader) ReadAveraged(t tiles.Tile, w, h int, dst []float64, valid []bool) (int, error) {
+	r.average = true
+	defer func() { r.average = false }()
+	return r.read(t, w, h, dst, valid)
+}
+
 func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (int, error) {
 	p, n := len(r.s.Bands), bw*bh
 	if len(dst) < n*p || len(valid) < n {
@@ -99,8 +115,12 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 	}
 	dst, valid = dst[:n*p], valid[:n]
 	window := godal.Window(t.W, t.H)
+	alg := godal.Nearest
+	if r.average {
+		alg = godal.Average
+	}
 	for _, rn := range r.s.runs {
-		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], bw, bh, window,
+		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], bw, bh, window, godal.Resampling(alg),
 			godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*bw), godal.BandStride(1), errLogger)
 		if err != nil {
 			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, tidy(err))
@@ -128,6 +148,9 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 			continue
 		}
 		px := dst[i*p : i*p+p]
+		if r.anySigned {
+			unsign(px, r.signed)
+		}
 		if r.check && !r.validPixel(px) {
 			valid[i] = false
 			continue
@@ -156,4 +179,14 @@ func (r *Reader) validPixel(px []float64) bool {
 // isInteger reports whether a GDAL data type name is an integer type.
 func isInteger(dataType string) bool {
 	return integerBits(dataType) > 0
+}
+
+// unsign turns the values of the signed-byte bands of px, read by GDAL as
+// 0..255, into -128..127.
+func unsign(px []float64, signed []bool) {
+	for b, v := range px {
+		if signed[b] && v >= 128 {
+			px[b] = v - 256
+		}
+	}
 }

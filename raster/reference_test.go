@@ -157,7 +157,7 @@ func TestReferenceFromPatches(t *testing.T) {
 		t.Fatal(err)
 	}
 	path := filepath.Join(dir, "changes.gpkg")
-	if _, err := m.Patches(path, s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif")), false); err != nil {
+	if _, err := m.Patches(path, PatchOptions{Magnitude: s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif")), Overwrite: false}); err != nil {
 		t.Fatal(err)
 	}
 	want := s.sieved()

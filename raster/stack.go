@@ -60,6 +60,10 @@ type Band struct {
 	// REFLECTANCE_MULT_BAND_n and REFLECTANCE_ADD_BAND_n and the scene's
 	// SUN_ELEVATION (degrees) from the product's MTL file; zero otherwise.
 	ReflMult, ReflAdd, SunElevation float64
+	// WavelengthNM and FWHMNM are the band's centre wavelength and full
+	// width at half maximum in nanometres from its metadata, 0 when unknown
+	// (see bandWavelength).
+	WavelengthNM, FWHMNM float64
 }
 
 // Stack is one logical p-band image made of one multiband file or several
@@ -415,7 +419,11 @@ func describeBand(path string, index int, b godal.Band) Band {
 	if out.Scale == 0 { // a zero scale would erase the values
 		out.Scale = 1
 	}
+	if st.DataType == godal.Byte && b.Metadata("PIXELTYPE", godal.Domain("IMAGE_STRUCTURE")) == "SIGNEDBYTE" {
+		out.DataType = SignedByte // GDAL 3.6's signed byte: read as Int8
+	}
 	out.Name = strings.TrimSpace(b.Description())
+	out.WavelengthNM, out.FWHMNM = bandWavelength(b)
 	return out
 }
 

@@ -77,6 +77,9 @@ type Spec struct {
 	// ColorTable, when set, is given to band 1 (Byte outputs).
 	ColorTable [][4]int16
 	Format     Format
+	// Compress, when set, is the GeoTIFF compression (see BestCompression)
+	// in place of DEFLATE, with the same predictor.
+	Compress string
 	// CreationOptions are KEY=VALUE options that override bandfold's
 	// defaults (--co).
 	CreationOptions []string
@@ -92,9 +95,19 @@ type Output struct {
 	ds       *godal.Dataset
 	spec     Spec
 	finished bool
+	// bytes is the conversion buffer of a SignedByte output.
+	bytes []byte
 }
 
+// SignedByte is the DataType of signed 8-bit integers, written (GDAL 3.6
+// has no Int8) as Byte with the creation option PIXELTYPE=SIGNEDBYTE, the
+// values stored in two's complement, and read back as -128..127.
+const SignedByte = "Int8"
+
 func dataType(name string) (godal.DataType, error) {
+	if name == SignedByte {
+		return godal.Byte, nil
+	}
 	for _, dt := range []godal.DataType{godal.Byte, godal.Int16, godal.UInt16, godal.Int32, godal.UInt32, godal.Float32, godal.Float64} {
 		if strings.EqualFold(dt.String(), name) {
 			return dt, nil
@@ -157,12 +170,19 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
 	}
-	opts := creationOptions(dt, spec.CreationOptions)
+	var base []string
+	if spec.Compress != "" {
+		base = append(base, "COMPRESS="+spec.Compress)
+	}
+	if spec.DataType == SignedByte {
+		base = append(base, "PIXELTYPE=SIGNEDBYTE")
+	}
+	opts := creationOptions(dt, append(base, spec.CreationOptions...))
 	driver, user := "GTiff", opts
 	if spec.Format == COG {
 		// The COG driver copies a finished dataset; write a plain tiled
 		// GeoTIFF first without the user's options, which are COG options.
-		opts, driver, user = creationOptions(dt, nil), "COG", cogOptions(spec.CreationOptions)
+		opts, driver, user = creationOptions(dt, base), "COG", cogOptions(spec.CreationOptions)
 	}
 	if err := validateOptions(driver, user); err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
@@ -185,6 +205,24 @@ func Create(path string, spec Spec) (*Output, error) {
 		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	return o, nil
+}
+
+// BestCompression returns the lossless GeoTIFF compression for integer
+// codes: ZSTD where this GDAL build's GeoTIFF driver offers it, else
+// DEFLATE.
+func BestCompression() string {
+	cd := C.CString("GTiff")
+	defer C.free(unsafe.Pointer(cd))
+	drv := C.GDALGetDriverByName(cd)
+	if drv == nil {
+		return "DEFLATE"
+	}
+	key := C.CString("DMD_CREATIONOPTIONLIST")
+	defer C.free(unsafe.Pointer(key))
+	if list := C.GDALGetMetadataItem(C.GDALMajorObjectH(drv), key, nil); list != nil && strings.Contains(C.GoString(list), "<Value>ZSTD</Value>") {
+		return "ZSTD"
+	}
+	return "DEFLATE"
 }
 
 // validateOptions checks creation options against the named driver's list,
@@ -258,7 +296,20 @@ func (o *Output) Write(t tiles.Tile, src []float64) error {
 	if len(src) < n {
 		panic(fmt.Sprintf("raster: %d values to write for %v of %d bands", len(src), t, o.spec.Bands))
 	}
-	if err := o.dataset().Write(t.X, t.Y, src[:n], t.W, t.H, errLogger); err != nil {
+	var buf any = src[:n]
+	if o.spec.DataType == SignedByte {
+		// GDAL 3.6 would clamp negative values to the Byte range: store the
+		// two's complement bytes.
+		if cap(o.bytes) < n {
+			o.bytes = make([]byte, n)
+		}
+		b := o.bytes[:n]
+		for i, v := range src[:n] {
+			b[i] = byte(int8(max(-128, min(127, v))))
+		}
+		buf = b
+	}
+	if err := o.dataset().Write(t.X, t.Y, buf, t.W, t.H, errLogger); err != nil {
 		return fmt.Errorf("write %s at %v: %w", o.Path(), t, tidy(err))
 	}
 	return nil

@@ -98,11 +98,14 @@ func (f Fingerprint) String() string {
 	return fmt.Sprintf("%s (%d bytes, modified %s)", f.Path, f.Size, f.ModTime.Format(time.RFC3339Nano))
 }
 
-// Basis is a fitted principal component basis, stored as a JSON basis file
-// ("format": "bandfold-basis", "version": 1). Vectors and matrices are indexed
+// Basis is a fitted principal component (or minimum noise fraction) basis,
+// stored as a JSON basis file ("format": "bandfold-basis", "version": 1 or
+// 2; version 2 adds the method, the noise covariance, wavelengths and the
+// excluded bands). Vectors and matrices are indexed
 // by band in the order of Bands; p = len(Bands).
 type Basis struct {
-	// Format is always BasisFormat and Version is 1.
+	// Format is always BasisFormat; Version is 2 for bases written now, 1
+	// for older files.
 	Format  string `json:"format"`
 	Version int    `json:"version"`
 	// Tool is the version of the program that wrote the basis.
@@ -139,6 +142,13 @@ type Basis struct {
 	Components int `json:"components"`
 	// Inputs fingerprints the files the statistics were taken from.
 	Inputs []Fingerprint `json:"inputs"`
+
+	// Version 2 members (see basisv2.go); absent from version 1 files.
+	Method          Method      `json:"method,omitempty"`
+	NoiseCovariance [][]float64 `json:"noise_covariance,omitempty"`
+	NoisePairs      int64       `json:"noise_pairs,omitempty"`
+	WavelengthsNM   []float64   `json:"wavelengths_nm,omitempty"`
+	Excluded        []Excluded  `json:"excluded,omitempty"`
 }
 
 // NewBasis fits a basis to band statistics: count valid pixels with band
@@ -171,7 +181,8 @@ func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetr
 	}
 	b := &Basis{
 		Format:     BasisFormat,
-		Version:    1,
+		Version:    2,
+		Method:     PCA,
 		Created:    time.Now().UTC(),
 		Mode:       mode,
 		Pixels:     count,
@@ -271,6 +282,9 @@ func (b *Basis) Fingerprint() string {
 	for _, row := range b.Eigenvectors {
 		put(row)
 	}
+	for _, row := range b.NoiseCovariance { // MNF only: PCA fingerprints are as in version 1
+		put(row)
+	}
 	return hex.EncodeToString(h.Sum(nil))[:16]
 }
 
@@ -282,8 +296,8 @@ func (b *Basis) validate() error {
 	if b.Format != BasisFormat {
 		return fmt.Errorf("format %q, want %q", b.Format, BasisFormat)
 	}
-	if b.Version != 1 {
-		return fmt.Errorf("%w %d", ErrUnknownVersion, b.Version)
+	if err := b.checkVersion(); err != nil {
+		return err
 	}
 	if !b.Mode.valid() {
 		return fmt.Errorf("unknown mode %q", b.Mode)
@@ -332,8 +346,10 @@ func (b *Basis) validate() error {
 			return fmt.Errorf("eigenvalues are not non-negative and descending at %d", j)
 		}
 	}
-	if err := checkOrthonormal(b.Eigenvectors); err != nil {
-		return err
+	if b.Method != MNF {
+		if err := checkOrthonormal(b.Eigenvectors); err != nil {
+			return err
+		}
 	}
 	if b.Components < 1 || b.Components > p {
 		return fmt.Errorf("components %d out of range 1..%d", b.Components, p)
@@ -428,6 +444,9 @@ func (b *Basis) consistent() error {
 		if !(b.Mean[j] >= bd.Min-slack && b.Mean[j] <= bd.Max+slack) {
 			return fmt.Errorf("mean[%d] = %g is outside the valid range [%g, %g] recorded for band %d", j, b.Mean[j], bd.Min, bd.Max, j+1)
 		}
+	}
+	if b.Method == MNF {
+		return b.checkMNF()
 	}
 
 	a := mat.NewSymDense(p, nil)

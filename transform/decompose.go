@@ -140,10 +140,16 @@ func Cumulative(values []float64) []float64 {
 // the pixels b was fitted on this is Cumulative(b.Eigenvalues)[k-1] for k
 // components; on another scene it tells how well the basis carries over. It
 // returns NaN when the scene's total variance is zero or undefined (fewer
-// than two pixels), where the share is undefined. ExplainedOn panics if the
+// than two pixels), where the share is undefined, and for an MNF basis.
+// ExplainedOn panics if the
 // band count of scene is not that of b.
 func ExplainedOn(b *Basis, scene, scores *bands.Moments) float64 {
 	v := scene.Variance(nil)
+	if b.Method == MNF {
+		// MNF scores are noise-whitened: their total is tr(Σ_N⁻¹ C), which
+		// per-band variances cannot give.
+		return math.NaN()
+	}
 	if len(v) != len(b.Bands) {
 		panic(fmt.Sprintf("transform: ExplainedOn: moments of %d bands for a basis of %d", len(v), len(b.Bands)))
 	}

@@ -45,7 +45,7 @@ func readFile[T any, PT interface {
 	return v, nil
 }
 
-// parse decodes and validates a version 1 file of the given format.
+// parse decodes and validates a version 1 or 2 file of the given format.
 func parse[T any, PT interface {
 	*T
 	document
@@ -74,7 +74,7 @@ func marshal(kind string, v document) ([]byte, error) {
 	return append(flattenLeaves(data), '\n'), nil
 }
 
-// decodeVersioned decodes a version 1 file of the given format into v,
+// decodeVersioned decodes a version 1 or 2 file of the given format into v,
 // rejecting unknown members and trailing data.
 func decodeVersioned(data []byte, format string, v any) error {
 	var head struct {
@@ -87,8 +87,8 @@ func decodeVersioned(data []byte, format string, v any) error {
 	if head.Format != format {
 		return fmt.Errorf("%w: format %q, want %q", ErrMalformed, head.Format, format)
 	}
-	if head.Version != 1 {
-		return fmt.Errorf("%w %d of %s (this program reads version 1)", ErrUnknownVersion, head.Version, format)
+	if head.Version != 1 && head.Version != 2 {
+		return fmt.Errorf("%w %d of %s (this program reads versions 1 and 2)", ErrUnknownVersion, head.Version, format)
 	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()

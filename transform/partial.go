@@ -19,7 +19,8 @@ const PartialFormat = "bandfold-partial"
 // cover their own tiles of the same inputs; CheckSet verifies that a set of
 // partials is one whole job and Combine merges their statistics.
 type Partial struct {
-	// Format is always PartialFormat and Version is 1.
+	// Format is always PartialFormat; Version is 2 for partials written
+	// now, 1 for older files.
 	Format  string `json:"format"`
 	Version int    `json:"version"`
 	// Tool is the version of the program that wrote the partial.
@@ -43,6 +44,17 @@ type Partial struct {
 	Inputs []Fingerprint `json:"inputs"`
 	// State is the shard's accumulated statistics.
 	State bands.State `json:"state"`
+
+	// Version 2 members, absent from version 1 files: the method the basis
+	// is to be fitted with, the noise pairs ("horizontal", "vertical" or
+	// "both") and the shard's accumulated shift differences
+	// (bands.ShiftDifferences), present when Noise is set, and the
+	// wavelengths and excluded bands to record in the basis.
+	Method        Method       `json:"method,omitempty"`
+	Noise         string       `json:"noise,omitempty"`
+	NoiseState    *bands.State `json:"noise_state,omitempty"`
+	WavelengthsNM []float64    `json:"wavelengths_nm,omitempty"`
+	Excluded      []Excluded   `json:"excluded,omitempty"`
 }
 
 // ReadPartial reads and checks the partial file at path. Errors name the file
@@ -61,8 +73,14 @@ func (pt *Partial) validate() error {
 	switch {
 	case pt.Format != PartialFormat:
 		return fmt.Errorf("format %q, want %q", pt.Format, PartialFormat)
-	case pt.Version != 1:
+	case pt.Version != 1 && pt.Version != 2:
 		return fmt.Errorf("%w %d", ErrUnknownVersion, pt.Version)
+	case pt.Version == 1 && (pt.Method != "" || pt.Noise != "" || pt.NoiseState != nil || pt.WavelengthsNM != nil || pt.Excluded != nil):
+		return errors.New("version 1 with version 2 members")
+	case (pt.Noise == "") != (pt.NoiseState == nil):
+		return errors.New("noise and noise_state must be given together")
+	case pt.Method == MNF && pt.NoiseState == nil:
+		return errors.New("method mnf without a noise_state")
 	case pt.Shards < 1 || pt.Shard < 0 || pt.Shard >= pt.Shards:
 		return fmt.Errorf("shard %d of %d", pt.Shard, pt.Shards)
 	case pt.TileSize < 0:
@@ -78,6 +96,17 @@ func (pt *Partial) validate() error {
 	}
 	if err := checkBands(pt.Bands); err != nil {
 		return err
+	}
+	if pt.NoiseState != nil {
+		if _, err := bands.ParseShift(pt.Noise); err != nil {
+			return err
+		}
+		if len(pt.NoiseState.Mean) != len(pt.Bands) {
+			return fmt.Errorf("noise_state has %d bands, want %d", len(pt.NoiseState.Mean), len(pt.Bands))
+		}
+		if _, err := bands.FromState(*pt.NoiseState); err != nil {
+			return fmt.Errorf("noise_state: %w", err)
+		}
 	}
 	_, err := bands.FromState(pt.State)
 	return err
@@ -133,6 +162,8 @@ func foreign(ref, pt *Partial) string {
 		return fmt.Sprintf("stride %d", pt.Stride)
 	case pt.Mode != ref.Mode:
 		return fmt.Sprintf("mode %s", pt.Mode)
+	case pt.Method != ref.Method || pt.Noise != ref.Noise:
+		return fmt.Sprintf("method %q with noise pairs %q", pt.Method, pt.Noise)
 	case !slices.EqualFunc(pt.Bands, ref.Bands, sameBand):
 		return describeDiff("band", pt.Bands, ref.Bands, sameBand, Band.String)
 	case !slices.EqualFunc(pt.Inputs, ref.Inputs, sameInput):
@@ -173,13 +204,27 @@ func Combine(parts []*Partial, paths []string) (*bands.Accumulator, error) {
 	if err := CheckSet(parts, paths); err != nil {
 		return nil, err
 	}
+	return combine(parts, paths, func(pt *Partial) bands.State { return pt.State })
+}
+
+// CombineNoise merges the shards' shift-difference statistics as Combine
+// merges their co-moments; it returns nil when the partials carry none.
+// Call it after Combine, which checks the set.
+func CombineNoise(parts []*Partial, paths []string) (*bands.Accumulator, error) {
+	if len(parts) == 0 || parts[0].NoiseState == nil {
+		return nil, nil
+	}
+	return combine(parts, paths, func(pt *Partial) bands.State { return *pt.NoiseState })
+}
+
+func combine(parts []*Partial, paths []string, state func(*Partial) bands.State) (*bands.Accumulator, error) {
 	order := make([]int, len(parts))
 	for i, pt := range parts {
 		order[pt.Shard] = i
 	}
 	var acc *bands.Accumulator
 	for _, i := range order {
-		a, err := bands.FromState(parts[i].State)
+		a, err := bands.FromState(state(parts[i]))
 		if err != nil {
 			return nil, fmt.Errorf("partial %s: %w", paths[i], err)
 		}

@@ -77,7 +77,7 @@ func TestReadPartialRejects(t *testing.T) {
 		edit func(*Partial)
 		want error
 	}{
-		{"version", func(p *Partial) { p.Version = 2 }, ErrUnknownVersion},
+		{"version", func(p *Partial) { p.Version = 3 }, ErrUnknownVersion},
 		{"format", func(p *Partial) { p.Format = BasisFormat }, ErrMalformed},
 		{"shard out of range", func(p *Partial) { p.Shard = 3 }, ErrMalformed},
 		{"negative shard", func(p *Partial) { p.Shard = -1 }, ErrMalformed},

@@ -33,7 +33,8 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 		Short: "Map land-cover change between two dates from component score differences",
 		Long: `change projects both dates onto principal components (fitted on the pixels
 valid on both dates, or from --basis), takes the differences of the scores,
-estimates the no-change distribution of those differences robustly (location
+normalises AFTER onto BEFORE's radiometric scale over stable pixels
+(--normalize), estimates the no-change distribution of those differences robustly (location
 and covariance, iteratively trimmed), and maps the pixels whose Mahalanobis
 statistic Z exceeds the threshold. Small patches are removed with GDAL's
 sieve filter (--min-area), patches are polygonized into a GeoPackage, and
@@ -41,11 +42,13 @@ areas are ground areas on the CRS's ellipsoid.
 
 Outputs in DIR: change.tif (1 change, 0 no change, 255 nodata), magnitude.tif
 (Z), pvalue.tif (no-change p-value), differences.tif (with --differences),
-changes.gpkg (layer "changes"), preview.png, summary.json and the folder's
+changes.gpkg (layer "changes"), preview.png (before and after side by side),
+diagnostics.png (Z against the chi-square fit), summary.json and the folder's
 manifest. --overwrite replaces only a previous change output.
 
 ` + job.Caution,
 		Example: `  bandfold change 2023.tif 2024.tif --out change-2024
+  bandfold change l7-2001.tif l8-2013.tif --out change --bands-before 1-4 --bands-after 2-5 --min-area 0.5ha
   bandfold change 2023.tif 2024.tif --out change --threshold chisq:0.9999 --min-area 0.5ha --reference truth.gpkg
   bandfold change a.tif b.tif --out change --align --resampling bilinear --mask-after clouds-b.tif`,
 		Args: args(cobra.ExactArgs(2)),
@@ -81,6 +84,7 @@ manifest. --overwrite replaces only a previous change output.
 	f.StringVar(&fl.previewBands, "preview-bands", "", "three 1-based bands of AFTER for preview.png (default: the first three)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled to estimate the no-change distribution")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous change output folder")
+	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
 	cmd.MarkFlagRequired("out")
 	return cmd
 }
@@ -94,6 +98,9 @@ func (fl *changeFlags) options(before, after string) (job.ChangeOptions, error) 
 		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
 	if o.MinArea, err = job.ParseMinArea(fl.minArea); err != nil {
+		return o, err
+	}
+	if o.Normalize, err = job.ParseNormalize(o.Normalize); err != nil {
 		return o, err
 	}
 	if o.PreviewBands, err = raster.ParseBands(fl.previewBands); err != nil || (fl.previewBands != "" && len(o.PreviewBands) != 3) {
@@ -127,22 +134,8 @@ func (g *globals) reportChange(s *job.ChangeResult) {
 		return
 	}
 	w := g.stderr
-	fmt.Fprintf(w, "change between %s and %s (%d components, threshold %s at Z = %.4g)\n", s.BeforeLabel, s.AfterLabel, s.Components, s.Threshold.Rule, s.Threshold.Z)
-	fmt.Fprintf(w, "  %-28s %d\n", "valid pixels", s.ValidPixels)
-	fmt.Fprintf(w, "  %-28s %d (%.4f of valid)\n", "changed pixels", s.ChangedPixels, s.ChangedFrac)
-	if s.ChangedAreaHa != nil {
-		fmt.Fprintf(w, "  %-28s %.2f ha (%.0f m2)\n", "mapped area of change", *s.ChangedAreaHa, *s.ChangedAreaM2)
-	}
-	fmt.Fprintf(w, "  %-28s %d (min mapping unit %d px)\n", "change patches", s.Patches, s.MinAreaPixels)
-	if s.Identical {
-		fmt.Fprintf(w, "  %-28s none: the dates are identical\n", "no-change model")
-	} else {
-		fmt.Fprintf(w, "  %-28s %d iterations on %d sampled pixels\n", "no-change model", s.Iterations, s.SamplePixels)
-	}
-	if r := s.Reference; r != nil {
-		fmt.Fprintf(w, "  against %s: recall %s, precision %s, F1 %s, overall accuracy %s, false alarms %s of unchanged\n",
-			r.File, rate(r.Recall, 3), rate(r.Precision, 3), rate(r.F1, 3), rate(r.OverallAccuracy, 4), rate(r.FalseAlarmRate, 4))
-		fmt.Fprintf(w, "    confusion: TP %d  FP %d  FN %d  TN %d\n", r.TruePositive, r.FalsePositive, r.FalseNegative, r.TrueNegative)
+	for _, line := range s.Lines() {
+		fmt.Fprintln(w, line)
 	}
 	for _, p := range s.Outputs {
 		fmt.Fprintf(w, "  wrote %s\n", p)

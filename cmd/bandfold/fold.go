@@ -5,10 +5,10 @@ import (
 	"errors"
 	"fmt"
 	"os"
-	"strings"
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/raster"
 )
@@ -112,28 +112,11 @@ func (fl *foldFlags) options(scenes []string, getenv func(string) string) (job.F
 	return o, nil
 }
 
-// reportFold prints what fold wrote.
+// reportFold prints what fold wrote; a failed scene is printed even with
+// --quiet.
 func (g *globals) reportFold(r job.FoldScene) {
-	switch r.Status {
-	case "skipped":
-		g.info("%s: complete, skipped", r.Output)
-		return
-	case "failed":
-		msg := r.Error
-		if !strings.Contains(msg, r.Input) {
-			msg = r.Input + ": " + msg
-		}
-		fmt.Fprintf(g.stderr, "bandfold: %s\n", msg)
-		return
-	}
-	g.info("%s: %d components, %d valid pixels, %.1f s", r.Output, r.Components, r.Pixels, r.Seconds)
-	scene := "undefined (no variance)"
-	if r.ExplainedScene != nil {
-		scene = fmt.Sprintf("%.4f", *r.ExplainedScene)
-	}
-	g.info("  variance explained by the kept components: %.4f on the fitting scene, %s on this scene", r.ExplainedFit, scene)
-	if r.Preview != "" {
-		g.info("  quicklook %s", r.Preview)
+	if !g.quiet || r.Status == "failed" {
+		cli.FoldText(g.stderr, r)
 	}
 }
 

@@ -55,7 +55,7 @@ holds the band names and the kept components' loadings.`,
 		}),
 	}
 	f := cmd.Flags()
-	f.StringVar(&fl.Plots, "plots", "", "folder for scree.png and loadings.png")
+	f.StringVar(&fl.Plots, "plots", "", "folder for scree.png, loadings.png and report.html")
 	f.BoolVar(&fl.loadings, "loadings", false, "print the kept components' loadings (bands x components) on stderr")
 	f.BoolVar(&fl.Overwrite, "overwrite", false, "replace existing plots")
 	return cmd

@@ -3,11 +3,12 @@ package main
 import (
 	"context"
 	"fmt"
-	"math"
 	"os"
 
 	"github.com/spf13/cobra"
 
+	"bandfold/bands"
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/transform"
 )
@@ -23,6 +24,13 @@ type learnFlags struct {
 	shard      string
 	shardCount int
 	overwrite  bool
+	method     string
+	noise      string
+	minSNR     float64
+	suggest    bool
+	wavelength string
+	exclude    string
+	excludeNM  string
 }
 
 func newLearnCommand(g *globals) *cobra.Command { return learnCommand(g, &learnFlags{}) }
@@ -51,6 +59,10 @@ and the un-decomposed statistics are written for "bandfold merge".`,
 			if err != nil {
 				return err
 			}
+			if res.Suggest != nil {
+				g.reportSuggest(res.Suggest)
+				return g.emit(map[string]any{"suggest_exclude": res.Suggest, "threshold_snr": job.SuggestSNR})
+			}
 			if res.Partial != nil {
 				g.info("wrote partial statistics of shard %s (%.0f pixels) to %s", o.Shard, res.Partial.State.Count, res.Path)
 				return g.emit(map[string]any{"partial": res.Path, "shard": o.Shard.String(), "pixels": int64(res.Partial.State.Count), "bands": len(res.Partial.Bands)})
@@ -69,8 +81,15 @@ and the un-decomposed statistics are written for "bandfold merge".`,
 	f.StringVar(&fl.shard, "shard", "", `process only shard I of N ("I/N", or "auto" from a Slurm array or Kubernetes Indexed Job)`)
 	f.IntVar(&fl.shardCount, "shard-count", 0, "number of shards for --shard auto in a Kubernetes Indexed Job")
 	f.BoolVar(&fl.overwrite, "overwrite", false, "replace an existing output")
-	cmd.MarkFlagsMutuallyExclusive("out", "partial")
-	cmd.MarkFlagsOneRequired("out", "partial")
+	f.StringVar(&fl.method, "method", "pca", "pca (order by variance) or mnf (minimum noise fraction: order by signal-to-noise ratio)")
+	f.StringVar(&fl.noise, "noise", "horizontal", "pixel pairs of the noise estimate: horizontal, vertical or both")
+	f.Float64Var(&fl.minSNR, "min-snr", 0, "with --method mnf, keep the components whose signal-to-noise ratio is at least this")
+	f.BoolVar(&fl.suggest, "suggest-exclude", false, fmt.Sprintf("list the bands whose estimated signal-to-noise ratio is below %g, without fitting", job.SuggestSNR))
+	f.StringVar(&fl.wavelength, "wavelengths", "", "file of band centre wavelengths (one per line or a CSV column; unit nm or um in the header or after each value)")
+	f.StringVar(&fl.exclude, "exclude", "", `band numbers to drop before fitting, e.g. "104-113,150-170"`)
+	f.StringVar(&fl.excludeNM, "exclude-nm", "", `wavelength ranges in nm to drop before fitting, e.g. "1340-1450,1790-1970"`)
+	cmd.MarkFlagsMutuallyExclusive("out", "partial", "suggest-exclude")
+	cmd.MarkFlagsOneRequired("out", "partial", "suggest-exclude")
 	return cmd
 }
 
@@ -91,40 +110,42 @@ func (fl *learnFlags) options(scenes []string, getenv func(string) string) (job.
 	if err != nil {
 		return job.LearnOptions{}, err
 	}
-	return job.LearnOptions{Scenes: fl.input.scenes(scenes), Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
-		Components: fl.components, Variance: fl.variance, Stride: fl.stride, Shard: sh, Overwrite: fl.overwrite}, nil
+	o := job.LearnOptions{Scenes: fl.input.scenes(scenes), Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
+		Components: fl.components, Variance: fl.variance, Stride: fl.stride, Shard: sh, Overwrite: fl.overwrite,
+		MinSNR: fl.minSNR, SuggestExclude: fl.suggest, Spectral: job.Spectral{WavelengthsFile: fl.wavelength}}
+	if o.Method, err = transform.ParseMethod(fl.method); err != nil {
+		return o, usagef("--method %q: want pca or mnf", fl.method)
+	}
+	if o.Noise, err = bands.ParseShift(fl.noise); err != nil {
+		return o, usagef("--noise %q: want horizontal, vertical or both", fl.noise)
+	}
+	if fl.exclude != "" {
+		if o.Spectral.Exclude, err = transform.ParseBandRanges(fl.exclude); err != nil {
+			return o, usagef("--exclude %s", err)
+		}
+	}
+	if fl.excludeNM != "" {
+		if o.Spectral.ExcludeNM, err = transform.ParseNMRanges(fl.excludeNM); err != nil {
+			return o, usagef("--exclude-nm %s", err)
+		}
+	}
+	return o, nil
 }
 
 // reportBasis prints the variance table on stderr and the summary as JSON
 // on stdout with --json.
 func (g *globals) reportBasis(s job.BasisSummary, path string) error {
 	if !g.quiet {
-		w := g.stderr
-		if path != "" {
-			fmt.Fprintf(w, "basis %s: %d bands, %d pixels, %s mode\n", path, s.Bands, s.Pixels, s.Mode)
-		}
-		fmt.Fprintf(w, "%4s | %14s | %12s | %8s | %9s | %12s\n", "pc", "eigenvalue", "sd", "share", "cum_share", "broken_stick")
-		// Long tables (hyperspectral bases) stop after the kept components
-		// and a few more, unless --verbose.
-		rows := len(s.Eigenvalues)
-		if !g.verbose {
-			rows = min(rows, max(s.Components+5, 10))
-		}
-		for i, v := range s.Eigenvalues[:rows] {
-			mark := " "
-			if i < s.Components {
-				mark = "*"
-			}
-			fmt.Fprintf(w, "%3d%s | %14.6g | %12.6g | %8.5f | %9.5f | %12.5f\n", i+1, mark, v, math.Sqrt(max(v, 0)), s.Explained[i], s.Cumulative[i], s.BrokenStickShares[i])
-		}
-		if rows < len(s.Eigenvalues) {
-			fmt.Fprintf(w, "%4s | (%d more components, %.5f of the variance; --verbose lists them)\n", "...", len(s.Eigenvalues)-rows, 1-s.Cumulative[rows-1])
-		}
-		fmt.Fprintf(w, "kept (*): %d components, %.4f of the variance; broken-stick rule keeps %d", s.Components, s.Cumulative[s.Components-1], s.BrokenStick)
-		if s.Kaiser != nil {
-			fmt.Fprintf(w, "; eigenvalue > 1 keeps %d", *s.Kaiser)
-		}
-		fmt.Fprintln(w)
+		cli.BasisTable(g.stderr, s, path, g.verbose)
 	}
 	return g.emit(s)
+}
+
+// reportSuggest lists the bands learn --suggest-exclude found under the
+// threshold.
+func (g *globals) reportSuggest(list []job.BandSNR) {
+	g.info("%d bands with estimated signal-to-noise ratio below %g (consider --exclude):", len(list), job.SuggestSNR)
+	for _, b := range list {
+		g.info("  band %d (%s, %g nm): snr %.3g", b.Band, b.Name, b.WavelengthNM, b.SNR)
+	}
 }

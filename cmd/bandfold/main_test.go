@@ -71,7 +71,7 @@ func TestUsageAndRuntimeErrors(t *testing.T) {
 	out := filepath.Join(dir, "b.json")
 	tests := []badInput{
 		{"no image", []string{"learn", "--out", out}, 2, "requires at least 1 arg"},
-		{"no output", []string{"learn", landsat}, 2, "[out partial]"},
+		{"no output", []string{"learn", landsat}, 2, "[out partial suggest-exclude]"},
 		{"unknown flag", []string{"learn", landsat, "--out", out, "--frobnicate"}, 2, "unknown flag"},
 		{"bad variance", []string{"learn", landsat, "--out", out, "--variance", "1.5"}, 2, "--variance 1.5: must be in (0, 1]"},
 		{"zero variance", []string{"learn", landsat, "--out", out, "--variance", "0"}, 2, "--variance 0"},

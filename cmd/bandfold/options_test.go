@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bandfold/bands"
 	"reflect"
 	"strings"
 	"testing"
@@ -62,15 +63,16 @@ func checkOptions[T any](t *testing.T, tests []optionCase[T], parse func(argv []
 func TestLearnFlagsToOptions(t *testing.T) {
 	tests := []optionCase[job.LearnOptions]{
 		{[]string{"a.tif", "--out", "b.json"}, job.LearnOptions{Scenes: []string{"a.tif"}, Out: "b.json", Mode: transform.Covariance,
-			Variance: 0.99, Stride: 1, Shard: job.Shard{I: 0, N: 1}}, ""},
+			Variance: 0.99, Stride: 1, Shard: job.Shard{I: 0, N: 1}, Method: transform.PCA, Noise: bands.Horizontal}, ""},
 		{[]string{"a.tif", "b.tif", "--partial", "p.json", "--bands", "1-3,5", "--nodata", "0", "--mask", "m.tif", "--tile", "64",
 			"--mode", "correlation", "-k", "3", "--variance", "0.9", "--stride", "2", "--shard", "1/4", "--overwrite"},
 			job.LearnOptions{Scenes: []string{"a.tif", "b.tif"}, Partial: "p.json", Mode: transform.Correlation, Components: 3, Variance: 0.9,
-				Stride: 2, Shard: job.Shard{I: 1, N: 4}, Overwrite: true,
+				Stride: 2, Shard: job.Shard{I: 1, N: 4}, Overwrite: true, Method: transform.PCA, Noise: bands.Horizontal,
 				Input: job.Input{Bands: []int{1, 2, 3, 5}, NoData: []float64{0}, Masks: []raster.MaskRule{{Path: "m.tif"}}, Tile: 64}}, ""},
 		{[]string{"B1.TIF", "B2.TIF", "B3.TIF", "--stack", "--out", "b.json", "--mask", "QA.TIF:bits=0-4,9", "--mask", "m.tif:values=0,3-5",
 			"--align", "--resampling", "average", "--calibrate", "toa"},
 			job.LearnOptions{Scenes: []string{"B1.TIF,B2.TIF,B3.TIF"}, Out: "b.json", Mode: transform.Covariance, Variance: 0.99, Stride: 1,
+				Method: transform.PCA, Noise: bands.Horizontal,
 				Shard: job.Shard{I: 0, N: 1}, Input: job.Input{Masks: []raster.MaskRule{{Path: "QA.TIF", Bits: []int{0, 1, 2, 3, 4, 9}},
 					{Path: "m.tif", Values: []raster.ValueRange{{Lo: 0, Hi: 0}, {Lo: 3, Hi: 5}}}}, Align: true, Resampling: "average", Calibrate: "toa"}}, ""},
 		{[]string{"a.tif", "--out", "b.json", "--mask", "QA.TIF:bits=64"}, job.LearnOptions{}, `--mask "QA.TIF:bits=64"`},
@@ -80,6 +82,14 @@ func TestLearnFlagsToOptions(t *testing.T) {
 		{[]string{"a.tif", "--out", "b.json", "--bands", "3-1"}, job.LearnOptions{}, `--bands "3-1": range 3-1 runs backwards`},
 		{[]string{"a.tif", "--out", "b.json", "--nodata", "zero"}, job.LearnOptions{}, `--nodata "zero"`},
 		{[]string{"a.tif", "--partial", "p.json", "--shard", "4/4"}, job.LearnOptions{}, "need 0 <= I < N"},
+		{[]string{"a.tif", "--suggest-exclude", "--method", "mnf", "--noise", "both", "--min-snr", "2", "--exclude", "3-4,1", "--exclude-nm", "1340-1450", "--wavelengths", "w.txt"},
+			job.LearnOptions{Scenes: []string{"a.tif"}, Mode: transform.Covariance, Variance: 0.99, Stride: 1, Shard: job.Shard{I: 0, N: 1},
+				Method: transform.MNF, Noise: bands.Both, MinSNR: 2, SuggestExclude: true,
+				Spectral: job.Spectral{WavelengthsFile: "w.txt", Exclude: []int{1, 3, 4}, ExcludeNM: []transform.NMRange{{Lo: 1340, Hi: 1450}}}}, ""},
+		{[]string{"a.tif", "--out", "b.json", "--method", "ica"}, job.LearnOptions{}, `--method "ica": want pca or mnf`},
+		{[]string{"a.tif", "--out", "b.json", "--noise", "diagonal"}, job.LearnOptions{}, `--noise "diagonal"`},
+		{[]string{"a.tif", "--out", "b.json", "--exclude", "5-3"}, job.LearnOptions{}, `--exclude "5-3": bands count from 1`},
+		{[]string{"a.tif", "--out", "b.json", "--exclude-nm", "1450"}, job.LearnOptions{}, `--exclude-nm "1450" is not a wavelength range`},
 		{[]string{"a.tif", "--partial", "p.json", "--shard", "auto"}, job.LearnOptions{}, "no job array in the environment"},
 	}
 	checkOptions(t, tests, func(argv []string) (job.LearnOptions, error) {
@@ -136,17 +146,18 @@ func TestChangeFlagsToOptions(t *testing.T) {
 	}
 	tests := []optionCase[job.ChangeOptions]{
 		{[]string{"a.tif", "b.tif", "--out", "d"}, job.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d", Resampling: "bilinear",
-			Threshold: def, MinArea: job.MinArea{Px: 4}, Sample: change.DefaultSampleSize}, ""},
+			Threshold: def, MinArea: job.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: job.NormalizeStable}, ""},
 		{[]string{"a.tif", "b.tif", "-o", "d", "--mask-before", "ma.tif", "--mask-after", "mb.tif:bits=15", "--bands-before", "1-5,7", "--bands-after", "2-7", "--align", "--resampling", "average",
 			"-b", "p.json", "-k", "2", "--threshold", "sigma:4", "--min-area", "0.5ha", "--differences", "--reference", "r.gpkg",
-			"--preview-bands", "3,2,1", "--sample", "5000", "--overwrite"},
+			"--preview-bands", "3,2,1", "--sample", "5000", "--overwrite", "--normalize", "none"},
 			job.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d", MaskBefore: []raster.MaskRule{{Path: "ma.tif"}}, MaskAfter: []raster.MaskRule{{Path: "mb.tif", Bits: []int{15}}}, Align: true, Resampling: "average",
 				Basis: "p.json", Components: 2, Threshold: sigma, MinArea: job.MinArea{M2: 5000}, Differences: true, Reference: "r.gpkg",
-				PreviewBands: []int{3, 2, 1}, Sample: 5000, Overwrite: true, BandsBefore: []int{1, 2, 3, 4, 5, 7}, BandsAfter: []int{2, 3, 4, 5, 6, 7}}, ""},
+				PreviewBands: []int{3, 2, 1}, Sample: 5000, Overwrite: true, Normalize: job.NormalizeNone, BandsBefore: []int{1, 2, 3, 4, 5, 7}, BandsAfter: []int{2, 3, 4, 5, 6, 7}}, ""},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--bands-after", "2-x"}, job.ChangeOptions{}, `--bands-after "2-x"`},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--threshold", "magic"}, job.ChangeOptions{}, `--threshold "magic"`},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--min-area", "5 acres"}, job.ChangeOptions{}, `--min-area "5 acres"`},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--preview-bands", "1,2"}, job.ChangeOptions{}, `--preview-bands "1,2"`},
+		{[]string{"a.tif", "b.tif", "--out", "d", "--normalize", "histogram"}, job.ChangeOptions{}, `--normalize "histogram": want stable or none`},
 	}
 	checkOptions(t, tests, func(argv []string) (job.ChangeOptions, error) {
 		fl := &changeFlags{}

@@ -121,9 +121,11 @@ image. A pixel counts only when it is valid in every selected band.`,
 		newMergeCommand(g),
 		newFoldCommand(g),
 		newUnfoldCommand(g),
+		newDenoiseCommand(g),
 		newChangeCommand(g),
 		newInspectCommand(g),
 		newDemoCommand(g),
+		newSurveyCommand(g),
 	)
 	return root
 }

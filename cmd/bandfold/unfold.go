@@ -6,6 +6,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/raster"
 )
@@ -84,18 +85,7 @@ func (fl *unfoldFlags) options(components string) (job.UnfoldOptions, error) {
 
 // reportUnfold prints what unfold wrote and the loss.
 func (g *globals) reportUnfold(r *job.UnfoldResult) {
-	g.info("%s: %d bands rebuilt from %d components, %d valid pixels, %s", r.Output, r.Bands, r.Components, r.Pixels, r.Type)
-	if r.LossReport == nil || g.quiet {
-		return
-	}
-	w := g.stderr
-	fmt.Fprintf(w, "loss against %s over %d pixels:\n", r.Compared, r.ComparedPixels)
-	fmt.Fprintf(w, "  rmse %.6g (written values %.6g), max abs error %.6g, mean spectral angle %.4f deg\n", r.RMSE, *r.RMSEWritten, r.MaxAbs, r.MeanSAM)
-	if r.MeanPSNR != nil {
-		fmt.Fprintf(w, "  mean psnr %.2f dB\n", *r.MeanPSNR)
-	}
-	if r.CompressionRatio != nil {
-		fmt.Fprintf(w, "  compression %.2f : 1 (lossless DEFLATE copy %d bytes; components %d + basis %d bytes)\n",
-			*r.CompressionRatio, r.OriginalDeflateBytes, r.ComponentsBytes, r.BasisBytes)
+	if !g.quiet {
+		cli.UnfoldText(g.stderr, r)
 	}
 }

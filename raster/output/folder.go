@@ -225,3 +225,66 @@ func (d *Folder) swapAside() error {
 	step("remove", func() error { return os.RemoveAll(aside) })
 	return nil
 }
+
+// Replace writes data as the file name inside the committed output folder
+// dir (a previous bandfold output: its manifest present and nothing
+// unlisted), replacing the file if present: the data goes to a temporary
+// name inside dir, is flushed, the manifest gains name (rewritten the same
+// way) if it lacks it, and one rename puts the file in place, so a failure
+// leaves the old file or the new one whole and the folder recognisable as
+// bandfold's.
+func Replace(dir, name string, data []byte) error {
+	if err := CheckFolder(dir, true); err != nil {
+		return err
+	}
+	if filepath.Base(name) != name || name == ManifestName {
+		return fmt.Errorf("output %s: %q is not a file name of the folder", dir, name)
+	}
+	target := filepath.Join(dir, name)
+	if err := writeSynced(target, data); err != nil {
+		return fmt.Errorf("write %s: %w", target, err)
+	}
+	return syncPath(dir)
+}
+
+// writeSynced writes data to a temporary beside path, flushes it, lists
+// path in its folder's manifest and renames it into place.
+func writeSynced(path string, data []byte) error {
+	dir, name := filepath.Dir(path), filepath.Base(path)
+	tmp := tempName(path, "")
+	defer os.Remove(tmp)
+	if err := os.WriteFile(tmp, data, 0o666); err != nil {
+		return bare(err)
+	}
+	if err := syncPath(tmp); err != nil {
+		return bare(err)
+	}
+	raw, err := os.ReadFile(filepath.Join(dir, ManifestName))
+	if err != nil {
+		return bare(err)
+	}
+	var m manifest
+	if err := json.Unmarshal(raw, &m); err != nil {
+		return fmt.Errorf("%s: %w", ManifestName, err)
+	}
+	if !slices.Contains(m.Files, name) {
+		m.Files = append(m.Files, name)
+		slices.Sort(m.Files)
+		js, err := json.Marshal(m)
+		if err != nil {
+			return err
+		}
+		mtmp := tempName(filepath.Join(dir, ManifestName), "")
+		defer os.Remove(mtmp)
+		if err := os.WriteFile(mtmp, append(js, '\n'), 0o666); err != nil {
+			return bare(err)
+		}
+		if err := syncPath(mtmp); err != nil {
+			return bare(err)
+		}
+		if err := os.Rename(mtmp, filepath.Join(dir, ManifestName)); err != nil {
+			return bare(err)
+		}
+	}
+	return bare(os.Rename(tmp, path))
+}

@@ -54,6 +54,16 @@ type Rates struct {
 	// FalseAlarmRate is FP / (FP + TN), the share of the unchanged pixels
 	// mapped as changed.
 	FalseAlarmRate *float64 `json:"false_alarm_rate"`
+	// UsersAccuracy is the user's accuracy of the change class, TP / (TP +
+	// FP) (equal to Precision), and CommissionError is 1 − UsersAccuracy,
+	// FP / (TP + FP).
+	UsersAccuracy   *float64 `json:"users_accuracy"`
+	CommissionError *float64 `json:"commission_error"`
+	// ProducersAccuracy is the producer's accuracy of the change class, TP
+	// / (TP + FN) (equal to Recall), and OmissionError is 1 −
+	// ProducersAccuracy, FN / (TP + FN).
+	ProducersAccuracy *float64 `json:"producers_accuracy"`
+	OmissionError     *float64 `json:"omission_error"`
 }
 
 // Rates returns the accuracy measures of c, with the usual definitions of
@@ -69,6 +79,11 @@ func (c Confusion) Rates() Rates {
 		F1:              ratio(2*tp, 2*tp+fp+fn),
 		OverallAccuracy: ratio(tp+tn, tp+fp+fn+tn),
 		FalseAlarmRate:  ratio(fp, fp+tn),
+
+		UsersAccuracy:     ratio(tp, tp+fp),
+		CommissionError:   ratio(fp, tp+fp),
+		ProducersAccuracy: ratio(tp, tp+fn),
+		OmissionError:     ratio(fn, tp+fn),
 	}
 }
 

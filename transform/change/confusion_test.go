@@ -44,6 +44,12 @@ func TestConfusionRates(t *testing.T) {
 		{"F1", r.F1, 60.0 / 90, 1e-15},                   // 2·30 / (60 + 10 + 20) = 2/3, the harmonic mean of 0.75 and 0.6
 		{"overall accuracy", r.OverallAccuracy, 0.97, 0}, // (30 + 940) / 1000
 		{"false alarm rate", r.FalseAlarmRate, 10.0 / 950, 0},
+		// Congalton and Green (2009), ch. 5: user's accuracy of the change
+		// class is its row total's share correct, producer's its column's.
+		{"user's accuracy", r.UsersAccuracy, 30.0 / 40, 0},         // 30 of the 40 mapped changed
+		{"commission error", r.CommissionError, 10.0 / 40, 0},      // 10 of the 40 mapped changed are not
+		{"producer's accuracy", r.ProducersAccuracy, 30.0 / 50, 0}, // 30 of the 50 changed in the reference
+		{"omission error", r.OmissionError, 20.0 / 50, 0},          // 20 of the 50 are missed
 	} {
 		if tc.got == nil || math.Abs(*tc.got-tc.want) > tc.tol*tc.want {
 			t.Errorf("%s = %v, want %v", tc.name, rate(tc.got), tc.want)
@@ -78,7 +84,7 @@ func TestConfusionUndefined(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if want := `{"precision":null,"recall":null,"f1":null,"overall_accuracy":1,"false_alarm_rate":0}`; string(data) != want {
+	if want := `{"precision":null,"recall":null,"f1":null,"overall_accuracy":1,"false_alarm_rate":0,"users_accuracy":null,"commission_error":null,"producers_accuracy":null,"omission_error":null}`; string(data) != want {
 		t.Errorf("JSON %s, want %s", data, want)
 	}
 
@@ -95,7 +101,7 @@ func TestConfusionUndefined(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if want := `{"precision":null,"recall":null,"f1":null,"overall_accuracy":null,"false_alarm_rate":null}`; string(data) != want {
+	if want := `{"precision":null,"recall":null,"f1":null,"overall_accuracy":null,"false_alarm_rate":null,"users_accuracy":null,"commission_error":null,"producers_accuracy":null,"omission_error":null}`; string(data) != want {
 		t.Errorf("JSON %s, want %s", data, want)
 	}
 	data, err = json.Marshal(Confusion{TruePositive: 1, FalsePositive: 2, FalseNegative: 3, TrueNegative: 4})

@@ -187,23 +187,86 @@ func (t Threshold) Resolve(k int, zs []float64) (float64, error) {
 		return c * c, nil
 	}
 
-	// Otsu on the histogram of log(1+Z).
+	lo, width, hist, err := logHistogram(zs)
+	if err != nil {
+		return 0, err
+	}
+	// Bins 0 and OtsuBins-1 both hold values, so a split exists.
+	b := Otsu(hist)
+	return math.Expm1(lo + float64(b+1)*width), nil
+}
+
+// logHistogram bins log(1+Z) over zs into OtsuBins equal bins spanning its
+// minimum to its maximum.
+func logHistogram(zs []float64) (lo, width float64, hist []float64, err error) {
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for _, z := range zs {
 		x := math.Log1p(z)
 		lo, hi = min(lo, x), max(hi, x)
 	}
 	if !(hi > lo) {
-		return 0, fmt.Errorf("otsu: all %d Z values are equal", len(zs))
+		return 0, 0, nil, fmt.Errorf("otsu: all %d Z values are equal", len(zs))
 	}
-	width := (hi - lo) / OtsuBins
-	hist := make([]float64, OtsuBins)
+	width = (hi - lo) / OtsuBins
+	hist = make([]float64, OtsuBins)
 	for _, z := range zs {
 		hist[min(int((math.Log1p(z)-lo)/width), OtsuBins-1)]++
 	}
-	// Bins 0 and OtsuBins-1 both hold values, so a split exists.
-	b := Otsu(hist)
-	return math.Expm1(lo + float64(b+1)*width), nil
+	return lo, width, hist, nil
+}
+
+// OtsuSeparability is Otsu's separability measure η = σ²_B / σ²_T of the
+// histogram of log(1+Z) over zs split where the otsu rule splits it (Otsu
+// 1979, section II): 1 for two perfectly separated classes, 0.75 for a
+// uniform histogram, about 2/π ≈ 0.64 for a single Gaussian split at its
+// mean. It returns an error as Resolve does for otsu.
+func OtsuSeparability(zs []float64) (float64, error) {
+	if len(zs) < 2 {
+		return 0, fmt.Errorf("%w: otsu needs at least 2, have %d", ErrNoScores, len(zs))
+	}
+	_, _, hist, err := logHistogram(zs)
+	if err != nil {
+		return 0, err
+	}
+	return Eta(hist, Otsu(hist)), nil
+}
+
+// OtsuBound is the separability below which an Otsu split is not to be
+// trusted: a histogram that separates no better than a uniform one (η =
+// 0.75) has no two classes to split.
+const OtsuBound = 0.75
+
+// Eta returns σ²_B(t) / σ²_T of hist split into bins 0..t and t+1..end
+// (Otsu 1979), or 0 when the histogram has no variance or t is out of range.
+func Eta(hist []float64, t int) float64 {
+	if t < 0 || t >= len(hist)-1 {
+		return 0
+	}
+	var n, s, ss float64
+	for i, h := range hist {
+		n += h
+		s += float64(i) * h
+		ss += float64(i) * float64(i) * h
+	}
+	if n == 0 {
+		return 0
+	}
+	mean := s / n
+	total := ss/n - mean*mean
+	if !(total > 0) {
+		return 0
+	}
+	var n0, s0 float64
+	for i := 0; i <= t; i++ {
+		n0 += hist[i]
+		s0 += float64(i) * hist[i]
+	}
+	n1 := n - n0
+	if n0 == 0 || n1 == 0 {
+		return 0
+	}
+	d := s0/n0 - (s-s0)/n1
+	return (n0 / n) * (n1 / n) * d * d / total
 }
 
 // Otsu returns the index t that maximises the between-class variance of the

@@ -6,6 +6,7 @@ import (
 	"image/color"
 	"image/draw"
 	"math"
+	"strings"
 
 	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/vg"
@@ -25,6 +26,14 @@ type Annotation struct {
 	// Text is a line under the legend, e.g. "changed area 123.4 ha";
 	// empty draws none.
 	Text string
+	// Title is a line above the legend; empty draws none.
+	Title string
+	// Lines are further lines under Text (for example the dates and a
+	// caution), each wrapped at word boundaries to the panel's width.
+	Lines []string
+	// NorthArrow draws a north arrow in the image's top right corner: for
+	// north-up images with a CRS only.
+	NorthArrow bool
 }
 
 // Panel geometry in pixels.
@@ -54,7 +63,7 @@ func Annotate(img *image.RGBA, opts Annotation) *image.RGBA {
 	if opts.MetresPerPixel > 0 && w > 0 {
 		_, barPx, barLabel = scaleBar(w, opts.MetresPerPixel)
 	}
-	hasSwatch, hasBar, hasText := opts.SwatchLabel != "", barPx > 0, opts.Text != ""
+	hasSwatch, hasBar := opts.SwatchLabel != "", barPx > 0
 
 	legendW, barW := 0, 0
 	if hasSwatch {
@@ -71,11 +80,18 @@ func Annotate(img *image.RGBA, opts Annotation) *image.RGBA {
 			need += groupGap
 		}
 	}
-	if hasText {
-		rows++
-		need = max(need, 2*panelPad+textW(opts.Text))
+	var lines []string
+	for _, l := range []string{opts.Title, opts.Text} {
+		if l != "" {
+			lines = append(lines, l)
+			need = max(need, 2*panelPad+textW(l))
+		}
 	}
 	W := max(w, need)
+	for _, l := range opts.Lines {
+		lines = append(lines, wrap(l, W-2*panelPad, textW)...)
+	}
+	rows += len(lines)
 	panelH := 0
 	if rows > 0 {
 		panelH = 2*panelPad + rows*panelRow
@@ -129,12 +145,68 @@ func Annotate(img *image.RGBA, opts Annotation) *image.RGBA {
 		}
 		row++
 	}
-	if hasText {
-		c.SetColor(inkColour)
-		c.FillString(face, vg.Point{X: panelPad, Y: baseline(rowMid(row))}, opts.Text)
+	c.SetColor(inkColour)
+	for _, l := range lines {
+		c.FillString(face, vg.Point{X: panelPad, Y: baseline(rowMid(row))}, l)
+		row++
 	}
 	draw.Draw(out, image.Rect(0, h, W, h+panelH), c.Image(), image.Point{}, draw.Src)
+	if opts.NorthArrow {
+		northArrow(out, w)
+	}
 	return out
+}
+
+// wrap splits s at spaces into lines no wider than width (a single word
+// wider than width stays whole).
+func wrap(s string, width int, textW func(string) int) []string {
+	words := strings.Fields(s)
+	var out []string
+	line := ""
+	for _, w := range words {
+		if line != "" && textW(line+" "+w) > width {
+			out = append(out, line)
+			line = w
+			continue
+		}
+		if line == "" {
+			line = w
+		} else {
+			line += " " + w
+		}
+	}
+	if line != "" {
+		out = append(out, line)
+	}
+	return out
+}
+
+// North arrow geometry in pixels.
+const (
+	arrowSize = 44 // box side
+	arrowPad  = 10
+)
+
+// northArrow draws an arrow pointing up with an N in a light box at the
+// top right corner of the first w columns of img.
+func northArrow(img *image.RGBA, w int) {
+	if w < arrowSize+2*arrowPad || img.Bounds().Dy() < arrowSize+2*arrowPad {
+		return
+	}
+	c := vgimg.NewWith(vgimg.UseWH(arrowSize, arrowSize), vgimg.UseDPI(72), vgimg.UseBackgroundColor(panelColour))
+	c.SetColor(inkColour)
+	var p vg.Path
+	mid := vg.Length(arrowSize) / 2
+	p.Move(vg.Point{X: mid, Y: arrowSize - 4})
+	p.Line(vg.Point{X: mid + 9, Y: arrowSize - 22})
+	p.Line(vg.Point{X: mid, Y: arrowSize - 17})
+	p.Line(vg.Point{X: mid - 9, Y: arrowSize - 22})
+	p.Close()
+	c.Fill(p)
+	face := font.DefaultCache.Lookup(sansFont, vg.Length(annotateSize))
+	c.FillString(face, vg.Point{X: mid - face.Width("N")/2, Y: 5}, "N")
+	x0 := w - arrowSize - arrowPad
+	draw.Draw(img, image.Rect(x0, arrowPad, x0+arrowSize, arrowPad+arrowSize), c.Image(), image.Point{}, draw.Src)
 }
 
 // scaleBar picks the scale-bar length for an image widthPx pixels wide

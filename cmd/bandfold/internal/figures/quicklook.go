@@ -94,20 +94,45 @@ func RGB(w, h int, r, g, b []uint8, valid []bool) *image.RGBA {
 // Pixels beyond the image edge count as outside, so patches touching
 // the edge are closed. mask is row-major over img's bounds; Outline
 // panics if its length differs.
-func Outline(img *image.RGBA, mask []bool, c color.RGBA) {
+func Outline(img *image.RGBA, mask []bool, c color.RGBA) { OutlineWidth(img, mask, c, 1) }
+
+// OutlineWidth is Outline with a boundary width pixels wide: pixels in the
+// mask within width 4-neighbour steps of a pixel outside it. It panics if
+// width < 1.
+func OutlineWidth(img *image.RGBA, mask []bool, c color.RGBA, width int) {
+	if width < 1 {
+		panic(fmt.Sprintf("figures: outline width %d", width))
+	}
 	b := img.Bounds()
 	w, h := b.Dx(), b.Dy()
 	mustMatch("mask", len(mask), w*h, false)
 	in := func(x, y int) bool {
 		return x >= 0 && y >= 0 && x < w && y < h && mask[y*w+x]
 	}
+	edge := func(x, y int) bool {
+		for dy := -width; dy <= width; dy++ {
+			for dx := -width; dx <= width; dx++ {
+				if abs(dx)+abs(dy) <= width && !in(x+dx, y+dy) {
+					return true
+				}
+			}
+		}
+		return false
+	}
 	for y := range h {
 		for x := range w {
-			if in(x, y) && (!in(x-1, y) || !in(x+1, y) || !in(x, y-1) || !in(x, y+1)) {
+			if in(x, y) && edge(x, y) {
 				img.SetRGBA(b.Min.X+x, b.Min.Y+y, c)
 			}
 		}
 	}
+}
+
+func abs(x int) int {
+	if x < 0 {
+		return -x
+	}
+	return x
 }
 
 // mustMatch panics when a slice length is not the expected one, unless

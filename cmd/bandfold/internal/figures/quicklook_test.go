@@ -122,3 +122,28 @@ func TestOutlineImageEdge(t *testing.T) {
 		t.Error("full mask: want a 1-pixel frame and an untouched centre")
 	}
 }
+
+// TestOutlineWidth: a 6 x 6 square's boundary of width 1 is its 20 edge
+// pixels and of width 2 all but its central 2 x 2 (32), by hand.
+func TestOutlineWidth(t *testing.T) {
+	for _, tc := range []struct{ width, want int }{{1, 20}, {2, 32}, {3, 36}} {
+		img := image.NewRGBA(image.Rect(0, 0, 10, 10))
+		mask := make([]bool, 100)
+		for y := 2; y < 8; y++ {
+			for x := 2; x < 8; x++ {
+				mask[y*10+x] = true
+			}
+		}
+		c := color.RGBA{255, 0, 200, 255}
+		OutlineWidth(img, mask, c, tc.width)
+		n := 0
+		for i := range 100 {
+			if img.RGBAAt(i%10, i/10) == c {
+				n++
+			}
+		}
+		if n != tc.want {
+			t.Errorf("width %d: %d outline pixels, want %d", tc.width, n, tc.want)
+		}
+	}
+}

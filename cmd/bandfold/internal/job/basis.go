@@ -1,10 +1,12 @@
 package job
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 
 	"bandfold/bands"
+	"bandfold/raster"
 	"bandfold/raster/output"
 	"bandfold/transform"
 )
@@ -93,6 +95,13 @@ type BasisSummary struct {
 	// Loadings are the eigenvectors of the kept components, component-major:
 	// Loadings[i][j] is the loading of band j on component i+1.
 	Loadings [][]float64 `json:"loadings"`
+	// Method is "pca" or "mnf"; SNR, for MNF, the components'
+	// signal-to-noise ratios λ − 1; WavelengthsNM the bands' centre
+	// wavelengths when known; Excluded the bands dropped before fitting.
+	Method        string               `json:"method"`
+	SNR           []float64            `json:"snr,omitempty"`
+	WavelengthsNM []float64            `json:"wavelengths_nm,omitempty"`
+	Excluded      []transform.Excluded `json:"excluded,omitempty"`
 }
 
 // Summarize describes basis b read from or written to path.
@@ -108,9 +117,77 @@ func Summarize(b *transform.Basis, path string) BasisSummary {
 	for _, band := range b.Bands {
 		s.BandNames = append(s.BandNames, band.Name)
 	}
+	s.Method, s.WavelengthsNM, s.Excluded = string(cmp.Or(b.Method, transform.PCA)), b.WavelengthsNM, b.Excluded
+	if b.Method == transform.MNF {
+		s.SNR = transform.SNR(b.Eigenvalues)
+	}
 	if b.Mode == transform.Correlation {
 		k := transform.KaiserCount(b.Eigenvalues)
 		s.Kaiser = &k
 	}
 	return s
+}
+
+// fitInput is what fitAny fits a basis to.
+type fitInput struct {
+	acc, noise *bands.Accumulator // noise: shift differences, for MNF
+	mode       transform.Mode
+	method     transform.Method
+	shift      bands.Shift
+	info       []transform.Band
+	what       string
+}
+
+// fitAny fits a principal component or, for method MNF, a minimum noise
+// fraction basis.
+func fitAny(env Env, in fitInput) (*transform.Basis, error) {
+	if in.method == transform.MNF {
+		return fitMNF(env, in.acc, in.noise, in.info, in.what, in.shift)
+	}
+	return fitBasis(env, in.acc, in.mode, in.info, in.what)
+}
+
+// chooseSNR is choose, except that minSNR > 0 keeps the MNF components
+// whose SNR is at least minSNR (when no count is given).
+func chooseSNR(b *transform.Basis, k int, fraction, minSNR float64) {
+	if k == 0 && minSNR > 0 && b.Method == transform.MNF {
+		b.Components = transform.ComponentsForSNR(b.Eigenvalues, minSNR)
+		return
+	}
+	choose(b, k, fraction)
+}
+
+// checkMNF refuses option combinations MNF cannot serve.
+func (o *LearnOptions) checkMNF() error {
+	switch {
+	case o.Method != transform.PCA && o.Method != transform.MNF:
+		return Usagef("--method %q: want pca or mnf", o.Method)
+	case o.Noise != bands.Horizontal && o.Noise != bands.Vertical && o.Noise != bands.Both:
+		return Usagef("--noise %v: want horizontal, vertical or both", o.Noise)
+	case o.MinSNR < 0:
+		return Usagef("--min-snr %v: must not be negative", o.MinSNR)
+	case o.MinSNR > 0 && o.Method != transform.MNF:
+		return Usagef("--min-snr needs --method mnf: principal components have no signal-to-noise ratio")
+	}
+	if o.Method != transform.MNF && !o.SuggestExclude {
+		return nil
+	}
+	if o.Mode == transform.Correlation {
+		return Usagef("--mode correlation with --method mnf: MNF components do not depend on band scaling; use covariance")
+	}
+	if o.Stride > 1 {
+		return Usagef("--stride %d with --method mnf or --suggest-exclude: the noise estimate needs adjacent pixels", o.Stride)
+	}
+	return nil
+}
+
+// suggest lists the bands whose estimated SNR is below SuggestSNR.
+func suggest(acc, noise *bands.Accumulator, s *raster.Stack, numbers []int) *LearnResult {
+	res := &LearnResult{Suggest: []BandSNR{}}
+	for _, b := range bandSNR(acc, noise, s, numbers) {
+		if !(b.SNR >= SuggestSNR) {
+			res.Suggest = append(res.Suggest, b)
+		}
+	}
+	return res
 }

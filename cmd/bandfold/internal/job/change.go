@@ -5,12 +5,11 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"math"
 	"path/filepath"
 	"runtime/debug"
-	"strconv"
 	"strings"
 
+	"bandfold/bands"
 	"bandfold/raster"
 	"bandfold/raster/output"
 	"bandfold/transform"
@@ -50,6 +49,8 @@ type ChangeOptions struct {
 	PreviewBands []int
 	Sample       int
 	Overwrite    bool
+	// Normalize is NormalizeStable (the default) or NormalizeNone.
+	Normalize string
 }
 
 // ChangeResult is summary.json.
@@ -57,37 +58,52 @@ type ChangeResult struct {
 	Before string `json:"before"`
 	After  string `json:"after"`
 	// BeforeLabel and AfterLabel name the dates' stacks for people.
-	BeforeLabel   string           `json:"before_label"`
-	AfterLabel    string           `json:"after_label"`
-	ValidPixels   int64            `json:"valid_pixels"`
-	ChangedPixels int64            `json:"changed_pixels"`
-	ChangedAreaM2 *float64         `json:"changed_area_m2"`
-	ChangedAreaHa *float64         `json:"changed_area_ha"`
-	ChangedFrac   float64          `json:"changed_fraction"`
-	Threshold     ThresholdSummary `json:"threshold"`
-	Components    int              `json:"components"`
-	Location      []float64        `json:"location"`
-	Covariance    [][]float64      `json:"covariance"`
-	Iterations    int              `json:"iterations"`
-	Converged     bool             `json:"converged"`
+	BeforeLabel   string   `json:"before_label"`
+	AfterLabel    string   `json:"after_label"`
+	ValidPixels   int64    `json:"valid_pixels"`
+	ChangedPixels int64    `json:"changed_pixels"`
+	ChangedAreaM2 *float64 `json:"changed_area_m2"`
+	ChangedAreaHa *float64 `json:"changed_area_ha"`
+	ChangedFrac   float64  `json:"changed_fraction"`
+	// ValidAreaM2 and ValidAreaHa are the ground area of the pixels valid
+	// on both dates; null without a CRS.
+	ValidAreaM2 *float64         `json:"valid_area_m2"`
+	ValidAreaHa *float64         `json:"valid_area_ha"`
+	Threshold   ThresholdSummary `json:"threshold"`
+	Components  int              `json:"components"`
+	Location    []float64        `json:"location"`
+	Covariance  [][]float64      `json:"covariance"`
+	Iterations  int              `json:"iterations"`
+	Converged   bool             `json:"converged"`
 	// Identical is set when the dates do not differ at all over the valid
 	// pixels: no change is mapped and no model is fitted.
-	Identical     bool            `json:"identical"`
-	SamplePixels  int             `json:"sample_pixels"`
-	MinAreaPixels int             `json:"min_area_pixels"`
-	Patches       int             `json:"patches"`
-	Basis         string          `json:"basis"`
-	Aligned       bool            `json:"aligned"`
-	Reference     *ChangeAccuracy `json:"reference,omitempty"`
-	Outputs       []string        `json:"outputs"`
-	AreaNote      string          `json:"area_note"`
-	Caution       string          `json:"caution"`
+	Identical     bool                 `json:"identical"`
+	SamplePixels  int                  `json:"sample_pixels"`
+	MinAreaPixels int                  `json:"min_area_pixels"`
+	Patches       int                  `json:"patches"`
+	Basis         string               `json:"basis"`
+	Aligned       bool                 `json:"aligned"`
+	Reference     *ChangeAccuracy      `json:"reference,omitempty"`
+	Normalization NormalizationSummary `json:"normalization"`
+	// Scenario is the SCENARIO tag of invented input data.
+	Scenario string `json:"scenario,omitempty"`
+	// Warnings repeats the warnings printed on stderr about the map.
+	Warnings []string `json:"warnings"`
+	Outputs  []string `json:"outputs"`
+	AreaNote string   `json:"area_note"`
+	Caution  string   `json:"caution"`
 }
 
 // ThresholdSummary is the threshold rule and the Z it resolved to.
 type ThresholdSummary struct {
 	Rule string  `json:"rule"`
 	Z    float64 `json:"z"`
+	// Median is the chi-square median of the no-change model with k
+	// degrees of freedom: a cut below it flags more than half of the
+	// unchanged pixels.
+	Median float64 `json:"chisq_median"`
+	// Separability is Otsu's eta of the split (otsu only).
+	Separability *float64 `json:"otsu_separability,omitempty"`
 }
 
 // ChangeAccuracy compares the map with reference data over the pixels valid
@@ -96,45 +112,6 @@ type ChangeAccuracy struct {
 	File string `json:"file"`
 	change.Confusion
 	change.Rates
-}
-
-// MinArea is a minimum mapping unit: a ground area in m² or a pixel count.
-type MinArea struct{ M2, Px float64 }
-
-// ParseMinArea reads "0.5ha", "5000m2", "1km2", "4px" or "0".
-func ParseMinArea(s string) (MinArea, error) {
-	s = strings.ToLower(strings.TrimSpace(s))
-	units := []struct {
-		suffix string
-		m2     float64
-	}{{"km2", 1e6}, {"m2", 1}, {"ha", 1e4}, {"px", 0}}
-	for _, u := range units {
-		if num, ok := strings.CutSuffix(s, u.suffix); ok {
-			v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
-			if err != nil || v < 0 || math.IsInf(v, 0) || math.IsNaN(v) {
-				break
-			}
-			if u.m2 == 0 {
-				return MinArea{Px: v}, nil
-			}
-			return MinArea{M2: v * u.m2}, nil
-		}
-	}
-	if v, err := strconv.ParseFloat(s, 64); err == nil && v == 0 {
-		return MinArea{}, nil
-	}
-	return MinArea{}, Usagef("--min-area %q: want a number with m2, ha, km2 or px (for example 0.5ha), or 0", s)
-}
-
-// pixels converts the minimum area to a pixel count for the sieve.
-func (m MinArea) pixels(areas *raster.CellAreas) (int, error) {
-	if m.M2 == 0 {
-		return int(math.Ceil(m.Px)), nil
-	}
-	if areas == nil {
-		return 0, Usagef("--min-area in m2, ha or km2 needs a CRS; give it in px")
-	}
-	return int(math.Ceil(m.M2 / areas.Mean())), nil
 }
 
 var resamplings = []string{"nearest", "bilinear", "cubic", "cubicspline", "lanczos", "average", "mode"}
@@ -148,8 +125,8 @@ func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err
 	r := &changeRun{env: env, o: &o}
 	defer r.close()
 	steps := []func(context.Context) error{
-		r.open, r.scanPair, r.fitBasis, r.fitModel, r.mapPixels, r.sieve,
-		r.changeMap, r.patches, r.preview, r.summary,
+		r.open, r.scanPair, r.normalize, r.fitBasis, r.fitModel, r.mapPixels, r.sieve,
+		r.changeMap, r.patches, r.preview, r.diagnostics, r.report, r.summary,
 	}
 	for _, step := range steps {
 		if err := step(ctx); err != nil {
@@ -209,6 +186,9 @@ func (o *ChangeOptions) check() error {
 	if o.Out == "" {
 		return Usagef("no output folder (--out)")
 	}
+	if err := checkNormalize(o); err != nil {
+		return err
+	}
 	if o.Align {
 		o.Input.Align, o.Input.Resampling = true, o.Resampling
 	}
@@ -245,11 +225,19 @@ type changeRun struct {
 	minPixels     int
 	ref           *raster.Reference
 	rgb           [3]int
+	rgbNote       bool // the preview bands are the first three, not known colours
 	dir           *output.Folder
 
 	pair      *pairScan
 	given     *transform.Basis
 	stats     pairStats
+	norm      []change.BandFit     // AFTER onto BEFORE's scale; nil for none
+	sum0      NormalizationSummary // the normalisation, for the summary
+	dx        []float64            // the sample's band differences, normalised
+	pooled    *bands.Accumulator   // BEFORE and the normalised AFTER
+	zs        []float64            // the sample's Z values
+	eta       *float64             // Otsu separability, for otsu
+	warnings  []string
 	basis     *transform.Basis
 	basisName string
 	proj      *transform.Projector
@@ -329,6 +317,9 @@ func (r *changeRun) open(context.Context) error {
 	}
 	if r.rgb, err = previewBands(o.PreviewBands, r.after.Len()); err != nil {
 		return err
+	}
+	if len(o.PreviewBands) == 0 {
+		r.naturalColour()
 	}
 	r.areas, err = raster.NewCellAreas(r.before.Grid)
 	if errors.Is(err, raster.ErrNoCRS) {
@@ -427,7 +418,7 @@ func (r *changeRun) openAfter() error {
 func (r *changeRun) scanPair(ctx context.Context) error {
 	r.pair = newPairScan(r.before, r.after, r.o.Input.Tile)
 	var err error
-	if r.stats, err = r.pair.gather(ctx, r.env, r.given == nil, r.o.Sample); err != nil {
+	if r.stats, err = r.pair.gather(ctx, r.env, r.o.Sample); err != nil {
 		return err
 	}
 	if r.stats.valid == 0 {
@@ -445,7 +436,7 @@ func (r *changeRun) fitBasis(context.Context) error {
 	if b == nil {
 		what := r.o.Before + " and " + r.o.After + " (pixels valid on both dates)"
 		var err error
-		if b, err = fitBasis(r.env, r.stats.acc, transform.Covariance, basisBands(r.before), what); err != nil {
+		if b, err = fitBasis(r.env, r.pooled, transform.Covariance, basisBands(r.before), what); err != nil {
 			return err
 		}
 		if b.Inputs, err = fingerprints([]*raster.Stack{r.before, r.after}); err != nil {
@@ -472,13 +463,13 @@ func (r *changeRun) fitBasis(context.Context) error {
 // fitModel fits the robust no-change model on the sample's score
 // differences d = W_k^T (x_after - x_before) / s and resolves the threshold.
 func (r *changeRun) fitModel(context.Context) error {
-	_, dx := r.stats.sample.Pixels()
+	dx := r.dx
 	k := r.proj.Components()
 	d := make([]float64, len(dx)/r.before.Len()*k)
 	r.proj.Difference(d, dx)
 	if allZero(dx) {
 		r.identical = true
-		r.env.warn("%s and %s are identical over the %d sampled pixels: no change is mapped", r.o.Before, r.o.After, r.stats.sample.Len())
+		r.env.warn("%s and %s are identical over the %d sampled pixels: no change is mapped", r.o.Before, r.o.After, len(r.dx)/r.before.Len())
 		r.zcut = 0 // every Z is 0, and a pixel is flagged only above the cut
 		return nil
 	}
@@ -486,12 +477,14 @@ func (r *changeRun) fitModel(context.Context) error {
 	if err != nil {
 		return fmt.Errorf("no-change model of %s and %s: %w", r.o.Before, r.o.After, err)
 	}
-	zcut, err := r.o.Threshold.Resolve(k, model.Scores(nil, d))
+	r.zs = model.Scores(nil, d)
+	zcut, err := r.o.Threshold.Resolve(k, r.zs)
 	if err != nil {
 		return Usagef("--threshold %s: %v", r.o.Threshold, err)
 	}
-	r.env.log().Debug("no-change model", "iterations", model.Iterations, "sample", model.Sample, "z", zcut)
 	r.model, r.zcut = model, zcut
+	r.checkThreshold()
+	r.env.log().Debug("no-change model", "iterations", model.Iterations, "sample", model.Sample, "z", zcut)
 	return nil
 }
 
@@ -513,9 +506,10 @@ func (r *changeRun) sieve(ctx context.Context) error {
 		return fmt.Errorf("sieve: %w", err)
 	}
 	o := r.o
-	r.sum = &ChangeResult{Before: o.Before, After: o.After, BeforeLabel: describe(r.before), AfterLabel: describe(r.after), Threshold: ThresholdSummary{o.Threshold.String(), r.zcut},
+	r.sum = &ChangeResult{Before: o.Before, After: o.After, BeforeLabel: describe(r.before), AfterLabel: describe(r.after), Threshold: r.thresholdSummary(),
 		Components: r.proj.Components(), MinAreaPixels: r.minPixels, Basis: r.basisName, Aligned: r.aligned,
 		Identical: r.identical, Caution: Caution, Location: []float64{}, Covariance: [][]float64{},
+		Normalization: r.sum0, Warnings: r.warnings, Scenario: r.before.Metadata["SCENARIO"],
 		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}
 	if r.identical {
 		r.sum.Converged = true
@@ -536,7 +530,10 @@ func (r *changeRun) sieve(ctx context.Context) error {
 
 // patches polygonizes the change patches into changes.gpkg.
 func (r *changeRun) patches(context.Context) error {
-	ps, err := r.mask.Patches(r.dir.Path("changes.gpkg"), r.dir.Path("magnitude.tif"), false)
+	md := r.metadata()
+	md["BANDFOLD_NORMALIZATION"] = r.normDescription()
+	ps, err := r.mask.Patches(r.dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.dir.Path("magnitude.tif"), Metadata: md,
+		Dates: r.dateLabel(r.before, r.o.Before) + " to " + r.dateLabel(r.after, r.o.After)})
 	if err != nil {
 		return err
 	}
@@ -550,6 +547,9 @@ func (r *changeRun) summary(context.Context) error {
 	r.outputs = append(r.outputs, "summary.json")
 	for _, name := range r.outputs {
 		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.dir.Final(), name))
+	}
+	for _, w := range r.warnings {
+		r.env.warn("%s", w)
 	}
 	js, err := json.MarshalIndent(r.sum, "", "  ")
 	if err != nil {

@@ -121,7 +121,7 @@ func writeScenario(ctx context.Context, env Env, o *DemoOptions) (*scenario.Catc
 	if err := os.MkdirAll(filepath.Join(o.Dir, "scenario"), 0o755); err != nil {
 		return nil, fmt.Errorf("demo folder %s: %w", o.Dir, unwrapPath(err))
 	}
-	wkt, err := raster.EPSG(c.EPSG())
+	wkt, err := raster.FromPROJ(c.CRS())
 	if err != nil {
 		return nil, err
 	}
@@ -129,7 +129,7 @@ func writeScenario(ctx context.Context, env Env, o *DemoOptions) (*scenario.Catc
 	ms := raster.Grid{Width: w, Height: h, GeoTransform: c.GeoTransform(), HasGeoTransform: true, Projection: wkt}
 	nd := c.NoData()
 	dates := c.Dates()
-	tag := map[string]string{"SCENARIO": scenario.Name + " (invented demo data)"}
+	tag := map[string]string{"SCENARIO": scenario.Name + " (invented demo data)", "SCENARIO_LOCATION": scenario.Location}
 	with := func(extra map[string]string) map[string]string {
 		out := map[string]string{}
 		for k, v := range tag {

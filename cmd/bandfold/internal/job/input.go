@@ -77,7 +77,27 @@ func (in Input) withBasis(b *transform.Basis, path string) (Input, error) {
 	case in.Calibrate != want:
 		return in, Usagef("--calibrate %s: the basis %s was fitted on %s values", in.Calibrate, path, want)
 	}
+	if len(b.Excluded) > 0 && in.Bands == nil {
+		in.Bands = keptBands(b)
+	}
 	return in, nil
+}
+
+// keptBands are the 1-based numbers, in the stack the basis was fitted on,
+// of the bands a basis with excluded bands kept: the numbers 1..p+excluded
+// that were not excluded.
+func keptBands(b *transform.Basis) []int {
+	dropped := map[int]bool{}
+	for _, e := range b.Excluded {
+		dropped[e.Band] = true
+	}
+	var keep []int
+	for n := 1; len(keep) < len(b.Bands); n++ {
+		if !dropped[n] {
+			keep = append(keep, n)
+		}
+	}
+	return keep
 }
 
 // maskPaths are the files of mask rules.

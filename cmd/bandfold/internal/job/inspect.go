@@ -38,7 +38,7 @@ func Inspect(_ context.Context, _ Env, o InspectOptions) (_ *InspectResult, err 
 	if o.Plots == "" {
 		return res, nil
 	}
-	draws := basisPlots(b)
+	draws := append(basisPlots(b), plotDraw{name: "report.html"})
 	var outs []output.Path
 	for _, d := range draws {
 		path := filepath.Join(o.Plots, d.name)
@@ -54,10 +54,15 @@ func Inspect(_ context.Context, _ Env, o InspectOptions) (_ *InspectResult, err 
 	data := make([][]byte, len(draws))
 	for i, d := range draws {
 		var buf bytes.Buffer
-		if err := d.draw(&buf); err != nil {
+		if d.draw == nil {
+			continue // the report, made from the figures below
+		} else if err := d.draw(&buf); err != nil {
 			return nil, fmt.Errorf("plot %s: %w", d.name, err)
 		}
 		data[i] = buf.Bytes()
+	}
+	if data[len(data)-1], err = inspectReport(res.Summary, data[:len(data)-1]); err != nil {
+		return nil, err
 	}
 	for i := range draws {
 		path := outs[i].Path

@@ -6,6 +6,7 @@ import (
 	"strings"
 	"time"
 
+	"bandfold/bands"
 	"bandfold/raster"
 	"bandfold/raster/output"
 	"bandfold/transform"
@@ -29,6 +30,17 @@ type LearnOptions struct {
 	Stride    int
 	Shard     Shard
 	Overwrite bool
+
+	// Method is PCA (the default) or MNF; Noise the pixel pairs of the
+	// noise estimate (default horizontal), used by MNF and SuggestExclude;
+	// MinSNR > 0 keeps the MNF components whose SNR is at least MinSNR.
+	Method   transform.Method
+	Noise    bands.Shift
+	MinSNR   float64
+	Spectral Spectral
+	// SuggestExclude lists the bands whose estimated SNR is below
+	// SuggestSNR instead of fitting; nothing is written.
+	SuggestExclude bool
 }
 
 // LearnResult is what Learn wrote.
@@ -39,13 +51,27 @@ type LearnResult struct {
 	// Partial is set when partial statistics were written to Path.
 	Partial *transform.Partial
 	Path    string
+	// Suggest lists, with SuggestExclude, the bands under SuggestSNR.
+	Suggest []BandSNR
 }
 
 func (o *LearnOptions) check() error {
 	if len(o.Scenes) == 0 {
 		return Usagef("no input image")
 	}
-	if (o.Out == "") == (o.Partial == "") {
+	if o.Method == "" {
+		o.Method = transform.PCA
+	}
+	if o.Noise == 0 {
+		o.Noise = bands.Horizontal
+	}
+	if err := o.checkMNF(); err != nil {
+		return err
+	}
+	if o.SuggestExclude && (o.Out != "" || o.Partial != "") {
+		return Usagef("--suggest-exclude lists bands without fitting: give no --out or --partial")
+	}
+	if !o.SuggestExclude && (o.Out == "") == (o.Partial == "") {
 		return Usagef("give exactly one of --out and --partial")
 	}
 	if o.Mode == "" {
@@ -77,11 +103,13 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 	if o.Partial != "" {
 		target = o.Partial
 	}
-	if err := output.Distinct(argPaths("input", o.Scenes, o.Input.Masks), []output.Path{{Role: "output", Path: target}}); err != nil {
-		return nil, err
-	}
-	if err := output.Check(target, o.Overwrite); err != nil {
-		return nil, err
+	if target != "" {
+		if err := output.Distinct(argPaths("input", o.Scenes, o.Input.Masks), []output.Path{{Role: "output", Path: target}}); err != nil {
+			return nil, err
+		}
+		if err := output.Check(target, o.Overwrite); err != nil {
+			return nil, err
+		}
 	}
 	scenes := make([]*raster.Stack, 0, len(o.Scenes))
 	defer func() {
@@ -96,13 +124,19 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 		}
 		scenes = append(scenes, s)
 	}
-	if err := distinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil {
+	if err := distinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil && target != "" {
 		return nil, err
 	}
 	if err := checkPooled(scenes); err != nil {
 		return nil, err
 	}
-	if err := needTwoBands(scenes[0], o.Input.Bands); err != nil {
+	sel, err := o.Spectral.selectBands(scenes)
+	if err != nil {
+		return nil, err
+	}
+	opened := scenes
+	scenes = sel.scenes
+	if err := needTwoBands(opened[0], o.Input.Bands); err != nil {
 		return nil, err
 	}
 	p := scenes[0].Len()
@@ -116,9 +150,17 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 	sh := o.Shard.orWhole()
 	sc := newScan(scenes, tileGrid(o.Input.Tile), o.Stride, sh)
 	env.log().Debug("learn", "scenes", len(scenes), "bands", p, "tiles", len(sc.items), "shard", sh.String())
-	acc, err := sc.moments(ctx, env)
+	var acc, noise *bands.Accumulator
+	if o.Method == transform.MNF || o.SuggestExclude {
+		acc, noise, err = sc.momentsAndNoise(ctx, env, o.Noise)
+	} else {
+		acc, err = sc.moments(ctx, env)
+	}
 	if err != nil {
 		return nil, err
+	}
+	if o.SuggestExclude {
+		return suggest(acc, noise, scenes[0], sel.numbers), nil
 	}
 	if acc.Count() == 0 && sh.N == 1 && o.Stride == 1 {
 		return nil, noValidPixels(ctx, env, scenes[0], o.Input.Tile)
@@ -129,6 +171,12 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 			Shard: sh.I, Shards: sh.N, TileSize: o.Input.Tile, Stride: o.Stride,
 			Mode: o.Mode, Bands: basisBands(scenes[0]), Inputs: inputs,
 			State: acc.State(), Tool: env.Version,
+			Method: o.Method, WavelengthsNM: sel.wavelengths, Excluded: sel.excluded,
+		}
+		part.Version = 2
+		if noise != nil {
+			st := noise.State()
+			part.Noise, part.NoiseState = o.Noise.String(), &st
 		}
 		data, err := part.Marshal()
 		if err != nil {
@@ -139,13 +187,15 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 		}
 		return &LearnResult{Partial: part, Path: o.Partial}, nil
 	}
-	b, err := fitBasis(env, acc, o.Mode, basisBands(scenes[0]), describeAll(scenes))
+	b, err := fitAny(env, fitInput{acc: acc, noise: noise, mode: o.Mode, method: o.Method, shift: o.Noise,
+		info: basisBands(scenes[0]), what: describeAll(scenes)})
 	if err != nil {
 		return nil, err
 	}
 	b.Stride = o.Stride
 	b.Inputs = inputs
-	choose(b, o.Components, o.Variance)
+	b.WavelengthsNM, b.Excluded = sel.wavelengths, sel.excluded
+	chooseSNR(b, o.Components, o.Variance, o.MinSNR)
 	if err := writeBasis(b, o.Out, o.Overwrite); err != nil {
 		return nil, err
 	}
@@ -173,6 +223,7 @@ type MergeOptions struct {
 	Out        string
 	Components int
 	Variance   float64
+	MinSNR     float64
 	Overwrite  bool
 }
 
@@ -211,13 +262,20 @@ func Merge(_ context.Context, env Env, o MergeOptions) (_ *LearnResult, err erro
 	if o.Components > len(first.Bands) {
 		return nil, Usagef("--components %d: the partials have only %d bands", o.Components, len(first.Bands))
 	}
-	b, err := fitBasis(env, total, first.Mode, append([]transform.Band(nil), first.Bands...), fmt.Sprintf("the %d partial files", len(parts)))
+	noise, err := transform.CombineNoise(parts, o.Parts)
+	if err != nil {
+		return nil, err
+	}
+	shift, _ := bands.ParseShift(first.Noise)
+	b, err := fitAny(env, fitInput{acc: total, noise: noise, mode: first.Mode, method: first.Method, shift: shift,
+		info: append([]transform.Band(nil), first.Bands...), what: fmt.Sprintf("the %d partial files", len(parts))})
 	if err != nil {
 		return nil, err
 	}
 	b.Stride = first.Stride
 	b.Inputs = first.Inputs
-	choose(b, o.Components, o.Variance)
+	b.WavelengthsNM, b.Excluded = first.WavelengthsNM, first.Excluded
+	chooseSNR(b, o.Components, o.Variance, o.MinSNR)
 	if err := writeBasis(b, o.Out, o.Overwrite); err != nil {
 		return nil, err
 	}

@@ -63,15 +63,18 @@ func (r *pairReader) Close() error {
 
 // pairStats is what the statistics pass over both dates gathers.
 type pairStats struct {
-	acc    *bands.Accumulator // pooled co-moments, when fitting
-	sample *change.Sampler    // band differences x_after - x_before
+	// accB and accA are each date's co-moments over the pixels valid on
+	// both; pooled they give the basis, and their means and standard
+	// deviations compare the dates' radiometry.
+	accB, accA *bands.Accumulator
+	// sample holds 2p values per pixel: BEFORE's bands, then AFTER's.
+	sample *change.Sampler
 	valid  int64
 }
 
 type gatherWorker struct {
 	*pairReader
 	p, size int
-	fit     bool
 	width   int64
 	bound   *atomic.Uint64
 	diff    []float64
@@ -82,13 +85,11 @@ func (w *gatherWorker) Do(_ context.Context, t tiles.Tile) (pairStats, error) {
 	if err != nil {
 		return pairStats{}, err
 	}
-	res := pairStats{sample: change.NewSampler(w.size, w.p, 1), valid: int64(count)}
-	if w.fit {
-		res.acc = bands.NewAccumulator(w.p)
-		res.acc.AddPixels(xb, valid)
-		res.acc.AddPixels(xa, valid)
-	}
-	w.diff = grow(w.diff, w.p)
+	res := pairStats{sample: change.NewSampler(w.size, 2*w.p, 1), valid: int64(count),
+		accB: bands.NewAccumulator(w.p), accA: bands.NewAccumulator(w.p)}
+	res.accB.AddPixels(xb, valid)
+	res.accA.AddPixels(xa, valid)
+	w.diff = grow(w.diff, 2*w.p)
 	// Pixels whose key is not below the sample's current bound can never
 	// be kept: skipping them keeps the per-tile samples small.
 	bound := w.bound.Load()
@@ -100,35 +101,30 @@ func (w *gatherWorker) Do(_ context.Context, t tiles.Tile) (pairStats, error) {
 		if res.sample.Key(index) >= bound {
 			continue
 		}
-		for j := range w.p {
-			w.diff[j] = xa[i*w.p+j] - xb[i*w.p+j]
-		}
+		copy(w.diff[:w.p], xb[i*w.p:i*w.p+w.p])
+		copy(w.diff[w.p:], xa[i*w.p:i*w.p+w.p])
 		res.sample.Offer(index, w.diff)
 	}
 	return res, nil
 }
 
-// gather reads both dates once: it accumulates the pooled co-moments of the
-// pixels valid on both (when fit is set) and draws a sample of at most size
-// band differences, the same for any number of workers (the sampler keeps
-// the pixels with the smallest hashes of their positions).
-func (ps *pairScan) gather(ctx context.Context, env Env, fit bool, size int) (pairStats, error) {
+// gather reads both dates once: it accumulates each date's co-moments over
+// the pixels valid on both and draws a sample of at most size pixels of both
+// dates, the same for any number of workers (the sampler keeps the pixels
+// with the smallest hashes of their positions).
+func (ps *pairScan) gather(ctx context.Context, env Env, size int) (pairStats, error) {
 	p := ps.before.scenes[0].Len()
-	total := pairStats{sample: change.NewSampler(size, p, 1)}
-	if fit {
-		total.acc = bands.NewAccumulator(p)
-	}
+	total := pairStats{sample: change.NewSampler(size, 2*p, 1), accB: bands.NewAccumulator(p), accA: bands.NewAccumulator(p)}
 	var bound atomic.Uint64
 	bound.Store(total.sample.Bound())
 	err := tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("statistics", ps.before.pixels())},
 		func(int) (tiles.Worker[pairStats], error) {
-			return &gatherWorker{pairReader: ps.newReader(), p: p, size: size, fit: fit,
+			return &gatherWorker{pairReader: ps.newReader(), p: p, size: size,
 				width: int64(ps.before.scenes[0].Width), bound: &bound}, nil
 		},
 		func(_ tiles.Tile, r pairStats) error {
-			if fit {
-				total.acc.Merge(r.acc)
-			}
+			total.accB.Merge(r.accB)
+			total.accA.Merge(r.accA)
 			total.sample.Merge(r.sample)
 			bound.Store(total.sample.Bound())
 			total.valid += r.valid
@@ -146,7 +142,8 @@ type mapTile struct {
 type mapWorker struct {
 	*pairReader
 	proj  *transform.Projector
-	sc    *change.Scorer // nil when the dates are identical
+	sc    *change.Scorer   // nil when the dates are identical
+	norm  []change.BandFit // AFTER onto BEFORE's scale; nil for none
 	zcut  float64
 	diffs bool
 	pool  *sync.Pool
@@ -160,9 +157,7 @@ func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
 	}
 	n, k := t.Pixels(), w.proj.Components()
 	w.dx, w.d = grow(w.dx, len(xa)), grow(w.d, n*k)
-	for i := range xa {
-		w.dx[i] = xa[i] - xb[i]
-	}
+	diffInto(w.dx, xb, xa, w.norm)
 	w.proj.Difference(w.d, w.dx)
 	d := w.d
 	mt := w.pool.Get().(*mapTile)
@@ -207,34 +202,32 @@ func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
 func (r *changeRun) mapPixels(ctx context.Context) error {
 	nan := math.NaN()
 	k := r.proj.Components()
-	spec := func(desc string, bands int) raster.Spec {
-		s := raster.Spec{Grid: r.before.Grid, Bands: bands, DataType: "Float32", NoData: &nan,
-			Metadata: r.metadata()}
-		for i := range bands {
-			s.Descriptions = append(s.Descriptions, fmt.Sprintf(desc, i+1))
-		}
-		return s
+	spec := func(descs ...string) raster.Spec {
+		return raster.Spec{Grid: r.before.Grid, Bands: len(descs), DataType: "Float32", NoData: &nan,
+			Metadata: r.metadata(), Descriptions: descs}
 	}
+	dof := fmt.Sprintf("chi-square, k = %d degrees of freedom", k)
 	var err error
 	if r.mask, err = raster.NewMask(r.before.Grid); err != nil {
 		return err
 	}
-	mag, err := raster.Create(r.dir.Path("magnitude.tif"), spec("change statistic Z (chi-square, %d)", 1))
+	mag, err := raster.Create(r.dir.Path("magnitude.tif"), spec("change statistic Z ("+dof+")"))
 	if err != nil {
 		return err
 	}
 	defer mag.Abort()
-	if err := mag.SetMetadata("BANDFOLD_Z_THRESHOLD", strconv.FormatFloat(r.zcut, 'g', -1, 64)); err != nil {
-		return err
-	}
-	pv, err := raster.Create(r.dir.Path("pvalue.tif"), spec("no-change p-value (%d)", 1))
+	pv, err := raster.Create(r.dir.Path("pvalue.tif"), spec("no-change p-value of Z ("+dof+")"))
 	if err != nil {
 		return err
 	}
 	defer pv.Abort()
 	var diffs *raster.Output
 	if r.o.Differences {
-		if diffs, err = raster.Create(r.dir.Path("differences.tif"), spec("PC%d score difference minus no-change location", k)); err != nil {
+		descs := make([]string, k)
+		for i := range descs {
+			descs[i] = fmt.Sprintf("PC%d score difference minus no-change location", i+1)
+		}
+		if diffs, err = raster.Create(r.dir.Path("differences.tif"), spec(descs...)); err != nil {
 			return err
 		}
 		defer diffs.Abort()
@@ -247,7 +240,7 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	ps := r.pair
 	err = tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", ps.before.pixels())},
 		func(int) (tiles.Worker[*mapTile], error) {
-			w := &mapWorker{pairReader: ps.newReader(), proj: r.proj.Clone(), zcut: r.zcut, diffs: r.o.Differences, pool: pool}
+			w := &mapWorker{pairReader: ps.newReader(), proj: r.proj.Clone(), zcut: r.zcut, diffs: r.o.Differences, pool: pool, norm: r.norm}
 			if sc != nil {
 				w.sc = r.model.Scorer()
 			}
@@ -285,11 +278,26 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	return nil
 }
 
-// metadata is what every raster of a change folder records.
+// metadata is what every output of a change folder records: the tool, the
+// caution, both dates, k, the threshold, the minimum mapping unit, the
+// normalisation and the scenario tag of invented data.
 func (r *changeRun) metadata() map[string]string {
-	md := map[string]string{"BANDFOLD_VERSION": r.env.Version, "BANDFOLD_CAUTION": Caution}
-	if v, ok := r.before.Metadata["SCENARIO"]; ok {
-		md["SCENARIO"] = v
+	md := map[string]string{"BANDFOLD_VERSION": r.env.Version, "BANDFOLD_CAUTION": Caution,
+		"BANDFOLD_BEFORE": r.dateLabel(r.before, r.o.Before), "BANDFOLD_AFTER": r.dateLabel(r.after, r.o.After),
+		"BANDFOLD_THRESHOLD":       r.o.Threshold.String(),
+		"BANDFOLD_Z_THRESHOLD":     strconv.FormatFloat(r.zcut, 'g', -1, 64),
+		"BANDFOLD_MIN_AREA_PIXELS": strconv.Itoa(r.minPixels),
+		"BANDFOLD_NORMALIZATION":   r.normDescription(),
+	}
+	if r.proj != nil {
+		md["BANDFOLD_COMPONENTS"] = strconv.Itoa(r.proj.Components())
+	}
+	for _, s := range []*raster.Stack{r.before, r.after} {
+		for _, key := range []string{"SCENARIO", "SCENARIO_LOCATION"} {
+			if v, ok := s.Metadata[key]; ok {
+				md[key] = v
+			}
+		}
 	}
 	return md
 }

@@ -5,18 +5,28 @@ import (
 	"image"
 	"image/png"
 	"math"
+	"strings"
 
 	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/raster"
 	"bandfold/tiles"
 )
 
-// previewSide is the longest side of a quicklook, in pixels.
-const previewSide = 1024
+// previewSide is the longest side of a quicklook, in pixels, and
+// previewMin the shortest long side: smaller images are enlarged to it
+// (nearest neighbour), so that a preview is readable.
+const (
+	previewSide = 1024
+	previewMin  = 800
+)
 
-// previewSize scales w x h down to fit previewSide.
+// previewSize scales w x h down to fit previewSide, or up to previewMin on
+// the long side.
 func previewSize(w, h int) (int, int) {
 	f := math.Max(1, float64(max(w, h))/previewSide)
+	if long := max(w, h); long < previewMin {
+		f = float64(long) / previewMin
+	}
 	return max(1, int(math.Round(float64(w)/f))), max(1, int(math.Round(float64(h)/f)))
 }
 
@@ -35,7 +45,11 @@ func composite(s *raster.Stack, rgb [3]int) (*image.RGBA, error) {
 	pw, ph := previewSize(s.Width, s.Height)
 	vals := make([]float64, pw*ph*3)
 	valid := make([]bool, pw*ph)
-	if _, err := r.ReadScaled(tiles.Tile{W: s.Width, H: s.Height}, pw, ph, vals, valid); err != nil {
+	read := r.ReadScaled // nearest when enlarging
+	if pw < s.Width {
+		read = r.ReadAveraged
+	}
+	if _, err := read(tiles.Tile{W: s.Width, H: s.Height}, pw, ph, vals, valid); err != nil {
 		return nil, err
 	}
 	var ch [3][]uint8
@@ -53,6 +67,42 @@ func composite(s *raster.Stack, rgb [3]int) (*image.RGBA, error) {
 // firstThree are the positions of the first three bands of p (the first
 // band repeated when there are fewer).
 func firstThree(p int) [3]int { return [3]int{0, min(1, p-1), min(2, p-1)} }
+
+// naturalColour returns the positions of the red, green and blue bands of
+// s, from band descriptions naming them or else from centre wavelengths in
+// the visible ranges (blue 450-520 nm, green 520-600 nm, red 620-700 nm, as
+// the Landsat and Sentinel-2 visible bands), and false when s does not say.
+func naturalColour(s *raster.Stack) ([3]int, bool) {
+	var out [3]int
+	names := []string{"red", "green", "blue"}
+	found := 0
+	for c, name := range names {
+		for i, b := range s.Bands {
+			n := strings.ToLower(b.Name)
+			if n == name || strings.HasPrefix(n, name+" ") || strings.HasSuffix(n, " "+name) || strings.Contains(n, "("+name+")") {
+				out[c] = i
+				found |= 1 << c
+				break
+			}
+		}
+	}
+	if found == 7 {
+		return out, true
+	}
+	ranges := [3][2]float64{{620, 700}, {520, 600}, {450, 520}}
+	found = 0
+	for c, rg := range ranges {
+		best := math.Inf(1)
+		for i, b := range s.Bands {
+			wl := b.WavelengthNM
+			if wl >= rg[0] && wl < rg[1] && math.Abs(wl-(rg[0]+rg[1])/2) < best {
+				best, out[c] = math.Abs(wl-(rg[0]+rg[1])/2), i
+				found |= 1 << c
+			}
+		}
+	}
+	return out, found == 7
+}
 
 // previewBands checks three 1-based band numbers of an image with p bands;
 // none means the first three.

@@ -270,15 +270,21 @@ func (c *Catchment) Events() []Event {
 	return evs
 }
 
-// Georeferencing suggestion: WGS 84 / UTM zone 33N, with an invented origin.
+// Georeferencing: an invented place. The grid lies on a custom transverse
+// Mercator projection centred on open ocean in the South Pacific (40° S,
+// 120° W, some 1,500 km from the nearest land), so that no mapped polygon of
+// the invented scenario can land on a real field or town.
 const (
-	epsg    = 32633
-	originX = 487230.0
-	originY = 5912660.0
+	// PROJ is the scenario's CRS as a PROJ string.
+	PROJ    = "+proj=tmerc +lat_0=-40 +lon_0=-120 +k=1 +x_0=100000 +y_0=100000 +datum=WGS84 +units=m +no_defs"
+	originX = 80000.0
+	originY = 120000.0
+	// Location declares the place in the dataset metadata.
+	Location = "invented scenario on a custom transverse Mercator projection centred on open ocean (40 S, 120 W, South Pacific): no real place"
 )
 
-// EPSG returns the suggested CRS code: WGS 84 / UTM zone 33N (metres).
-func (c *Catchment) EPSG() int { return epsg }
+// CRS returns the scenario's coordinate reference system as a PROJ string.
+func (c *Catchment) CRS() string { return PROJ }
 
 // GeoTransform returns the GDAL-style geotransform of the 10 m grid
 // (north-up, origin at the top-left corner).

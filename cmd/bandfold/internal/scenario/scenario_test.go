@@ -2,6 +2,7 @@ package scenario
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -350,17 +351,17 @@ func TestBandNames(t *testing.T) {
 
 func TestGeoreferencing(t *testing.T) {
 	c := newTestCatchment(t, 100, 64, 1)
-	if c.EPSG() != 32633 {
-		t.Errorf("EPSG %d", c.EPSG())
+	if !strings.Contains(c.CRS(), "+lat_0=-40 +lon_0=-120") {
+		t.Errorf("CRS %s, want the invented ocean projection", c.CRS())
 	}
 	g, hg := c.GeoTransform(), c.HyperGeoTransform()
 	if g[1] != 10 || g[5] != -10 || hg[1] != 30 || hg[5] != -30 || g[0] != hg[0] || g[3] != hg[3] || g[2] != 0 || g[4] != 0 {
 		t.Errorf("geotransforms %v %v", g, hg)
 	}
-	// UTM eastings lie within about 166 km to 834 km; northings here are
-	// in the northern hemisphere.
-	if g[0] < 166000 || g[0]+100*g[1] > 834000 || g[3] < 0 || g[3] > 9330000 {
-		t.Errorf("origin %v outside the zone", g)
+	// Within 50 km of the projection's centre (false origin 100 km, 100
+	// km), on open ocean by construction.
+	if math.Abs(g[0]-100000) > 50000 || math.Abs(g[3]-100000) > 50000 {
+		t.Errorf("origin %v far from the invented centre", g)
 	}
 	if w, h := c.HyperSize(); w != 34 || h != 22 {
 		t.Errorf("hyper size %dx%d", w, h)

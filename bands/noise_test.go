@@ -1,0 +1,170 @@
+package bands_test
+
+import (
+	"math"
+	"math/rand/v2"
+	"testing"
+
+	"gonum.org/v1/gonum/mat"
+	"gonum.org/v1/gonum/stat"
+
+	"bandfold/bands"
+)
+
+// cube is a W×H image of P bands, pixel-major, with validity.
+type cube struct {
+	x     []float64
+	valid []bool
+	p     int
+	w, h  int
+}
+
+func randomCube(seed uint64, p, w, h int, invalid float64) cube {
+	rng := rand.New(rand.NewPCG(seed, 1))
+	c := cube{x: make([]float64, p*w*h), valid: make([]bool, w*h), p: p, w: w, h: h}
+	for i := range c.valid {
+		c.valid[i] = rng.Float64() >= invalid
+		for j := range p {
+			c.x[i*p+j] = 100*float64(j) + float64(i%w) + 3*rng.NormFloat64()
+		}
+	}
+	return c
+}
+
+// window cuts the tile at (x0, y0) of size tw×th out of c with the halo.
+func (c cube) window(x0, y0, tw, th int, s bands.Shift) bands.Window {
+	hc, hr := s.Halo()
+	ow, oh := min(tw, c.w-x0), min(th, c.h-y0)
+	ew, eh := min(ow+hc, c.w-x0), min(oh+hr, c.h-y0)
+	win := bands.Window{P: c.p, W: ew, H: eh, OwnW: ow, OwnH: oh, X: make([]float64, ew*eh*c.p), Valid: make([]bool, ew*eh)}
+	for r := range eh {
+		for q := range ew {
+			i := (y0+r)*c.w + x0 + q
+			win.Valid[r*ew+q] = c.valid[i]
+			copy(win.X[(r*ew+q)*c.p:], c.x[i*c.p:(i+1)*c.p])
+		}
+	}
+	return win
+}
+
+// tiled accumulates the shift differences tile by tile with the halo,
+// merged in tile order.
+func (c cube) tiled(tile int, s bands.Shift) *bands.Accumulator {
+	total := bands.NewAccumulator(c.p)
+	for y := 0; y < c.h; y += tile {
+		for x := 0; x < c.w; x += tile {
+			d := bands.ShiftDifferences(nil, c.window(x, y, tile, tile, s), s)
+			a := bands.NewAccumulator(c.p)
+			if len(d) > 0 {
+				a.AddPixels(d, nil)
+			}
+			total.Merge(a)
+		}
+	}
+	return total
+}
+
+// reference is the noise covariance computed in memory with gonum's
+// stat.CovarianceMatrix over the same pairs, enumerated directly on the
+// whole image.
+func (c cube) reference(s bands.Shift) (*mat.SymDense, int) {
+	var rows []float64
+	n := 0
+	for r := range c.h {
+		for q := range c.w {
+			i := r*c.w + q
+			if !c.valid[i] {
+				continue
+			}
+			for _, nb := range []struct {
+				on   bool
+				ok   bool
+				next int
+			}{{s&bands.Horizontal != 0, q+1 < c.w, i + 1}, {s&bands.Vertical != 0, r+1 < c.h, i + c.w}} {
+				if nb.on && nb.ok && c.valid[nb.next] {
+					for j := range c.p {
+						rows = append(rows, c.x[nb.next*c.p+j]-c.x[i*c.p+j])
+					}
+					n++
+				}
+			}
+		}
+	}
+	cov := mat.NewSymDense(c.p, nil)
+	stat.CovarianceMatrix(cov, mat.NewDense(n, c.p, rows), nil)
+	cov.ScaleSym(0.5, cov)
+	return cov, n
+}
+
+// TestNoiseCovarianceMatchesInMemory: the tiled shift-difference estimate
+// equals gonum's stat.CovarianceMatrix of the same difference vectors,
+// halved (the definition of Switzer & Green 1984 / Green et al. 1988), to
+// 1e-12 relative: both are sums of the same ~10⁴ products in different
+// orders, whose rounding is about n·ε ≈ 1e-12 of the largest term at worst
+// and far less in practice. The pair count is exact (every pair counted
+// once by the tile owning its first pixel).
+func TestNoiseCovarianceMatchesInMemory(t *testing.T) {
+	c := randomCube(7, 5, 67, 41, 0.1)
+	for _, s := range []bands.Shift{bands.Horizontal, bands.Vertical, bands.Both} {
+		want, n := c.reference(s)
+		for _, tile := range []int{1, 2, 7, 16, 64, 512} {
+			acc := c.tiled(tile, s)
+			if acc.Count() != float64(n) {
+				t.Fatalf("%v tile %d: %v pairs, want %d (enumerated directly)", s, tile, acc.Count(), n)
+			}
+			got := bands.NoiseCovariance(acc, nil)
+			scale := math.Max(want.At(0, 0), want.At(c.p-1, c.p-1))
+			for i := range c.p {
+				for j := range c.p {
+					if d := math.Abs(got.At(i, j) - want.At(i, j)); d > 1e-12*scale {
+						t.Errorf("%v tile %d: Σ_N[%d][%d] = %v, want %v (gonum in memory)", s, tile, i, j, got.At(i, j), want.At(i, j))
+					}
+				}
+			}
+		}
+	}
+}
+
+// TestShiftDifferencesOfWhiteNoise: for independent noise of variance σ²
+// added to a smooth signal, ½ Cov(δ) estimates σ² (known by construction):
+// with n ≈ 2·10⁵ pairs the standard error of a variance estimate is about
+// σ²·√(2/n)·(a factor ≤ 2 for the correlation of overlapping pairs), so 2%
+// is over 4 standard errors.
+func TestShiftDifferencesOfWhiteNoise(t *testing.T) {
+	const w, h, p = 400, 300, 3
+	sigma := []float64{1, 3, 0.5}
+	rng := rand.New(rand.NewPCG(3, 3))
+	c := cube{x: make([]float64, p*w*h), valid: make([]bool, w*h), p: p, w: w, h: h}
+	for r := range h {
+		for q := range w {
+			i := r*w + q
+			c.valid[i] = true
+			sig := 5 * math.Sin(float64(q)/400) * math.Cos(float64(r)/300) // gradient ≤ 0.02 per pixel: its share of ½·δ² is below 1e-3 of σ²
+			for j := range p {
+				c.x[i*p+j] = float64(j+1)*sig + sigma[j]*rng.NormFloat64()
+			}
+		}
+	}
+	got := bands.NoiseCovariance(c.tiled(128, bands.Both), nil)
+	for j, s := range sigma {
+		if v := got.At(j, j); math.Abs(v-s*s) > 0.02*s*s {
+			t.Errorf("band %d: noise variance %v, want %v (constructed)", j, v, s*s)
+		}
+	}
+}
+
+func TestParseShift(t *testing.T) {
+	for _, tc := range []struct {
+		in   string
+		want bands.Shift
+		ok   bool
+	}{{"horizontal", bands.Horizontal, true}, {"vertical", bands.Vertical, true}, {"both", bands.Both, true}, {"diagonal", 0, false}, {"", 0, false}} {
+		got, err := bands.ParseShift(tc.in)
+		if (err == nil) != tc.ok || got != tc.want {
+			t.Errorf("ParseShift(%q) = %v, %v", tc.in, got, err)
+		}
+		if tc.ok && got.String() != tc.in {
+			t.Errorf("String() = %q, want %q", got.String(), tc.in)
+		}
+	}
+}

@@ -1,0 +1,128 @@
+package job
+
+import (
+	"context"
+	"fmt"
+	"image"
+	"image/color"
+	"image/draw"
+	"math"
+
+	"bandfold/cmd/bandfold/internal/figures"
+	"bandfold/raster/output"
+	"bandfold/tiles"
+)
+
+// previewColor outlines change patches: a saturated magenta that stands out
+// on natural colours.
+var previewColor = color.RGBA{255, 0, 200, 255}
+
+// Preview geometry: the outline width and the gap between the panels, in
+// pixels.
+const (
+	outlineWidth = 2
+	panelGap     = 8
+)
+
+// naturalColour picks the preview bands: red, green and blue when AFTER's
+// (or BEFORE's) band descriptions or wavelengths say which those are, else
+// the first three with a note when the preview is drawn.
+func (r *changeRun) naturalColour() {
+	if rgb, ok := naturalColour(r.after); ok {
+		r.rgb = rgb
+		return
+	}
+	if rgb, ok := naturalColour(r.before); ok {
+		r.rgb = rgb
+		return
+	}
+	r.rgbNote = true
+}
+
+// changedAt marks, at the preview size pw x ph, the preview pixels over
+// which any full-resolution pixel is mapped as changed.
+func (r *changeRun) changedAt(pw, ph int) ([]bool, error) {
+	w, h := r.before.Width, r.before.Height
+	changed := make([]bool, pw*ph)
+	sx, sy := float64(pw)/float64(w), float64(ph)/float64(h)
+	tg := tiles.NewGrid(w, h, w, max(1, min(h, 256)))
+	var buf []uint8
+	for t := range tg.Tiles() {
+		buf = grow(buf, t.Pixels())
+		if err := r.mask.Read(t.X, t.Y, t.W, t.H, buf); err != nil {
+			return nil, err
+		}
+		for i, f := range buf {
+			if f != 1 {
+				continue
+			}
+			x, y := t.X+i%t.W, t.Y+i/t.W
+			x0, x1 := int(float64(x)*sx), max(int(float64(x)*sx)+1, int(math.Ceil(float64(x+1)*sx)))
+			y0, y1 := int(float64(y)*sy), max(int(float64(y)*sy)+1, int(math.Ceil(float64(y+1)*sy)))
+			for py := y0; py < min(y1, ph); py++ {
+				for px := x0; px < min(x1, pw); px++ {
+					changed[py*pw+px] = true
+				}
+			}
+		}
+	}
+	return changed, nil
+}
+
+// preview writes preview.png: BEFORE and AFTER side by side as composites
+// with the mapped change outlined on both, a title, both dates, a legend, a
+// north arrow and a scale bar when the grid has a CRS, the changed area and
+// the full caution.
+func (r *changeRun) preview(context.Context) error {
+	if r.rgbNote {
+		r.env.warn("preview.png shows bands %d, %d, %d as red, green, blue: the bands of %s do not say which are natural colours (choose with --preview-bands)",
+			r.rgb[0]+1, r.rgb[1]+1, r.rgb[2]+1, r.o.After)
+	}
+	before, err := composite(r.before, r.rgb)
+	if err != nil {
+		return err
+	}
+	after, err := composite(r.after, r.rgb)
+	if err != nil {
+		return err
+	}
+	pw, ph := after.Bounds().Dx(), after.Bounds().Dy()
+	changed, err := r.changedAt(pw, ph)
+	if err != nil {
+		return err
+	}
+	figures.OutlineWidth(before, changed, previewColor, outlineWidth)
+	figures.OutlineWidth(after, changed, previewColor, outlineWidth)
+	img := image.NewRGBA(image.Rect(0, 0, 2*pw+panelGap, ph))
+	draw.Draw(img, img.Bounds(), image.NewUniform(color.White), image.Point{}, draw.Src)
+	draw.Draw(img, image.Rect(0, 0, pw, ph), before, image.Point{}, draw.Src)
+	draw.Draw(img, image.Rect(pw+panelGap, 0, 2*pw+panelGap, ph), after, image.Point{}, draw.Src)
+
+	bl, al := r.dateLabel(r.before, r.o.Before), r.dateLabel(r.after, r.o.After)
+	text := fmt.Sprintf("mapped change: %s of %s valid pixels", Count(r.sum.ChangedPixels), Count(r.sum.ValidPixels))
+	if r.sum.ChangedAreaHa != nil {
+		text = fmt.Sprintf("mapped area of change: %.1f ha of %.1f ha valid", *r.sum.ChangedAreaHa, *r.sum.ValidAreaHa)
+	}
+	ann := figures.Annotation{Swatch: previewColor, SwatchLabel: "mapped change (outlined on both dates)", Text: text,
+		Title: fmt.Sprintf("Change map: left BEFORE %s, right AFTER %s", bl, al),
+		Lines: []string{fmt.Sprintf("bands %d, %d, %d as red, green, blue; threshold %s (Z = %.4g, k = %d); minimum mapping unit %d px",
+			r.rgb[0]+1, r.rgb[1]+1, r.rgb[2]+1, r.o.Threshold, r.zcut, r.proj.Components(), r.minPixels), Caution}}
+	if v, ok := r.before.Metadata["SCENARIO"]; ok {
+		ann.Lines = append(ann.Lines, "invented scenario: "+v)
+	}
+	gt := r.before.GeoTransform
+	if r.areas != nil {
+		// One preview pixel covers w / pw image pixels.
+		ann.MetresPerPixel = math.Sqrt(r.areas.Mean()) * float64(r.before.Width) / float64(pw)
+		ann.NorthArrow = gt[2] == 0 && gt[4] == 0
+	}
+	data, err := encodePNG(figures.Annotate(img, ann))
+	if err != nil {
+		return fmt.Errorf("preview of %s: %w", r.o.Out, err)
+	}
+	if err := output.WriteFile(r.dir.Path("preview.png"), data, false); err != nil {
+		return err
+	}
+	r.outputs = append(r.outputs, "preview.png")
+	return nil
+}

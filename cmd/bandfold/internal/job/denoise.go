@@ -1,0 +1,210 @@
+package job
+
+import (
+	"context"
+	"fmt"
+	"sync"
+
+	"bandfold/raster"
+	"bandfold/raster/output"
+	"bandfold/tiles"
+	"bandfold/transform"
+)
+
+// DenoiseOptions are the options of Denoise.
+type DenoiseOptions struct {
+	Image, Basis, Out string
+	// Components is the number k of leading components kept; 0 takes the
+	// basis's.
+	Components int
+	// Type is same (the bands' type), float32 or float64.
+	Type            string
+	Input           Input
+	Format          raster.Format
+	CreationOptions []string
+	Overwrite       bool
+}
+
+// DenoiseResult is what Denoise wrote.
+type DenoiseResult struct {
+	Output     string `json:"output"`
+	Method     string `json:"method"`
+	Components int    `json:"components"`
+	Bands      int    `json:"bands"`
+	Type       string `json:"type"`
+	Pixels     int64  `json:"pixels"`
+}
+
+// denoising is one Denoise run: the image, the basis and its projector.
+type denoising struct {
+	env   Env
+	o     *DenoiseOptions
+	basis *transform.Basis
+	st    transform.Storage
+	img   *raster.Stack
+	proj  *transform.Projector
+}
+
+// Denoise folds an image onto the k leading components of a basis and
+// unfolds them at once, x̂ = mean + Σ_N A_k A_kᵀ (x − mean) for an MNF
+// basis (the MNF noise removal of Green et al. 1988) or
+// mean + W_k W_kᵀ (x − mean) for a principal component one, without
+// writing the components. Bands the basis excluded are dropped from the
+// image by their numbers. A failure leaves no output.
+func Denoise(ctx context.Context, env Env, o DenoiseOptions) (_ *DenoiseResult, err error) {
+	defer func() { err = classify(err) }()
+	d := &denoising{env: env, o: &o}
+	defer func() {
+		if d.img != nil {
+			d.img.Close()
+		}
+	}()
+	if err := d.open(); err != nil {
+		return nil, err
+	}
+	p := len(d.basis.Bands)
+	spec := raster.Spec{Grid: d.img.Grid, Bands: p, DataType: d.st.DataType, NoData: &d.st.NoData, Format: o.Format,
+		CreationOptions: o.CreationOptions, Overwrite: o.Overwrite,
+		Metadata: map[string]string{"BANDFOLD_BASIS": d.basis.Fingerprint(), "BANDFOLD_COMPONENTS": fmt.Sprint(d.proj.Components()), "BANDFOLD_VERSION": env.Version}}
+	for j, band := range d.basis.Bands {
+		spec.Descriptions = append(spec.Descriptions, band.Name)
+		if d.st.Integer && (d.st.Scale[j] != 1 || d.st.Offset[j] != 0) {
+			spec.Scales, spec.Offsets = d.st.Scale, d.st.Offset
+		}
+	}
+	dst, err := raster.Create(o.Out, spec)
+	if err != nil {
+		return nil, err
+	}
+	defer dst.Abort()
+	pixels, err := d.run(ctx, dst)
+	if err != nil {
+		return nil, err
+	}
+	if err := dst.Finish(); err != nil {
+		return nil, err
+	}
+	if err := dst.Commit(); err != nil {
+		return nil, err
+	}
+	return &DenoiseResult{Output: o.Out, Method: string(d.basis.Method), Components: d.proj.Components(), Bands: p, Type: d.st.DataType, Pixels: pixels}, nil
+}
+
+// open checks the options and opens the basis and the image.
+func (d *denoising) open() error {
+	o := d.o
+	if o.Format == "" {
+		o.Format = raster.GTiff
+	}
+	if o.Type == "" {
+		o.Type = "same"
+	}
+	if o.Components < 0 {
+		return Usagef("--components %d: must be positive", o.Components)
+	}
+	if err := o.Input.check(); err != nil {
+		return err
+	}
+	ins := append(argPaths("input", []string{o.Image}, o.Input.Masks), output.Path{Role: "basis", Path: o.Basis})
+	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}}); err != nil {
+		return err
+	}
+	if err := output.Check(o.Out, o.Overwrite); err != nil {
+		return err
+	}
+	b, err := transform.ReadBasis(o.Basis)
+	if err != nil {
+		return err
+	}
+	d.basis = b
+	if b.Method == "" {
+		b.Method = transform.PCA
+	}
+	k := cmp0(o.Components, b.Components)
+	if k > len(b.Bands) {
+		return Usagef("--components %d: the basis %s has %d components", k, o.Basis, len(b.Bands))
+	}
+	if d.st, err = transform.NewStorage(b, o.Type); err != nil {
+		return usage(fmt.Errorf("--%w", err))
+	}
+	if d.st.Warning != "" {
+		d.env.warn("%s", d.st.Warning)
+	}
+	if d.proj, err = transform.NewProjector(b, k); err != nil {
+		return fmt.Errorf("basis %s: %w", o.Basis, err)
+	}
+	if o.Input, err = o.Input.withBasis(b, o.Basis); err != nil {
+		return err
+	}
+	if d.img, err = openImage(o.Image, o.Input.options()); err != nil {
+		return err
+	}
+	if err := distinctFromStacks([]*raster.Stack{d.img}, output.Path{Role: "output", Path: o.Out}); err != nil {
+		return err
+	}
+	return checkBands(b, o.Basis, d.img, bandCheck{selected: o.Input.Bands != nil})
+}
+
+// cmp0 returns a unless it is zero, else b.
+func cmp0(a, b int) int {
+	if a != 0 {
+		return a
+	}
+	return b
+}
+
+// run folds and unfolds every tile and writes it.
+func (d *denoising) run(ctx context.Context, dst *raster.Output) (int64, error) {
+	sc := newScan([]*raster.Stack{d.img}, tileGrid(d.o.Input.Tile), 1, Shard{})
+	pool := &sync.Pool{New: func() any { return &denoiseTile{} }}
+	var pixels int64
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: d.env.workers(), Progress: d.env.progress("denoise", sc.pixels())},
+		func(int) (tiles.Worker[*denoiseTile], error) {
+			return &denoiseWorker{reader: sc.newReader(), proj: d.proj.Clone(), st: &d.st, pool: pool}, nil
+		},
+		func(t tiles.Tile, dt *denoiseTile) error {
+			pixels += dt.pixels
+			err := dst.Write(t, dt.out)
+			pool.Put(dt)
+			return err
+		})
+	return pixels, err
+}
+
+type denoiseTile struct {
+	out    []float64
+	pixels int64
+}
+
+type denoiseWorker struct {
+	*reader
+	proj     *transform.Projector
+	st       *transform.Storage
+	pool     *sync.Pool
+	y, recon []float64
+}
+
+func (w *denoiseWorker) Do(_ context.Context, t tiles.Tile) (*denoiseTile, error) {
+	x, valid, count, err := w.read(t.Index)
+	if err != nil {
+		return nil, err
+	}
+	n, p, k := t.Pixels(), w.proj.Bands(), w.proj.Components()
+	w.y, w.recon = grow(w.y, n*k), grow(w.recon, n*p)
+	w.proj.Fold(w.y, x)
+	w.proj.Unfold(w.recon, w.y)
+	dt := w.pool.Get().(*denoiseTile)
+	dt.pixels = int64(count)
+	dt.out = grow(dt.out, n*p)
+	for i := range n {
+		for j := range p {
+			at := i*p + j
+			if !valid[i] {
+				dt.out[at] = w.st.NoData
+				continue
+			}
+			dt.out[at], _ = w.st.Store(w.recon[at], j)
+		}
+	}
+	return dt, nil
+}
