@@ -16,6 +16,7 @@ type patchFile struct {
 	ds    *godal.Dataset
 	layer godal.Layer
 	dates string
+	field string // the name of the dates field
 }
 
 var patchFields = []struct {
@@ -25,13 +26,13 @@ var patchFields = []struct {
 	{"area_m2", godal.FTReal}, {"area_ha", godal.FTReal}, {"z_mean", godal.FTReal}, {"z_max", godal.FTReal}, {"top_component", godal.FTInt},
 }
 
-func newPatchFile(path, crs string, o PatchOptions) (*patchFile, error) {
+func newPatchFile(path, crs string, o PatchOptions, field string, withDates bool) (*patchFile, error) {
 	f, err := output.Create(path, o.Overwrite, ".gpkg")
 	if err != nil {
 		return nil, err
 	}
 	f.Sidecars("-journal", "-wal", "-shm")
-	p := &patchFile{file: f, dates: o.Dates}
+	p := &patchFile{file: f, field: field}
 	if p.ds, err = godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger); err != nil {
 		f.Abort()
 		return nil, fmt.Errorf("create %s: %w", path, err)
@@ -48,8 +49,8 @@ func newPatchFile(path, crs string, o PatchOptions) (*patchFile, error) {
 	for _, f := range patchFields {
 		opts = append(opts, godal.NewFieldDefinition(f.name, f.typ))
 	}
-	if o.Dates != "" {
-		opts = append(opts, godal.NewFieldDefinition("dates", godal.FTString))
+	if withDates {
+		opts = append(opts, godal.NewFieldDefinition(field, godal.FTString))
 	}
 	opts = append(opts, errLogger)
 	if p.layer, err = p.ds.CreateLayer("changes", sr, godal.GTPolygon, opts...); err == nil {
@@ -119,7 +120,7 @@ func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (fl
 		set("top_component", z.top)
 	}
 	if p.dates != "" {
-		set("dates", p.dates)
+		set(p.field, p.dates)
 	}
 	if err == nil {
 		err = p.layer.UpdateFeature(f, errLogger)

@@ -278,51 +278,83 @@ type PatchSummary struct {
 // its bounding window (pixel centres inside) and that window of magnitude
 // and of the top band is read.
 func (m *ChangeMask) Patches(path string, o PatchOptions) (PatchSummary, error) {
-	sum := PatchSummary{AreaM2: math.NaN()}
-	magnitude, overwrite := o.Magnitude, o.Overwrite
-	if err := output.Check(path, overwrite); err != nil {
-		return sum, err
-	}
-	mag, err := openDataset(magnitude)
+	sums, err := writePatches(path, o, "dates", []PatchStep{{Mask: m, Band: 1, Date: o.Dates}})
 	if err != nil {
-		return sum, fmt.Errorf("magnitude %w", err)
+		return PatchSummary{AreaM2: math.NaN()}, err
+	}
+	return sums[0], nil
+}
+
+// writePatches polygonizes the maps of steps into one GeoPackage at path,
+// layer "changes", each step's polygons with its date in field (left out
+// where the date is empty) and its Z from its band of o.Magnitude.
+func writePatches(path string, o PatchOptions, field string, steps []PatchStep) ([]PatchSummary, error) {
+	if err := output.Check(path, o.Overwrite); err != nil {
+		return nil, err
+	}
+	mag, err := openDataset(o.Magnitude)
+	if err != nil {
+		return nil, fmt.Errorf("magnitude %w", err)
 	}
 	defer mag.Close(errLogger)
-	if err := m.grid.Compare(gridOf(mag)); err != nil {
-		return sum, fmt.Errorf("magnitude %s is not on the grid of the change map: %w", magnitude, err)
+	g := steps[0].Mask.grid
+	if err := g.Compare(gridOf(mag)); err != nil {
+		return nil, fmt.Errorf("magnitude %s is not on the grid of the change map: %w", o.Magnitude, err)
 	}
-	polys, err := m.polygonize()
-	if err != nil {
-		return sum, fmt.Errorf("patches for %s: %w", path, err)
-	}
-	defer polys.Close(errLogger)
 	var ea *equalArea
-	if m.grid.Projection != "" {
-		if ea, err = newEqualArea(m.grid.Projection); err != nil {
-			return sum, fmt.Errorf("patches for %s: %w", path, err)
+	if g.Projection != "" {
+		if ea, err = newEqualArea(g.Projection); err != nil {
+			return nil, fmt.Errorf("patches for %s: %w", path, err)
 		}
 		defer ea.Close()
+	}
+	withDates := false
+	for _, st := range steps {
+		withDates = withDates || st.Date != ""
+	}
+	out, err := newPatchFile(path, g.Projection, o, field, withDates)
+	if err != nil {
+		return nil, err
+	}
+	defer out.discard()
+	sums := make([]PatchSummary, len(steps))
+	for i, st := range steps {
+		if sums[i], err = out.addMap(st, mag, ea); err != nil {
+			return nil, fmt.Errorf("write %s: %w", path, err)
+		}
+	}
+	if err := out.commit(); err != nil {
+		return nil, err
+	}
+	return sums, nil
+}
+
+// addMap polygonizes one map and writes its patches.
+func (p *patchFile) addMap(st PatchStep, mag *godal.Dataset, ea *equalArea) (PatchSummary, error) {
+	sum := PatchSummary{AreaM2: math.NaN()}
+	if ea != nil {
 		sum.AreaM2 = 0
 	}
-	out, err := newPatchFile(path, m.grid.Projection, o)
+	if st.Band < 1 || st.Band > len(mag.Bands()) {
+		return sum, fmt.Errorf("magnitude band %d of %d", st.Band, len(mag.Bands()))
+	}
+	polys, err := st.Mask.polygonize()
 	if err != nil {
 		return sum, err
 	}
-	defer out.discard()
-	zs := patchStats{m: m, mag: mag.Bands()[0]}
+	defer polys.Close(errLogger)
+	zs := patchStats{m: st.Mask, mag: mag.Bands()[st.Band-1]}
 	zs.nodata, zs.hasND = zs.mag.NoData()
+	p.dates = st.Date
 	src := polys.Layers()[0]
 	for f := src.NextFeature(); f != nil; f = src.NextFeature() {
-		area, err := out.add(f.Geometry(), &zs, ea)
+		area, err := p.add(f.Geometry(), &zs, ea)
 		f.Close()
 		if err != nil {
-			return sum, fmt.Errorf("write %s: %w", path, err)
+			return sum, err
 		}
 		sum.Count++
 		sum.AreaM2 += area
-	}
-	if err := out.commit(); err != nil {
-		return sum, err
 	}
 	return sum, nil
 }

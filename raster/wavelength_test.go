@@ -70,3 +70,43 @@ func setAll(b godal.Band, domain string, kv ...string) error {
 	}
 	return nil
 }
+
+// TestCreateBandMetadata: wavelengths written through Spec.BandMetadata are
+// read back by Open (known by construction: the written numbers).
+func TestCreateBandMetadata(t *testing.T) {
+	for _, tc := range []struct {
+		name string
+		meta []map[string]string
+		want []float64
+	}{
+		{"nm", []map[string]string{{"wavelength": "450", "wavelength_units": "nm"}, {"wavelength": "2400.5", "wavelength_units": "nm"}}, []float64{450, 2400.5}},
+		{"um", []map[string]string{{"wavelength": "0.45", "wavelength_units": "um"}, {"wavelength": "2.4", "wavelength_units": "um"}}, []float64{450, 2400}},
+		{"none", nil, nil},
+	} {
+		path := filepath.Join(t.TempDir(), "m.tif")
+		o, err := Create(path, Spec{Grid: Grid{Width: 4, Height: 3}, Bands: 2, DataType: "Int16", BandMetadata: tc.meta})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := o.Finish(); err != nil {
+			t.Fatal(err)
+		}
+		if err := o.Commit(); err != nil {
+			t.Fatal(err)
+		}
+		s, err := Open([]string{path})
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := s.Wavelengths()
+		s.Close()
+		if len(got) != len(tc.want) {
+			t.Fatalf("%s: wavelengths %v, want %v", tc.name, got, tc.want)
+		}
+		for i := range got {
+			if !nearNM(got[i], tc.want[i]) {
+				t.Errorf("%s: band %d at %v nm, want %v", tc.name, i+1, got[i], tc.want[i])
+			}
+		}
+	}
+}

@@ -74,6 +74,10 @@ type Spec struct {
 	Scales, Offsets []float64
 	// Metadata is written to the dataset's default metadata domain.
 	Metadata map[string]string
+	// BandMetadata, when set, holds items for each band's default metadata
+	// domain, for example "wavelength" and "wavelength_units" (read back
+	// by Stack.Wavelengths).
+	BandMetadata []map[string]string
 	// ColorTable, when set, is given to band 1 (Byte outputs).
 	ColorTable [][4]int16
 	Format     Format
@@ -277,6 +281,13 @@ func (o *Output) describe() error {
 		if i < len(s.Scales) {
 			if err := b.SetScaleOffset(s.Scales[i], s.Offsets[i], errLogger); err != nil {
 				return err
+			}
+		}
+		if i < len(s.BandMetadata) {
+			for k, v := range s.BandMetadata[i] {
+				if err := b.SetMetadata(k, v, errLogger); err != nil {
+					return err
+				}
 			}
 		}
 		if i == 0 && s.ColorTable != nil {

@@ -95,6 +95,16 @@ read -r tl _ < <(measure "bandfold learn both scenes" $B learn "$scene" "$scene2
 read -r tc rssc < <(measure "bandfold change" $B change "$scene" "$scene2" --out "$OUT/change" --overwrite --quiet)
 say "   ratio change/learn: time $(ratio "$tc" "$tl")"
 
+say "== fold to an error budget, 224-band cube (target: <= 0.6x the bytes of --type int16 at the basis's k, at no higher RMSE; <= 1.3x its time)"
+bc=$OUT/basis-cube224.json
+read -r t16 _ < <(measure "bandfold fold int16 (99% variance k)" $B fold "$cube" --basis "$bc" --type int16 --out "$OUT/cube224.int16.tif" --overwrite --quiet)
+rmse=$($B unfold "$OUT/cube224.int16.tif" --basis "$bc" --out "$OUT/cube224.restored.tif" --compare "$cube" --overwrite --quiet --json | $PY -c 'import json,sys; print(json.load(sys.stdin)["rmse"])')
+read -r tb _ < <(measure "bandfold fold --max-rmse $rmse" $B fold "$cube" --basis "$bc" --max-rmse "$rmse" --out "$OUT/cube224.budget.tif" --overwrite --quiet)
+b16=$(stat -c %s "$OUT/cube224.int16.tif") bb=$(stat -c %s "$OUT/cube224.budget.tif")
+achieved=$($B fold "$cube" --basis "$bc" --max-rmse "$rmse" --out "$OUT/cube224.budget.tif" --overwrite --quiet --json | $PY -c 'import json,sys; d=json.load(sys.stdin); print(d["achieved_rmse"], d["components"], d["type"])')
+say "   int16: $b16 bytes, rmse $rmse; budget: $bb bytes, achieved rmse, k, type: $achieved"
+say "   ratio budget/int16: bytes $(ratio "$bb" "$b16"), time $(ratio "$tb" "$t16")"
+
 say "== batch fold: 20 demo-sized scenes (2048 x 2048 x 8)"
 mkdir -p "$OUT/batch/in"
 for i in $(seq 1 20); do
@@ -106,4 +116,11 @@ rm -rf "$OUT/batch/one" "$OUT/batch/all" && mkdir -p "$OUT/batch/one" "$OUT/batc
 read -r t1 _ < <(measure "20 scenes one by one" bash -c "for f in $OUT/batch/in/*.tif; do $B fold \$f --basis $OUT/batch/basis.json --out $OUT/batch/one/\$(basename \$f .tif).c.tif --quiet || exit 1; done")
 read -r tb _ < <(measure "20 scenes in one batch" $B fold "$OUT/batch/in/*.tif" --basis "$OUT/batch/basis.json" --out-dir "$OUT/batch/all" --quiet)
 say "   scenes per minute: one by one $(awk -v t="$t1" 'BEGIN{printf "%.1f", 20*60/t}'), batch $(awk -v t="$tb" 'BEGIN{printf "%.1f", 20*60/t}')"
+# -- learn --method mnf against --method pca (issue 14) --
+say "== learn --method mnf vs pca on the 224-band cube (target: mnf <= 1.5x pca; peak <= 256 MiB)"
+read -r tp _ < <(measure "bandfold learn --method pca cube224" $B learn "$cube" --method pca --out "$OUT/basis-pca.json" --overwrite --quiet)
+read -r tm rssm < <(measure "bandfold learn --method mnf cube224" $B learn "$cube" --method mnf --out "$OUT/basis-mnf.json" --overwrite --quiet)
+say "   ratio mnf/pca: time $(ratio "$tm" "$tp"), peak $rssm MiB"
+# -- end mnf vs pca --
+
 say "results in $RES"

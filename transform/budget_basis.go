@@ -147,12 +147,20 @@ type RateRow struct {
 	Step         float64 `json:"step"`
 	RMSE         float64 `json:"rmse"`
 	BitsPerPixel float64 `json:"bits_per_pixel"`
+	// SizeRatio is the estimated size ratio, the bits per pixel of the
+	// bands' stored types against BitsPerPixel; nil where either is
+	// unknown or zero.
+	SizeRatio *float64 `json:"size_ratio"`
 }
 
 // RateTable returns the rate–distortion table of b, one row per K = 1..p.
 func (b *Basis) RateTable() []RateRow {
 	v, g, p := b.BudgetVariances(), b.BudgetGains(), len(b.Bands)
 	peak := b.PeakRange()
+	raw := 0.0
+	for _, bd := range b.Bands {
+		raw += float64(typeBits(bd.DataType))
+	}
 	rows := make([]RateRow, len(v))
 	for k := 1; k <= len(v); k++ {
 		theta := v[len(v)-1]
@@ -165,7 +173,26 @@ func (b *Basis) RateTable() []RateRow {
 		if ps := PSNR(r.TruncationRMSE*r.TruncationRMSE, peak); finite(ps) {
 			r.PSNR = &ps
 		}
+		if raw > 0 && r.BitsPerPixel > 0 {
+			ratio := raw / r.BitsPerPixel
+			r.SizeRatio = &ratio
+		}
 		rows[k-1] = r
 	}
 	return rows
+}
+
+// typeBits returns the bits of a GDAL data type name, 0 when unknown.
+func typeBits(dataType string) int {
+	switch dataType {
+	case "Byte", "Int8":
+		return 8
+	case "Int16", "UInt16":
+		return 16
+	case "Int32", "UInt32", "Float32":
+		return 32
+	case "Float64", "Int64", "UInt64":
+		return 64
+	}
+	return 0
 }

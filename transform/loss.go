@@ -31,7 +31,7 @@ type LossReport struct {
 	// with the band's peak the range max − min of its original valid values.
 	// It is nil for a band whose error or range is zero, where it is not
 	// finite.
-	PSNR []*float64 `json:"psnr_db"`
+	PSNR []*float64 `json:"band_psnr_db"`
 	// MeanPSNR is the mean of the non-nil PSNR values, nil if there are
 	// none.
 	MeanPSNR *float64 `json:"mean_psnr_db"`

@@ -85,7 +85,7 @@ func TestLoss(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	const want = `{"rmse":0.5,"band_rmse":[0,0.7071067811865476],"psnr_db":[null,9.030899869919436],` +
+	const want = `{"rmse":0.5,"band_rmse":[0,0.7071067811865476],"band_psnr_db":[null,9.030899869919436],` +
 		`"mean_psnr_db":9.030899869919436,"mean_sam_deg":2.9530705568852493,"max_abs_error":1}`
 	if string(data) != want {
 		t.Errorf("JSON\n%s\nwant\n%s", data, want)

@@ -7,6 +7,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/raster"
 	"bandfold/transform/change"
@@ -31,22 +32,7 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "change BEFORE AFTER --out DIR",
 		Short: "Map land-cover change between two dates from component score differences",
-		Long: `change projects both dates onto principal components (fitted on the pixels
-valid on both dates, or from --basis), takes the differences of the scores,
-normalises AFTER onto BEFORE's radiometric scale over stable pixels
-(--normalize), estimates the no-change distribution of those differences robustly (location
-and covariance, iteratively trimmed), and maps the pixels whose Mahalanobis
-statistic Z exceeds the threshold. Small patches are removed with GDAL's
-sieve filter (--min-area), patches are polygonized into a GeoPackage, and
-areas are ground areas on the CRS's ellipsoid.
-
-Outputs in DIR: change.tif (1 change, 0 no change, 255 nodata), magnitude.tif
-(Z), pvalue.tif (no-change p-value), differences.tif (with --differences),
-changes.gpkg (layer "changes"), preview.png (before and after side by side),
-diagnostics.png (Z against the chi-square fit), summary.json and the folder's
-manifest. --overwrite replaces only a previous change output.
-
-` + job.Caution,
+		Long:  cli.ChangeHelp + job.Caution,
 		Example: `  bandfold change 2023.tif 2024.tif --out change-2024
   bandfold change l7-2001.tif l8-2013.tif --out change --bands-before 1-4 --bands-after 2-5 --min-area 0.5ha
   bandfold change 2023.tif 2024.tif --out change --threshold chisq:0.9999 --min-area 0.5ha --reference truth.gpkg
@@ -130,23 +116,7 @@ func (fl *changeFlags) options(before, after string) (job.ChangeOptions, error) 
 
 // reportChange prints the summary table on stderr.
 func (g *globals) reportChange(s *job.ChangeResult) {
-	if g.quiet {
-		return
+	if !g.quiet {
+		cli.ChangeText(g.stderr, s)
 	}
-	w := g.stderr
-	for _, line := range s.Lines() {
-		fmt.Fprintln(w, line)
-	}
-	for _, p := range s.Outputs {
-		fmt.Fprintf(w, "  wrote %s\n", p)
-	}
-	fmt.Fprintf(w, "note: %s\n", job.Caution)
-}
-
-// rate prints a rate with the given decimals, or "undefined" (0/0).
-func rate(v *float64, decimals int) string {
-	if v == nil {
-		return "undefined"
-	}
-	return fmt.Sprintf("%.*f", decimals, *v)
 }

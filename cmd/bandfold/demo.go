@@ -14,11 +14,7 @@ func newDemoCommand(g *globals) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "demo",
 		Short: "Make the invented Vessel river scenario and run the whole job on it",
-		Long: `demo writes an invented scenario: the Vessel river catchment, a fictional
-place seen on two dates a year apart by an 8-band multispectral sensor at 10 m
-(with a forest clearing, a growing reservoir and a burn scar between the
-dates, and their truth mask), and by a 120-band hyperspectral sensor at 30 m.
-It then runs bandfold's jobs on it and lists where every output lies.`,
+		Long:  cli.DemoHelp,
 		Example: `  bandfold demo --dir demo-out
   bandfold demo --dir small --size 512`,
 		Args: args(cobra.NoArgs),

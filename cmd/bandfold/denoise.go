@@ -6,6 +6,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/raster"
 )
@@ -21,12 +22,9 @@ func newDenoiseCommand(g *globals) *cobra.Command { return denoiseCommand(g, &de
 // denoiseCommand binds the command's flags to fl.
 func denoiseCommand(g *globals, fl *denoiseFlags) *cobra.Command {
 	cmd := &cobra.Command{
-		Use:   "denoise IMAGE --basis B.json --out OUT.tif",
-		Short: "Fold and unfold an image in one pass: keep the k leading components",
-		Long: `denoise projects every pixel onto the k leading components of the basis and
-back, without writing the components. With an MNF basis (learn --method mnf)
-this is minimum noise fraction noise removal, x = mean + S_N A_k A_k^T (x - mean).
-Bands the basis excluded are dropped from IMAGE by number.`,
+		Use:     "denoise IMAGE --basis B.json --out OUT.tif",
+		Short:   "Fold and unfold an image in one pass: keep the k leading components",
+		Long:    cli.DenoiseHelp,
 		Example: `  bandfold denoise cube.tif --basis cube.mnf.json --out cube.denoised.tif -k 12`,
 		Args:    args(cobra.ExactArgs(1)),
 		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {

@@ -5,8 +5,10 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"strconv"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
@@ -18,6 +20,9 @@ type foldFlags struct {
 	format     string
 	shard      string
 	shardCount int
+	maxRMSE    string
+	minPSNR    float64
+	set        *pflag.FlagSet
 	o          job.FoldOptions
 }
 
@@ -28,20 +33,7 @@ func foldCommand(g *globals, fl *foldFlags) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "fold IMAGE... --basis BASIS.json (--out COMPONENTS.tif | --out-dir DIR)",
 		Short: "Write component images: the scores of every pixel on the kept components",
-		Long: `fold projects every valid pixel onto the leading components of a basis,
-y = W_k^T ((x - mean) / s), tile by tile in parallel, and writes the scores as
-a georeferenced raster. Invalid pixels become nodata.
-
-With a basis fitted on another scene, fold reports the share of this scene's
-variance the kept components explain next to the share on the fitting scene;
-a large drop means the basis no longer fits and should be refitted.
-
-Many scenes (arguments, --list, or a glob) go to --out-dir, named by --name.
-Outputs that already exist, are complete and were written from the same
-inputs and options are skipped, so a rerun after a crash finishes only what
-is missing; a failing scene is reported and the rest go on. --shard I/N (or
-auto, from a Slurm array or Kubernetes Indexed Job) takes every N-th scene of
-the list.`,
+		Long:  cli.FoldHelp,
 		Example: `  bandfold fold cube.tif --basis cube.basis.json --out cube.components.tif --type int16
   bandfold fold scenes/*.tif --basis ref.basis.json --out-dir components --json
   bandfold fold --list scenes.txt --basis ref.basis.json --out-dir components --shard auto`,
@@ -62,6 +54,7 @@ the list.`,
 		}),
 	}
 	f := cmd.Flags()
+	fl.set = f
 	fl.input.register(f, true)
 	o := &fl.o
 	f.StringVarP(&o.Basis, "basis", "b", "", "basis file from learn or merge")
@@ -72,6 +65,8 @@ the list.`,
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: the basis's chosen k)")
 	f.StringVar(&fl.format, "format", "gtiff", "gtiff or cog")
 	f.StringVar(&o.Type, "type", "float32", "float32, float64, or int16 (scaled per component: the compact form)")
+	f.StringVar(&fl.maxRMSE, "max-rmse", "", `error budget: the overall RMSE of the rebuilt bands, or "noise" (the basis's noise level); chooses the components and integer codes`)
+	f.Float64Var(&fl.minPSNR, "min-psnr", 0, "error budget as the least overall PSNR in dB (peak: the largest band range in the basis)")
 	f.BoolVar(&o.IgnoreBandNames, "ignore-band-names", false, "accept bands named differently from the basis's if they match in order")
 	f.StringArrayVar(&o.CreationOptions, "co", nil, "GDAL creation option KEY=VALUE (repeatable)")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace existing outputs")
@@ -109,7 +104,33 @@ func (fl *foldFlags) options(scenes []string, getenv func(string) string) (job.F
 	case o.Preview != "" && o.Out == "":
 		return o, usagef("--preview goes with --out (one input)")
 	}
+	if o.Budget, err = fl.budget(); err != nil || o.Budget.Kind == "" {
+		return o, err
+	}
+	if fl.set.Changed("type") || fl.set.Changed("components") {
+		return o, usagef("%s with --type or --components: the budget chooses the components and the integer type", o.Budget)
+	}
+	o.Type = ""
 	return o, nil
+}
+
+// budget translates --max-rmse and --min-psnr.
+func (fl *foldFlags) budget() (job.Budget, error) {
+	rmse, psnr := fl.set.Changed("max-rmse"), fl.set.Changed("min-psnr")
+	v, err := strconv.ParseFloat(fl.maxRMSE, 64)
+	switch {
+	case rmse && psnr:
+		return job.Budget{}, usagef("--max-rmse and --min-psnr: give one budget")
+	case psnr:
+		return job.Budget{Kind: job.BudgetPSNR, Value: fl.minPSNR}, nil
+	case rmse && fl.maxRMSE == "noise":
+		return job.Budget{Kind: job.BudgetNoise}, nil
+	case rmse && err != nil:
+		return job.Budget{}, usagef(`--max-rmse %q: want a number or "noise"`, fl.maxRMSE)
+	case rmse:
+		return job.Budget{Kind: job.BudgetRMSE, Value: v}, nil
+	}
+	return job.Budget{}, nil
 }
 
 // reportFold prints what fold wrote; a failed scene is printed even with

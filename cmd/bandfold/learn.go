@@ -40,12 +40,7 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "learn IMAGE... (--out BASIS.json | --partial PART.json)",
 		Short: "Fit a principal component basis from one or more scenes",
-		Long: `learn accumulates the band covariance of the images tile by tile in bounded
-memory, decomposes it, and writes the basis file every other command uses.
-Several IMAGE arguments are pooled scenes with the same bands.
-
-With --shard I/N --partial FILE, only every N-th tile (starting at I) is read
-and the un-decomposed statistics are written for "bandfold merge".`,
+		Long:  cli.LearnHelp,
 		Example: `  bandfold learn cube.tif --out cube.basis.json --variance 0.995
   bandfold learn 2025.tif 2026.tif --bands 1-6 --mode correlation --out pooled.basis.json
   bandfold learn scene.tif --shard 0/4 --partial part0.json`,
@@ -141,11 +136,9 @@ func (g *globals) reportBasis(s job.BasisSummary, path string) error {
 	return g.emit(s)
 }
 
-// reportSuggest lists the bands learn --suggest-exclude found under the
-// threshold.
+// reportSuggest lists the bands learn --suggest-exclude found.
 func (g *globals) reportSuggest(list []job.BandSNR) {
-	g.info("%d bands with estimated signal-to-noise ratio below %g (consider --exclude):", len(list), job.SuggestSNR)
-	for _, b := range list {
-		g.info("  band %d (%s, %g nm): snr %.3g", b.Band, b.Name, b.WavelengthNM, b.SNR)
+	if !g.quiet {
+		cli.SuggestText(g.stderr, list)
 	}
 }

@@ -5,18 +5,16 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 )
 
 func newMergeCommand(g *globals) *cobra.Command {
 	o := job.MergeOptions{}
 	cmd := &cobra.Command{
-		Use:   "merge PART... --out BASIS.json",
-		Short: "Combine the partial statistics of all shards into a basis",
-		Long: `merge combines the partial files written by "learn --shard I/N --partial"
-and finishes the basis. It refuses a set that is not exactly shards 0..N-1,
-once each, of the same inputs, bands, mode, tile size and stride, so a failed
-task can never yield a silently wrong basis.`,
+		Use:     "merge PART... --out BASIS.json",
+		Short:   "Combine the partial statistics of all shards into a basis",
+		Long:    cli.MergeHelp,
 		Example: `  bandfold merge parts/part-*.json --out scene.basis.json`,
 		Args:    args(cobra.MinimumNArgs(1)),
 		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
@@ -32,6 +30,7 @@ task can never yield a silently wrong basis.`,
 	f.StringVarP(&o.Out, "out", "o", "", "basis file to write (JSON)")
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components to keep (overrides --variance)")
 	f.Float64Var(&o.Variance, "variance", 0.99, "keep the fewest components whose cumulative share of variance reaches this fraction")
+	f.Float64Var(&o.MinSNR, "min-snr", 0, "for MNF partials, keep the components whose signal-to-noise ratio is at least this")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace an existing output")
 	cmd.MarkFlagRequired("out")
 	return cmd

@@ -112,6 +112,16 @@ func TestFoldFlagsToOptions(t *testing.T) {
 		{[]string{"a.tif", "b.tif", "-b", "b.json", "--out", "c.tif"}, job.FoldOptions{}, "--out takes one input"},
 		{[]string{"a.tif", "-b", "b.json", "--out-dir", "d", "--preview", "p.png"}, job.FoldOptions{}, "--preview goes with --out"},
 		{[]string{"-b", "b.json", "--out", "c.tif", "--list", "l.txt"}, job.FoldOptions{}, "--list goes with --out-dir"},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--max-rmse", "5"}, job.FoldOptions{Scenes: []string{"a.tif"}, Basis: "b.json", Out: "c.tif",
+			Name: "{stem}.components.tif", Format: raster.GTiff, Shard: job.Shard{I: 0, N: 1}, Budget: job.Budget{Kind: job.BudgetRMSE, Value: 5}}, ""},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--max-rmse", "noise"}, job.FoldOptions{Scenes: []string{"a.tif"}, Basis: "b.json", Out: "c.tif",
+			Name: "{stem}.components.tif", Format: raster.GTiff, Shard: job.Shard{I: 0, N: 1}, Budget: job.Budget{Kind: job.BudgetNoise}}, ""},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--min-psnr", "45"}, job.FoldOptions{Scenes: []string{"a.tif"}, Basis: "b.json", Out: "c.tif",
+			Name: "{stem}.components.tif", Format: raster.GTiff, Shard: job.Shard{I: 0, N: 1}, Budget: job.Budget{Kind: job.BudgetPSNR, Value: 45}}, ""},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--max-rmse", "low"}, job.FoldOptions{}, `--max-rmse "low": want a number or "noise"`},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--max-rmse", "5", "--min-psnr", "40"}, job.FoldOptions{}, "give one budget"},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--max-rmse", "5", "--type", "int16"}, job.FoldOptions{}, "--max-rmse 5 with --type or --components"},
+		{[]string{"a.tif", "-b", "b.json", "-o", "c.tif", "--min-psnr", "40", "-k", "2"}, job.FoldOptions{}, "--min-psnr 40 with --type or --components"},
 	}
 	checkOptions(t, tests, func(argv []string) (job.FoldOptions, error) {
 		fl := &foldFlags{}
@@ -163,5 +173,28 @@ func TestChangeFlagsToOptions(t *testing.T) {
 		fl := &changeFlags{}
 		a := parseArgs(t, changeCommand(&globals{}, fl), argv)
 		return fl.options(a[0], a[1])
+	})
+}
+
+func TestTimelineFlagsToOptions(t *testing.T) {
+	def, err := change.ParseThreshold(change.DefaultThreshold)
+	if err != nil {
+		t.Fatal(err)
+	}
+	tests := []optionCase[job.TimelineOptions]{
+		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d"}, job.TimelineOptions{Scenes: []string{"a.tif", "b.tif", "c.tif"}, Out: "d", Resampling: "bilinear",
+			Threshold: def, MinArea: job.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: job.NormalizeStable, Confirm: job.ConfirmLasting}, ""},
+		{[]string{"a.tif", "b.tif", "c.tif", "-o", "d", "--dates", "2016-07-01,2017,20180703", "--basis", "p.json", "-k", "2", "--normalize", "none",
+			"--confirm", "none", "--align", "--resampling", "nearest", "--min-area", "0.5ha", "--sample", "5000", "--overwrite"},
+			job.TimelineOptions{Scenes: []string{"a.tif", "b.tif", "c.tif"}, Out: "d", Dates: []string{"2016-07-01", "2017", "20180703"}, Basis: "p.json",
+				Components: 2, Normalize: job.NormalizeNone, Confirm: job.ConfirmNone, Align: true, Resampling: "nearest", Threshold: def,
+				MinArea: job.MinArea{M2: 5000}, Sample: 5000, Overwrite: true}, ""},
+		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d", "--threshold", "magic"}, job.TimelineOptions{}, `--threshold "magic"`},
+		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d", "--normalize", "histogram"}, job.TimelineOptions{}, `--normalize "histogram": want stable or none`},
+		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d", "--min-area", "5 acres"}, job.TimelineOptions{}, `--min-area "5 acres"`},
+	}
+	checkOptions(t, tests, func(argv []string) (job.TimelineOptions, error) {
+		fl := &timelineFlags{}
+		return fl.options(parseArgs(t, timelineCommand(&globals{}, fl), argv))
 	})
 }

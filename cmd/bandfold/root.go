@@ -93,14 +93,7 @@ func newRootCommand(g *globals) *cobra.Command {
 	root := &cobra.Command{
 		Use:   "bandfold",
 		Short: "Principal components, compression and change maps for multiband imagery",
-		Long: `bandfold fits a principal component basis of multiband and hyperspectral
-rasters in bounded memory (band covariance accumulated tile by tile), writes
-component images as GeoTIFF, reconstructs bands from a few components with a
-measured loss, and maps land-cover change between two dates.
-
-An IMAGE argument is one GDAL-readable raster, or several files on one grid
-joined with commas ("b2.tif,b3.tif,b4.tif"), stacked in that order as one
-image. A pixel counts only when it is valid in every selected band.`,
+		Long:  cli.RootHelp,
 		Example: `  bandfold demo --dir demo-out
   bandfold learn scene.tif --out scene.basis.json
   bandfold fold scene.tif --basis scene.basis.json --out scene.components.tif`,
@@ -122,7 +115,7 @@ image. A pixel counts only when it is valid in every selected band.`,
 		newFoldCommand(g),
 		newUnfoldCommand(g),
 		newDenoiseCommand(g),
-		newChangeCommand(g),
+		newChangeCommand(g), newTimelineCommand(g),
 		newInspectCommand(g),
 		newDemoCommand(g),
 		newSurveyCommand(g),

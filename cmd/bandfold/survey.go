@@ -2,11 +2,11 @@ package main
 
 import (
 	"context"
-	"strconv"
 	"strings"
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 )
 
@@ -22,7 +22,7 @@ func newSurveyCommand(g *globals) *cobra.Command {
 		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
 			o.Dir = a[0]
 			var err error
-			if o.ExpectedAccuracy, err = parseAccuracy(acc); err != nil {
+			if o.ExpectedAccuracy, err = cli.ParseAccuracy(acc); err != nil {
 				return err
 			}
 			res, err := job.SurveyDraw(ctx, env, o)
@@ -70,21 +70,4 @@ func newSurveyCommand(g *globals) *cobra.Command {
 	est.Flags().BoolVar(&e.Overwrite, "overwrite", false, "replace an existing estimate.json")
 	cmd.AddCommand(draw, est)
 	return cmd
-}
-
-// parseAccuracy reads "change=0.7,no change=0.95".
-func parseAccuracy(s string) (map[string]float64, error) {
-	out := map[string]float64{}
-	for _, part := range strings.Split(s, ",") {
-		if strings.TrimSpace(part) == "" {
-			continue
-		}
-		k, v, ok := strings.Cut(part, "=")
-		u, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
-		if !ok || err != nil || u <= 0 || u > 1 {
-			return nil, usagef("--expected-accuracy %q: want class=U with 0 < U <= 1, such as change=0.7,no change=0.95", part)
-		}
-		out[strings.TrimSpace(k)] = u
-	}
-	return out, nil
 }

@@ -5,6 +5,7 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
 )
 
@@ -13,9 +14,7 @@ func newSynthCommand(g *globals) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "synth --bands P --width W --height H --out FILE",
 		Short: "Write a synthetic cube of spectrally correlated bands (for benchmarks)",
-		Long: `synth writes an invented cube: a few latent spectra mixed with smooth
-abundance fields plus noise, so its principal components behave like those of
-real imagery. The output is a tiled, uncompressed GeoTIFF.`,
+		Long:  cli.SynthHelp,
 		Example: `  bandfold demo synth --bands 224 --width 1024 --height 1024 --type int16 --out cube224.tif
   bandfold demo synth --bands 7 --width 8192 --height 8192 --type uint16 --block 512 --out scene7.tif`,
 		Args: args(cobra.NoArgs),

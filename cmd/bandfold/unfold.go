@@ -24,16 +24,7 @@ func unfoldCommand(g *globals, fl *unfoldFlags) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "unfold COMPONENTS --basis BASIS.json --out RESTORED.tif",
 		Short: "Reconstruct the bands from component images, and measure the loss",
-		Long: `unfold rebuilds every band from the component scores, x = mean + s (W_k y),
-and writes them in the original bands' type (rounded and clamped to its
-range), or as float32/float64.
-
-With --compare ORIGINAL (same grid and bands; --bands, --nodata and --mask
-apply to it) it reports the loss: RMSE overall and per band, on the
-unrounded reconstruction and on the values written, PSNR per band (peak =
-max - min of the original's valid values), the mean spectral angle, the
-largest absolute error, and the compression ratio against a lossless DEFLATE
-copy of the original.`,
+		Long:  cli.UnfoldHelp,
 		Example: `  bandfold unfold cube.components.tif --basis cube.basis.json --out cube.restored.tif --compare cube.tif
   bandfold unfold cube.components.tif --basis cube.basis.json --out restored.tif --type float32 --json`,
 		Args: args(cobra.ExactArgs(1)),

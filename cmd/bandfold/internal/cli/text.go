@@ -4,7 +4,9 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"strconv"
 	"strings"
+	"unicode/utf8"
 
 	"bandfold/cmd/bandfold/internal/job"
 	"bandfold/cmd/bandfold/internal/scenario"
@@ -48,6 +50,20 @@ func BasisTable(w io.Writer, s job.BasisSummary, path string, all bool) {
 			fmt.Fprintf(w, "; eigenvalue > 1 keeps %d", *s.Kaiser)
 		}
 		fmt.Fprintln(w)
+		if s.Rate != nil {
+			RateTable(w, s, rows)
+		}
+	}
+}
+
+// RateTable prints the first rows of a basis's rate–distortion table: per
+// k, the truncation RMSE and its PSNR, and at the matching step the
+// predicted RMSE, the estimated bits per pixel and size ratio.
+func RateTable(w io.Writer, s job.BasisSummary, rows int) {
+	fmt.Fprintln(w, "rate and distortion (PSNR peak: the largest band range in the basis; step: the coarsest that keeps k components):")
+	fmt.Fprintf(w, "%4s | %14s | %9s | %12s | %12s | %10s | %10s\n", "k", "trunc_rmse", "psnr_db", "step", "rmse", "bits/px", "size_ratio")
+	for _, r := range s.Rate[:min(rows, len(s.Rate))] {
+		fmt.Fprintf(w, "%4d | %14.6g | %9s | %12.6g | %12.6g | %10.2f | %10s\n", r.K, r.TruncationRMSE, Rate(r.PSNR, 2), r.Step, r.RMSE, r.BitsPerPixel, Rate(r.SizeRatio, 2))
 	}
 }
 
@@ -61,6 +77,9 @@ func UnfoldText(w io.Writer, r *job.UnfoldResult) {
 	fmt.Fprintf(w, "  rmse %.6g (written values %.6g), max abs error %.6g, mean spectral angle %.4f deg\n", r.RMSE, *r.RMSEWritten, r.MaxAbs, r.MeanSAM)
 	if r.MeanPSNR != nil {
 		fmt.Fprintf(w, "  mean psnr %.2f dB\n", *r.MeanPSNR)
+	}
+	if r.OverallPSNR != nil {
+		fmt.Fprintf(w, "  overall psnr %.2f dB (of the overall rmse; peak %.6g = the largest band range in the basis)\n", *r.OverallPSNR, r.PSNRPeak)
 	}
 	if r.CompressionRatio != nil {
 		fmt.Fprintf(w, "  compression %.2f : 1 (lossless DEFLATE copy %d bytes; components %d + basis %d bytes)\n",
@@ -86,6 +105,10 @@ func DemoText(w io.Writer, o job.DemoOptions, r *job.DemoResult) {
 		}
 		fmt.Fprintf(w, "  int16 components + basis: %.1f : 1 against lossless DEFLATE; rmse %.2f, mean PSNR %s, mean spectral angle %.2f deg\n",
 			*hu.CompressionRatio, hu.RMSE, psnr, hu.MeanSAM)
+	}
+	if h := r.Hyper; h != nil {
+		fmt.Fprintf(w, "denoising without the water-vapour windows (%d of %d bands kept), k = %d components each:\n", h.Bands, hl.Bands, h.Components)
+		fmt.Fprintf(w, "  rmse against the noise-free cube: noisy %.2f, principal components %.2f, minimum noise fraction %.2f\n", h.RMSENoisy, h.RMSEPCA, h.RMSEMNF)
 	}
 	fmt.Fprintf(w, "multispectral pair: %d components keep %.2f%%; explained on %s %s, on %s %s\n",
 		pl.Components, 100*pl.Cumulative[pl.Components-1], c.Dates()[0], share(r.Folds[0].ExplainedScene), c.Dates()[1], share(r.Folds[1].ExplainedScene))
@@ -141,7 +164,118 @@ func FoldText(w io.Writer, r job.FoldScene) {
 		scene = fmt.Sprintf("%.4f", *r.ExplainedScene)
 	}
 	fmt.Fprintf(w, "  variance explained by the kept components: %.4f on the fitting scene, %s on this scene\n", r.ExplainedFit, scene)
+	if b := r.BudgetReport; b != nil {
+		psnr := "undefined (no error)"
+		if b.AchievedPSNR != nil {
+			psnr = fmt.Sprintf("%.2f dB", *b.AchievedPSNR)
+		}
+		fmt.Fprintf(w, "  budget rmse %.6g: predicted %.6g, achieved %.6g (psnr %s, peak %.6g = the largest band range in the basis)\n",
+			b.BudgetRMSE, b.PredictedRMSE, b.AchievedRMSE, psnr, b.PSNRPeak)
+		fmt.Fprintf(w, "  %s codes at step %.6g (write %d of at most 3); %d bytes", r.Type, b.Step, b.Attempts, b.BytesWritten)
+		if b.CompressionRatio != nil {
+			fmt.Fprintf(w, ", compression %.2f : 1 against a lossless DEFLATE copy (%d bytes) with the basis (%d bytes)", *b.CompressionRatio, b.OriginalDeflateBytes, b.BasisBytes)
+		}
+		fmt.Fprintln(w)
+	}
 	if r.Preview != "" {
 		fmt.Fprintf(w, "  quicklook %s\n", r.Preview)
 	}
+}
+
+// TimelineText prints a timeline run: a line per step and the outputs.
+func TimelineText(w io.Writer, r *job.TimelineResult) {
+	n := len(r.Scenes)
+	fmt.Fprintf(w, "timeline %s to %s: %d dates, %d components, threshold %s, confirmation %s\n", r.Scenes[0].Date, r.Scenes[n-1].Date, n, r.Components, r.Threshold, r.Confirm)
+	for _, s := range r.Steps {
+		area := ""
+		if s.ConfirmedAreaHa != nil {
+			area = fmt.Sprintf(" (%.1f ha)", *s.ConfirmedAreaHa)
+		}
+		note := ""
+		if !s.Confirmable {
+			note = "; last step: cannot be confirmed"
+		}
+		fmt.Fprintf(w, "  %s to %s: Z > %.4g, %s flagged, %s confirmed%s%s\n", s.From, s.To, s.Threshold.Z, job.Count(s.FlaggedPixels), job.Count(s.ConfirmedPixels), area, note)
+	}
+	fmt.Fprintf(w, "  %s of %s valid pixels changed at least once (confirmed)\n", job.Count(r.ChangedPixels), job.Count(r.ValidPixels))
+	for _, p := range r.Outputs {
+		fmt.Fprintf(w, "  wrote %s\n", p)
+	}
+	fmt.Fprintf(w, "note: %s\n", job.Caution)
+}
+
+// ChangeText prints a change summary: its lines, the outputs and the
+// caution.
+func ChangeText(w io.Writer, s *job.ChangeResult) {
+	for _, line := range s.Lines() {
+		fmt.Fprintln(w, line)
+	}
+	for _, p := range s.Outputs {
+		fmt.Fprintf(w, "  wrote %s\n", p)
+	}
+	fmt.Fprintf(w, "note: %s\n", job.Caution)
+}
+
+// LoadingsTable prints the loadings of the kept components on stderr: one
+// row per band (by name), one column per component, 4 decimals, numbers
+// right-aligned under a header.
+func LoadingsTable(w io.Writer, s job.BasisSummary) {
+	if len(s.Loadings) == 0 {
+		return
+	}
+	nameW := len("band")
+	for _, n := range s.BandNames {
+		nameW = max(nameW, utf8.RuneCountInString(n)) // fmt pads by runes
+	}
+	cells := make([][]string, len(s.BandNames))
+	colW := make([]int, len(s.Loadings))
+	for i := range s.Loadings {
+		colW[i] = len(fmt.Sprintf("PC%d", i+1))
+	}
+	for j := range s.BandNames {
+		cells[j] = make([]string, len(s.Loadings))
+		for i, vec := range s.Loadings {
+			cells[j][i] = fmt.Sprintf("%.4f", vec[j])
+			colW[i] = max(colW[i], len(cells[j][i]))
+		}
+	}
+	fmt.Fprintf(w, "loadings of the %d kept components:\n", len(s.Loadings))
+	fmt.Fprintf(w, "%-*s", nameW, "band")
+	for i := range s.Loadings {
+		fmt.Fprintf(w, " | %*s", colW[i], fmt.Sprintf("PC%d", i+1))
+	}
+	fmt.Fprintln(w)
+	for j, name := range s.BandNames {
+		fmt.Fprintf(w, "%-*s", nameW, name)
+		for i := range s.Loadings {
+			fmt.Fprintf(w, " | %*s", colW[i], cells[j][i])
+		}
+		fmt.Fprintln(w)
+	}
+}
+
+// SuggestText lists the bands whose estimated signal-to-noise ratio is
+// under job.SuggestSNR.
+func SuggestText(w io.Writer, list []job.BandSNR) {
+	fmt.Fprintf(w, "%d bands with estimated signal-to-noise ratio below %g (consider --exclude):\n", len(list), job.SuggestSNR)
+	for _, b := range list {
+		fmt.Fprintf(w, "  band %d (%s, %g nm): snr %.3g\n", b.Band, b.Name, b.WavelengthNM, b.SNR)
+	}
+}
+
+// ParseAccuracy reads --expected-accuracy: "change=0.7,no change=0.95".
+func ParseAccuracy(s string) (map[string]float64, error) {
+	out := map[string]float64{}
+	for _, part := range strings.Split(s, ",") {
+		if strings.TrimSpace(part) == "" {
+			continue
+		}
+		k, v, ok := strings.Cut(part, "=")
+		u, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+		if !ok || err != nil || u <= 0 || u > 1 {
+			return nil, job.Usagef("--expected-accuracy %q: want class=U with 0 < U <= 1, such as change=0.7,no change=0.95", part)
+		}
+		out[strings.TrimSpace(k)] = u
+	}
+	return out, nil
 }

@@ -3,8 +3,10 @@ package figures
 import (
 	"errors"
 	"fmt"
+	"image/color"
 	"io"
 	"math"
+	"slices"
 
 	"gonum.org/v1/plot"
 	"gonum.org/v1/plot/plotter"
@@ -33,7 +35,20 @@ type LoadingsData struct {
 	// Components is the number of kept components drawn (the first
 	// Components rows); 0 means all rows.
 	Components int
+	// WavelengthsNM, when set (one per band, increasing), adds a spectral
+	// panel below the heat map: each kept component's loading against
+	// wavelength, one line per component, broken across gaps in the bands
+	// (excluded absorption windows).
+	WavelengthsNM []float64
 }
+
+// spectralHeight is the height in pixels of the spectral panel, and
+// maxSpectralLines the components drawn in it at most (more lines than
+// that cannot be told apart).
+const (
+	spectralHeight   = 480
+	maxSpectralLines = 8
+)
 
 // loadingCells is the heat-map grid: columns are bands (x = band
 // index), rows are components with PC1 on top, and limit is the
@@ -136,8 +151,32 @@ func Loadings(w io.Writer, l LoadingsData) error {
 	bar.Add(&plotter.ColorBar{ColorMap: cm, Vertical: true})
 
 	height := loadingsHeight(k)
+	var sp *plot.Plot
+	var leg plot.Legend
+	if l.WavelengthsNM != nil {
+		if len(l.WavelengthsNM) != bands {
+			return fmt.Errorf("figures: loadings: %d wavelengths for %d bands", len(l.WavelengthsNM), bands)
+		}
+		if sp, leg, err = spectralPlot(g, l.WavelengthsNM); err != nil {
+			return err
+		}
+		height += spectralHeight
+	}
 	c := newCanvas(loadingsWidth, height)
 	dc := draw.New(c)
+	if sp != nil {
+		panel := draw.Crop(dc, 0, -px(colourBarStrip), 0, -px(float64(height-spectralHeight)))
+		heat := draw.Crop(dc, 0, -px(colourBarStrip), px(spectralHeight), 0)
+		alignPanels([]*plot.Plot{p, sp}, []*draw.Canvas{&heat, &panel})
+		sp.Draw(panel)
+		// The legend sits in the strip beside the panel, clear of the lines.
+		strip := dc
+		strip.Min.X, strip.Max.X = panel.Max.X+px(20), dc.Max.X-px(20)
+		strip.Min.Y, strip.Max.Y = sp.DataCanvas(panel).Min.Y, sp.DataCanvas(panel).Max.Y
+		leg.Draw(strip)
+		dc = draw.Crop(dc, 0, 0, px(spectralHeight), 0)
+		dc.Min.X, dc.Max.X = heat.Min.X, heat.Max.X+px(colourBarStrip)
+	}
 	main := draw.Crop(dc, 0, -px(colourBarStrip), 0, 0)
 	p.Draw(main)
 	// Align the colour bar with the heat map's data area.
@@ -224,4 +263,103 @@ func bandLabelsRotated(names []string, bands int) bool {
 	shown := len(thinIndices(bands, maxBandLabels))
 	spacing := float64(loadingsWidth-colourBarStrip-120) / float64(shown)
 	return float64(longest)*9+12 > spacing
+}
+
+// componentColours tell the lines of the spectral panel apart (Okabe & Ito
+// 2008, colour-blind safe, with black for the first component).
+var componentColours = []color.RGBA{
+	{0x00, 0x00, 0x00, 0xff}, {0xe6, 0x9f, 0x00, 0xff}, {0x56, 0xb4, 0xe9, 0xff}, {0x00, 0x9e, 0x73, 0xff},
+	{0xd5, 0x5e, 0x00, 0xff}, {0x00, 0x72, 0xb2, 0xff}, {0xcc, 0x79, 0xa7, 0xff}, {0x99, 0x99, 0x99, 0xff},
+}
+
+// spectralPlot draws each kept component's loadings against wavelength
+// (at most maxSpectralLines components), with the lines broken where the
+// band spacing jumps, and returns the plot and its legend (drawn apart).
+func spectralPlot(g *loadingCells, nm []float64) (*plot.Plot, plot.Legend, error) {
+	_, k := g.Dims()
+	shown := min(k, maxSpectralLines)
+	title := "Loadings against wavelength"
+	if shown < k {
+		title = fmt.Sprintf("%s (first %d of %d components)", title, shown, k)
+	}
+	p := newPlot(title)
+	p.X.Label.Text = "wavelength (nm)"
+	p.Y.Label.Text = "loading"
+	p.X.Tick.Marker = plot.ConstantTicks(wavelengthTicks(nm[0], nm[len(nm)-1]))
+	p.X.Min, p.X.Max = nm[0], nm[len(nm)-1]
+	p.X.Padding = 0
+	p.Add(plotter.NewGrid())
+	leg := plot.NewLegend()
+	leg.TextStyle = p.Legend.TextStyle
+	leg.Top, leg.Left = true, true
+	leg.Padding = vg.Points(4)
+	segs := spectralSegments(nm)
+	for i := range shown {
+		style := draw.LineStyle{Color: componentColours[i%len(componentColours)], Width: vg.Points(2)}
+		for si, sg := range segs {
+			xy := make(plotter.XYs, 0, sg[1]-sg[0])
+			for j := sg[0]; j < sg[1]; j++ {
+				xy = append(xy, plotter.XY{X: nm[j], Y: g.vals[i][j]})
+			}
+			line, err := plotter.NewLine(xy)
+			if err != nil {
+				return nil, leg, err
+			}
+			line.LineStyle = style
+			p.Add(line)
+			if si == 0 {
+				leg.Add(fmt.Sprintf("PC%d", i+1), line)
+			}
+		}
+	}
+	zero, err := plotter.NewLine(plotter.XYs{{X: nm[0], Y: 0}, {X: nm[len(nm)-1], Y: 0}})
+	if err != nil {
+		return nil, leg, err
+	}
+	zero.Color, zero.Width = inkColour, vg.Points(0.75)
+	p.Add(zero)
+	return p, leg, nil
+}
+
+// wavelengthTicks marks every 100 nm from lo to hi and labels every
+// 200 nm (every 500 nm over spans beyond 2500 nm).
+func wavelengthTicks(lo, hi float64) []plot.Tick {
+	label := 200.0
+	if hi-lo > 2500 {
+		label = 500
+	}
+	var ticks []plot.Tick
+	for v := math.Ceil(lo/100) * 100; v <= hi; v += 100 {
+		t := plot.Tick{Value: v}
+		if math.Mod(v, label) == 0 {
+			t.Label = fmt.Sprint(v)
+		}
+		ticks = append(ticks, t)
+	}
+	return ticks
+}
+
+// spectralSegments splits the bands into runs [start, end) without a gap:
+// a step between neighbouring wavelengths above 1.5 times the median step
+// starts a new run.
+func spectralSegments(nm []float64) [][2]int {
+	if len(nm) < 2 {
+		return [][2]int{{0, len(nm)}}
+	}
+	steps := make([]float64, len(nm)-1)
+	for j := range steps {
+		steps[j] = nm[j+1] - nm[j]
+	}
+	sorted := slices.Clone(steps)
+	slices.Sort(sorted)
+	median := sorted[len(sorted)/2]
+	var out [][2]int
+	start := 0
+	for j, d := range steps {
+		if d > 1.5*median {
+			out = append(out, [2]int{start, j + 1})
+			start = j + 1
+		}
+	}
+	return append(out, [2]int{start, len(nm)})
 }

@@ -6,6 +6,7 @@ import (
 	"image/color"
 	"image/png"
 	"math"
+	"slices"
 	"testing"
 )
 
@@ -159,5 +160,45 @@ func TestLoadingsPNG(t *testing.T) {
 	}
 	if b := img.Bounds(); b.Dx() != loadingsWidth || b.Dx() < 800 || b.Dy() != loadingsHeight(k) {
 		t.Errorf("size %v", b)
+	}
+}
+
+func TestSpectralSegments(t *testing.T) {
+	// Known by construction: a gap wider than 1.5 median steps breaks the line.
+	for _, tc := range []struct {
+		name string
+		nm   []float64
+		want [][2]int
+	}{
+		{"even", []float64{400, 410, 420, 430}, [][2]int{{0, 4}}},
+		{"one window", []float64{400, 410, 420, 500, 510, 520}, [][2]int{{0, 3}, {3, 6}}},
+		{"two windows", []float64{400, 410, 480, 490, 500, 600, 610}, [][2]int{{0, 2}, {2, 5}, {5, 7}}},
+		{"one band", []float64{550}, [][2]int{{0, 1}}},
+	} {
+		if got := spectralSegments(tc.nm); !slices.Equal(got, tc.want) {
+			t.Errorf("%s: %v, want %v", tc.name, got, tc.want)
+		}
+	}
+}
+
+func TestLoadingsSpectralPanel(t *testing.T) {
+	vecs := [][]float64{{0.5, 0.5, 0.5, 0.5}, {0.5, -0.5, 0.5, -0.5}}
+	var with, without bytes.Buffer
+	if err := Loadings(&with, LoadingsData{Vectors: vecs, WavelengthsNM: []float64{450, 550, 650, 2200}}); err != nil {
+		t.Fatal(err)
+	}
+	if err := Loadings(&without, LoadingsData{Vectors: vecs}); err != nil {
+		t.Fatal(err)
+	}
+	a, err1 := png.Decode(&with)
+	b, err2 := png.Decode(&without)
+	if err1 != nil || err2 != nil {
+		t.Fatal(err1, err2)
+	}
+	if d := a.Bounds().Dy() - b.Bounds().Dy(); d != spectralHeight {
+		t.Errorf("spectral panel adds %d px, want %d", d, spectralHeight)
+	}
+	if err := Loadings(&with, LoadingsData{Vectors: vecs, WavelengthsNM: []float64{450, 550}}); err == nil {
+		t.Error("2 wavelengths for 4 bands accepted")
 	}
 }

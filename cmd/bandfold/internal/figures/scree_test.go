@@ -56,7 +56,7 @@ func TestScreeSeriesManyComponents(t *testing.T) {
 	if v.shown != 30 || len(v.shares) != 120 {
 		t.Fatalf("shown %d of %d, want 30 of 120", v.shown, len(v.shares))
 	}
-	if want := "Scene (first 30 of 120 components)"; v.title != want {
+	if want := "Scene\n(first 30 of 120 components)"; v.title != want {
 		t.Errorf("title %q, want %q", v.title, want)
 	}
 	for i := 1; i < len(v.cumulative); i++ {

@@ -102,6 +102,10 @@ type BasisSummary struct {
 	SNR           []float64            `json:"snr,omitempty"`
 	WavelengthsNM []float64            `json:"wavelengths_nm,omitempty"`
 	Excluded      []transform.Excluded `json:"excluded,omitempty"`
+	// Rate is the rate–distortion table (inspect): per number of kept
+	// components, the truncation RMSE, its PSNR and the estimated bits per
+	// pixel at the matching step.
+	Rate []transform.RateRow `json:"rate,omitempty"`
 }
 
 // Summarize describes basis b read from or written to path.

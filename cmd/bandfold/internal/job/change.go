@@ -241,6 +241,7 @@ type changeRun struct {
 	basis     *transform.Basis
 	basisName string
 	proj      *transform.Projector
+	fit       *pairFit
 	model     *change.Model
 	identical bool
 	zcut      float64
@@ -377,40 +378,53 @@ func (r *changeRun) distinct() error {
 // the grids differ.
 func (r *changeRun) openAfter() error {
 	o := r.o
-	paths := SplitStack(o.After)
+	g := onGrid{ref: r.before, align: o.Align, resampling: o.Resampling}
+	var err error
+	r.after, r.aligned, err = g.open(r.env, o.After, o.dateInput(o.BandsAfter).options(o.MaskAfter...), &r.cleanups)
+	return err
+}
+
+// onGrid opens stacks on a reference stack's grid.
+type onGrid struct {
+	ref        *raster.Stack
+	align      bool
+	resampling string
+}
+
+// open opens arg with opts, warped onto the reference grid when align is
+// set and the grids differ (reporting whether it was); the warped files'
+// cleanups are added to cleanups.
+func (g onGrid) open(env Env, arg string, opts []raster.Option, cleanups *[]func()) (*raster.Stack, bool, error) {
+	paths := SplitStack(arg)
 	if len(paths) == 0 {
-		return Usagef("empty image argument %q", o.After)
+		return nil, false, Usagef("empty image argument %q", arg)
 	}
-	opts := o.dateInput(o.BandsAfter).options(o.MaskAfter...)
-	// Masks of AFTER are on BEFORE's grid, so open the files alone first.
+	// Masks are on the reference grid, so open the files alone first.
 	probe, err := raster.Open(paths)
 	if err != nil {
-		return err
+		return nil, false, err
 	}
 	defer probe.Close()
-	gridErr := r.before.Grid.Compare(probe.Grid)
+	gridErr := g.ref.Grid.Compare(probe.Grid)
 	if gridErr == nil {
-		r.after, err = openStack(paths, opts)
-		return err
+		s, err := openStack(paths, opts)
+		return s, false, err
 	}
-	if !o.Align {
-		return fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", o.After, describe(r.before), gridErr)
+	if !g.align {
+		return nil, false, fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", arg, describe(g.ref), gridErr)
 	}
 	var vrts []string
 	for _, p := range paths {
-		vrt, cleanup, err := raster.AlignTo(p, r.before.Grid, o.Resampling)
+		vrt, cleanup, err := raster.AlignTo(p, g.ref.Grid, g.resampling)
 		if err != nil {
-			return err
+			return nil, false, err
 		}
 		vrts = append(vrts, vrt)
-		r.cleanups = append(r.cleanups, cleanup)
+		*cleanups = append(*cleanups, cleanup)
 	}
-	r.env.warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", o.After, describe(r.before), o.Resampling)
-	if r.after, err = openStack(vrts, opts); err != nil {
-		return err
-	}
-	r.aligned = true
-	return nil
+	env.warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", arg, describe(g.ref), g.resampling)
+	s, err := openStack(vrts, opts)
+	return s, err == nil, err
 }
 
 // scanPair reads both dates once: the pooled co-moments (unless a basis is
@@ -442,17 +456,10 @@ func (r *changeRun) fitBasis(context.Context) error {
 		if b.Inputs, err = fingerprints([]*raster.Stack{r.before, r.after}); err != nil {
 			return err
 		}
-		b.Components = max(transform.ComponentsFor(b.Eigenvalues, 0.99), min(p, 3))
+		b.Components = defaultComponents(b, p)
 		name = "fitted on both dates"
 	}
-	k := b.Components
-	if r.o.Components > 0 {
-		k = r.o.Components
-	}
-	if k > p {
-		return Usagef("--components %d: the images have %d bands", k, p)
-	}
-	proj, err := transform.NewProjector(b, k)
+	proj, err := projectorFor(b, r.o.Components, p)
 	if err != nil {
 		return err
 	}
@@ -463,28 +470,19 @@ func (r *changeRun) fitBasis(context.Context) error {
 // fitModel fits the robust no-change model on the sample's score
 // differences d = W_k^T (x_after - x_before) / s and resolves the threshold.
 func (r *changeRun) fitModel(context.Context) error {
-	dx := r.dx
-	k := r.proj.Components()
-	d := make([]float64, len(dx)/r.before.Len()*k)
-	r.proj.Difference(d, dx)
-	if allZero(dx) {
-		r.identical = true
+	f, err := fitPair(r.dx, r.before.Len(), r.proj, r.o.Threshold, r.o.Before+" and "+r.o.After)
+	if err != nil {
+		return err
+	}
+	r.fit, r.zs, r.eta, r.identical = f, f.zs, f.eta, f.identical
+	if f.identical {
 		r.env.warn("%s and %s are identical over the %d sampled pixels: no change is mapped", r.o.Before, r.o.After, len(r.dx)/r.before.Len())
-		r.zcut = 0 // every Z is 0, and a pixel is flagged only above the cut
+		r.zcut = 0
 		return nil
 	}
-	model, err := change.Fit(d, k, r.o.Threshold.Trim())
-	if err != nil {
-		return fmt.Errorf("no-change model of %s and %s: %w", r.o.Before, r.o.After, err)
-	}
-	r.zs = model.Scores(nil, d)
-	zcut, err := r.o.Threshold.Resolve(k, r.zs)
-	if err != nil {
-		return Usagef("--threshold %s: %v", r.o.Threshold, err)
-	}
-	r.model, r.zcut = model, zcut
+	r.model, r.zcut = f.model, f.zcut
 	r.checkThreshold()
-	r.env.log().Debug("no-change model", "iterations", model.Iterations, "sample", model.Sample, "z", zcut)
+	r.env.log().Debug("no-change model", "iterations", f.model.Iterations, "sample", f.model.Sample, "z", f.zcut)
 	return nil
 }
 
@@ -548,15 +546,21 @@ func (r *changeRun) summary(context.Context) error {
 	for _, name := range r.outputs {
 		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.dir.Final(), name))
 	}
-	for _, w := range r.warnings {
-		r.env.warn("%s", w)
+	return commitSummary(r.env, r.dir, "summary.json", r.sum, r.warnings)
+}
+
+// commitSummary prints the warnings kept for the end, writes v as the JSON
+// file name in the folder and moves the folder into place.
+func commitSummary(env Env, dir *output.Folder, name string, v any, warnings []string) error {
+	for _, w := range warnings {
+		env.warn("%s", w)
 	}
-	js, err := json.MarshalIndent(r.sum, "", "  ")
+	js, err := json.MarshalIndent(v, "", "  ")
 	if err != nil {
-		return fmt.Errorf("summary of %s: %w", r.o.Out, err)
+		return fmt.Errorf("summary of %s: %w", dir.Final(), err)
 	}
-	if err := output.WriteFile(r.dir.Path("summary.json"), append(js, '\n'), false); err != nil {
+	if err := output.WriteFile(dir.Path(name), append(js, '\n'), false); err != nil {
 		return err
 	}
-	return r.dir.Commit()
+	return dir.Commit()
 }

@@ -32,9 +32,11 @@ type DemoResult struct {
 	HyperLearn  *LearnResult
 	HyperFold   *FoldScene
 	HyperUnfold *UnfoldResult
-	PairLearn   *LearnResult
-	Folds       [2]*FoldScene
-	Change      *ChangeResult
+	// Hyper compares PCA and MNF denoising of the cube (demohyper.go).
+	Hyper     *DemoHyper
+	PairLearn *LearnResult
+	Folds     [2]*FoldScene
+	Change    *ChangeResult
 	// Outputs lists every file in Dir.
 	Outputs []string
 }
@@ -76,6 +78,9 @@ func Demo(ctx context.Context, env Env, o DemoOptions) (_ *DemoResult, err error
 	if res.HyperUnfold, err = Unfold(ctx, env, UnfoldOptions{Components: j("hyper.components.tif"), Basis: j("hyper.basis.json"),
 		Out: j("hyper.restored.tif"), Compare: f.Hyper, Overwrite: o.Overwrite}); err != nil {
 		return nil, fmt.Errorf("demo unfold: %w", err)
+	}
+	if res.Hyper, err = demoHyper(ctx, env, &o, c); err != nil {
+		return nil, err
 	}
 	if res.PairLearn, err = Learn(ctx, env, LearnOptions{Scenes: []string{f.Before, f.After}, Variance: 0.99, Out: j("pair.basis.json"), Overwrite: o.Overwrite}); err != nil {
 		return nil, fmt.Errorf("demo learn: %w", err)
@@ -176,7 +181,7 @@ func writeScenario(ctx context.Context, env Env, o *DemoOptions) (*scenario.Catc
 	hnd := c.HyperNoData()
 	hyperSpec := raster.Spec{Grid: raster.Grid{Width: hw, Height: hh, GeoTransform: c.HyperGeoTransform(), HasGeoTransform: true, Projection: wkt},
 		Bands: scenario.HyperBands, DataType: "Int16", NoData: &hnd, Descriptions: c.HyperBandNames(), Overwrite: o.Overwrite,
-		Metadata: with(map[string]string{"ACQUISITION_DATE": dates[1]})}
+		Metadata: with(map[string]string{"ACQUISITION_DATE": dates[1]}), BandMetadata: hyperBandMetadata(c)}
 	err = writeRaster(ctx, env, files.Hyper, hyperSpec, tiles.NewGrid(hw, hh, 256, 32), func(int) renderFunc {
 		return func(t tiles.Tile, dst []float64) error {
 			c.Hyperspectral(t.X, t.Y, t.W, t.H, dst)

@@ -8,7 +8,6 @@ import (
 
 	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/raster/output"
-	"bandfold/transform/change"
 )
 
 // warnf keeps a warning about the map for the summary; summary prints
@@ -22,27 +21,9 @@ func (r *changeRun) warnf(format string, args ...any) {
 // of freedom.
 func chisqMedian(k int) float64 { return distuv.ChiSquared{K: float64(k)}.Quantile(0.5) }
 
-// checkThreshold warns when the no-change model did not converge, when an
-// Otsu split separates poorly (eta below change.OtsuBound) and when a
-// sample-based cut (otsu, sigma:N) falls below the chi-square median, where
-// it flags more than half of the unchanged pixels.
+// checkThreshold keeps the fit's doubts (pairFit.warnings).
 func (r *changeRun) checkThreshold() {
-	k := r.proj.Components()
-	if !r.model.Converged {
-		r.warnf("the no-change model did not converge in %d iterations: the threshold and the p-values are uncertain; look at diagnostics.png", r.model.Iterations)
-	}
-	t := r.o.Threshold
-	if t.Rule == change.RuleOtsu {
-		if eta, err := change.OtsuSeparability(r.zs); err == nil {
-			r.eta = &eta
-			if eta < change.OtsuBound {
-				r.warnf("--threshold otsu: the histogram of log(1+Z) separates poorly (Otsu's eta = %.3f, below %.2f, that of a uniform histogram): there may be no change class to split off; prefer chisq:Q", eta, change.OtsuBound)
-			}
-		}
-	}
-	if med := chisqMedian(k); (t.Rule == change.RuleOtsu || t.Rule == change.RuleSigma) && r.zcut < med {
-		r.warnf("--threshold %s cuts at Z = %.4g, below the chi-square median %.4g of the no-change model (k = %d): more than half of the unchanged pixels would be mapped as change; prefer chisq:Q", t, r.zcut, med, k)
-	}
+	r.warnings = append(r.warnings, r.fit.warnings(r.o.Threshold, r.proj.Components())...)
 }
 
 // thresholdSummary is the threshold for the summary.

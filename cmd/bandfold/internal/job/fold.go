@@ -47,6 +47,10 @@ type FoldOptions struct {
 	// OnScene, when set, receives each scene's result of a batch as it
 	// finishes.
 	OnScene func(FoldScene)
+	// Budget, when set, chooses the components and the quantised integer
+	// codes from an error budget and proves it (see budget.go); it excludes
+	// Components and Type.
+	Budget Budget
 }
 
 // FoldScene is the result of folding one scene.
@@ -67,6 +71,9 @@ type FoldScene struct {
 	Saturated float64 `json:"saturated_fraction"`
 	Preview   string  `json:"preview,omitempty"`
 	Seconds   float64 `json:"seconds"`
+	// BudgetReport holds the predicted and achieved error of a budgeted
+	// fold.
+	*BudgetReport
 }
 
 // folding is what every scene of a run shares.
@@ -78,24 +85,16 @@ type folding struct {
 	k      int
 	dtype  string
 	format raster.Format
+	// plan is the allocation of a budgeted fold, nil otherwise.
+	plan *budgetPlan
 }
 
 var foldTypes = map[string]string{"float32": "Float32", "float64": "Float64", "int16": "Int16"}
 
-// prepare checks the options and reads the basis.
-func prepareFold(env Env, o *FoldOptions) (*folding, error) {
-	if o.Type == "" {
-		o.Type = "float32"
-	}
-	dtype, ok := foldTypes[strings.ToLower(o.Type)]
-	if !ok {
-		return nil, Usagef("--type %q: want float32, float64 or int16", o.Type)
-	}
+// readBasis checks the options every fold shares and reads the basis.
+func (o *FoldOptions) readBasis() (*transform.Basis, error) {
 	if o.Format == "" {
 		o.Format = raster.GTiff
-	}
-	if o.Components < 0 {
-		return nil, Usagef("--components %d: must be positive", o.Components)
 	}
 	if err := o.Input.check(); err != nil {
 		return nil, err
@@ -103,7 +102,25 @@ func prepareFold(env Env, o *FoldOptions) (*folding, error) {
 	if o.Preview != "" && raster.IsVirtual(o.Preview) {
 		return nil, Usagef("--preview %s: write the PNG to a local path", o.Preview)
 	}
-	b, err := transform.ReadBasis(o.Basis)
+	return transform.ReadBasis(o.Basis)
+}
+
+// prepare checks the options and reads the basis.
+func prepareFold(env Env, o *FoldOptions) (*folding, error) {
+	if o.Budget.set() {
+		return prepareBudget(env, o)
+	}
+	if o.Type == "" {
+		o.Type = "float32"
+	}
+	dtype, ok := foldTypes[strings.ToLower(o.Type)]
+	if !ok {
+		return nil, Usagef("--type %q: want float32, float64 or int16", o.Type)
+	}
+	if o.Components < 0 {
+		return nil, Usagef("--components %d: must be positive", o.Components)
+	}
+	b, err := o.readBasis()
 	if err != nil {
 		return nil, err
 	}
@@ -232,7 +249,7 @@ func (f *folding) record(s *raster.Stack) (string, error) {
 	in := f.o.Input
 	fmt.Fprintf(h, "bands %v\nnodata %v\nmasks %q\ntile %d\n", in.Bands, in.NoData, maskRules(in.Masks), in.Tile)
 	fmt.Fprintf(h, "align %v %s\ncalibrate %s\n", in.Align, in.Resampling, in.Calibrate)
-	fmt.Fprintf(h, "format %s\nco %q\nversion %s\n", f.format, f.o.CreationOptions, f.env.Version)
+	fmt.Fprintf(h, "format %s\nco %q\nversion %s\nbudget %+v\n", f.format, f.o.CreationOptions, f.env.Version, f.o.Budget)
 	return fmt.Sprintf("basis=%s components=%d type=%s options=%s", f.basis.Fingerprint(), f.k, f.dtype, hex.EncodeToString(h.Sum(nil))[:16]), nil
 }
 
@@ -282,14 +299,10 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 			return res, fmt.Errorf("output %s exists but was written with other inputs or options (use --overwrite to replace it)", out)
 		}
 	}
-	spec := f.spec(s)
-	spec.Overwrite = overwrite
-	dst, err := raster.Create(out, spec)
-	if err != nil {
-		return res, err
+	dst, stats, err := f.write(ctx, s, out, overwrite)
+	if dst != nil {
+		defer dst.Abort()
 	}
-	defer dst.Abort()
-	stats, err := f.project(ctx, s, dst, &spec)
 	if err != nil {
 		return res, err
 	}
@@ -306,6 +319,9 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 		return res, err
 	}
 	if err := dst.Finish(); err != nil {
+		return res, err
+	}
+	if err := f.reportBudget(&res, stats, dst, s); err != nil {
 		return res, err
 	}
 	// The preview is made and written under its temporary name before the
@@ -402,13 +418,20 @@ func (f *folding) spec(s *raster.Stack) raster.Spec {
 type foldStats struct {
 	x, y      *bands.Moments
 	saturated int64
+	// loss is the error of the reconstruction from the codes written (a
+	// budgeted fold), nil otherwise.
+	loss *transform.Loss
+	plan *budgetPlan
 }
 
 // project folds every tile of s into dst.
-func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Output, spec *raster.Spec) (foldStats, error) {
+func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Output, spec *raster.Spec, plan *budgetPlan) (foldStats, error) {
 	sc := newScan([]*raster.Stack{s}, tileGrid(f.o.Input.Tile), 1, Shard{})
 	p := s.Len()
-	st := foldStats{x: bands.NewMoments(p), y: bands.NewMoments(f.k)}
+	st := foldStats{x: bands.NewMoments(p), y: bands.NewMoments(f.k), plan: plan}
+	if plan != nil {
+		st.loss = transform.NewLoss(p)
+	}
 	pool := &sync.Pool{New: func() any { return &foldTile{x: bands.NewMoments(p), y: bands.NewMoments(f.k)} }}
 	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: f.env.workers(), Progress: f.env.progress("fold", sc.pixels())},
 		func(int) (tiles.Worker[*foldTile], error) {
@@ -416,13 +439,16 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 			if spec.DataType == "Float32" {
 				limit = math.MaxFloat32
 			}
-			return &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s), limit: limit}, nil
+			return &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s), limit: limit, plan: plan}, nil
 		},
 		func(t tiles.Tile, ft *foldTile) error {
 			err := dst.Write(t, ft.out)
 			st.x.Merge(ft.x)
 			st.y.Merge(ft.y)
 			st.saturated += ft.saturated
+			if st.loss != nil {
+				st.loss.Merge(ft.loss)
+			}
 			pool.Put(ft)
 			return err
 		})
@@ -435,6 +461,10 @@ type foldTile struct {
 	out       []float64
 	x, y      *bands.Moments
 	saturated int64
+	// loss and recon: the error of the tile rebuilt from its codes, and
+	// the scratch for that reconstruction (a budgeted fold).
+	loss         *transform.Loss
+	recon, codes []float64
 }
 
 type foldWorker struct {
@@ -447,6 +477,7 @@ type foldWorker struct {
 	// limit is the largest magnitude the output type holds as a finite
 	// value.
 	limit float64
+	plan  *budgetPlan
 }
 
 func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
@@ -476,6 +507,10 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 	}
 	ft.x.AddPixels(x, valid)
 	ft.y.AddPixels(ft.out, valid)
+	if w.plan != nil {
+		w.encode(ft, x, valid)
+		return ft, nil
+	}
 	for i := range n {
 		px := ft.out[i*k : i*k+k]
 		if !valid[i] {

@@ -18,6 +18,8 @@ type InspectOptions struct {
 	// Plots, when set, is the folder for scree.png and loadings.png.
 	Plots     string
 	Overwrite bool
+	// MaxRMSE, when positive, is drawn as the budget line of rate.png.
+	MaxRMSE float64
 }
 
 // InspectResult describes a basis file and the plots written.
@@ -35,10 +37,14 @@ func Inspect(_ context.Context, _ Env, o InspectOptions) (_ *InspectResult, err 
 		return nil, err
 	}
 	res := &InspectResult{Basis: b, Summary: Summarize(b, o.Basis)}
+	res.Summary.Rate = b.RateTable()
+	if o.MaxRMSE < 0 {
+		return nil, Usagef("--max-rmse %v: must be positive", o.MaxRMSE)
+	}
 	if o.Plots == "" {
 		return res, nil
 	}
-	draws := append(basisPlots(b), plotDraw{name: "report.html"})
+	draws := append(basisPlots(b), ratePlot(b, res.Summary.Rate, o.MaxRMSE), plotDraw{name: "report.html"})
 	var outs []output.Path
 	for _, d := range draws {
 		path := filepath.Join(o.Plots, d.name)
@@ -96,13 +102,31 @@ func basisPlots(b *transform.Basis) []plotDraw {
 	for _, band := range b.Bands {
 		names = append(names, band.Name)
 	}
-	title := fmt.Sprintf("%s, %s mode, %d pixels", filepath.Base(b.Source()), b.Mode, b.Pixels)
+	method := "principal components"
+	if b.Method == transform.MNF {
+		method = "minimum noise fraction"
+	}
+	src := filepath.Base(b.Source())
+	detail := fmt.Sprintf("%s, %s mode, %d pixels", method, b.Mode, b.Pixels)
 	return []plotDraw{
 		{"scree.png", func(w io.Writer) error {
-			return figures.Scree(w, figures.ScreeData{Title: "Variance by component: " + title, Eigenvalues: b.Eigenvalues, Chosen: b.Components})
+			return figures.Scree(w, figures.ScreeData{Title: "Variance by component: " + src, Detail: detail, Eigenvalues: b.Eigenvalues, Chosen: b.Components})
 		}},
 		{"loadings.png", func(w io.Writer) error {
-			return figures.Loadings(w, figures.LoadingsData{Title: "Loadings: " + title, BandNames: names, Vectors: b.Eigenvectors, Components: b.Components})
+			return figures.Loadings(w, figures.LoadingsData{Title: fmt.Sprintf("Loadings: %s (%s)", src, detail), BandNames: names,
+				Vectors: b.Eigenvectors, Components: b.Components, WavelengthsNM: b.WavelengthsNM})
 		}},
 	}
+}
+
+// ratePlot is rate.png: the estimated size ratio against the predicted
+// RMSE of each row of the rate table, with the budget line when given.
+func ratePlot(b *transform.Basis, rows []transform.RateRow, budget float64) plotDraw {
+	d := figures.RateData{Title: fmt.Sprintf("Estimated size against error: %s, %s", filepath.Base(b.Source()), b.Method), Budget: budget}
+	for _, r := range rows {
+		if r.SizeRatio != nil {
+			d.K, d.RMSE, d.Ratio = append(d.K, r.K), append(d.RMSE, r.RMSE), append(d.Ratio, *r.SizeRatio)
+		}
+	}
+	return plotDraw{"rate.png", func(w io.Writer) error { return figures.Rate(w, d) }}
 }

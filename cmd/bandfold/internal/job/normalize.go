@@ -177,13 +177,25 @@ func diffInto(dx, xb, xa []float64, norm []change.BandFit) {
 }
 
 // pool returns the pooled co-moments of BEFORE and of AFTER transformed by
-// norm: the mean of a·x + c is a·mean + c and its co-moments a_i·a_j·M_ij.
+// norm.
 func pool(accB, accA *bands.Accumulator, norm []change.BandFit) (*bands.Accumulator, error) {
 	out, err := bands.FromState(accB.State())
 	if err != nil {
 		return nil, err
 	}
-	st := accA.State()
+	a, err := normalized(accA, norm)
+	if err != nil {
+		return nil, err
+	}
+	out.Merge(a)
+	return out, nil
+}
+
+// normalized returns the co-moments of the pixels of acc transformed by
+// norm (nil: unchanged): the mean of a·x + c is a·mean + c and its
+// co-moments a_i·a_j·M_ij.
+func normalized(acc *bands.Accumulator, norm []change.BandFit) (*bands.Accumulator, error) {
+	st := acc.State()
 	for i, f := range norm {
 		st.Mean[i] = f.Apply(st.Mean[i])
 		for j := range st.CoMoment[i] {
@@ -194,12 +206,7 @@ func pool(accB, accA *bands.Accumulator, norm []change.BandFit) (*bands.Accumula
 			st.Min[i], st.Max[i] = min(lo, hi), max(lo, hi)
 		}
 	}
-	a, err := bands.FromState(st)
-	if err != nil {
-		return nil, err
-	}
-	out.Merge(a)
-	return out, nil
+	return bands.FromState(st)
 }
 
 // checkComparable warns when, in some band, the dates' valid-pixel means or

@@ -12,7 +12,6 @@ import (
 	"bandfold/bands"
 	"bandfold/raster"
 	"bandfold/tiles"
-	"bandfold/transform"
 	"bandfold/transform/change"
 )
 
@@ -141,13 +140,10 @@ type mapTile struct {
 
 type mapWorker struct {
 	*pairReader
-	proj  *transform.Projector
-	sc    *change.Scorer   // nil when the dates are identical
-	norm  []change.BandFit // AFTER onto BEFORE's scale; nil for none
-	zcut  float64
+	*pairScorer
+	k     int
 	diffs bool
 	pool  *sync.Pool
-	dx, d []float64
 }
 
 func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
@@ -155,43 +151,36 @@ func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
 	if err != nil {
 		return nil, err
 	}
-	n, k := t.Pixels(), w.proj.Components()
-	w.dx, w.d = grow(w.dx, len(xa)), grow(w.d, n*k)
-	diffInto(w.dx, xb, xa, w.norm)
-	w.proj.Difference(w.d, w.dx)
-	d := w.d
+	n, k := t.Pixels(), w.k
 	mt := w.pool.Get().(*mapTile)
 	mt.z, mt.pv = grow(mt.z, n), grow(mt.pv, n)
 	mt.flags, mt.top = grow(mt.flags, n), grow(mt.top, n)
+	w.score(xb, xa, valid, mt.z, mt.top, mt.flags)
 	if w.diffs {
 		mt.diffs = grow(mt.diffs, n*k)
 	}
 	for i := range n {
-		px := d[i*k : i*k+k]
-		if !valid[i] {
-			mt.z[i], mt.pv[i], mt.flags[i], mt.top[i] = math.NaN(), math.NaN(), 255, 0
-			if w.diffs {
-				for c := range k {
-					mt.diffs[i*k+c] = math.NaN()
-				}
-			}
+		switch {
+		case !valid[i]:
+			mt.pv[i] = math.NaN()
+		case w.sc == nil:
+			mt.pv[i] = 1
+		default:
+			mt.pv[i] = change.PValue(mt.z[i], k)
+		}
+		if !w.diffs {
 			continue
 		}
-		if w.sc == nil {
-			mt.z[i], mt.pv[i], mt.top[i], mt.flags[i] = 0, 1, 0, 0
-			if w.diffs {
-				copy(mt.diffs[i*k:i*k+k], px)
+		out, px := mt.diffs[i*k:i*k+k], w.d[i*k:i*k+k]
+		switch {
+		case !valid[i]:
+			for c := range out {
+				out[c] = math.NaN()
 			}
-			continue
-		}
-		z, top := w.sc.ZTop(px)
-		mt.z[i], mt.pv[i], mt.top[i] = z, change.PValue(z, k), uint8(top+1)
-		mt.flags[i] = 0
-		if z > w.zcut {
-			mt.flags[i] = 1
-		}
-		if w.diffs {
-			w.sc.Centre(mt.diffs[i*k:i*k+k], px)
+		case w.sc == nil:
+			copy(out, px)
+		default:
+			w.sc.Centre(out, px)
 		}
 	}
 	return mt, nil
@@ -232,19 +221,11 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 		}
 		defer diffs.Abort()
 	}
-	var sc *change.Scorer
-	if r.model != nil {
-		sc = r.model.Scorer()
-	}
 	pool := &sync.Pool{New: func() any { return &mapTile{} }}
 	ps := r.pair
 	err = tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", ps.before.pixels())},
 		func(int) (tiles.Worker[*mapTile], error) {
-			w := &mapWorker{pairReader: ps.newReader(), proj: r.proj.Clone(), zcut: r.zcut, diffs: r.o.Differences, pool: pool, norm: r.norm}
-			if sc != nil {
-				w.sc = r.model.Scorer()
-			}
-			return w, nil
+			return &mapWorker{pairReader: ps.newReader(), pairScorer: newPairScorer(r.proj, r.fit, r.norm), k: k, diffs: r.o.Differences, pool: pool}, nil
 		},
 		func(t tiles.Tile, mt *mapTile) error {
 			defer pool.Put(mt)

@@ -43,13 +43,8 @@ func composite(s *raster.Stack, rgb [3]int) (*image.RGBA, error) {
 	}
 	defer r.Close()
 	pw, ph := previewSize(s.Width, s.Height)
-	vals := make([]float64, pw*ph*3)
-	valid := make([]bool, pw*ph)
-	read := r.ReadScaled // nearest when enlarging
-	if pw < s.Width {
-		read = r.ReadAveraged
-	}
-	if _, err := read(tiles.Tile{W: s.Width, H: s.Height}, pw, ph, vals, valid); err != nil {
+	vals, valid, err := readPreview(r, s.Width, s.Height, pw, ph)
+	if err != nil {
 		return nil, err
 	}
 	var ch [3][]uint8
@@ -62,6 +57,56 @@ func composite(s *raster.Stack, rgb [3]int) (*image.RGBA, error) {
 		ch[c] = figures.Stretch(band, valid, lim[0], lim[1])
 	}
 	return figures.RGB(pw, ph, ch[0], ch[1], ch[2], valid), nil
+}
+
+// readPreview reads three bands of a w x h image at pw x ph: nearest
+// neighbour when enlarging; GDAL's average when reducing by at most 2;
+// beyond that, a nearest-neighbour read at 2pw x 2ph averaged 2 x 2 here.
+// GDAL's average over a whole large scene reads and sums every pixel of
+// the three bands (on two 8192² dates it made change 7-19% slower); four
+// samples per preview pixel smooth the speckle of a plain decimation at a
+// small part of that cost.
+func readPreview(r *raster.Reader, w, h, pw, ph int) ([]float64, []bool, error) {
+	whole := tiles.Tile{W: w, H: h}
+	vals, valid := make([]float64, pw*ph*3), make([]bool, pw*ph)
+	switch {
+	case pw >= w:
+		_, err := r.ReadScaled(whole, pw, ph, vals, valid)
+		return vals, valid, err
+	case w <= 2*pw:
+		_, err := r.ReadAveraged(whole, pw, ph, vals, valid)
+		return vals, valid, err
+	}
+	fw, fh := min(w, 2*pw), min(h, 2*ph)
+	fine, fineValid := make([]float64, fw*fh*3), make([]bool, fw*fh)
+	if _, err := r.ReadScaled(whole, fw, fh, fine, fineValid); err != nil {
+		return nil, nil, err
+	}
+	for y := range ph {
+		for x := range pw {
+			var sum [3]float64
+			n := 0
+			for _, fy := range []int{min(2*y, fh-1), min(2*y+1, fh-1)} {
+				for _, fx := range []int{min(2*x, fw-1), min(2*x+1, fw-1)} {
+					i := fy*fw + fx
+					if !fineValid[i] {
+						continue
+					}
+					for c := range 3 {
+						sum[c] += fine[i*3+c]
+					}
+					n++
+				}
+			}
+			o := y*pw + x
+			if valid[o] = n > 0; valid[o] {
+				for c := range 3 {
+					vals[o*3+c] = sum[c] / float64(n)
+				}
+			}
+		}
+	}
+	return vals, valid, nil
 }
 
 // firstThree are the positions of the first three bands of p (the first

@@ -3,6 +3,7 @@ package job
 import (
 	"context"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"sync"
@@ -39,6 +40,12 @@ type UnfoldResult struct {
 	Type       string `json:"type"`
 	Pixels     int64  `json:"pixels"`
 	*transform.LossReport
+	// OverallPSNR is the PSNR of the overall RMSE, 20 log10(peak / RMSE),
+	// with PSNRPeak the largest band range Max − Min recorded in the basis
+	// (the peak fold's budget uses); nil for a zero error. The per-band
+	// values (psnr_db) use each band's own range in the original.
+	OverallPSNR          *float64 `json:"psnr_db,omitempty"`
+	PSNRPeak             float64  `json:"psnr_peak,omitempty"`
 	RMSEWritten          *float64 `json:"rmse_written,omitempty"`
 	CompressionRatio     *float64 `json:"compression_ratio,omitempty"`
 	OriginalDeflateBytes int64    `json:"original_deflate_bytes,omitempty"`
@@ -235,6 +242,10 @@ func (u *unfolding) compare(res *UnfoldResult, loss, lossW *transform.Loss) erro
 	rw := lossW.Report().RMSE
 	res.RMSEWritten = &rw
 	res.Compared, res.ComparedPixels = o.Compare, loss.Pixels()
+	res.PSNRPeak = u.basis.PeakRange()
+	if ps := transform.PSNR(r.RMSE*r.RMSE, res.PSNRPeak); !math.IsInf(ps, 0) && !math.IsNaN(ps) {
+		res.OverallPSNR = &ps
+	}
 	var deflate int64
 	for _, p := range SplitStack(o.Compare) {
 		n, err := raster.DeflateSize(p, filepath.Dir(o.Out))

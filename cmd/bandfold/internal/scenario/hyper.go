@@ -35,11 +35,50 @@ func (c *Catchment) HyperNoData() float64 { return HyperNoData }
 // (x0, y0, w, h) of the hyperspectral grid into dst, pixel-major:
 // dst[(row*w+col)*HyperBands+b]. It shows the catchment on date 1 (after
 // the events): each pixel mixes the ground of its 3 x 3 block of 10 m
-// pixels, with the residual atmospheric absorption (weak signal, stronger
-// noise near 1400 and 1900 nm) of the invented sensor. Values are surface
+// pixels, with the residual atmospheric absorption (near-zero signal,
+// stronger noise near 1400 and 1900 nm) of the invented sensor and a few
+// bands of much higher noise (HyperNoisyBands). Values are surface
 // reflectance x 10000, integral in [-9998, 32767], or HyperNoData (all
 // bands) in the cube's own collar and outside the grid.
 func (c *Catchment) Hyperspectral(x0, y0, w, h int, dst []float64) {
+	c.hyperspectral(x0, y0, w, h, dst, true)
+}
+
+// HyperspectralClean renders the same window as Hyperspectral without the
+// sensor noise: the signal the noisy cube was drawn from (the same mixture,
+// illumination and absorption, neither noise nor rounding), with
+// HyperNoData in the collar. For a seed, Hyperspectral minus
+// HyperspectralClean is the noise, up to rounding and clamping.
+func (c *Catchment) HyperspectralClean(x0, y0, w, h int, dst []float64) {
+	c.hyperspectral(x0, y0, w, h, dst, false)
+}
+
+// HyperNoisyBands are the 0-based hyperspectral bands of the invented
+// sensor with a faulty detector element: their noise is HyperNoisyFactor
+// times that of their neighbours. They lie outside the absorption windows.
+var HyperNoisyBands = []int{21, 47, 101}
+
+// HyperNoisyFactor is the noise amplification of HyperNoisyBands.
+const HyperNoisyFactor = 12
+
+// HyperFWHM returns the full width at half maximum (nm) of every
+// hyperspectral band.
+func (c *Catchment) HyperFWHM() float64 { return hyperFWHM }
+
+// hyperNoiseSigma returns the noise standard deviation of each
+// hyperspectral band: the sensor's, raised in the faulty bands.
+func (c *Catchment) hyperNoiseSigma() [HyperBands]float64 {
+	var out [HyperBands]float64
+	for b := range out {
+		out[b] = float64(c.spec.hySigma[b])
+	}
+	for _, b := range HyperNoisyBands {
+		out[b] *= HyperNoisyFactor
+	}
+	return out
+}
+
+func (c *Catchment) hyperspectral(x0, y0, w, h int, dst []float64, noisy bool) {
 	checkWindow(w, h, HyperBands, len(dst))
 	if w == 0 || h == 0 {
 		return
@@ -54,6 +93,7 @@ func (c *Catchment) Hyperspectral(x0, y0, w, h int, dst []float64) {
 	var weight [nEnd]float32
 	var used []endmember
 	var spec [HyperBands]float32
+	sigma := c.hyperNoiseSigma()
 	for j := range h {
 		for i := range w {
 			n := j*w + i
@@ -87,10 +127,16 @@ func (c *Catchment) Hyperspectral(x0, y0, w, h int, dst []float64) {
 					spec[b] += wt * s[b]
 				}
 			}
+			if !noisy {
+				for b := range out {
+					out[b] = float64(spec[b])
+				}
+				continue
+			}
 			ph := pixelHash(c.hyNoise, x0+i, y0+j)
 			shared := common * gauss(ph)
 			for b := range out {
-				v := float64(spec[b]) + float64(c.spec.hySigma[b])*(own*gauss(bandHash(ph, b))+shared)
+				v := float64(spec[b]) + sigma[b]*(own*gauss(bandHash(ph, b))+shared)
 				out[b] = min(max(math.Round(v), HyperNoData+1), math.MaxInt16)
 			}
 		}

@@ -453,12 +453,13 @@ func explained(rows [][]float64) []float64 {
 
 func TestHyperspectralPCA(t *testing.T) {
 	// Designed: a few endmember mixtures plus noise, so that three
-	// components carry about 99.5% of the variance, one is far from enough
-	// and the noise keeps the rest from being negligible.
+	// components carry about 99% of the variance, one is far from enough
+	// and the noise (strong in the faulty HyperNoisyBands) keeps the rest
+	// from being negligible.
 	c := newTestCatchment(t, 288, 288, 10)
 	cube, _, _ := hyperCube(c)
 	cum := explained(validRows(cube, HyperBands, HyperNoData))
-	if cum[0] > 0.9 || cum[2] < 0.99 || cum[2] > 0.998 || cum[9] > 0.9995 {
+	if cum[0] > 0.9 || cum[2] < 0.98 || cum[2] > 0.998 || cum[9] > 0.9995 {
 		t.Errorf("cumulative variance of the first PCs: %.4f", cum[:10])
 	}
 }

@@ -1,0 +1,86 @@
+package job
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"sync"
+	"testing"
+
+	"bandfold/raster"
+)
+
+// The benchmarks below are the profile-led view of the hot paths: run
+// them with -cpuprofile (go test -run XXX -bench . -cpuprofile cpu.out
+// ./cmd/bandfold/internal/job) and read the profile with go tool pprof.
+// Their cubes are invented (scenario.Synth), written once per process.
+
+var benchCubes sync.Map // path by name
+
+// benchCube writes a synthetic cube of bands x side x side once and returns
+// its path.
+func benchCube(b *testing.B, name string, bands, side int, dtype string) string {
+	b.Helper()
+	if p, ok := benchCubes.Load(name); ok {
+		return p.(string)
+	}
+	dir, err := os.MkdirTemp("", "bandfold-bench-")
+	if err != nil {
+		b.Fatal(err)
+	}
+	path := filepath.Join(dir, name+".tif")
+	if _, err := Synth(context.Background(), Env{Workers: 2}, SynthOptions{Bands: bands, Width: side, Height: side, Type: dtype,
+		Block: 256, Interleave: "pixel", Out: path, Seed: 1}); err != nil {
+		b.Fatal(err)
+	}
+	benchCubes.Store(name, path)
+	return path
+}
+
+// benchLearn fits a basis on the cube once per iteration and reports
+// pixels per second.
+func benchLearn(b *testing.B, cube string, o LearnOptions) {
+	b.Helper()
+	out := filepath.Join(b.TempDir(), "b.json")
+	s, err := raster.Open([]string{cube})
+	if err != nil {
+		b.Fatal(err)
+	}
+	px := float64(s.Width * s.Height)
+	s.Close()
+	o.Scenes, o.Out, o.Overwrite = []string{cube}, out, true
+	if o.Variance == 0 {
+		o.Variance = 0.99
+	}
+	b.ResetTimer()
+	for range b.N {
+		if _, err := Learn(context.Background(), Env{Workers: 2}, o); err != nil {
+			b.Fatal(err)
+		}
+	}
+	b.ReportMetric(px*float64(b.N)/b.Elapsed().Seconds()/1e6, "Mpx/s")
+}
+
+func BenchmarkLearn224Bands(b *testing.B) {
+	benchLearn(b, benchCube(b, "cube224", 224, 512, "int16"), LearnOptions{})
+}
+
+func BenchmarkLearn7Bands(b *testing.B) {
+	benchLearn(b, benchCube(b, "scene7", 7, 2048, "uint16"), LearnOptions{})
+}
+
+func BenchmarkFold224Bands(b *testing.B) {
+	cube := benchCube(b, "cube224", 224, 512, "int16")
+	dir := b.TempDir()
+	basis := filepath.Join(dir, "b.json")
+	if _, err := Learn(context.Background(), Env{Workers: 2}, LearnOptions{Scenes: []string{cube}, Out: basis, Components: 10}); err != nil {
+		b.Fatal(err)
+	}
+	b.ResetTimer()
+	for range b.N {
+		if _, err := Fold(context.Background(), Env{Workers: 2}, FoldOptions{Scenes: []string{cube}, Basis: basis,
+			Out: filepath.Join(dir, "c.tif"), Overwrite: true}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

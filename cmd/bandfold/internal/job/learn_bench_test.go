@@ -1,0 +1,31 @@
+package job
+
+import (
+	"context"
+	"os"
+	"path/filepath"
+	"testing"
+
+	"bandfold/transform"
+)
+
+// BenchmarkLearnMethod fits PCA and MNF bases to the cube named by
+// BANDFOLD_BENCH_CUBE (e.g. the 224-band cube of make bench); skipped
+// without it. One worker, so profiles show the per-tile work alone.
+func BenchmarkLearnMethod(b *testing.B) {
+	cube := os.Getenv("BANDFOLD_BENCH_CUBE")
+	if cube == "" {
+		b.Skip("set BANDFOLD_BENCH_CUBE to a cube, e.g. bench-out/cube224.tif")
+	}
+	for _, m := range []transform.Method{transform.PCA, transform.MNF} {
+		b.Run(string(m), func(b *testing.B) {
+			out := filepath.Join(b.TempDir(), "basis.json")
+			for range b.N {
+				if _, err := Learn(context.Background(), Env{Workers: 1, Version: "bench"},
+					LearnOptions{Scenes: []string{cube}, Method: m, Out: out, Overwrite: true, Components: 3}); err != nil {
+					b.Fatal(err)
+				}
+			}
+		})
+	}
+}

@@ -1,0 +1,134 @@
+package job
+
+import (
+	"fmt"
+	"math"
+
+	"bandfold/transform"
+	"bandfold/transform/change"
+)
+
+// The pieces of a pair of dates' change statistic that change and timeline
+// share, so that the two commands compute the same flags from the same
+// sample, basis and settings.
+
+var nan = math.NaN()
+
+// pairFit is a pair of dates' robust no-change model and threshold.
+type pairFit struct {
+	model *change.Model // nil when identical
+	zs    []float64     // the sample's Z values
+	zcut  float64
+	eta   *float64 // Otsu separability, for otsu
+	// identical is set when the sample's band differences are all zero: no
+	// model is fitted and nothing is flagged.
+	identical bool
+}
+
+// fitPair fits the robust no-change model on the sample's score
+// differences d = W_k^T dx (dx: the band differences, n x p) and resolves
+// the threshold; what names the pair in errors.
+func fitPair(dx []float64, p int, proj *transform.Projector, t change.Threshold, what string) (*pairFit, error) {
+	k := proj.Components()
+	if allZero(dx) {
+		return &pairFit{identical: true}, nil // every Z is 0, and a pixel is flagged only above the cut
+	}
+	d := make([]float64, len(dx)/p*k)
+	proj.Difference(d, dx)
+	model, err := change.Fit(d, k, t.Trim())
+	if err != nil {
+		return nil, fmt.Errorf("no-change model of %s: %w", what, err)
+	}
+	f := &pairFit{model: model, zs: model.Scores(nil, d)}
+	if f.zcut, err = t.Resolve(k, f.zs); err != nil {
+		return nil, Usagef("--threshold %s: %v", t, err)
+	}
+	if t.Rule == change.RuleOtsu {
+		if eta, err := change.OtsuSeparability(f.zs); err == nil {
+			f.eta = &eta
+		}
+	}
+	return f, nil
+}
+
+// warnings are the doubts about a fitted pair: a model that did not
+// converge, an Otsu split that separates poorly (eta below
+// change.OtsuBound) and a sample-based cut (otsu, sigma:N) below the
+// chi-square median, where it flags more than half of the unchanged pixels.
+func (f *pairFit) warnings(t change.Threshold, k int) []string {
+	if f.model == nil {
+		return nil
+	}
+	var out []string
+	if !f.model.Converged {
+		out = append(out, fmt.Sprintf("the no-change model did not converge in %d iterations: the threshold and the p-values are uncertain; look at diagnostics.png", f.model.Iterations))
+	}
+	if f.eta != nil && *f.eta < change.OtsuBound {
+		out = append(out, fmt.Sprintf("--threshold otsu: the histogram of log(1+Z) separates poorly (Otsu's eta = %.3f, below %.2f, that of a uniform histogram): there may be no change class to split off; prefer chisq:Q", *f.eta, change.OtsuBound))
+	}
+	if med := chisqMedian(k); (t.Rule == change.RuleOtsu || t.Rule == change.RuleSigma) && f.zcut < med {
+		out = append(out, fmt.Sprintf("--threshold %s cuts at Z = %.4g, below the chi-square median %.4g of the no-change model (k = %d): more than half of the unchanged pixels would be mapped as change; prefer chisq:Q", t, f.zcut, med, k))
+	}
+	return out
+}
+
+// defaultComponents is the number of components kept of a basis fitted for
+// change: the fewest reaching 99% of the variance, at least min(p, 3).
+func defaultComponents(b *transform.Basis, p int) int {
+	return max(transform.ComponentsFor(b.Eigenvalues, 0.99), min(p, 3))
+}
+
+// projectorFor keeps requested components of b (b's own number when 0).
+func projectorFor(b *transform.Basis, requested, p int) (*transform.Projector, error) {
+	k := b.Components
+	if requested > 0 {
+		k = requested
+	}
+	if k > p {
+		return nil, Usagef("--components %d: the images have %d bands", k, p)
+	}
+	return transform.NewProjector(b, k)
+}
+
+// pairScorer computes a pair's change statistic tile by tile: one per
+// worker.
+type pairScorer struct {
+	proj *transform.Projector
+	sc   *change.Scorer   // nil when the dates are identical
+	norm []change.BandFit // AFTER onto BEFORE's scale; nil for none
+	zcut float64
+	dx   []float64
+	d    []float64 // the last tile's score differences, n x k
+}
+
+func newPairScorer(proj *transform.Projector, f *pairFit, norm []change.BandFit) *pairScorer {
+	s := &pairScorer{proj: proj.Clone(), norm: norm, zcut: f.zcut}
+	if f.model != nil {
+		s.sc = f.model.Scorer()
+	}
+	return s
+}
+
+// score sets, for each pixel of a tile, Z (NaN where not valid), the top
+// component (1-based; 0 for none) and the flag (1 above the cut, 0 not,
+// 255 not valid); it leaves the score differences in s.d.
+func (s *pairScorer) score(xb, xa []float64, valid []bool, z []float64, top, flags []uint8) {
+	n, k := len(valid), s.proj.Components()
+	s.dx, s.d = grow(s.dx, len(xa)), grow(s.d, n*k)
+	diffInto(s.dx, xb, xa, s.norm)
+	s.proj.Difference(s.d, s.dx)
+	for i := range n {
+		switch {
+		case !valid[i]:
+			z[i], top[i], flags[i] = nan, 0, 255
+		case s.sc == nil:
+			z[i], top[i], flags[i] = 0, 0, 0
+		default:
+			zi, t := s.sc.ZTop(s.d[i*k : i*k+k])
+			z[i], top[i], flags[i] = zi, uint8(t+1), 0
+			if zi > s.zcut {
+				flags[i] = 1
+			}
+		}
+	}
+}

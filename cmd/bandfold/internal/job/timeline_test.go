@@ -1,0 +1,149 @@
+package job
+
+import (
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"bandfold/raster"
+	"bandfold/tiles"
+	"bandfold/transform/change"
+)
+
+// thirdDate writes a third date of the scenario: BEFORE again with a little
+// noise (sd 20 in reflectance x 10000) and, as the file name says, dated
+// 2025-06-20; nothing else in it dates it.
+func thirdDate(t *testing.T, before, dir string) string {
+	t.Helper()
+	s, buf, valid := readImage(t, before, tiles.Tile{})
+	rng := rand.New(rand.NewPCG(7, 7))
+	p := s.Len()
+	for i := range buf {
+		if valid[i/p] {
+			buf[i] += 20 * rng.NormFloat64()
+		}
+	}
+	nd := 0.0
+	path := filepath.Join(dir, "vessel-2025-06-20.tif")
+	writeRasterFile(t, path, raster.Spec{Grid: s.Grid, Bands: p, DataType: "Float32", NoData: &nd}, buf)
+	return path
+}
+
+// TestTimelineStepsEqualChange: with --normalize none --confirm none and one
+// --basis, each step's flagged pixels must equal those of change on that
+// pair with the same basis and settings, pixel for pixel (exact: the same
+// sampler, model, threshold and sieve compute both, pairfit.go).
+func TestTimelineStepsEqualChange(t *testing.T) {
+	dir := t.TempDir()
+	f := scenarioFiles(t, dir, 128, 5)
+	third := thirdDate(t, f.Before, dir)
+	basis := filepath.Join(dir, "pair.basis.json")
+	learn(t, testEnv, LearnOptions{Scenes: []string{f.Before, f.After}, Variance: 0.99, Out: basis})
+	thr, err := change.ParseThreshold(change.DefaultThreshold)
+	if err != nil {
+		t.Fatal(err)
+	}
+	out := filepath.Join(dir, "tl")
+	// The scenes out of order: the timeline sorts them by date.
+	res, err := Timeline(t.Context(), workersEnv(3), TimelineOptions{Scenes: []string{third, f.After, f.Before}, Out: out, Basis: basis,
+		Threshold: thr, MinArea: MinArea{Px: 4}, Normalize: NormalizeNone, Confirm: ConfirmNone})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got := []string{res.Scenes[0].Date, res.Scenes[1].Date, res.Scenes[2].Date}; strings.Join(got, " ") != "2023-06-14 2024-06-19 2025-06-20" {
+		t.Fatalf("dates %v", got)
+	}
+	if res.Scenes[0].DateSource != "ACQUISITION_DATE" || res.Scenes[2].DateSource != "file name" {
+		t.Errorf("date sources %q, %q", res.Scenes[0].DateSource, res.Scenes[2].DateSource)
+	}
+	_, steps, _ := readImage(t, filepath.Join(out, "steps.tif"), tiles.Tile{})
+	order := []string{f.Before, f.After, third}
+	for q := range 2 {
+		co := filepath.Join(dir, "chg"+string(rune('a'+q)))
+		chg := runChange(t, workersEnv(2), ChangeOptions{Before: order[q], After: order[q+1], Out: co, Basis: basis,
+			Threshold: thr, MinArea: MinArea{Px: 4}, Normalize: NormalizeNone})
+		_, cm, _ := readImage(t, filepath.Join(co, "change.tif"), tiles.Tile{})
+		var flagged, diff int64
+		for i, c := range cm {
+			s := steps[i*2+q]
+			if (c == 1) != (s == stepConfirmed || s == stepUnconfirmed) || (c == 255) != (s == stepNoData) {
+				diff++
+			}
+			if c == 1 {
+				flagged++
+			}
+		}
+		if diff != 0 || flagged != res.Steps[q].FlaggedPixels || chg.ChangedPixels != flagged {
+			t.Errorf("step %d: %d pixels differ from change; change flags %d, timeline %d", q+1, diff, flagged, res.Steps[q].FlaggedPixels)
+		}
+		if res.Steps[q].Threshold.Z != chg.Threshold.Z {
+			t.Errorf("step %d: threshold Z %v, change's %v", q+1, res.Steps[q].Threshold.Z, chg.Threshold.Z)
+		}
+	}
+	if res.Steps[0].FlaggedPixels == 0 {
+		t.Error("the scenario's events flag nothing at step 1")
+	}
+	for _, name := range []string{"first-change.tif", "last-change.tif", "change-count.tif", "max-magnitude.tif", "steps.tif", "changes.gpkg",
+		"timeline.json", "timeline.png", "first-change.png", "report.html"} {
+		if _, err := os.Stat(filepath.Join(out, name)); err != nil {
+			t.Error(err)
+		}
+	}
+	if _, err := os.Stat(filepath.Join(out, "step-z.tif")); err == nil {
+		t.Error("the scratch step-z.tif was left in the folder")
+	}
+	md, err := raster.ReadMetadata(filepath.Join(out, "first-change.tif"))
+	if err != nil || md["BANDFOLD_CAUTION"] != Caution {
+		t.Errorf("first-change.tif caution %q, %v", md["BANDFOLD_CAUTION"], err)
+	}
+}
+
+// TestTimelineRefusals: bad input is a one-line error and nothing is written.
+func TestTimelineRefusals(t *testing.T) {
+	dir := t.TempDir()
+	f := scenarioFiles(t, dir, 64, 3)
+	third := thirdDate(t, f.Before, dir)
+	undated := filepath.Join(dir, "undated.tif")
+	copyFile(t, third, undated)
+	same := filepath.Join(dir, "again-2024-06-19.tif")
+	copyFile(t, third, same)
+	other := filepath.Join(dir, "other-2026-01-01.tif")
+	synth(t, other, 3, 64, 64, 1)
+	out := filepath.Join(dir, "tl")
+	tests := []struct {
+		name   string
+		o      TimelineOptions
+		usage  bool
+		expect []string
+	}{
+		{"two scenes", TimelineOptions{Scenes: []string{f.Before, f.After}}, true, []string{"at least 3 scenes, got 2"}},
+		{"dates of the wrong length", TimelineOptions{Scenes: []string{f.Before, f.After, third}, Dates: []string{"2020", "2021"}}, true, []string{"--dates lists 2 dates for 3 scenes"}},
+		{"bad date", TimelineOptions{Scenes: []string{f.Before, f.After, third}, Dates: []string{"2020", "2021", "soon"}}, true, []string{`"soon"`}},
+		{"no date", TimelineOptions{Scenes: []string{f.Before, f.After, undated}}, false, []string{undated, "has no date"}},
+		{"same date", TimelineOptions{Scenes: []string{f.Before, f.After, same}}, true, []string{same, f.After, "same date 2024-06-19"}},
+		{"grid differs", TimelineOptions{Scenes: []string{f.Before, f.After, other}}, false, []string{other, "pass --align"}},
+		{"confirm", TimelineOptions{Scenes: []string{f.Before, f.After, third}, Confirm: "maybe"}, true, []string{`--confirm "maybe"`}},
+	}
+	for _, tc := range tests {
+		tc.o.Out = out
+		_, err := Timeline(t.Context(), testEnv, tc.o)
+		wantError(t, tc.name, err, tc.usage, tc.expect...)
+		if err != nil && strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s: error of several lines: %q", tc.name, err)
+		}
+		mustNotExist(t, tc.name, out)
+	}
+}
+
+func copyFile(t *testing.T, src, dst string) {
+	t.Helper()
+	data, err := os.ReadFile(src)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(dst, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+}

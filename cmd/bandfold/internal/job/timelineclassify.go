@@ -1,0 +1,169 @@
+package job
+
+import (
+	"context"
+	"fmt"
+
+	"bandfold/raster"
+)
+
+// stepCount is a step's mapped pixels and ground areas.
+type stepCount struct {
+	flagged, confirmed         int64
+	flaggedArea, confirmedArea float64
+	patches                    int
+}
+
+// classify reads the sieved maps tile by tile and writes steps.tif,
+// first-change.tif, last-change.tif and change-count.tif; it leaves only
+// the confirmed flags in each mask for the patches and counts the mapped
+// pixels and areas.
+func (r *timelineRun) classify(ctx context.Context) error {
+	S, g := r.steps(), r.scenes[0].Grid
+	md := r.metadata()
+	nd8, nd0, ndc := float64(stepNoData), 0.0, -1.0
+	descs := make([]string, S)
+	for q := range descs {
+		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged not confirmed, 2 confirmed, 255 nodata", r.label(q), r.label(q+1))
+	}
+	specs := []struct {
+		name string
+		spec raster.Spec
+	}{
+		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, ColorTable: stepColors, Descriptions: descs, Metadata: md}},
+		{"first-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the first confirmed change (YYYYMMDD); nodata where none"}}},
+		{"last-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the last confirmed change (YYYYMMDD); nodata where none"}}},
+		{"change-count.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"confirmed changes per pixel; nodata where no step is valid"}}},
+	}
+	outs := make([]*raster.Output, len(specs))
+	for i, s := range specs {
+		o, err := raster.Create(r.dir.Path(s.name), s.spec)
+		if err != nil {
+			return err
+		}
+		defer o.Abort()
+		outs[i] = o
+	}
+	r.counts = make([]stepCount, S)
+	r.pw, r.ph = previewSize(g.Width, g.Height)
+	r.firstPrev = make([]uint8, r.pw*r.ph)
+	flags := make([][]uint8, S)
+	var vals, first, last, count []float64
+	for t := range gridFor(r.scenes[0], r.o.Input.Tile).Tiles() {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		n := t.Pixels()
+		vals, first, last, count = grow(vals, n*S), grow(first, n), grow(last, n), grow(count, n)
+		for q := range S {
+			flags[q] = grow(flags[q], n)
+			if err := r.masks[q].Read(t.X, t.Y, t.W, t.H, flags[q]); err != nil {
+				return err
+			}
+		}
+		for i := range n {
+			x, y := t.X+i%t.W, t.Y+i/t.W
+			bit := y*g.Width + x
+			cell := 0.0
+			if r.areas != nil {
+				cell = r.areas.At(x, y)
+			}
+			first[i], last[i], count[i] = 0, 0, -1
+			for q := range S {
+				f := flags[q][i]
+				v := float64(stepNoData)
+				switch {
+				case f == 255:
+				case f == 0:
+					v = stepNone
+				case r.confirm[q][bit/64]&(1<<(bit%64)) != 0:
+					v = stepConfirmed
+					c := &r.counts[q]
+					c.flagged, c.confirmed, c.flaggedArea, c.confirmedArea = c.flagged+1, c.confirmed+1, c.flaggedArea+cell, c.confirmedArea+cell
+				default:
+					v, f = stepUnconfirmed, 0
+					c := &r.counts[q]
+					c.flagged, c.flaggedArea = c.flagged+1, c.flaggedArea+cell
+				}
+				flags[q][i] = f
+				vals[i*S+q] = v
+				if v != stepNoData {
+					count[i] = max(count[i], 0)
+				}
+				if v == stepConfirmed {
+					date := float64(r.dates[q+1].yyyymmdd())
+					if first[i] == 0 {
+						first[i] = date
+						r.markPreview(x, y, q+1)
+					}
+					last[i] = date
+					count[i]++
+				}
+			}
+		}
+		for i := range n {
+			if count[i] >= 0 {
+				r.totalValid++
+			}
+			if count[i] > 0 {
+				r.totalChanged++
+				if r.areas != nil {
+					r.changedArea += r.areas.At(t.X+i%t.W, t.Y+i/t.W)
+				}
+			}
+		}
+		for q := range S {
+			if err := r.masks[q].SetMapped(t.X, t.Y, t.W, t.H, flags[q]); err != nil {
+				return err
+			}
+		}
+		for i, buf := range [][]float64{vals, first, last, count} {
+			if err := outs[i].Write(t, buf); err != nil {
+				return err
+			}
+		}
+	}
+	for i, o := range outs {
+		if err := o.Commit(); err != nil {
+			return err
+		}
+		r.outputs = append(r.outputs, specs[i].name)
+	}
+	return nil
+}
+
+// markPreview records, for first-change.png, the step of a pixel's first
+// confirmed change at its preview pixel (the earliest wins).
+func (r *timelineRun) markPreview(x, y, step int) {
+	g := r.scenes[0].Grid
+	span := func(v, full, prev int) (int, int) {
+		lo := v * prev / full
+		return lo, max(lo+1, min(prev, ((v+1)*prev+full-1)/full))
+	}
+	x0, x1 := span(x, g.Width, r.pw)
+	y0, y1 := span(y, g.Height, r.ph)
+	for py := y0; py < y1; py++ {
+		for px := x0; px < x1; px++ {
+			if v := &r.firstPrev[py*r.pw+px]; *v == 0 || int(*v) > step {
+				*v = uint8(min(step, 255))
+			}
+		}
+	}
+}
+
+// patches polygonizes each step's confirmed patches into changes.gpkg.
+func (r *timelineRun) patches(context.Context) error {
+	var steps []raster.PatchStep
+	for q, m := range r.masks {
+		steps = append(steps, raster.PatchStep{Mask: m, Band: q + 1, Date: r.label(q + 1)})
+	}
+	sums, err := raster.WriteStepPatches(r.dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.scratch, Metadata: r.metadata()}, steps)
+	if err != nil {
+		return err
+	}
+	for q, s := range sums {
+		r.counts[q].patches = s.Count
+	}
+	r.outputs = append(r.outputs, "changes.gpkg")
+	return r.removeScratch()
+}

@@ -1,0 +1,85 @@
+package main
+
+import (
+	"context"
+	"fmt"
+
+	"github.com/spf13/cobra"
+
+	"bandfold/cmd/bandfold/internal/cli"
+	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/transform/change"
+)
+
+type timelineFlags struct {
+	input     inputFlags
+	threshold string
+	minArea   string
+	dates     []string
+	o         job.TimelineOptions
+}
+
+func newTimelineCommand(g *globals) *cobra.Command { return timelineCommand(g, &timelineFlags{}) }
+
+// timelineCommand binds the command's flags to fl.
+func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
+	cmd := &cobra.Command{
+		Use:   "timeline SCENE... --out DIR",
+		Short: "Map when each pixel changed over a series of at least three dates",
+		Long:  cli.TimelineHelp + job.Caution,
+		Example: `  bandfold timeline 2019.tif 2020.tif 2021.tif 2022.tif --out timeline
+  bandfold timeline a.tif b.tif c.tif --dates 2016-07-01,2017-06-28,2018-07-03 --out timeline`,
+		Args: args(cobra.MinimumNArgs(1)),
+		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+			o, err := fl.options(a)
+			if err != nil {
+				return err
+			}
+			res, err := job.Timeline(ctx, env, o)
+			if err != nil {
+				return err
+			}
+			if !g.quiet {
+				cli.TimelineText(g.stderr, res)
+			}
+			return g.emit(res)
+		}),
+	}
+	f := cmd.Flags()
+	fl.input.register(f, false)
+	o := &fl.o
+	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
+	f.StringSliceVar(&fl.dates, "dates", nil, "the scenes' dates in the order given (YYYY-MM-DD, YYYYMMDD or YYYY); default: metadata, else the file names")
+	f.BoolVar(&o.Align, "align", false, "warp every scene onto the first's grid with GDAL when the grids differ")
+	f.StringVar(&o.Resampling, "resampling", "bilinear", "resampling for --align")
+	f.StringVarP(&o.Basis, "basis", "b", "", "basis to use instead of fitting one on all dates")
+	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
+	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
+	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
+	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of every date onto the first: stable or none")
+	f.StringVar(&o.Confirm, "confirm", job.ConfirmLasting, "lasting (a flag must last and not be a return) or none (keep every flag)")
+	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled per pair to estimate its no-change distribution")
+	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous timeline output folder")
+	cmd.MarkFlagRequired("out")
+	return cmd
+}
+
+// options translates the flags.
+func (fl *timelineFlags) options(scenes []string) (job.TimelineOptions, error) {
+	o := fl.o
+	o.Scenes, o.Dates = scenes, fl.dates
+	var err error
+	if o.Threshold, err = change.ParseThreshold(fl.threshold); err != nil {
+		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+	}
+	if o.MinArea, err = job.ParseMinArea(fl.minArea); err != nil {
+		return o, err
+	}
+	if o.Normalize, err = job.ParseNormalize(o.Normalize); err != nil {
+		return o, err
+	}
+	if o.Input, err = fl.input.input(); err != nil {
+		return o, err
+	}
+	return o, nil
+}

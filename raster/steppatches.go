@@ -1,0 +1,42 @@
+package raster
+
+import "fmt"
+
+// PatchStep is one map of a series for WriteStepPatches.
+type PatchStep struct {
+	Mask *ChangeMask
+	// Band is the 1-based band of the magnitude raster holding this
+	// map's change statistic.
+	Band int
+	// Date fills the date field of the map's patches.
+	Date string
+}
+
+// WriteStepPatches polygonizes the change patches (value 1) of several maps
+// on one grid into one GeoPackage at path, as Patches does for one map, with
+// each map's date in field "date" and z_mean and z_max from its band of
+// o.Magnitude (o.Dates is not used). It returns each map's summary.
+func WriteStepPatches(path string, o PatchOptions, steps []PatchStep) ([]PatchSummary, error) {
+	if len(steps) == 0 {
+		panic("raster: WriteStepPatches without maps")
+	}
+	for _, st := range steps[1:] {
+		if err := steps[0].Mask.grid.Compare(st.Mask.grid); err != nil {
+			return nil, fmt.Errorf("patches for %s: maps on different grids: %w", path, err)
+		}
+	}
+	return writePatches(path, o, "date", steps)
+}
+
+// SetMapped replaces the map of window (x, y, w, h) (the sieved map once
+// Sieve ran, the raw one before) with flags (0, 1 or 255), for example to
+// keep only the patches a later rule confirms before Patches.
+func (m *ChangeMask) SetMapped(x, y, w, h int, flags []uint8) error {
+	if err := checkWindow(m.grid, x, y, w, h, len(flags)); err != nil {
+		return fmt.Errorf("write change map: %w", err)
+	}
+	if err := m.ds.Bands()[m.current()].Write(x, y, flags, w, h, errLogger); err != nil {
+		return fmt.Errorf("write change map at %d,%d: %w", x, y, err)
+	}
+	return nil
+}
