@@ -4,6 +4,7 @@ import (
 	"context"
 	"os"
 	"path/filepath"
+	"strings"
 	"sync"
 	"testing"
 
@@ -80,6 +81,24 @@ func BenchmarkFold224Bands(b *testing.B) {
 	for range b.N {
 		if _, err := Fold(context.Background(), Env{Workers: 2}, FoldOptions{Scenes: []string{cube}, Basis: basis,
 			Out: filepath.Join(dir, "c.tif"), Overwrite: true}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+// BenchmarkChangePair maps change between the two scenes named by
+// BANDFOLD_BENCH_PAIR ("a.tif,b.tif"), for profiles on real-size inputs
+// (skipped without it).
+func BenchmarkChangePair(b *testing.B) {
+	pair := os.Getenv("BANDFOLD_BENCH_PAIR")
+	if pair == "" {
+		b.Skip("set BANDFOLD_BENCH_PAIR=before.tif,after.tif")
+	}
+	a, after, _ := strings.Cut(pair, ",")
+	dir := b.TempDir()
+	for range b.N {
+		if _, err := Change(context.Background(), Env{Workers: 2}, ChangeOptions{Before: a, After: after,
+			Out: filepath.Join(dir, "chg"), Overwrite: true}); err != nil {
 			b.Fatal(err)
 		}
 	}
