@@ -246,6 +246,7 @@ type changeRun struct {
 	identical bool
 	zcut      float64
 	mask      *raster.ChangeMask
+	grid      *previewGrid
 	outputs   []string
 	sum       *ChangeResult
 }

@@ -78,11 +78,7 @@ func (r *changeRun) preview(context.Context) error {
 		r.env.warn("preview.png shows bands %d, %d, %d as red, green, blue: the bands of %s do not say which are natural colours (choose with --preview-bands)",
 			r.rgb[0]+1, r.rgb[1]+1, r.rgb[2]+1, r.o.After)
 	}
-	before, err := composite(r.before, r.rgb)
-	if err != nil {
-		return err
-	}
-	after, err := composite(r.after, r.rgb)
+	before, after, err := r.composites()
 	if err != nil {
 		return err
 	}
@@ -125,4 +121,17 @@ func (r *changeRun) preview(context.Context) error {
 	}
 	r.outputs = append(r.outputs, "preview.png")
 	return nil
+}
+
+// composites returns both dates' previews: gathered during the map pass
+// when the preview reduces the images, else read again (small images).
+func (r *changeRun) composites() (before, after *image.RGBA, err error) {
+	if r.grid != nil {
+		return r.grid.image(0), r.grid.image(1), nil
+	}
+	if before, err = composite(r.before, r.rgb); err != nil {
+		return nil, nil, err
+	}
+	after, err = composite(r.after, r.rgb)
+	return before, after, err
 }

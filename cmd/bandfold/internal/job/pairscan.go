@@ -136,6 +136,7 @@ func (ps *pairScan) gather(ctx context.Context, env Env, size int) (pairStats, e
 type mapTile struct {
 	z, pv, diffs []float64
 	flags, top   []uint8
+	prev         previewPart
 }
 
 type mapWorker struct {
@@ -144,6 +145,7 @@ type mapWorker struct {
 	k     int
 	diffs bool
 	pool  *sync.Pool
+	grid  *previewGrid // nil: the preview reads the images itself
 }
 
 func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
@@ -155,6 +157,9 @@ func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
 	mt := w.pool.Get().(*mapTile)
 	mt.z, mt.pv = grow(mt.z, n), grow(mt.pv, n)
 	mt.flags, mt.top = grow(mt.flags, n), grow(mt.top, n)
+	if w.grid != nil { // before scoring, which may normalise xa in place
+		w.grid.part(t, [2][]float64{xb, xa}, valid, &mt.prev)
+	}
 	w.score(xb, xa, valid, mt.z, mt.top, mt.flags)
 	if w.diffs {
 		mt.diffs = grow(mt.diffs, n*k)
@@ -197,6 +202,7 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	}
 	dof := fmt.Sprintf("chi-square, k = %d degrees of freedom", k)
 	var err error
+	r.grid = newPreviewGrid(r.before.Width, r.before.Height, r.before.Len(), r.rgb)
 	if r.mask, err = raster.NewMask(r.before.Grid); err != nil {
 		return err
 	}
@@ -225,10 +231,13 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	ps := r.pair
 	err = tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", ps.before.pixels())},
 		func(int) (tiles.Worker[*mapTile], error) {
-			return &mapWorker{pairReader: ps.newReader(), pairScorer: newPairScorer(r.proj, r.fit, r.norm), k: k, diffs: r.o.Differences, pool: pool}, nil
+			return &mapWorker{pairReader: ps.newReader(), pairScorer: newPairScorer(r.proj, r.fit, r.norm), k: k, diffs: r.o.Differences, pool: pool, grid: r.grid}, nil
 		},
 		func(t tiles.Tile, mt *mapTile) error {
 			defer pool.Put(mt)
+			if r.grid != nil {
+				r.grid.add(&mt.prev)
+			}
 			if err := mag.Write(t, mt.z); err != nil {
 				return err
 			}
