@@ -133,3 +133,25 @@ func (st *Storage) Store(v float64, band int) (stored, physical float64) {
 	}
 	return q, q*st.Scale[band] + st.Offset[band]
 }
+
+// StorePixels stores the values of pixel-major pixels (len(st.Scale)
+// bands each): valid pixels through Store, invalid ones as NoData. With
+// physical not nil, it also receives the physical value each stored value
+// stands for (left unset for invalid pixels).
+func (st *Storage) StorePixels(stored, physical, values []float64, valid []bool) {
+	p := len(st.Scale)
+	for i, ok := range valid {
+		for j := range p {
+			at := i*p + j
+			if !ok {
+				stored[at] = st.NoData
+				continue
+			}
+			s, ph := st.Store(values[at], j)
+			stored[at] = s
+			if physical != nil {
+				physical[at] = ph
+			}
+		}
+	}
+}

@@ -143,6 +143,7 @@ type image struct {
 	raster.Grid
 	bands  int
 	values []float64
+	valid  []bool
 }
 
 // readAll reads every band of the raster at path.
@@ -164,7 +165,7 @@ func readAll(t *testing.T, path string) image {
 	if _, err := r.Read(tl, buf, valid); err != nil {
 		t.Fatal(err)
 	}
-	return image{Grid: s.Grid, bands: s.Len(), values: buf}
+	return image{Grid: s.Grid, bands: s.Len(), values: buf, valid: valid}
 }
 
 // writeScene writes a raster of the given grid, band count, type and nodata

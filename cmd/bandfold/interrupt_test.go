@@ -13,7 +13,6 @@ import (
 	"testing"
 
 	"bandfold/raster"
-	"bandfold/tiles"
 )
 
 // TestMain lets a test run this package's main in a child process (the test
@@ -85,23 +84,9 @@ func pixelDigest(t *testing.T, path string) string {
 	if err := raster.Init(raster.Config{}); err != nil {
 		t.Fatal(err)
 	}
-	s, err := raster.Open([]string{path})
-	if err != nil {
-		t.Fatal(err)
-	}
-	r, err := s.NewReader()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
-	tl := tiles.Tile{W: s.Width, H: s.Height}
-	buf := make([]float64, tl.Pixels()*s.Len())
-	valid := make([]bool, tl.Pixels())
-	if _, err := r.Read(tl, buf, valid); err != nil {
-		t.Fatal(err)
-	}
+	im := readAll(t, path)
 	h := sha256.New()
-	fmt.Fprint(h, buf, valid)
+	fmt.Fprint(h, im.values, im.valid)
 	return fmt.Sprintf("%x", h.Sum(nil))
 }
 

@@ -1,6 +1,7 @@
 package job
 
 import (
+	"cmp"
 	"context"
 	"fmt"
 	"sync"
@@ -63,15 +64,8 @@ func Denoise(ctx context.Context, env Env, o DenoiseOptions) (_ *DenoiseResult, 
 		return nil, err
 	}
 	p := len(d.basis.Bands)
-	spec := raster.Spec{Grid: d.img.Grid, Bands: p, DataType: d.st.DataType, NoData: &d.st.NoData, Format: o.Format,
-		CreationOptions: o.CreationOptions, Overwrite: o.Overwrite,
-		Metadata: map[string]string{"BANDFOLD_BASIS": d.basis.Fingerprint(), "BANDFOLD_COMPONENTS": fmt.Sprint(d.proj.Components()), "BANDFOLD_VERSION": env.Version}}
-	for j, band := range d.basis.Bands {
-		spec.Descriptions = append(spec.Descriptions, band.Name)
-		if d.st.Integer && (d.st.Scale[j] != 1 || d.st.Offset[j] != 0) {
-			spec.Scales, spec.Offsets = d.st.Scale, d.st.Offset
-		}
-	}
+	spec := restoredSpec(d.img.Grid, d.basis, &d.st, d.proj.Components(), env.Version)
+	spec.Format, spec.CreationOptions, spec.Overwrite = o.Format, o.CreationOptions, o.Overwrite
 	dst, err := raster.Create(o.Out, spec)
 	if err != nil {
 		return nil, err
@@ -120,7 +114,7 @@ func (d *denoising) open() error {
 	if b.Method == "" {
 		b.Method = transform.PCA
 	}
-	k := cmp0(o.Components, b.Components)
+	k := cmp.Or(o.Components, b.Components)
 	if k > len(b.Bands) {
 		return Usagef("--components %d: the basis %s has %d components", k, o.Basis, len(b.Bands))
 	}
@@ -143,14 +137,6 @@ func (d *denoising) open() error {
 		return err
 	}
 	return checkBands(b, o.Basis, d.img, bandCheck{selected: o.Input.Bands != nil})
-}
-
-// cmp0 returns a unless it is zero, else b.
-func cmp0(a, b int) int {
-	if a != 0 {
-		return a
-	}
-	return b
 }
 
 // run folds and unfolds every tile and writes it.
@@ -196,15 +182,6 @@ func (w *denoiseWorker) Do(_ context.Context, t tiles.Tile) (*denoiseTile, error
 	dt := w.pool.Get().(*denoiseTile)
 	dt.pixels = int64(count)
 	dt.out = grow(dt.out, n*p)
-	for i := range n {
-		for j := range p {
-			at := i*p + j
-			if !valid[i] {
-				dt.out[at] = w.st.NoData
-				continue
-			}
-			dt.out[at], _ = w.st.Store(w.recon[at], j)
-		}
-	}
+	w.st.StorePixels(dt.out, nil, w.recon, valid[:n])
 	return dt, nil
 }

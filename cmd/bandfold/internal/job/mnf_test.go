@@ -12,7 +12,6 @@ import (
 	"gonum.org/v1/gonum/stat"
 
 	"bandfold/bands"
-	"bandfold/raster"
 	"bandfold/tiles"
 	"bandfold/transform"
 )
@@ -69,21 +68,8 @@ func TestMNFOnLandsat(t *testing.T) {
 // inMemoryNoise computes ½ Cov of the horizontal differences of the whole
 // Landsat subset with gonum, reading it in one window.
 func inMemoryNoise(t *testing.T) (*mat.SymDense, int) {
-	s, err := raster.Open([]string{landsat})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer s.Close()
-	r, err := s.NewReader()
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer r.Close()
+	s, x, valid := readImage(t, landsat, tiles.Tile{})
 	p, w, h := s.Len(), s.Width, s.Height
-	x, valid := make([]float64, w*h*p), make([]bool, w*h)
-	if _, err := r.Read(tiles.Tile{W: w, H: h}, x, valid); err != nil {
-		t.Fatal(err)
-	}
 	var rows []float64
 	for i := range w * h {
 		if i%w+1 < w && valid[i] && valid[i+1] {

@@ -80,15 +80,8 @@ func Unfold(ctx context.Context, env Env, o UnfoldOptions) (_ *UnfoldResult, err
 	}
 	p := len(u.basis.Bands)
 	k := u.comps.Len()
-	spec := raster.Spec{Grid: u.comps.Grid, Bands: p, DataType: u.st.DataType, NoData: &u.st.NoData, Format: o.Format,
-		CreationOptions: o.CreationOptions, Overwrite: o.Overwrite,
-		Metadata: map[string]string{"BANDFOLD_BASIS": u.basis.Fingerprint(), "BANDFOLD_COMPONENTS": fmt.Sprint(k), "BANDFOLD_VERSION": env.Version}}
-	for j, band := range u.basis.Bands {
-		spec.Descriptions = append(spec.Descriptions, band.Name)
-		if u.st.Integer && (u.st.Scale[j] != 1 || u.st.Offset[j] != 0) {
-			spec.Scales, spec.Offsets = u.st.Scale, u.st.Offset
-		}
-	}
+	spec := restoredSpec(u.comps.Grid, u.basis, &u.st, k, env.Version)
+	spec.Format, spec.CreationOptions, spec.Overwrite = o.Format, o.CreationOptions, o.Overwrite
 	dst, err := raster.Create(o.Out, spec)
 	if err != nil {
 		return nil, err
@@ -120,6 +113,20 @@ func (u *unfolding) close() {
 			s.Close()
 		}
 	}
+}
+
+// restoredSpec describes an image of the basis's bands rebuilt from k
+// components and stored as st, on grid g.
+func restoredSpec(g raster.Grid, b *transform.Basis, st *transform.Storage, k int, version string) raster.Spec {
+	spec := raster.Spec{Grid: g, Bands: len(b.Bands), DataType: st.DataType, NoData: &st.NoData,
+		Metadata: map[string]string{"BANDFOLD_BASIS": b.Fingerprint(), "BANDFOLD_COMPONENTS": fmt.Sprint(k), "BANDFOLD_VERSION": version}}
+	for j, band := range b.Bands {
+		spec.Descriptions = append(spec.Descriptions, band.Name)
+		if st.Integer && (st.Scale[j] != 1 || st.Offset[j] != 0) {
+			spec.Scales, spec.Offsets = st.Scale, st.Offset
+		}
+	}
+	return spec
 }
 
 // open checks the options and opens the basis, the components and the
@@ -308,16 +315,7 @@ func (w *unfoldWorker) Do(_ context.Context, t tiles.Tile) (*unfoldTile, error) 
 	ut := w.pool.Get().(*unfoldTile)
 	ut.pixels = int64(count)
 	ut.out, ut.written = grow(ut.out, n*p), grow(ut.written, n*p)
-	for i := range n {
-		for j := range p {
-			at := i*p + j
-			if !valid[i] {
-				ut.out[at] = w.st.NoData
-				continue
-			}
-			ut.out[at], ut.written[at] = w.st.Store(recon[at], j)
-		}
-	}
+	w.st.StorePixels(ut.out, ut.written, recon, valid[:n])
 	ut.loss, ut.lossW = nil, nil
 	if w.orig != nil {
 		x, ovalid, _, err := w.orig.read(t.Index)
