@@ -223,24 +223,32 @@ func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetr
 	if err != nil {
 		return nil, err
 	}
-	// Half of eigenTol, so that an eigenvalue clamped to zero still passes
-	// the eigenpair check of validate.
+	if err := b.setDecomposition(d, string(mode)+" matrix", "eigenvalue"); err != nil {
+		return nil, err
+	}
+	return b, nil
+}
+
+// setDecomposition stores d's eigenpairs in b, clamping eigenvalues that
+// rounding made slightly negative to zero, and checks the whole basis. An
+// eigenvalue below -eigenTol/2 of the largest (half of eigenTol, so that
+// a clamped eigenvalue still passes validate's eigenpair check) is an
+// error: the matrix (named by matrix, its values by value) is not positive
+// semi-definite.
+func (b *Basis) setDecomposition(d Decomposition, matrix, value string) error {
 	floor := -eigenTol / 2 * max(d.Values[0], 0)
 	for j, v := range d.Values {
 		if v < floor {
-			return nil, fmt.Errorf("%s matrix is not positive semi-definite: eigenvalue %d is %g", mode, j+1, v)
+			return fmt.Errorf("%s is not positive semi-definite: %s %d is %g", matrix, value, j+1, v)
 		}
 		d.Values[j] = max(v, 0)
 	}
 	b.Eigenvalues = d.Values
-	b.Eigenvectors = make([][]float64, p)
-	for i := range p {
+	b.Eigenvectors = make([][]float64, len(d.Values))
+	for i := range d.Values {
 		b.Eigenvectors[i] = mat.Col(nil, i, d.Vectors)
 	}
-	if err := b.validate(); err != nil {
-		return nil, fmt.Errorf("%w", err)
-	}
-	return b, nil
+	return b.validate()
 }
 
 // ReadBasis reads and checks the basis file at path. Errors name the file and

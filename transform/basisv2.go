@@ -107,20 +107,8 @@ func NewMNFBasis(bs []Band, count int64, mean []float64, cov, noise mat.Symmetri
 			b.NoiseCovariance[i][j] = noise.At(i, j)
 		}
 	}
-	floor := -eigenTol / 2 * max(d.Values[0], 0)
-	for j, v := range d.Values {
-		if v < floor {
-			return nil, fmt.Errorf("covariance matrix is not positive semi-definite: generalised eigenvalue %d is %g", j+1, v)
-		}
-		d.Values[j] = max(v, 0)
-	}
-	b.Eigenvalues = d.Values
-	b.Eigenvectors = make([][]float64, p)
-	for i := range p {
-		b.Eigenvectors[i] = mat.Col(nil, i, d.Vectors)
-	}
-	if err := b.validate(); err != nil {
-		return nil, fmt.Errorf("%w", err)
+	if err := b.setDecomposition(d, "covariance matrix", "generalised eigenvalue"); err != nil {
+		return nil, err
 	}
 	return b, nil
 }
