@@ -8,6 +8,7 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 
 	"golang.org/x/sys/unix"
 )
@@ -288,3 +289,22 @@ func writeSynced(path string, data []byte) error {
 	}
 	return bare(os.Rename(tmp, path))
 }
+
+// FinalNames returns err with the temporary folder's path in its message
+// replaced by the folder's final path, which is the one the user named;
+// errors.Is and errors.As still see err. A nil Folder returns err.
+func (d *Folder) FinalNames(err error) error {
+	if d == nil || err == nil || !strings.Contains(err.Error(), d.tmp) {
+		return err
+	}
+	return &renamedError{strings.ReplaceAll(err.Error(), d.tmp, d.path), err}
+}
+
+// renamedError is an error with a rewritten message.
+type renamedError struct {
+	msg string
+	err error
+}
+
+func (e *renamedError) Error() string { return e.msg }
+func (e *renamedError) Unwrap() error { return e.err }

@@ -860,3 +860,24 @@ func TestErrorsReadOnlyFolder(t *testing.T) {
 		t.Errorf("got %v, want one line naming %s once", err, path)
 	}
 }
+
+// TestFolderFinalNames: an error naming a file inside the temporary folder
+// names it inside the final folder instead, and still matches its cause
+// (known by construction).
+func TestFolderFinalNames(t *testing.T) {
+	final := filepath.Join(t.TempDir(), "chg")
+	d, err := CreateFolder(final, false)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer d.Abort()
+	cause := errors.New("disk full")
+	err = d.FinalNames(fmt.Errorf("write %s: %w", d.Path("change.tif"), cause))
+	if want := "write " + filepath.Join(final, "change.tif") + ": disk full"; err.Error() != want || !errors.Is(err, cause) {
+		t.Errorf("got %q (is cause %v), want %q", err, errors.Is(err, cause), want)
+	}
+	var none *Folder
+	if got := none.FinalNames(cause); got != cause {
+		t.Errorf("nil folder changed the error: %v", got)
+	}
+}

@@ -130,33 +130,10 @@ func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err
 	}
 	for _, step := range steps {
 		if err := step(ctx); err != nil {
-			return nil, r.finalNames(err)
+			return nil, r.dir.FinalNames(err)
 		}
 	}
 	return r.sum, nil
-}
-
-// renamedError is an error whose message names the output folder by its
-// final path instead of its temporary one.
-type renamedError struct {
-	msg string
-	err error
-}
-
-func (e *renamedError) Error() string { return e.msg }
-func (e *renamedError) Unwrap() error { return e.err }
-
-// finalNames rewrites the temporary folder's path in err's message to the
-// folder's final path, which is what the user asked for.
-func (r *changeRun) finalNames(err error) error {
-	if r.dir == nil {
-		return err
-	}
-	tmp := filepath.Dir(r.dir.Path("x"))
-	if !strings.Contains(err.Error(), tmp) {
-		return err
-	}
-	return &renamedError{strings.ReplaceAll(err.Error(), tmp, r.dir.Final()), err}
 }
 
 // check refuses option values that cannot be right.

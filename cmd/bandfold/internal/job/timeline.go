@@ -128,7 +128,7 @@ func Timeline(ctx context.Context, env Env, o TimelineOptions) (_ *TimelineResul
 	}
 	for _, step := range steps {
 		if err := step(ctx); err != nil {
-			return nil, err
+			return nil, r.dir.FinalNames(err)
 		}
 	}
 	return r.sum, nil
