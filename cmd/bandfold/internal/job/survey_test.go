@@ -228,3 +228,21 @@ func TestSurveyDrawAndEstimate(t *testing.T) {
 	wantError(t, "too many points", err, true, "pixels are available")
 	mustNotExist(t, "refused survey", filepath.Join(dir, "c.gpkg"))
 }
+
+// TestSurveyBufferInMetresNeedsCRS: a map without a CRS cannot measure a
+// buffer in metres: one line naming the map, nothing written (known by
+// construction: the map is written without a projection).
+func TestSurveyBufferInMetresNeedsCRS(t *testing.T) {
+	dir := t.TempDir()
+	m := filepath.Join(dir, "map.tif")
+	buf := make([]float64, 40*30)
+	for i := 0; i < len(buf); i += 7 {
+		buf[i] = 1
+	}
+	writeRasterFile(t, m, raster.Spec{Grid: raster.Grid{Width: 40, Height: 30}, Bands: 1, DataType: "Byte"}, buf)
+	out := filepath.Join(dir, "survey.gpkg")
+	_, err := SurveyDraw(t.Context(), testEnv, SurveyDrawOptions{Map: m, Out: out, Points: 120, Buffer: "30m", MinPerStratum: 10, Seed: 1})
+	wantError(t, "buffer in metres without CRS", err, true, m, "no CRS", "px")
+	mustNotExist(t, "buffer in metres without CRS", out)
+	noTemporaries(t, dir)
+}
