@@ -8,3 +8,6 @@ func Use() {}
 
 // Config returns the empty string when the package is built without cgo.
 func Config() string { return "" }
+
+// CoreName returns the empty string when the package is built without cgo.
+func CoreName() string { return "" }

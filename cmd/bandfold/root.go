@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"encoding/json"
 	"errors"
@@ -101,7 +102,8 @@ func newRootCommand(g *globals) *cobra.Command {
 		SilenceErrors: true,
 		SilenceUsage:  true,
 	}
-	root.SetVersionTemplate("bandfold {{.Version}}\n")
+	// The BLAS kernel decides the arithmetic's speed: benchmarks print it.
+	root.SetVersionTemplate("bandfold {{.Version}} (OpenBLAS kernel " + cmp.Or(openblas.CoreName(), "none: gonum") + ")\n")
 	f := root.PersistentFlags()
 	f.BoolVar(&g.json, "json", false, "print the command's summary as JSON on stdout (human text goes to stderr)")
 	f.IntVar(&g.workers, "workers", runtime.NumCPU(), "number of parallel workers")
