@@ -3,6 +3,7 @@ package openblas
 import (
 	"os"
 	"strings"
+	"syscall"
 
 	"golang.org/x/sys/cpu"
 )
@@ -61,4 +62,22 @@ func replacement(core string, f features) string {
 		return "Haswell"
 	}
 	return ""
+}
+
+// Restart starts the running program again, in the same process (same
+// arguments, same process ID), with OPENBLAS_CORETYPE set to
+// ReplacementCore's choice, when there is one. It returns when no restart is
+// needed or when it cannot happen; the program then runs on OpenBLAS's own,
+// slower, kernel, with correct results. Call it first thing in main (or
+// TestMain), before any goroutine starts work.
+func Restart() {
+	core := ReplacementCore()
+	if core == "" {
+		return
+	}
+	exe, err := os.Executable()
+	if err != nil {
+		return
+	}
+	_ = syscall.Exec(exe, os.Args, append(os.Environ(), CoreEnv+"="+core)) // returns only on failure
 }

@@ -19,8 +19,10 @@ import (
 	"bandfold/transform"
 )
 
-// TestMain sets GDAL and the BLAS up once, as the command does.
+// TestMain sets GDAL and the BLAS up once, as the command does, on the same
+// OpenBLAS kernel (benchmarks measure what users run).
 func TestMain(m *testing.M) {
+	openblas.Restart()
 	if err := raster.Init(raster.Config{CacheMB: 32}); err != nil {
 		panic(err)
 	}
