@@ -1,4 +1,4 @@
-# bandfold: make demo | make test | make bench | make test-cluster
+# bandfold: make demo | make test | make bench | make bench-large | make test-cluster
 SHELL := /bin/bash
 GO ?= go
 BIN := bin/bandfold
@@ -6,7 +6,7 @@ DEBS := libgdal-dev gdal-bin libopenblas-dev pkg-config chromium
 VERSION := $(shell git describe --always --dirty 2>/dev/null || echo dev)
 export GOFLAGS := -buildvcs=false
 
-.PHONY: all deps build test unit fuzz testdata demo bench test-cluster clean
+.PHONY: all deps build test unit fuzz testdata demo bench bench-large test-cluster clean
 
 all: build
 
@@ -38,6 +38,11 @@ demo: build
 
 bench: build
 	@bash scripts/bench.sh
+
+# learn on a 224-band 4096 x 4096 Int16 cube (7.5 GB, written once into
+# bench-out/) with its peak memory, against the floor.
+bench-large: build
+	@bash scripts/bench.sh large
 
 clean:
 	rm -rf bin demo-out bench-out
