@@ -24,8 +24,9 @@ type Accumulator struct {
 	min  []float64 // +Inf while n == 0.
 	max  []float64 // −Inf while n == 0.
 
-	d   []float64 // scratch for fold, length p.
-	blk *block    // scratch for AddPixels, allocated on first use.
+	d     []float64 // scratch for fold, length p.
+	blk   *block    // scratch for AddPixels, allocated on first use.
+	diffs []float64 // scratch for AddShiftDifferences on the fused path.
 }
 
 // NewAccumulator returns an empty accumulator for pixels of p bands.

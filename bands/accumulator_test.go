@@ -410,3 +410,28 @@ func TestNoAllocation(t *testing.T) {
 		}
 	}
 }
+
+// TestOutlierFirst checks the co-moments when the first valid pixel of a
+// chunk lies far from the rest: the BLAS path shifts each chunk by its first
+// pixel, whose correction then cancels most of the product's bits, and must
+// centre the chunk again. Reference: gonum's in-memory covariance, as in
+// TestAgainstGonum.
+func TestOutlierFirst(t *testing.T) {
+	for _, p := range []int{3, 30, 224} {
+		rnd := rand.New(rand.NewPCG(uint64(p), 3))
+		n := 3000
+		x := correlatedPixels(rnd, n, p)
+		for j := range p {
+			x[j] += 1e5 * float64(j+1) // pixel 0, and so the first pixel of the first chunk
+		}
+		ref := referenceStats(x, nil, p)
+		for _, k := range kernels {
+			t.Run(fmt.Sprintf("p=%d/%s", p, k.name), func(t *testing.T) {
+				a := NewAccumulator(p)
+				a.add(x, nil, k.fused)
+				checkRel(t, "covariance", relDiffSym(a.Covariance(nil), ref.cov), tolExact)
+				checkRel(t, "mean", relDiff(a.Mean(nil), ref.mean), tolExact)
+			})
+		}
+	}
+}

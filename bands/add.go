@@ -27,9 +27,14 @@ const (
 	// L2 cache: 4096 pixels of 24 bands are 768 KiB.
 	fusedChunk = 4096
 
-	// blasChunkBytes bounds the centred copy of a chunk that the BLAS path
+	// blasChunkBytes bounds the shifted copy of a chunk that the BLAS path
 	// hands to Syrk, and so the scratch memory of an Accumulator.
 	blasChunkBytes = 2 << 20
+
+	// cancelBits is the most bits the BLAS path lets the shift correction
+	// of a band's co-moment cancel before it centres the chunk on its mean
+	// and takes the product again (see comomentBLAS).
+	cancelBits = 8
 )
 
 // useFused reports whether AddPixels computes the co-moment of a chunk of
@@ -48,7 +53,8 @@ type block struct {
 	mean     []float64 // p
 	min, max []float64 // p
 	com      []float64 // p×p, upper triangle used.
-	buf      []float64 // fused path: two centred pixels; BLAS path: a centred chunk.
+	buf      []float64 // fused path: two centred pixels; BLAS path: a shifted chunk, p+1 values a pixel.
+	aug      []float64 // BLAS path: (p+1)×(p+1), the product of the shifted chunk.
 }
 
 func newBlock(p int) *block {
@@ -65,11 +71,13 @@ func newBlock(p int) *block {
 // valid, or have length n, in which case only pixels with valid[i] are used.
 // Valid pixels must not hold NaN; exclude nodata through valid.
 //
-// The pixels are processed in chunks of a few thousand. Each chunk's mean is
-// computed first, then the co-moment of the chunk centred on that mean, and the
-// chunk is folded into the running state as in Merge. For more than a handful
-// of bands, or whenever a BLAS other than gonum's native one is registered
-// with blas64.Use, the co-moment of a chunk is computed with blas64.Syrk.
+// The pixels are processed in chunks of a few thousand, and each chunk's
+// mean and co-moment are folded into the running state as in Merge. For a
+// handful of bands under gonum's native BLAS, a fused Go loop takes the
+// chunk's mean, then its centred cross-products. Otherwise (more bands, or
+// any other BLAS registered with blas64.Use) the chunk is copied once,
+// shifted by its first valid pixel, and one blas64.Syrk gives both its sums
+// and its cross-products (see comomentBLAS).
 // AddPixels reuses the accumulator's scratch memory and does not allocate
 // after its first call.
 //
@@ -89,18 +97,9 @@ func (a *Accumulator) AddPixels(x []float64, valid []bool) {
 // add is AddPixels with the co-moment kernel chosen by fused.
 func (a *Accumulator) add(x []float64, valid []bool, fused bool) {
 	p := a.p
-	if a.blk == nil {
-		a.blk = newBlock(p)
-	}
-	b := a.blk
-	chunk := fusedChunk
-	if !fused {
-		chunk = max(blasChunkBytes/(8*p), 64)
-	}
 	n := len(x) / p
-	if size := max(min(chunk, n)*p, 2*p); len(b.buf) < size {
-		b.buf = make([]float64, size)
-	}
+	chunk := a.prepare(fused, n)
+	b := a.blk
 	for start := 0; start < n; start += chunk {
 		end := min(start+chunk, n)
 		xs := x[start*p : end*p]
@@ -108,30 +107,52 @@ func (a *Accumulator) add(x []float64, valid []bool, fused bool) {
 		if valid != nil {
 			vs = valid[start:end]
 		}
-		var gather []float64
-		if !fused {
-			gather = b.buf
-		}
-		if !b.stats(xs, vs, gather) {
-			continue
-		}
 		if fused {
+			if !b.stats(xs, vs) {
+				continue
+			}
 			b.comomentFused(xs, vs)
 		} else {
-			b.comomentBLAS()
+			k := b.shifted(xs, vs)
+			if k == 0 {
+				continue
+			}
+			b.comomentBLAS(k)
 		}
 		a.fold(b.n, b.mean, b.com, b.min, b.max)
 	}
 }
 
+// prepare readies a's scratch for chunks of up to n pixels on the path
+// chosen by fused and returns the chunk length: fusedChunk pixels on the
+// fused path, blasChunkBytes of shifted pixels (p+1 values each) on the
+// BLAS path.
+func (a *Accumulator) prepare(fused bool, n int) int {
+	p := a.p
+	if a.blk == nil {
+		a.blk = newBlock(p)
+	}
+	b := a.blk
+	chunk, width := fusedChunk, p
+	if !fused {
+		chunk, width = max(blasChunkBytes/(8*(p+1)), 64), p+1
+		if b.aug == nil {
+			b.aug = make([]float64, width*width)
+		}
+	}
+	if size := max(min(chunk, n)*width, 2*p); len(b.buf) < size {
+		b.buf = make([]float64, size)
+	}
+	return chunk
+}
+
 // stats sets the count, mean, minimum and maximum of the valid pixels in x
-// and reports whether there were any. If gather is not nil the valid pixels
-// are also copied to its start, so that x is read from memory only once.
+// and reports whether there were any.
 //
 // The mean is clamped to [min, max], which it can leave only through
 // rounding; this makes the mean of a constant band exact and so its centred
 // values and co-moment exactly zero.
-func (b *block) stats(x []float64, valid []bool, gather []float64) bool {
+func (b *block) stats(x []float64, valid []bool) bool {
 	p := len(b.mean)
 	sum, lo, hi := b.mean, b.min, b.max
 	clear(sum)
@@ -144,9 +165,6 @@ func (b *block) stats(x []float64, valid []bool, gather []float64) bool {
 		if k == 0 {
 			copy(lo, px)
 			copy(hi, px)
-		}
-		if gather != nil {
-			copy(gather[k*p:k*p+p], px)
 		}
 		lo, hi := lo[:len(px)], hi[:len(px)]
 		for j, v := range px {
@@ -223,20 +241,124 @@ func (b *block) comomentFused(x []float64, valid []bool) {
 	}
 }
 
-// comomentBLAS centres the b.n pixels gathered at the start of b.buf on
-// b.mean, in place, and sets the upper triangle of b.com to CᵀC for the
-// resulting k×p matrix C with blas64.Syrk.
-func (b *block) comomentBLAS() {
+// shifted copies the valid pixels of x to the start of b.buf, p+1 values a
+// pixel: the pixel less the chunk's first valid pixel r, then a 1; it sets
+// b.mean to r, the extremes of the valid pixels in b.min and b.max, and
+// returns their number k. So x is read from memory once, and its sums come
+// out of the same product as its co-moments (comomentBLAS).
+func (b *block) shifted(x []float64, valid []bool) int {
 	p := len(b.mean)
-	k := int(b.n)
-	c := b.buf[:k*p]
-	for i := 0; i < len(c); i += p {
-		px := c[i : i+p]
-		for j, m := range b.mean {
-			px[j] -= m
+	ref, lo, hi := b.mean, b.min, b.max
+	k := 0
+	for i := range len(x) / p {
+		if valid != nil && !valid[i] {
+			continue
+		}
+		px := x[i*p : i*p+p]
+		if k == 0 {
+			copy(ref, px)
+			copy(lo, px)
+			copy(hi, px)
+		}
+		c := b.buf[k*(p+1) : k*(p+1)+p+1]
+		c[p] = 1
+		c, r, lo, hi := c[:len(px)], ref[:len(px)], lo[:len(px)], hi[:len(px)]
+		for j, v := range px {
+			c[j] = v - r[j]
+			if v < lo[j] {
+				lo[j] = v
+			} else if v > hi[j] {
+				hi[j] = v
+			}
+		}
+		k++
+	}
+	b.n = float64(k)
+	return k
+}
+
+// putDiff stores the difference d = x − y as pixel k of the shifted chunk
+// in b.buf, as shifted does for a pixel (the first one, k = 0, sets the
+// shift and the extremes), and returns k + 1.
+func (b *block) putDiff(k int, x, y []float64) int {
+	p := len(b.mean)
+	ref, lo, hi := b.mean[:len(x)], b.min[:len(x)], b.max[:len(x)]
+	y = y[:len(x)]
+	c := b.buf[k*(p+1) : k*(p+1)+p+1]
+	c[p] = 1
+	c = c[:len(x)]
+	if k == 0 {
+		for j, v := range x {
+			d := v - y[j]
+			ref[j], lo[j], hi[j], c[j] = d, d, d, 0
+		}
+		return 1
+	}
+	for j, v := range x {
+		d := v - y[j]
+		c[j] = d - ref[j]
+		if d < lo[j] {
+			lo[j] = d
+		} else if d > hi[j] {
+			hi[j] = d
 		}
 	}
-	blas64.Syrk(blas.Trans, 1,
-		blas64.General{Rows: k, Cols: p, Stride: p, Data: c}, 0,
-		blas64.Symmetric{N: p, Stride: p, Uplo: blas.Upper, Data: b.com})
+	return k + 1
+}
+
+// comomentBLAS sets b.mean and the upper triangle of b.com to the mean and
+// co-moment of the k pixels that shifted left in b.buf, less r =
+// b.mean. One blas64.Syrk of the k×(p+1) matrix [C 1], C the shifted pixels,
+// gives CᵀC, the sums s = Cᵀ1 and k, and
+//
+//	mean = r + s/k,  M = CᵀC − s·sᵀ/k.
+//
+// Where the correction would cancel more than cancelBits bits of a band's
+// CᵀC (the first pixel far from the mean, in units of the band's spread),
+// the chunk is shifted again by s/k, now centred to rounding, and the
+// product taken once more. The mean is clamped to [min, max], which it can
+// leave only through rounding; a constant band's shifted values are exactly
+// zero, so its mean is exact and its co-moment exactly zero.
+func (b *block) comomentBLAS(k int) {
+	p := len(b.mean)
+	q := p + 1
+	c, aug, s := b.buf[:k*q], b.aug, b.aug[p:]
+	for pass := 0; ; pass++ {
+		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: k, Cols: q, Stride: q, Data: c}, 0,
+			blas64.Symmetric{N: q, Stride: q, Uplo: blas.Upper, Data: aug})
+		if pass > 0 || !b.cancels(k) {
+			break
+		}
+		for i := 0; i < len(c); i += q {
+			px := c[i : i+p]
+			for j := range px {
+				px[j] -= s[j*q] / b.n
+			}
+		}
+		for j := range p {
+			b.mean[j] += s[j*q] / b.n
+		}
+	}
+	for i := range p {
+		si := s[i*q] / b.n
+		row, arow, sr := b.com[i*p+i:i*p+p], aug[i*q+i:i*q+p], s[i*q:]
+		for j := range row {
+			row[j] = arow[j] - si*sr[j*q]
+		}
+		b.mean[i] = min(max(b.mean[i]+si, b.min[i]), b.max[i])
+	}
+}
+
+// cancels reports whether the shift correction s_j²/k of some band j would
+// cancel more than cancelBits bits of its CᵀC in b.aug.
+func (b *block) cancels(k int) bool {
+	p := len(b.mean)
+	q := p + 1
+	for j := range p {
+		sj := b.aug[j*q+p]
+		if sj*sj/float64(k) > b.aug[j*q+j]*(1-1.0/(1<<cancelBits)) && sj != 0 {
+			return true
+		}
+	}
+	return false
 }

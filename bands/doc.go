@@ -18,14 +18,18 @@
 // # Numerical method
 //
 // Each block of pixels (a call of AddPixels, cut into cache-sized chunks) is
-// first reduced on its own: its mean, then the co-moment of the pixels
-// centred on that mean. The co-moment of the centred k×p block X is the
-// symmetric rank-k update XᵀX computed with blas64.Syrk, so a faster BLAS
-// registered with blas64.Use (see the sub-package openblas) is used
-// automatically. Only for a handful of bands and with gonum's native BLAS,
-// which a fused Go loop beats there, is the loop used instead. The block is
-// then folded into the running state with the pairwise update of Chan, Golub
-// and LeVeque:
+// first reduced on its own. The k valid pixels are copied once, less the
+// block's first valid pixel r, with a 1 appended: one symmetric rank-k
+// update of that k×(p+1) matrix [C 1] with blas64.Syrk gives CᵀC, the sums
+// s = Cᵀ1 and k, so mean = r + s/k and the co-moment M = CᵀC − s·sᵀ/k.
+// Since r is one of the pixels, the correction cancels at most about
+// log2(k) bits of CᵀC; where it would cancel more than a few, the block is
+// centred on its mean and the update taken again. A faster BLAS registered
+// with blas64.Use (see the sub-package openblas) is used automatically.
+// Only for a handful of bands and with gonum's native BLAS, which a fused Go
+// loop beats there, is the loop used instead (mean first, then centred
+// cross-products). The block is then folded into the running state with the
+// pairwise update of Chan, Golub and LeVeque:
 //
 //	n = nA + nB
 //	d = meanB − meanA

@@ -2,6 +2,7 @@ package bands
 
 import (
 	"fmt"
+	"math/bits"
 
 	"gonum.org/v1/gonum/mat"
 )
@@ -107,6 +108,56 @@ func ShiftDifferences(dst []float64, win Window, s Shift) []float64 {
 		}
 	}
 	return dst
+}
+
+// AddShiftDifferences adds to a the difference vectors that
+// ShiftDifferences would append for win and s, in the same order, without
+// the copy: on the BLAS path each difference is written straight into the
+// chunk that goes to Syrk. The statistics equal those of
+// a.AddPixels(ShiftDifferences(nil, win, s), nil) up to rounding (and
+// exactly on the fused path). It panics if win is malformed or has another
+// band count than a.
+func (a *Accumulator) AddShiftDifferences(win Window, s Shift) {
+	win.check()
+	if win.P != a.p {
+		panic(fmt.Sprintf("bands: window of %d bands for an accumulator of %d", win.P, a.p))
+	}
+	p, w := a.p, win.W
+	if useFused(p) {
+		a.diffs = ShiftDifferences(a.diffs[:0], win, s)
+		a.add(a.diffs, nil, true)
+		return
+	}
+	chunk := a.prepare(false, win.OwnW*win.OwnH*bits.OnesCount(uint(s&Both)))
+	b, k := a.blk, 0
+	flush := func() {
+		if k > 0 {
+			b.n = float64(k)
+			b.comomentBLAS(k)
+			a.fold(b.n, b.mean, b.com, b.min, b.max)
+			k = 0
+		}
+	}
+	for r := range win.OwnH {
+		for c := range win.OwnW {
+			i := r*w + c
+			if !win.Valid[i] {
+				continue
+			}
+			x := win.X[i*p : i*p+p]
+			if s&Horizontal != 0 && c+1 < w && win.Valid[i+1] {
+				if k = b.putDiff(k, win.X[(i+1)*p:(i+2)*p], x); k == chunk {
+					flush()
+				}
+			}
+			if s&Vertical != 0 && r+1 < win.H && win.Valid[i+w] {
+				if k = b.putDiff(k, win.X[(i+w)*p:(i+w+1)*p], x); k == chunk {
+					flush()
+				}
+			}
+		}
+	}
+	flush()
 }
 
 func appendDiff(dst, a, b []float64) []float64 {

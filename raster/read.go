@@ -29,6 +29,28 @@ type Reader struct {
 	check bool
 	// average makes ReadScaled average instead of taking the nearest pixel.
 	average bool
+	// native[k] is the data type shared by every band of run k when reads
+	// at full resolution take it in that type and widen it to float64 in Go
+	// (see readNative); "" when GDAL converts the run to float64 itself.
+	native []string
+	raw    rawBuffers
+}
+
+// rawBuffers hold a window of one run in its stored type.
+type rawBuffers struct {
+	u8  []uint8
+	i16 []int16
+	u16 []uint16
+	i32 []int32
+	u32 []uint32
+	f32 []float32
+}
+
+// widening says where readWiden puts the values of a run: into dst,
+// pixel-major with p values a pixel, from position pos of each pixel.
+type widening struct {
+	dst    []float64
+	pos, p int
 }
 
 // NewReader opens the stack's files for reading by one goroutine.
@@ -66,7 +88,79 @@ func (s *Stack) NewReader() (*Reader, error) {
 		r.signed = append(r.signed, b.DataType == SignedByte)
 		r.anySigned = r.anySigned || b.DataType == SignedByte
 	}
+	for _, rn := range s.runs {
+		r.native = append(r.native, nativeType(s.Bands[rn.pos:rn.pos+len(rn.bands)]))
+	}
 	return r, nil
+}
+
+// nativeType returns the stored type of bands when they all share one that
+// readNative handles, "" otherwise.
+func nativeType(bands []Band) string {
+	t := bands[0].DataType
+	for _, b := range bands {
+		if b.DataType != t {
+			return ""
+		}
+	}
+	switch t {
+	case "Byte", SignedByte, "Int16", "UInt16", "Int32", "UInt32", "Float32":
+		return t
+	}
+	return ""
+}
+
+// readNative reads window t of run k at full resolution in the bands'
+// stored type and widens the values into dst. Every value of these types
+// is exactly a float64, so the result is the one GDAL's own conversion
+// gives; but GDAL converting into a pixel-interleaved float64 buffer costs
+// several times the read itself on a hyperspectral cube (224 Int16 bands
+// of 1024 x 1024 in 256 x 256 blocks: about 2 s against 0.3 s).
+func (r *Reader) readNative(k int, t tiles.Tile, dst []float64) error {
+	rn := r.s.runs[k]
+	ds, to := r.ds[rn.file], widening{dst: dst, pos: rn.pos, p: len(r.s.Bands)}
+	switch r.native[k] {
+	case "Byte", SignedByte:
+		return readWiden(ds, t, rn.bands, &r.raw.u8, to)
+	case "Int16":
+		return readWiden(ds, t, rn.bands, &r.raw.i16, to)
+	case "UInt16":
+		return readWiden(ds, t, rn.bands, &r.raw.u16, to)
+	case "Int32":
+		return readWiden(ds, t, rn.bands, &r.raw.i32, to)
+	case "UInt32":
+		return readWiden(ds, t, rn.bands, &r.raw.u32, to)
+	default:
+		return readWiden(ds, t, rn.bands, &r.raw.f32, to)
+	}
+}
+
+// readWiden reads window t of the given bands of ds into *buf, pixel-major,
+// grown as needed, then widens the values as to says.
+func readWiden[T uint8 | int16 | uint16 | int32 | uint32 | float32](ds *godal.Dataset, t tiles.Tile, bands []int, buf *[]T, to widening) error {
+	nb, n := len(bands), t.Pixels()
+	if cap(*buf) < n*nb {
+		*buf = make([]T, n*nb)
+	}
+	src := (*buf)[:n*nb]
+	if err := ds.Read(t.X, t.Y, src, t.W, t.H, godal.Bands(bands...),
+		godal.PixelStride(nb), godal.LineStride(nb*t.W), godal.BandStride(1), errLogger); err != nil {
+		return err
+	}
+	if nb == to.p {
+		dst := to.dst[:len(src)]
+		for i, v := range src {
+			dst[i] = float64(v)
+		}
+		return nil
+	}
+	for i := range n {
+		px := to.dst[i*to.p+to.pos : i*to.p+to.pos+nb]
+		for j, v := range src[i*nb : i*nb+nb] {
+			px[j] = float64(v)
+		}
+	}
+	return nil
 }
 
 // Close releases the reader's dataset handles.
@@ -119,9 +213,14 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 	if r.average {
 		alg = godal.Average
 	}
-	for _, rn := range r.s.runs {
-		err := r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], bw, bh, window, godal.Resampling(alg),
-			godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*bw), godal.BandStride(1), errLogger)
+	for k, rn := range r.s.runs {
+		var err error
+		if bw == t.W && bh == t.H && r.native[k] != "" {
+			err = r.readNative(k, t, dst)
+		} else {
+			err = r.ds[rn.file].Read(t.X, t.Y, dst[rn.pos:], bw, bh, window, godal.Resampling(alg),
+				godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*bw), godal.BandStride(1), errLogger)
+		}
 		if err != nil {
 			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, tidy(err))
 		}

@@ -12,10 +12,6 @@ import (
 	"bandfold/transform"
 )
 
-// noiseChunk is the number of pixels whose co-moments and shift
-// differences a noiseWorker accumulates at a time (rounded to whole rows).
-const noiseChunk = 4096
-
 // tileStats are the co-moments and the shift differences of one tile.
 type tileStats struct{ mom, noise *bands.Accumulator }
 
@@ -30,7 +26,7 @@ type noiseWorker struct {
 	readers []*raster.Reader
 	buf     []float64
 	valid   []bool
-	diffs   []float64
+	own     []bool // valid with the halo column off
 	pool    *sync.Pool
 }
 
@@ -56,24 +52,17 @@ func (w *noiseWorker) Do(_ context.Context, t tiles.Tile) (tileStats, error) {
 	st := tileStats{mom: w.pool.Get().(*bands.Accumulator), noise: w.pool.Get().(*bands.Accumulator)}
 	st.mom.Reset()
 	st.noise.Reset()
-	// Row bands of about noiseChunk pixels, so the scratch stays small: the
-	// owned pixels of each row are contiguous in the read buffer, and the
-	// pairs of a band of rows need only the row below as its halo.
-	rows := max(1, noiseChunk/ext.W)
-	for r0 := 0; r0 < own.H; r0 += rows {
-		r1 := min(r0+rows, own.H)
-		for r := r0; r < r1; r++ {
-			at := r * ext.W
-			st.mom.AddPixels(w.buf[at*p:(at+own.W)*p], w.valid[at:at+own.W])
-		}
-		h := min(r1+hr, ext.H) - r0
-		win := bands.Window{X: w.buf[r0*ext.W*p : (r0+h)*ext.W*p], Valid: w.valid[r0*ext.W : (r0+h)*ext.W],
-			P: p, W: ext.W, H: h, OwnW: own.W, OwnH: r1 - r0}
-		w.diffs = bands.ShiftDifferences(w.diffs[:0], win, w.shift)
-		if len(w.diffs) > 0 {
-			st.noise.AddPixels(w.diffs, nil)
-		}
+	// The co-moments take the owned rows in one call, the halo column
+	// masked off; the differences come straight from the window.
+	n := own.H * ext.W
+	w.own = grow(w.own, n)
+	copy(w.own, w.valid[:n])
+	for i := own.W; i < n; i += ext.W {
+		clear(w.own[i : i+ext.W-own.W])
 	}
+	st.mom.AddPixels(w.buf[:n*p], w.own)
+	st.noise.AddShiftDifferences(bands.Window{X: w.buf[:ext.Pixels()*p], Valid: w.valid[:ext.Pixels()],
+		P: p, W: ext.W, H: ext.H, OwnW: own.W, OwnH: own.H}, w.shift)
 	return st, nil
 }
 
