@@ -66,23 +66,42 @@ const (
 type ChangeMask struct {
 	grid   Grid
 	ds     *godal.Dataset
+	path   string // the scratch file of NewMaskFile, "" in memory
 	sieved bool
 }
 
-// NewMask returns an empty change map of grid g (all pixels 0).
+// NewMask returns an empty change map of grid g (all pixels 0), held in
+// memory (3 bytes a pixel).
 func NewMask(g Grid) (*ChangeMask, error) {
 	ds, err := newMem(g, 3)
 	if err != nil {
 		return nil, fmt.Errorf("change map in memory (%dx%d): %w", g.Width, g.Height, err)
 	}
+	return newMask(g, ds, "")
+}
+
+func newMask(g Grid, ds *godal.Dataset, path string) (*ChangeMask, error) {
+	var err error
+	if g.HasGeoTransform {
+		err = ds.SetGeoTransform(g.GeoTransform, errLogger)
+	}
+	if err == nil && g.Projection != "" {
+		err = ds.SetProjection(g.Projection, errLogger)
+	}
+	if err != nil {
+		ds.Close(errLogger)
+		removeScratch(path)
+		return nil, fmt.Errorf("change map: %w", err)
+	}
 	// 255 is nodata: the sieve's mask leaves those pixels out.
 	for _, b := range []int{maskRaw, maskSieved} {
 		if err := ds.Bands()[b].SetNoData(float64(flagNoData), errLogger); err != nil {
 			ds.Close(errLogger)
-			return nil, fmt.Errorf("change map in memory: %w", err)
+			removeScratch(path)
+			return nil, fmt.Errorf("change map: %w", err)
 		}
 	}
-	return &ChangeMask{grid: g, ds: ds}, nil
+	return &ChangeMask{grid: g, ds: ds, path: path}, nil
 }
 
 // Write writes the flags (0, 1 or 255) and top components of window (x, y,
@@ -197,14 +216,14 @@ func (m *ChangeMask) read(band, x, y, w, h int, dst []uint8) error {
 	return nil
 }
 
-// Close releases the map's memory.
+// Close releases the map's memory and removes its scratch file.
 func (m *ChangeMask) Close() error {
 	if m.ds == nil {
 		return nil
 	}
 	err := m.ds.Close(errLogger)
 	m.ds = nil
-	return err
+	return errors.Join(err, removeScratch(m.path))
 }
 
 // mapBand copies band from into band to of the map's grid, strip by strip,

@@ -1,6 +1,13 @@
 package raster
 
-import "fmt"
+import (
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+
+	"github.com/airbusgeo/godal"
+)
 
 // PatchStep is one map of a series for WriteStepPatches.
 type PatchStep struct {
@@ -37,6 +44,31 @@ func (m *ChangeMask) SetMapped(x, y, w, h int, flags []uint8) error {
 	}
 	if err := m.ds.Bands()[m.current()].Write(x, y, flags, w, h, errLogger); err != nil {
 		return fmt.Errorf("write change map at %d,%d: %w", x, y, err)
+	}
+	return nil
+}
+
+// NewMaskFile returns an empty change map of grid g held in a scratch
+// GeoTIFF at path (uncompressed, in strips, read and written through GDAL's
+// block cache), for jobs that keep many maps at once: memory then does not
+// grow with their number. Close removes the file.
+func NewMaskFile(g Grid, path string) (*ChangeMask, error) {
+	ds, err := godal.Create(godal.GTiff, path, 3, godal.Byte, g.Width, g.Height,
+		godal.CreationOption("COMPRESS=NONE", "INTERLEAVE=BAND", "SPARSE_OK=TRUE", "BIGTIFF=IF_SAFER"), errLogger)
+	if err != nil {
+		return nil, fmt.Errorf("change map %s (%dx%d): %w", path, g.Width, g.Height, err)
+	}
+	return newMask(g, ds, path)
+}
+
+// removeScratch removes a scratch file, if there is one; a file already gone
+// is not an error.
+func removeScratch(path string) error {
+	if path == "" {
+		return nil
+	}
+	if err := os.Remove(path); err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return err
 	}
 	return nil
 }

@@ -37,6 +37,8 @@ type DemoResult struct {
 	PairLearn *LearnResult
 	Folds     [2]*FoldScene
 	Change    *ChangeResult
+	// Timeline is the five-date series at half the size (timelinedemo.go).
+	Timeline *DemoTimeline
 	// Outputs lists every file in Dir.
 	Outputs []string
 }
@@ -53,8 +55,9 @@ func (o *DemoOptions) files() DemoFiles {
 }
 
 // Demo writes the invented scenario and runs the whole job on it:
-// compression of the hyperspectral cube, and the change map between the
-// two multispectral dates scored against the scenario's truth.
+// compression of the hyperspectral cube, the change map between the two
+// multispectral dates scored against the scenario's truth, and the
+// timeline of its five-date series with each event's date found.
 func Demo(ctx context.Context, env Env, o DemoOptions) (_ *DemoResult, err error) {
 	defer func() { err = classify(err) }()
 	res := &DemoResult{Files: o.files()}
@@ -102,6 +105,9 @@ func Demo(ctx context.Context, env Env, o DemoOptions) (_ *DemoResult, err error
 	if res.Change, err = Change(ctx, env, ChangeOptions{Before: f.Before, After: f.After, Out: j("change"), Reference: f.Truth,
 		PreviewBands: []int{3, 2, 1}, Threshold: thr, MinArea: MinArea{Px: 4}, Overwrite: o.Overwrite}); err != nil {
 		return nil, fmt.Errorf("demo change: %w", err)
+	}
+	if res.Timeline, err = demoTimeline(ctx, env, &o); err != nil {
+		return nil, err
 	}
 	err = filepath.WalkDir(o.Dir, func(p string, d fs.DirEntry, err error) error {
 		if err != nil {
@@ -163,17 +169,7 @@ func writeScenario(ctx context.Context, env Env, o *DemoOptions) (*scenario.Catc
 	tnd := float64(scenario.TruthNoData)
 	truthSpec := raster.Spec{Grid: ms, Bands: 1, DataType: "Byte", NoData: &tnd, Overwrite: o.Overwrite,
 		Descriptions: []string{"change truth (1 changed, 0 unchanged)"}, Metadata: with(nil)}
-	err = writeRaster(ctx, env, files.Truth, truthSpec, grid, func(int) renderFunc {
-		var ids []uint8
-		return func(t tiles.Tile, dst []float64) error {
-			ids = grow(ids, t.Pixels())
-			c.Truth(t.X, t.Y, t.W, t.H, ids)
-			for i, v := range ids {
-				dst[i] = float64(v)
-			}
-			return nil
-		}
-	})
+	err = writeRaster(ctx, env, files.Truth, truthSpec, grid, truthRender(c.Truth))
 	if err != nil {
 		return nil, err
 	}

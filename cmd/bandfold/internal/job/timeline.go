@@ -6,9 +6,11 @@ import (
 	"fmt"
 	"slices"
 	"strings"
+	"time"
 
 	"bandfold/raster"
 	"bandfold/raster/output"
+	"bandfold/tiles"
 	"bandfold/transform"
 	"bandfold/transform/change"
 )
@@ -122,14 +124,20 @@ func Timeline(ctx context.Context, env Env, o TimelineOptions) (_ *TimelineResul
 	defer func() { err = classify(err) }()
 	r := &timelineRun{env: env, o: &o}
 	defer r.close()
-	steps := []func(context.Context) error{
-		r.open, r.sample, r.normalize, r.fitBasis, r.fitModels, r.mapPixels, r.sieve,
-		r.classify, r.patches, r.figures, r.report, r.summary,
+	steps := []struct {
+		name string
+		do   func(context.Context) error
+	}{
+		{"open", r.open}, {"sample", r.sample}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"models", r.fitModels},
+		{"map", r.mapPixels}, {"sieve", r.sieve}, {"classify", r.classify}, {"patches", r.patches}, {"figures", r.figures},
+		{"report", r.report}, {"summary", r.summary},
 	}
 	for _, step := range steps {
-		if err := step(ctx); err != nil {
+		start := time.Now()
+		if err := step.do(ctx); err != nil {
 			return nil, r.dir.FinalNames(err)
 		}
+		env.log().Debug("timeline step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
 	}
 	return r.sum, nil
 }
@@ -165,6 +173,7 @@ type timelineRun struct {
 	o   *TimelineOptions
 
 	scenes    []*raster.Stack // sorted by date
+	tiles     []tiles.Tile    // of every pass
 	args      []string        // their arguments
 	dates     []sceneDate
 	aligned   bool
@@ -269,6 +278,7 @@ func (r *timelineRun) open(context.Context) error {
 	if err := needTwoBands(first, o.Input.Bands); err != nil {
 		return err
 	}
+	r.tileGrid()
 	r.areas, err = raster.NewCellAreas(first.Grid)
 	if errors.Is(err, raster.ErrNoCRS) {
 		if o.MinArea.M2 > 0 {

@@ -94,9 +94,21 @@ func TestTimelineStepsEqualChange(t *testing.T) {
 	if _, err := os.Stat(filepath.Join(out, "step-z.tif")); err == nil {
 		t.Error("the scratch step-z.tif was left in the folder")
 	}
-	md, err := raster.ReadMetadata(filepath.Join(out, "first-change.tif"))
-	if err != nil || md["BANDFOLD_CAUTION"] != Caution {
-		t.Errorf("first-change.tif caution %q, %v", md["BANDFOLD_CAUTION"], err)
+	// The caution travels with every output (the issue; change's rule).
+	for _, name := range []string{"first-change.tif", "last-change.tif", "change-count.tif", "max-magnitude.tif", "steps.tif"} {
+		md, err := raster.ReadMetadata(filepath.Join(out, name))
+		if err != nil || md["BANDFOLD_CAUTION"] != Caution {
+			t.Errorf("%s caution %q, %v", name, md["BANDFOLD_CAUTION"], err)
+		}
+	}
+	for _, name := range []string{"timeline.json", "report.html"} {
+		data, err := os.ReadFile(filepath.Join(out, name))
+		if err != nil || !strings.Contains(string(data), "screening result") {
+			t.Errorf("%s lacks the caution (%v)", name, err)
+		}
+	}
+	if res.Caution != Caution {
+		t.Errorf("the result's caution is %q", res.Caution)
 	}
 }
 

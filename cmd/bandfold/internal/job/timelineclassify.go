@@ -26,11 +26,18 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	for q := range descs {
 		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged not confirmed, 2 confirmed, 255 nodata", r.label(q), r.label(q+1))
 	}
+	// GeoTIFF keeps a colour table (on band 1) only in files of one or two
+	// bands: a longer series' steps.tif goes without, its values told by
+	// the band descriptions.
+	colors := stepColors
+	if S > 2 {
+		colors = nil
+	}
 	specs := []struct {
 		name string
 		spec raster.Spec
 	}{
-		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, ColorTable: stepColors, Descriptions: descs, Metadata: md}},
+		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, ColorTable: colors, Descriptions: descs, Metadata: md}},
 		{"first-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the first confirmed change (YYYYMMDD); nodata where none"}}},
 		{"last-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the last confirmed change (YYYYMMDD); nodata where none"}}},
 		{"change-count.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"confirmed changes per pixel; nodata where no step is valid"}}},
@@ -165,5 +172,11 @@ func (r *timelineRun) patches(context.Context) error {
 		r.counts[q].patches = s.Count
 	}
 	r.outputs = append(r.outputs, "changes.gpkg")
+	for q, m := range r.masks {
+		if err := m.Close(); err != nil {
+			return fmt.Errorf("write %s: step map: %w", r.o.Out, err)
+		}
+		r.masks[q] = nil
+	}
 	return r.removeScratch()
 }

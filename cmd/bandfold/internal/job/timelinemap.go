@@ -33,13 +33,22 @@ var stepColors = func() [][4]int16 {
 	return ct
 }()
 
-// seriesTile is one tile of every pair's change statistic.
+// seriesTile is one tile of every pair's change statistic, as the outputs
+// store it (Float32).
 type seriesTile struct {
-	z            [][]float64 // per step
+	z            [][]float32 // per step
 	flags, top   [][]uint8   // per step
 	exceed       [][]uint8   // per skip: the flags of (t-1, t+1)
-	zmax, argmax []float64
+	zmax, argmax []float32
 }
+
+// seriesChunk is the number of pixels a worker scores at a time: the
+// scorers' buffers stay small whatever the tile and the number of pairs.
+const seriesChunk = 4096
+
+// seriesRing is the number of dates a worker holds at a time: a date and
+// the two before it, all the pairs ending on it need.
+const seriesRing = 3
 
 type seriesWorker struct {
 	*seriesReader
@@ -48,48 +57,77 @@ type seriesWorker struct {
 	steps   int
 	pool    *sync.Pool
 	norms   [][]change.BandFit
-	xn, buf [][]float64 // each date normalised
+	p       int
 	both    []bool
 	top     []uint8
-	z       []float64
+	z, zmax []float64
+	argmax  []int
+	ending  []int // the pairs ending on the date read
 }
 
+// Do reads the dates of a tile in order, each into the ring of the last
+// three, and scores the pairs ending on it: the step (t-1, t) and the skip
+// (t-2, t).
 func (w *seriesWorker) Do(_ context.Context, t tiles.Tile) (*seriesTile, error) {
-	if err := w.read(t.Index); err != nil {
-		return nil, err
-	}
-	n := t.Pixels()
+	n, p := t.Pixels(), w.p
 	st := w.pool.Get().(*seriesTile)
 	st.z, st.flags, st.top = grows(st.z, w.steps, n), grows(st.flags, w.steps, n), grows(st.top, w.steps, n)
 	st.exceed = grows(st.exceed, len(w.pairs)-w.steps, n)
 	st.zmax, st.argmax = grow(st.zmax, n), grow(st.argmax, n)
-	for i, x := range w.x {
-		w.xn[i] = x
-		if w.norms[i] != nil {
-			w.buf[i] = grow(w.buf[i], len(x))
-			copy(w.buf[i], x)
-			applyNorm(w.buf[i], w.norms[i])
-			w.xn[i] = w.buf[i]
-		}
-	}
-	w.z, w.top = grow(w.z, n), grow(w.top, n)
-	for q, pr := range w.pairs {
-		w.both = w.seriesReader.both(w.both, pr[0], pr[1])
-		if q < w.steps {
-			w.scorers[q].score(w.xn[pr[0]], w.xn[pr[1]], w.both, st.z[q], st.top[q], st.flags[q])
-			continue
-		}
-		w.scorers[q].score(w.xn[pr[0]], w.xn[pr[1]], w.both, w.z, w.top, st.exceed[q-w.steps])
-	}
+	w.z, w.top, w.both = grow(w.z, seriesChunk), grow(w.top, seriesChunk), grow(w.both, seriesChunk)
+	w.zmax, w.argmax = grow(w.zmax, n), grow(w.argmax, n)
 	for i := range n {
-		st.zmax[i], st.argmax[i] = math.NaN(), math.NaN()
-		for q := range w.steps {
-			if z := st.z[q][i]; z == z && !(z <= st.zmax[i]) {
-				st.zmax[i], st.argmax[i] = z, float64(q+1)
+		w.zmax[i], w.argmax[i] = math.NaN(), 0
+	}
+	for d := range w.scenes {
+		if err := w.readDate(t.Index, d, d%seriesRing); err != nil {
+			return nil, err
+		}
+		// Normalised in place: the reader reads every tile afresh.
+		applyNorm(w.x[d%seriesRing], w.norms[d])
+		w.ending = w.ending[:0]
+		for q, pr := range w.pairs {
+			if pr[1] == d {
+				w.ending = append(w.ending, q)
+			}
+		}
+		for lo := 0; lo < n; lo += seriesChunk {
+			for _, q := range w.ending {
+				w.scorePair(st, q, lo, min(n, lo+seriesChunk), p)
 			}
 		}
 	}
+	for i := range n {
+		st.zmax[i], st.argmax[i] = float32(w.zmax[i]), float32(math.NaN())
+		if w.argmax[i] > 0 {
+			st.argmax[i] = float32(w.argmax[i])
+		}
+	}
 	return st, nil
+}
+
+// scorePair scores pair q over pixels lo to hi of the tile: a step's Z,
+// top component and flags, and the largest Z so far; a skip's flags.
+func (w *seriesWorker) scorePair(st *seriesTile, q, lo, hi, p int) {
+	a, b := w.pairs[q][0], w.pairs[q][1]
+	xa, xb := w.x[a%seriesRing], w.x[b%seriesRing]
+	va, vb := w.valid[a%seriesRing], w.valid[b%seriesRing]
+	z, top, both := w.z[:hi-lo], w.top[:hi-lo], w.both[:hi-lo]
+	for i := range both {
+		both[i] = va[lo+i] && vb[lo+i]
+	}
+	if q >= w.steps {
+		w.scorers[q].score(xa[lo*p:hi*p], xb[lo*p:hi*p], both, z, top, st.exceed[q-w.steps][lo:hi])
+		return
+	}
+	w.scorers[q].score(xa[lo*p:hi*p], xb[lo*p:hi*p], both, z, st.top[q][lo:hi], st.flags[q][lo:hi])
+	out := st.z[q][lo:hi]
+	for i, v := range z {
+		out[i] = float32(v)
+		if v == v && !(v <= w.zmax[lo+i]) {
+			w.zmax[lo+i], w.argmax[lo+i] = v, q+1
+		}
+	}
 }
 
 // grows returns m rows of n values, reusing buf.
@@ -110,8 +148,9 @@ func grows[T any](buf [][]T, m, n int) [][]T {
 // max-magnitude.tif, and the skips' verdicts into the confirmation bits.
 func (r *timelineRun) mapPixels(ctx context.Context) error {
 	S, g := r.steps(), r.scenes[0].Grid
-	for range S {
-		m, err := raster.NewMask(g)
+	for q := range S {
+		// On disk: the maps of every step stay out of memory.
+		m, err := raster.NewMaskFile(g, r.dir.Path(fmt.Sprintf("step-%d-map.tif", q+1)))
 		if err != nil {
 			return err
 		}
@@ -125,7 +164,9 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 		zdesc[q] = fmt.Sprintf("change statistic Z, %s to %s", r.label(q), r.label(q+1))
 	}
 	r.scratch = r.dir.Path("step-z.tif")
-	zs, err := raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &nan, Descriptions: zdesc, Metadata: md})
+	// Scratch, read once for the patches: not worth compressing.
+	zs, err := raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &nan, Descriptions: zdesc, Metadata: md,
+		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1"}})
 	if err != nil {
 		return err
 	}
@@ -141,8 +182,7 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 	var zbuf, mbuf []float64
 	err = tiles.Run(ctx, r.runTiles(), tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", int64(g.Width)*int64(g.Height))},
 		func(int) (tiles.Worker[*seriesTile], error) {
-			w := &seriesWorker{seriesReader: r.newSeriesReader(), pairs: pairs, steps: S, pool: pool, norms: r.norms,
-				xn: make([][]float64, len(r.scenes)), buf: make([][]float64, len(r.scenes))}
+			w := &seriesWorker{seriesReader: r.newSeriesReader(r.runTiles()), pairs: pairs, steps: S, pool: pool, norms: r.norms, p: r.scenes[0].Len()}
 			for q := range pairs {
 				w.scorers = append(w.scorers, newPairScorer(r.proj, r.fits[q], nil))
 			}
@@ -157,7 +197,7 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 					return err
 				}
 				for i := range n {
-					zbuf[i*S+q] = st.z[q][i]
+					zbuf[i*S+q] = float64(st.z[q][i])
 					if st.flags[q][i] != 255 {
 						r.valid[q]++
 					}
@@ -168,7 +208,7 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 				}
 			}
 			for i := range n {
-				mbuf[2*i], mbuf[2*i+1] = st.zmax[i], st.argmax[i]
+				mbuf[2*i], mbuf[2*i+1] = float64(st.zmax[i]), float64(st.argmax[i])
 			}
 			if err := zs.Write(t, zbuf); err != nil {
 				return err

@@ -1,8 +1,12 @@
 package job
 
 import (
+	"bytes"
 	"context"
 	"fmt"
+	"image"
+	"image/draw"
+	"image/png"
 	"math"
 	"path/filepath"
 
@@ -29,6 +33,20 @@ func (r *timelineRun) figures(context.Context) error {
 	if err != nil {
 		return fmt.Errorf("timeline of %s: %w", r.o.Out, err)
 	}
+	// The caution travels with the chart too, under it.
+	decoded, err := png.Decode(bytes.NewReader(bars))
+	if err != nil {
+		return fmt.Errorf("timeline of %s: %w", r.o.Out, err)
+	}
+	chart := image.NewRGBA(decoded.Bounds())
+	draw.Draw(chart, chart.Bounds(), decoded, decoded.Bounds().Min, draw.Src)
+	lines := []string{Caution}
+	if v, ok := r.scenes[0].Metadata["SCENARIO"]; ok {
+		lines = append(lines, "invented scenario: "+v)
+	}
+	if bars, err = encodePNG(figures.Annotate(chart, figures.Annotation{Lines: lines})); err != nil {
+		return fmt.Errorf("timeline of %s: %w", r.o.Out, err)
+	}
 	if err := output.WriteFile(r.dir.Path("timeline.png"), bars, false); err != nil {
 		return err
 	}
@@ -37,10 +55,7 @@ func (r *timelineRun) figures(context.Context) error {
 		labels = append(labels, "first confirmed change between "+r.label(q)+" and "+r.label(q+1))
 	}
 	img := figures.DateMap(r.pw, r.ph, r.firstPrev, figures.DateColours(S), labels)
-	ann := figures.Annotation{Title: fmt.Sprintf("Date of first confirmed change, %s to %s", r.label(0), r.label(S)), Lines: []string{Caution}}
-	if v, ok := r.scenes[0].Metadata["SCENARIO"]; ok {
-		ann.Lines = append(ann.Lines, "invented scenario: "+v)
-	}
+	ann := figures.Annotation{Title: fmt.Sprintf("Date of first confirmed change, %s to %s", r.label(0), r.label(S)), Lines: lines}
 	if r.areas != nil {
 		ann.MetresPerPixel = math.Sqrt(r.areas.Mean()) * float64(r.scenes[0].Width) / float64(r.pw)
 	}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"sync/atomic"
 
 	"bandfold/bands"
@@ -14,56 +15,63 @@ import (
 )
 
 // seriesReader reads the same tile of every date (each on the first date's
-// tile grid): O(dates x tile) values.
+// tile grid), each date into its own buffer or all into one: O(dates x
+// tile) values at most. It opens one reader per date, for one worker.
 type seriesReader struct {
-	rs    []*reader
-	x     [][]float64
-	valid [][]bool
+	scenes []*raster.Stack
+	tiles  []tiles.Tile
+	rs     []*raster.Reader
+	x      [][]float64
+	valid  [][]bool
 }
 
-func (r *timelineRun) newSeriesReader() *seriesReader {
-	g := gridFor(r.scenes[0], r.o.Input.Tile)
-	same := func(*raster.Stack) tiles.Grid { return g }
-	sr := &seriesReader{}
-	for _, s := range r.scenes {
-		sr.rs = append(sr.rs, newScan([]*raster.Stack{s}, same, 1, Shard{}).newReader())
-	}
-	sr.x, sr.valid = make([][]float64, len(sr.rs)), make([][]bool, len(sr.rs))
-	return sr
+func (r *timelineRun) newSeriesReader(ts []tiles.Tile) *seriesReader {
+	D := len(r.scenes)
+	return &seriesReader{scenes: r.scenes, tiles: ts, rs: make([]*raster.Reader, D), x: make([][]float64, D), valid: make([][]bool, D)}
 }
 
-// read reads tile k of every date.
-func (sr *seriesReader) read(k int) error {
-	for i, rd := range sr.rs {
-		x, v, _, err := rd.read(k)
+// readDate reads tile k of date d into buffer b.
+func (sr *seriesReader) readDate(k, d, b int) error {
+	if sr.rs[d] == nil {
+		rd, err := sr.scenes[d].NewReader()
 		if err != nil {
 			return err
 		}
-		sr.x[i], sr.valid[i] = x, v
+		sr.rs[d] = rd
 	}
-	return nil
+	t := sr.tiles[k]
+	sr.x[b], sr.valid[b] = grow(sr.x[b], t.Pixels()*sr.scenes[d].Len()), grow(sr.valid[b], t.Pixels())
+	_, err := sr.rs[d].Read(t, sr.x[b], sr.valid[b])
+	return err
 }
 
-// both sets dst to the pixels valid on dates a and b.
-func (sr *seriesReader) both(dst []bool, a, b int) []bool {
-	dst = grow(dst, len(sr.valid[a]))
-	for i := range dst {
-		dst[i] = sr.valid[a][i] && sr.valid[b][i]
+// read reads tile k of every date, each into its own buffer.
+func (sr *seriesReader) read(k int) error {
+	for d := range sr.scenes {
+		if err := sr.readDate(k, d, d); err != nil {
+			return err
+		}
 	}
-	return dst
+	return nil
 }
 
 func (sr *seriesReader) Close() error {
 	var errs []error
 	for _, rd := range sr.rs {
-		errs = append(errs, rd.Close())
+		if rd != nil {
+			errs = append(errs, rd.Close())
+		}
 	}
 	return errors.Join(errs...)
 }
 
-// tileGrid is the tiles every pass reads.
-func (r *timelineRun) runTiles() []tiles.Tile {
-	g := gridFor(r.scenes[0], r.o.Input.Tile)
+// runTiles is the tiles every pass reads, numbered (set by open).
+func (r *timelineRun) runTiles() []tiles.Tile { return r.tiles }
+
+// tileGrid numbers the tiles of the first date's grid.
+func (r *timelineRun) tileGrid() { r.tiles = numbered(gridFor(r.scenes[0], r.o.Input.Tile)) }
+
+func numbered(g tiles.Grid) []tiles.Tile {
 	var out []tiles.Tile
 	for t := range g.Tiles() {
 		t.Index = len(out)
@@ -72,98 +80,135 @@ func (r *timelineRun) runTiles() []tiles.Tile {
 	return out
 }
 
+// sampleTiles are the tiles of the sample pass: those of the map pass, or
+// smaller ones where a share of the pixels above a quarter can be sampled
+// (an image of a few times --sample pixels), so that a tile's candidates,
+// each held with its values on every date, take about a quarter of
+// tiles.DefaultBudget. Smaller tiles change nothing sampled; the dates'
+// co-moments merge in another order.
+func (r *timelineRun) sampleTiles(hint uint64) []tiles.Tile {
+	share := math.Ldexp(float64(hint), -64)
+	first := r.scenes[0]
+	if share <= 0.25 || r.o.Input.Tile > 0 {
+		return r.tiles
+	}
+	values := int(math.Ceil(4 * share * float64(len(r.scenes)*first.Len())))
+	w, h := tiles.SizeFor(first.Width, first.Height, first.BlockW, first.BlockH, values, tiles.DefaultBudget)
+	return numbered(tiles.NewGrid(first.Width, first.Height, w, h))
+}
+
 // seriesStats is what the sample pass gathers: each date's co-moments over
-// its valid pixels and, per pair, a sample of both dates drawn as Change
-// draws it (the same pixels, for the same pair).
+// its valid pixels and every pair's sample, drawn as Change draws it (the
+// same pixels, for the same pair).
 type seriesStats struct {
-	acc     []*bands.Accumulator
-	samples []*change.Sampler
+	acc    []*bands.Accumulator
+	sample *seriesSample
 }
 
 type sampleWorker struct {
 	*seriesReader
 	pairs  [][2]int
 	p      int
-	size   int
 	width  int64
-	bounds []atomic.Uint64
-	both   []bool
-	px     []float64
+	keyer  *change.Sampler // its Key only
+	bound  *atomic.Uint64
+	pos    []int    // the tile's pixels below the bound
+	dvalid [][]bool // per date
 }
 
-func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (seriesStats, error) {
-	if err := w.read(t.Index); err != nil {
-		return seriesStats{}, err
-	}
-	res := seriesStats{}
-	for i := range w.x {
-		acc := bands.NewAccumulator(w.p)
-		acc.AddPixels(w.x[i], w.valid[i])
-		res.acc = append(res.acc, acc)
-	}
-	w.px = grow(w.px, 2*w.p)
-	p := w.p
-	for q, pr := range w.pairs {
-		s := change.NewSampler(w.size, 2*p, 1)
-		w.both = w.seriesReader.both(w.both, pr[0], pr[1])
-		xb, xa := w.x[pr[0]], w.x[pr[1]]
-		bound := w.bounds[q].Load()
-		for i, ok := range w.both {
-			if !ok {
-				continue
-			}
-			index := int64(t.Y+i/t.W)*w.width + int64(t.X+i%t.W)
-			if s.Key(index) >= bound {
-				continue
-			}
-			copy(w.px[:p], xb[i*p:i*p+p])
-			copy(w.px[p:], xa[i*p:i*p+p])
-			s.Offer(index, w.px)
+// sampled is one tile's share of the sample pass.
+type sampled struct {
+	acc []*bands.Accumulator
+	ts  *tileSample
+}
+
+func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
+	n, D, p := t.Pixels(), len(w.scenes), w.p
+	// The pixels whose key can enter some pair's sample; add drops those
+	// valid on no pair.
+	bound := w.bound.Load()
+	ts := &tileSample{both: make([]int64, len(w.pairs))}
+	w.pos = w.pos[:0]
+	for i := range n {
+		index := int64(t.Y+i/t.W)*w.width + int64(t.X+i%t.W)
+		if key := w.keyer.Key(index); key < bound {
+			w.pos, ts.cands = append(w.pos, i), append(ts.cands, candidate{key: key, index: index})
 		}
-		res.samples = append(res.samples, s)
 	}
+	ts.vals, ts.valid = make([]float64, len(w.pos)*D*p), make([]bool, len(w.pos)*D)
+	w.dvalid = grows(w.dvalid, D, n)
+	var res sampled
+	// One date at a time, into one buffer.
+	for d := range D {
+		if err := w.readDate(t.Index, d, 0); err != nil {
+			return sampled{}, err
+		}
+		x, valid := w.x[0], w.valid[0]
+		acc := bands.NewAccumulator(p)
+		acc.AddPixels(x, valid)
+		res.acc = append(res.acc, acc)
+		copy(w.dvalid[d], valid)
+		for c, i := range w.pos {
+			copy(ts.vals[(c*D+d)*p:(c*D+d+1)*p], x[i*p:i*p+p])
+			ts.valid[c*D+d] = valid[i]
+		}
+	}
+	for i := range n {
+		for q, pr := range w.pairs {
+			if w.dvalid[pr[0]][i] && w.dvalid[pr[1]][i] {
+				ts.both[q]++
+			}
+		}
+	}
+	res.ts = ts
 	return res, nil
 }
 
-// sample reads every date once: the co-moments of each date and a sample
-// of each pair, the same for any number of workers.
+// sample reads every date once: the co-moments of each date and the
+// sample of each pair, the same for any number of workers. Should the
+// hint have cut a pair's sample short (most of its pixels nodata), the
+// pass runs again with a hint for the pixels valid, then without.
 func (r *timelineRun) sample(ctx context.Context) error {
 	p, pairs := r.scenes[0].Len(), r.pairs()
-	total := seriesStats{}
-	for range r.scenes {
-		total.acc = append(total.acc, bands.NewAccumulator(p))
-	}
-	bounds := make([]atomic.Uint64, len(pairs))
-	for q := range pairs {
-		total.samples = append(total.samples, change.NewSampler(r.o.Sample, 2*p, 1))
-		bounds[q].Store(total.samples[q].Bound())
-	}
-	ts := r.runTiles()
-	err := tiles.Run(ctx, ts, tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("statistics", int64(r.scenes[0].Width)*int64(r.scenes[0].Height))},
-		func(int) (tiles.Worker[seriesStats], error) {
-			return &sampleWorker{seriesReader: r.newSeriesReader(), pairs: pairs, p: p, size: r.o.Sample,
-				width: int64(r.scenes[0].Width), bounds: bounds}, nil
-		},
-		func(_ tiles.Tile, res seriesStats) error {
-			for i, a := range res.acc {
-				total.acc[i].Merge(a)
-			}
-			for q, s := range res.samples {
-				total.samples[q].Merge(s)
-				bounds[q].Store(total.samples[q].Bound())
-			}
-			return nil
-		})
-	if err != nil {
-		return err
-	}
-	for q, pr := range pairs[:r.steps()] {
-		if total.samples[q].Len() == 0 {
-			return fmt.Errorf("no pixel is valid on both %s and %s after nodata and masks", r.args[pr[0]], r.args[pr[1]])
+	g := r.scenes[0].Grid
+	hint := sampleHint(r.o.Sample, int64(g.Width)*int64(g.Height))
+	for {
+		total := seriesStats{sample: newSeriesSample(r.o.Sample, p, len(r.scenes), pairs, hint, int64(g.Width)*int64(g.Height))}
+		for range r.scenes {
+			total.acc = append(total.acc, bands.NewAccumulator(p))
 		}
+		var bound atomic.Uint64
+		bound.Store(total.sample.bound())
+		keys := change.NewSampler(r.o.Sample, 1, 1)
+		ts := r.sampleTiles(hint)
+		err := tiles.Run(ctx, ts, tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("statistics", int64(g.Width)*int64(g.Height))},
+			func(int) (tiles.Worker[sampled], error) {
+				return &sampleWorker{seriesReader: r.newSeriesReader(ts), pairs: pairs, p: p, width: int64(g.Width), keyer: keys, bound: &bound}, nil
+			},
+			func(_ tiles.Tile, res sampled) error {
+				for i, a := range res.acc {
+					total.acc[i].Merge(a)
+				}
+				total.sample.add(res.ts)
+				bound.Store(total.sample.bound())
+				return nil
+			})
+		if err != nil {
+			return err
+		}
+		if !total.sample.complete() {
+			hint = total.sample.retryHint()
+			continue
+		}
+		for q, pr := range pairs[:r.steps()] {
+			if total.sample.both[q] == 0 {
+				return fmt.Errorf("no pixel is valid on both %s and %s after nodata and masks", r.args[pr[0]], r.args[pr[1]])
+			}
+		}
+		total.sample.finish()
+		r.stats = total
+		return nil
 	}
-	r.stats = total
-	return nil
 }
 
 // normalize brings every date onto the first date's radiometric scale:
@@ -177,16 +222,7 @@ func (r *timelineRun) normalize(context.Context) error {
 	r.norms = make([][]change.BandFit, len(r.scenes))
 	r.normSums = make([]NormalizationSummary, len(r.scenes))
 	r.normSums[0] = NormalizationSummary{Method: r.o.Normalize, Bands: []BandNormalized{}}
-	split := func(q int) (xb, xa []float64) {
-		_, both := r.stats.samples[q].Pixels()
-		n := len(both) / (2 * p)
-		xb, xa = make([]float64, n*p), make([]float64, n*p)
-		for i := range n {
-			copy(xb[i*p:i*p+p], both[i*2*p:i*2*p+p])
-			copy(xa[i*p:i*p+p], both[i*2*p+p:i*2*p+2*p])
-		}
-		return xb, xa
-	}
+	split := r.stats.sample.pair
 	for t := 1; t < len(r.scenes); t++ {
 		sum := NormalizationSummary{Method: r.o.Normalize, Bands: []BandNormalized{}}
 		r.norms[t] = r.norms[t-1]
@@ -219,8 +255,8 @@ func (r *timelineRun) normalize(context.Context) error {
 		dx := make([]float64, len(xa))
 		diffInto(dx, xb, xa, nil)
 		r.dxs = append(r.dxs, dx)
-		r.stats.samples[q] = nil // the differences are all later steps need
 	}
+	r.stats.sample = nil // the differences are all later steps need
 	return nil
 }
 
@@ -272,25 +308,50 @@ func (r *timelineRun) fitBasis(context.Context) error {
 	return nil
 }
 
-// fitModels fits every pair's own no-change model and threshold.
-func (r *timelineRun) fitModels(context.Context) error {
-	p, k := r.scenes[0].Len(), r.proj.Components()
-	for q, pr := range r.pairs() {
-		f, err := fitPair(r.dxs[q], p, r.proj, r.o.Threshold, r.args[pr[0]]+" and "+r.args[pr[1]])
-		if err != nil {
-			return err
-		}
-		if f.identical {
+// fitModels fits every pair's own no-change model and threshold, the
+// pairs in parallel (each fit is Change's, alone on its pair's sample).
+func (r *timelineRun) fitModels(ctx context.Context) error {
+	pairs := r.pairs()
+	jobs := make([]tiles.Tile, len(pairs))
+	for q := range jobs {
+		jobs[q].Index = q
+	}
+	p := r.scenes[0].Len()
+	err := tiles.Run(ctx, jobs, tiles.Options{Workers: r.env.workers()},
+		func(int) (tiles.Worker[*pairFit], error) { return &fitWorker{r: r, p: p, proj: r.proj.Clone()}, nil },
+		func(t tiles.Tile, f *pairFit) error {
+			r.fits = append(r.fits, f)
+			r.dxs[t.Index] = nil
+			return nil
+		})
+	if err != nil {
+		return err
+	}
+	k := r.proj.Components()
+	for q, pr := range pairs {
+		if r.fits[q].identical {
 			r.warnf("%s and %s are identical over the sampled pixels: no change is mapped between them", r.args[pr[0]], r.args[pr[1]])
 		}
-		for _, w := range f.warnings(r.o.Threshold, k) {
+		for _, w := range r.fits[q].warnings(r.o.Threshold, k) {
 			r.warnf("%s to %s: %s", r.label(pr[0]), r.label(pr[1]), w)
 		}
-		r.fits = append(r.fits, f)
-		r.dxs[q] = nil
 	}
 	return nil
 }
+
+// fitWorker fits pairs' models, with its own projector.
+type fitWorker struct {
+	r    *timelineRun
+	p    int
+	proj *transform.Projector
+}
+
+func (w *fitWorker) Do(_ context.Context, t tiles.Tile) (*pairFit, error) {
+	pr := w.r.pairs()[t.Index]
+	return fitPair(w.r.dxs[t.Index], w.p, w.proj, w.r.o.Threshold, w.r.args[pr[0]]+" and "+w.r.args[pr[1]])
+}
+
+func (w *fitWorker) Close() error { return nil }
 
 // warnf keeps a warning for timeline.json; summary prints them.
 func (r *timelineRun) warnf(format string, args ...any) {

@@ -33,9 +33,7 @@ type Catchment struct {
 	seed  uint64
 	ly    *layout
 	spec  *spectra
-	coll  [2]collar
-	illum [2]illumination
-	noise [2]uint64
+	looks [2]look // date 0 (before) and date 1 (after)
 
 	hyColl  collar
 	hyIllum illumination
@@ -50,12 +48,15 @@ func NewCatchment(width, height int, seed uint64) (*Catchment, error) {
 	}
 	c := &Catchment{w: width, h: height, seed: seed, ly: newLayout(width, height, seed), spec: newSpectra()}
 	key := func(label uint64) uint64 { return subKey(seed, 100+label) }
-	c.coll[0] = newCollar(key(1), width, height, 0.006)
-	c.coll[1] = newCollar(key(2), width, height, 0.010)
 	l := float64(min(width, height))
-	c.illum[0] = illumination{f: newField(key(3), l/2, 2), gx: 0.05, gy: -0.03, amp: 0.02, w: width, h: height}
-	c.illum[1] = illumination{f: newField(key(4), l/2, 2), gx: -0.04, gy: 0.045, amp: 0.02, w: width, h: height}
-	c.noise[0], c.noise[1] = key(5), key(6)
+	c.looks[0] = look{coll: newCollar(key(1), width, height, 0.006), noise: key(5),
+		illum: illumination{f: newField(key(3), l/2, 2), gx: 0.05, gy: -0.03, amp: 0.02, w: width, h: height}}
+	c.looks[1] = look{coll: newCollar(key(2), width, height, 0.010), noise: key(6), on: allEvents,
+		illum: illumination{f: newField(key(4), l/2, 2), gx: -0.04, gy: 0.045, amp: 0.02, w: width, h: height}}
+	for b := range MSBands {
+		c.looks[0].gain[b] = 1
+		c.looks[1].gain[b], c.looks[1].off[b] = afterGain[b], afterOffset[b]
+	}
 	hw, hh := c.HyperSize()
 	c.hyColl = newCollar(key(7), hw, hh, 0.006)
 	c.hyIllum = illumination{f: newField(key(8), float64(min(hw, hh))/2, 2), gx: 0.03, gy: 0.02, amp: 0.015, w: hw, h: hh}
@@ -133,21 +134,36 @@ func checkDate(date int) {
 // outside the scene.
 func (c *Catchment) Multispectral(date, x0, y0, w, h int, dst []float64) {
 	checkDate(date)
+	c.render(&c.looks[date], x0, y0, w, h, dst)
+}
+
+// look is how one date sees the catchment: its nodata collar, its
+// illumination, its sensor-noise stream, its per-band gain and offset, the
+// events that have happened by then, and a cloud (nil for a clear sky).
+type look struct {
+	coll      collar
+	illum     illumination
+	noise     uint64
+	gain, off [MSBands]float64
+	on        events
+	cloud     *cloud
+}
+
+// render renders the multispectral window of one look (see Multispectral).
+func (c *Catchment) render(lk *look, x0, y0, w, h int, dst []float64) {
 	checkWindow(w, h, MSBands, len(dst))
 	if w == 0 || h == 0 {
 		return
 	}
 	wn := c.ly.window(x0, y0, w, h)
 	mask := make([]bool, w*h)
-	c.coll[date].fill(x0, y0, w, h, mask)
-	illum := c.illum[date].fill(x0, y0, w, h)
-	var gain, off [MSBands]float64
-	for b := range gain {
-		gain[b], off[b] = 1, 0
-		if date == 1 {
-			gain[b], off[b] = afterGain[b], afterOffset[b]
-		}
+	lk.coll.fill(x0, y0, w, h, mask)
+	illum := lk.illum.fill(x0, y0, w, h)
+	var opacity []float32
+	if lk.cloud != nil {
+		opacity = lk.cloud.opacity(x0, y0, w, h)
 	}
+	gain, off := &lk.gain, &lk.off
 	const rho = 0.2 // share of the noise variance common to all bands
 	own, common := math.Sqrt(1-rho), math.Sqrt(rho)
 	for j := range h {
@@ -158,14 +174,25 @@ func (c *Catchment) Multispectral(date, x0, y0, w, h int, dst []float64) {
 				clear(out)
 				continue
 			}
-			p := c.ly.pixel(wn, i, j, date)
+			p := c.ly.pixel(wn, i, j, lk.on)
 			s1, s2 := &c.spec.ms[p.e1], &c.spec.ms[p.e2]
 			scale := float64(illum[n] * p.beta)
-			ph := pixelHash(c.noise[date], x0+i, y0+j)
+			ph := pixelHash(lk.noise, x0+i, y0+j)
 			shared := common * gauss(ph)
+			a := 0.0
+			if opacity != nil {
+				a = float64(opacity[n])
+			}
 			for b := range out {
 				refl := float64(s1[b] + (s2[b]-s1[b])*p.m)
-				v := gain[b]*scale*refl + off[b] + msBands[b].sigma*(own*gauss(bandHash(ph, b))+shared)
+				v := gain[b] * scale * refl
+				if a > 0 {
+					// What the sensor sees through the cloud: the ground
+					// attenuated, plus the cloud's own reflectance.
+					v = gain[b] * ((1-a)*scale*refl + a*cloudRefl[b])
+				}
+				// Summed in this order, the pair's values are those it always had.
+				v = v + off[b] + msBands[b].sigma*(own*gauss(bandHash(ph, b))+shared)
 				out[b] = min(max(math.Round(v), 1), 65535)
 			}
 		}
@@ -182,14 +209,14 @@ func (c *Catchment) ClassMap(date, x0, y0, w, h int, dst []uint8) {
 	}
 	wn := c.ly.window(x0, y0, w, h)
 	mask := make([]bool, w*h)
-	c.coll[date].fill(x0, y0, w, h, mask)
+	c.looks[date].coll.fill(x0, y0, w, h, mask)
 	for j := range h {
 		for i := range w {
 			n := j*w + i
 			if mask[n] {
 				dst[n] = TruthNoData
 			} else {
-				dst[n] = uint8(c.ly.pixel(wn, i, j, date).class)
+				dst[n] = uint8(c.ly.pixel(wn, i, j, c.looks[date].on).class)
 			}
 		}
 	}
@@ -207,8 +234,8 @@ func (c *Catchment) TruthIDs(x0, y0, w, h int, dst []uint8) {
 	wn := c.ly.window(x0, y0, w, h)
 	m0 := make([]bool, w*h)
 	m1 := make([]bool, w*h)
-	c.coll[0].fill(x0, y0, w, h, m0)
-	c.coll[1].fill(x0, y0, w, h, m1)
+	c.looks[0].coll.fill(x0, y0, w, h, m0)
+	c.looks[1].coll.fill(x0, y0, w, h, m1)
 	for j := range h {
 		for i := range w {
 			n := j*w + i
@@ -218,7 +245,7 @@ func (c *Catchment) TruthIDs(x0, y0, w, h int, dst []uint8) {
 			}
 			// Only date 1 carries events; its state names the event
 			// whenever the class differs from date 0.
-			dst[n] = c.ly.pixel(wn, i, j, 1).event
+			dst[n] = c.ly.pixel(wn, i, j, allEvents).event
 		}
 	}
 }
@@ -254,20 +281,25 @@ func (c *Catchment) Events() []Event {
 		{ID: EventBurn, Name: "burn scar", From: "grassland and forest", To: "burnt"},
 	}
 	for k, b := range []*blob{&c.ly.clearing, &c.ly.lake, &c.ly.burn} {
-		r := b.bounds.Intersect(image.Rect(0, 0, c.w, c.h))
-		ids := make([]uint8, r.Dx()*r.Dy())
-		c.TruthIDs(r.Min.X, r.Min.Y, r.Dx(), r.Dy(), ids)
-		ev := &evs[k]
-		for n, v := range ids {
-			if v != ev.ID {
-				continue
-			}
-			pt := image.Pt(r.Min.X+n%r.Dx(), r.Min.Y+n/r.Dx())
-			ev.Bounds = ev.Bounds.Union(image.Rectangle{pt, pt.Add(image.Pt(1, 1))})
-			ev.Area++
-		}
+		evs[k].measure(b, c.w, c.h, c.TruthIDs)
 	}
 	return evs
+}
+
+// measure sets the event's area and bounds from the truth rendered over
+// the blob it lies in.
+func (ev *Event) measure(b *blob, w, h int, truth func(x0, y0, w, h int, dst []uint8)) {
+	r := b.bounds.Intersect(image.Rect(0, 0, w, h))
+	ids := make([]uint8, r.Dx()*r.Dy())
+	truth(r.Min.X, r.Min.Y, r.Dx(), r.Dy(), ids)
+	for n, v := range ids {
+		if v != ev.ID {
+			continue
+		}
+		pt := image.Pt(r.Min.X+n%r.Dx(), r.Min.Y+n/r.Dx())
+		ev.Bounds = ev.Bounds.Union(image.Rectangle{pt, pt.Add(image.Pt(1, 1))})
+		ev.Area++
+	}
 }
 
 // Georeferencing: an invented place. The grid lies on a custom transverse

@@ -30,6 +30,13 @@
 // Unchanged land differs between the dates only by a per-band gain and
 // offset, a different smooth illumination field and sensor noise.
 //
+// A Series shows the same catchment once a year on five dates (SeriesDates),
+// each with its own collar, illumination, gain and offset and noise: a
+// one-date cloud on date 2 (EventCloud, no change of the land), the
+// clearing on date 3 and the burn on date 4, both lasting; the reservoir
+// keeps its before level. Its truth (Series.TruthIDs, Series.Events) gives
+// each event and its date.
+//
 // A 120-band hyperspectral cube (400-2500 nm, 30 m, Int16 reflectance x
 // 10000, nodata -9999) shows date 1; each pixel is the linear mixture of
 // its 3 x 3 block of 10 m ground, and residual water-vapour absorption near

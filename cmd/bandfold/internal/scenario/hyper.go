@@ -108,7 +108,7 @@ func (c *Catchment) hyperspectral(x0, y0, w, h int, dst []float64, noisy bool) {
 			clear(weight[:])
 			for dj := range f {
 				for di := range f {
-					p := c.ly.pixel(wn, f*i+di, f*j+dj, 1)
+					p := c.ly.pixel(wn, f*i+di, f*j+dj, allEvents)
 					weight[p.e1] += p.beta * (1 - p.m)
 					weight[p.e2] += p.beta * p.m
 				}

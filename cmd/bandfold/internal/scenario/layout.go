@@ -244,24 +244,33 @@ func clamp01(v float32) float32 { return min(max(v, 0), 1) }
 var texAmp = [NumClasses]float32{Water: 0.03, Forest: 0.18, Grassland: 0.08, Cropland: 0.05,
 	BareSoil: 0.08, Urban: 0.12, Wetland: 0.10, Burnt: 0.12}
 
-// pixel returns the ground state of window pixel (i, j) on the given date.
-func (ly *layout) pixel(wn *win, i, j, date int) px {
+// events is a set of the change events that have happened by a date.
+type events uint8
+
+const (
+	onReservoir events = 1 << iota
+	onClearing
+	onBurn
+	allEvents = onReservoir | onClearing | onBurn
+)
+
+// pixel returns the ground state of window pixel (i, j) once the events on
+// have happened (none on date 0 of the pair, all on date 1).
+func (ly *layout) pixel(wn *win, i, j int, on events) px {
 	n := j*wn.w + i
 	x, y := wn.x0+i, wn.y0+j
 	mix := wn.mix[n]
 	p := ly.base(wn, i, j, n, x, y)
-	if date == 1 {
-		switch {
-		case wn.lake != nil && wn.lake[n] >= lakeLevelBefore && wn.lake[n] < lakeLevelAfter:
-			if p.class != Water {
-				shallow := clamp01((wn.lake[n] - (lakeLevelAfter - 0.3)) / 0.3)
-				p = px{class: Water, e1: emClearWater, e2: emTurbidWater, m: clamp01(0.15 + 0.15*mix + 0.3*shallow), event: EventReservoir}
-			}
-		case p.class == Forest && wn.clearing != nil && wn.clearing[n] < 1:
-			p = px{class: BareSoil, e1: emLoam, e2: emDryGrass, m: clamp01(0.35 + 0.6*mix), event: EventClearing}
-		case (p.class == Forest || p.class == Grassland) && wn.burn != nil && wn.burn[n] < 1 && wn.burnIsland[n] < 0.4:
-			p = px{class: Burnt, e1: emChar, e2: emScorched, m: clamp01(0.35 + 0.9*wn.burnSev[n]), event: EventBurn}
+	switch {
+	case on&onReservoir != 0 && wn.lake != nil && wn.lake[n] >= lakeLevelBefore && wn.lake[n] < lakeLevelAfter:
+		if p.class != Water {
+			shallow := clamp01((wn.lake[n] - (lakeLevelAfter - 0.3)) / 0.3)
+			p = px{class: Water, e1: emClearWater, e2: emTurbidWater, m: clamp01(0.15 + 0.15*mix + 0.3*shallow), event: EventReservoir}
 		}
+	case on&onClearing != 0 && p.class == Forest && wn.clearing != nil && wn.clearing[n] < 1:
+		p = px{class: BareSoil, e1: emLoam, e2: emDryGrass, m: clamp01(0.35 + 0.6*mix), event: EventClearing}
+	case on&onBurn != 0 && (p.class == Forest || p.class == Grassland) && wn.burn != nil && wn.burn[n] < 1 && wn.burnIsland[n] < 0.4:
+		p = px{class: Burnt, e1: emChar, e2: emScorched, m: clamp01(0.35 + 0.9*wn.burnSev[n]), event: EventBurn}
 	}
 	p.beta = 1 + texAmp[p.class]*wn.tex[n]
 	return p

@@ -1,0 +1,84 @@
+package main
+
+import (
+	"path/filepath"
+	"testing"
+
+	"bandfold/raster"
+	"bandfold/tiles"
+)
+
+// TestTimelineBadInputs runs timeline on the bad input of its issue, as
+// TestBadInputs does for the other commands: exit 2 for a malformed option
+// value or argument count, 1 for files whose data are wrong; exactly one
+// line on stderr, "bandfold: ...", naming the file or flag and the problem;
+// nothing on stdout; and the fixture folder left as it was (no output
+// folder, no temporaries). The expected codes and messages are known by
+// construction: each fixture is made with the one fault its case names.
+func TestTimelineBadInputs(t *testing.T) {
+	dir := t.TempDir()
+	p := func(name string) string { return filepath.Join(dir, name) }
+	synth := func(out string, extra ...string) {
+		mustRun(t, append([]string{"demo", "synth", "--width", "40", "--height", "30", "--out", out, "--quiet"}, extra...)...)
+	}
+	// Three dated scenes of 6 bands, and one fault each for the rest.
+	a, b, c := p("site-2019.tif"), p("site-2020.tif"), p("site-2021.tif")
+	synth(a, "--bands", "6", "--seed", "1")
+	synth(b, "--bands", "6", "--seed", "2")
+	synth(c, "--bands", "6", "--seed", "3")
+	five := p("five-2022.tif")
+	synth(five, "--bands", "5", "--seed", "4")
+	other := p("other-2022.tif")
+	synth(other, "--bands", "6", "--seed", "5", "--width", "30", "--height", "20")
+	undated := p("undated.tif")
+	synth(undated, "--bands", "6", "--seed", "6")
+	dup := p("dup_2020.tif") // the same year as b
+	synth(dup, "--bands", "6", "--seed", "8")
+	// Scenes whose bands are named: the third's are in another order.
+	img := readAll(t, a)
+	names := []string{"blue", "green", "red", "nir", "swir1", "swir2"}
+	swapped := []string{"green", "blue", "red", "nir", "swir1", "swir2"}
+	named := func(name string, desc []string) string {
+		path := p(name)
+		o, err := raster.Create(path, raster.Spec{Grid: img.Grid, Bands: img.bands, DataType: "Int16", Descriptions: desc})
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer o.Abort()
+		if err := o.Write(tiles.Tile{W: img.Width, H: img.Height}, img.values); err != nil {
+			t.Fatal(err)
+		}
+		if err := o.Commit(); err != nil {
+			t.Fatal(err)
+		}
+		return path
+	}
+	n1, n2, n3 := named("named-2019.tif", names), named("named-2020.tif", names), named("named-2021.tif", swapped)
+	out := p("out/timeline")
+	tl := func(extra ...string) []string { return append([]string{"timeline", "--out", out}, extra...) }
+
+	tests := []badCase{
+		{"timeline two scenes", tl(a, b), 2, []string{"at least 3 scenes, got 2"}},
+		{"timeline one scene", tl(a), 2, []string{"at least 3 scenes, got 1"}},
+		{"timeline without out", []string{"timeline", a, b, c}, 2, []string{"out", "not set"}},
+		{"timeline dates too few", tl(a, b, c, "--dates", "2019,2020"), 2, []string{"--dates lists 2 dates for 3 scenes"}},
+		{"timeline dates too many", tl(a, b, c, "--dates", "2019,2020,2021,2022"), 2, []string{"--dates lists 4 dates for 3 scenes"}},
+		{"timeline dates not a date", tl(a, b, c, "--dates", "2019,2020,soon"), 2, []string{`"soon"`, c}},
+		{"timeline dates duplicate", tl(a, b, c, "--dates", "2019,2020,2020"), 2, []string{b, c, "same date 2020"}},
+		{"timeline duplicate date", tl(a, b, dup), 2, []string{b, dup, "same date 2020"}},
+		{"timeline missing date", tl(a, b, undated), 1, []string{undated, "has no date", "--dates"}},
+		{"timeline band counts differ", tl(a, b, five), 1, []string{five, "5 bands", a, "6"}},
+		{"timeline band names differ", tl(n1, n2, n3), 1, []string{n3, n1, `"green"`, `"blue"`, "same bands in the same order"}},
+		{"timeline grids differ", tl(a, b, other), 1, []string{other, "--align"}},
+		{"timeline confirm", tl(a, b, c, "--confirm", "maybe"), 2, []string{`--confirm "maybe"`}},
+		{"timeline normalize", tl(a, b, c, "--normalize", "histogram"), 2, []string{`--normalize "histogram"`}},
+	}
+	before := snapshotTree(t, dir)
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			code, stdout, stderr := bandfold(t, tc.argv...)
+			checkFailure(t, tc, code, stdout, stderr)
+			restoreTree(t, dir, before)
+		})
+	}
+}
