@@ -326,6 +326,20 @@ func (o *Output) Write(t tiles.Tile, src []float64) error {
 	return nil
 }
 
+// WriteFloat32 is Write for a Float32 output from values already
+// converted, so that the conversion can be done by the worker that made
+// them rather than by the one goroutine writing.
+func (o *Output) WriteFloat32(t tiles.Tile, src []float32) error {
+	n := t.Pixels() * o.spec.Bands
+	if len(src) < n || o.spec.DataType != "Float32" {
+		panic(fmt.Sprintf("raster: %d float32 values to write for %v of %d bands of %s", len(src), t, o.spec.Bands, o.spec.DataType))
+	}
+	if err := o.dataset().Write(t.X, t.Y, src[:n], t.W, t.H, errLogger); err != nil {
+		return fmt.Errorf("write %s at %v: %w", o.Path(), t, tidy(err))
+	}
+	return nil
+}
+
 // WriteBand writes window t of one 0-based band from src (t.W x t.H values)
 // of any numeric slice type GDAL accepts.
 func (o *Output) WriteBand(band int, t tiles.Tile, src any) error {
@@ -434,42 +448,6 @@ func (o *Output) Path() string { return o.file.Path() }
 // Temp returns the temporary path the output is written to; after Finish
 // the file there is complete.
 func (o *Output) Temp() string { return o.file.Temp() }
-
-// DeflateSize returns the size in bytes of a lossless copy of the raster at
-// path with DEFLATE compression and the predictor suited to its data type:
-// the reference against which compression ratios are stated. The copy is
-// written to a temporary file in dir and removed.
-func DeflateSize(path, dir string) (int64, error) {
-	src, err := openDataset(path)
-	if err != nil {
-		return 0, err
-	}
-	defer src.Close(errLogger)
-	dt := src.Bands()[0].Structure().DataType
-	tmp, err := os.CreateTemp(dir, ".bandfold-deflate-*.tif")
-	if err != nil {
-		return 0, fmt.Errorf("lossless copy of %s: %w", path, err)
-	}
-	name := tmp.Name()
-	tmp.Close()
-	defer os.Remove(name)
-	var sw []string
-	for _, kv := range creationOptions(dt, nil) {
-		sw = append(sw, "-co", kv)
-	}
-	out, err := src.Translate(name, append([]string{"-of", "GTiff"}, sw...), errLogger)
-	if err != nil {
-		return 0, fmt.Errorf("lossless copy of %s: %w", path, err)
-	}
-	if err := out.Close(errLogger); err != nil {
-		return 0, fmt.Errorf("lossless copy of %s: %w", path, err)
-	}
-	fi, err := os.Stat(name)
-	if err != nil {
-		return 0, err
-	}
-	return fi.Size(), nil
-}
 
 // ReadMetadata returns the dataset metadata (default domain) of the raster
 // at path.

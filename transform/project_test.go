@@ -145,7 +145,7 @@ func TestFusedMatchesBLAS(t *testing.T) {
 		}
 		y, yb := make([]float64, tc.n*tc.k), make([]float64, tc.n*tc.k)
 		pr.Fold(y, x)
-		pr.foldBLAS(yb, x, tc.n)
+		pr.foldBLAS(yb, x, tc.n, nil)
 		// Scores relative to the largest standard deviation of a score.
 		checkRelSlice(t, fmt.Sprintf("p=%d fused vs Gemm score", tc.p), y, yb, math.Sqrt(b.Eigenvalues[0]), 1e-13)
 		xh, xb := make([]float64, len(x)), make([]float64, len(x))

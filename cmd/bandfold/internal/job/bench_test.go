@@ -70,17 +70,61 @@ func BenchmarkLearn7Bands(b *testing.B) {
 	benchLearn(b, benchCube(b, "scene7", 7, 2048, "uint16"), LearnOptions{})
 }
 
-func BenchmarkFold224Bands(b *testing.B) {
-	cube := benchCube(b, "cube224", 224, 512, "int16")
+// benchFold learns a basis with k components on the cube once, then folds
+// the cube with o once per iteration.
+func benchFold(b *testing.B, cube string, k int, o FoldOptions) {
+	b.Helper()
 	dir := b.TempDir()
 	basis := filepath.Join(dir, "b.json")
-	if _, err := Learn(context.Background(), Env{Workers: 2}, LearnOptions{Scenes: []string{cube}, Out: basis, Components: 10}); err != nil {
+	if _, err := Learn(context.Background(), Env{Workers: 2}, LearnOptions{Scenes: []string{cube}, Out: basis, Components: k}); err != nil {
 		b.Fatal(err)
 	}
+	o.Scenes, o.Basis, o.Out, o.Overwrite = []string{cube}, basis, filepath.Join(dir, "c.tif"), true
 	b.ResetTimer()
 	for range b.N {
-		if _, err := Fold(context.Background(), Env{Workers: 2}, FoldOptions{Scenes: []string{cube}, Basis: basis,
-			Out: filepath.Join(dir, "c.tif"), Overwrite: true}); err != nil {
+		if _, err := Fold(context.Background(), Env{Workers: 2}, o); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+func BenchmarkFold224Bands(b *testing.B) {
+	benchFold(b, benchCube(b, "cube224", 224, 512, "int16"), 10, FoldOptions{})
+}
+
+func BenchmarkFold7Bands(b *testing.B) {
+	benchFold(b, benchCube(b, "scene7", 7, 2048, "uint16"), 3, FoldOptions{})
+}
+
+// BenchmarkFoldInt16224Bands is today's compact fold (--type int16) at the
+// basis's k, the reference of BenchmarkFoldBudget224Bands.
+func BenchmarkFoldInt16224Bands(b *testing.B) {
+	benchFold(b, benchCube(b, "cube224", 224, 512, "int16"), 4, FoldOptions{Type: "int16"})
+}
+
+// BenchmarkFoldBudget224Bands folds to the RMSE that today's compact fold
+// (--type int16 at the basis's k, BenchmarkFoldInt16224Bands) achieves, as
+// make bench does: the allocation, the proof in the same pass and the
+// lossless reference of the compression ratio.
+func BenchmarkFoldBudget224Bands(b *testing.B) {
+	cube := benchCube(b, "cube224", 224, 512, "int16")
+	dir := b.TempDir()
+	basis, fixed := filepath.Join(dir, "b.json"), filepath.Join(dir, "int16.tif")
+	env := Env{Workers: 2}
+	if _, err := Learn(context.Background(), env, LearnOptions{Scenes: []string{cube}, Out: basis, Components: 4}); err != nil {
+		b.Fatal(err)
+	}
+	if _, err := Fold(context.Background(), env, FoldOptions{Scenes: []string{cube}, Basis: basis, Out: fixed, Type: "int16"}); err != nil {
+		b.Fatal(err)
+	}
+	u, err := Unfold(context.Background(), env, UnfoldOptions{Components: fixed, Basis: basis, Out: filepath.Join(dir, "r.tif"), Compare: cube})
+	if err != nil {
+		b.Fatal(err)
+	}
+	o := FoldOptions{Scenes: []string{cube}, Basis: basis, Out: filepath.Join(dir, "c.tif"), Overwrite: true, Budget: Budget{Kind: BudgetRMSE, Value: u.RMSE}}
+	b.ResetTimer()
+	for range b.N {
+		if _, err := Fold(context.Background(), env, o); err != nil {
 			b.Fatal(err)
 		}
 	}

@@ -418,9 +418,9 @@ func (f *folding) spec(s *raster.Stack) raster.Spec {
 type foldStats struct {
 	x, y      *bands.Moments
 	saturated int64
-	// loss is the error of the reconstruction from the codes written (a
-	// budgeted fold), nil otherwise.
-	loss *transform.Loss
+	// sse is the squared error of the bands rebuilt from the codes written
+	// (a budgeted fold), summed over valid pixels and bands in tile order.
+	sse  compensated
 	plan *budgetPlan
 }
 
@@ -429,8 +429,9 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 	sc := newScan([]*raster.Stack{s}, tileGrid(f.o.Input.Tile), 1, Shard{})
 	p := s.Len()
 	st := foldStats{x: bands.NewMoments(p), y: bands.NewMoments(f.k), plan: plan}
+	var meter *transform.ErrorMeter
 	if plan != nil {
-		st.loss = transform.NewLoss(p)
+		meter = transform.NewErrorMeter(f.proj)
 	}
 	pool := &sync.Pool{New: func() any { return &foldTile{x: bands.NewMoments(p), y: bands.NewMoments(f.k)} }}
 	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: f.env.workers(), Progress: f.env.progress("fold", sc.pixels())},
@@ -439,16 +440,23 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 			if spec.DataType == "Float32" {
 				limit = math.MaxFloat32
 			}
-			return &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s), limit: limit, plan: plan}, nil
+			w := &foldWorker{reader: sc.newReader(), k: f.k, spec: spec, proj: f.proj.Clone(), pool: pool, input: describe(s), limit: limit, plan: plan}
+			if meter != nil {
+				w.meter = meter.Clone()
+			}
+			return w, nil
 		},
 		func(t tiles.Tile, ft *foldTile) error {
-			err := dst.Write(t, ft.out)
+			var err error
+			if spec.DataType == "Float32" {
+				err = dst.WriteFloat32(t, ft.out32)
+			} else {
+				err = dst.Write(t, ft.out)
+			}
 			st.x.Merge(ft.x)
 			st.y.Merge(ft.y)
 			st.saturated += ft.saturated
-			if st.loss != nil {
-				st.loss.Merge(ft.loss)
-			}
+			st.sse.add(ft.sse)
 			pool.Put(ft)
 			return err
 		})
@@ -458,13 +466,15 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 // foldTile is one tile's result: the values to write, the moments of its
 // valid pixels and the count of clamped scores.
 type foldTile struct {
-	out       []float64
+	out []float64
+	// out32 is out converted for a Float32 output.
+	out32     []float32
 	x, y      *bands.Moments
 	saturated int64
-	// loss and recon: the error of the tile rebuilt from its codes, and
-	// the scratch for that reconstruction (a budgeted fold).
-	loss         *transform.Loss
-	recon, codes []float64
+	// sse is the squared error of the tile rebuilt from its codes, sq the
+	// squared distance of each pixel from the mean (a budgeted fold).
+	sse float64
+	sq  []float64
 }
 
 type foldWorker struct {
@@ -478,6 +488,7 @@ type foldWorker struct {
 	// value.
 	limit float64
 	plan  *budgetPlan
+	meter *transform.ErrorMeter
 }
 
 func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
@@ -488,7 +499,12 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 	ft := w.pool.Get().(*foldTile)
 	k, n := w.k, t.Pixels()
 	ft.out = grow(ft.out, n*k)
-	w.proj.Fold(ft.out, x)
+	if w.plan != nil {
+		ft.sq = grow(ft.sq, n)
+		w.proj.FoldNorms(ft.out, ft.sq, x)
+	} else {
+		w.proj.Fold(ft.out, x)
+	}
 	ft.x.Reset()
 	ft.y.Reset()
 	ft.saturated = 0
@@ -527,6 +543,12 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 				}
 				px[c] = float64(transform.QuantizeInt16(v, w.spec.Scales[c], w.spec.Offsets[c]))
 			}
+		}
+	}
+	if w.spec.DataType == "Float32" {
+		ft.out32 = grow(ft.out32, len(ft.out))
+		for i, v := range ft.out {
+			ft.out32[i] = float32(v)
 		}
 	}
 	return ft, nil

@@ -2,8 +2,12 @@ package job
 
 import (
 	"encoding/json"
+	"fmt"
+	"image/png"
 	"math"
+	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"gonum.org/v1/gonum/mat"
@@ -139,6 +143,45 @@ func TestInspectJSON(t *testing.T) {
 			if v != res.Basis.Eigenvectors[i][j] {
 				t.Errorf("loadings[%d][%d] = %v, want the eigenvector's %v", i, j, v, res.Basis.Eigenvectors[i][j])
 			}
+		}
+	}
+}
+
+// TestInspectPlotsRate: with --plots and a budget, inspect writes rate.png
+// (a PNG of the figure's 1000 x 600 pixels) and report.html holds the rate
+// table and that figure. For rotatedBasis (eigenvalues 6, 3, 1 over 100
+// pixels, unit gains: known by construction) keeping k = 1 costs a
+// truncation RMSE of √((3 + 1) x 99/100 / 3).
+func TestInspectPlotsRate(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "rotated.basis.json")
+	if err := writeBasis(rotatedBasis(t, 2), path, false); err != nil {
+		t.Fatal(err)
+	}
+	plots := filepath.Join(dir, "plots")
+	res, err := Inspect(t.Context(), testEnv, InspectOptions{Basis: path, Plots: plots, MaxRMSE: 0.5})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want := math.Sqrt(4 * 0.99 / 3); math.Abs(res.Summary.Rate[0].TruncationRMSE-want) > 1e-12 {
+		t.Errorf("k = 1 truncation RMSE %v, want %v", res.Summary.Rate[0].TruncationRMSE, want)
+	}
+	f, err := os.Open(filepath.Join(plots, "rate.png"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	cfg, err := png.DecodeConfig(f)
+	f.Close()
+	if err != nil || cfg.Width != 1000 || cfg.Height != 600 {
+		t.Errorf("rate.png: %+v, %v; want a 1000 x 600 PNG", cfg, err)
+	}
+	html, err := os.ReadFile(filepath.Join(plots, "report.html"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{"Rate and distortion by kept components", fmt.Sprintf("%.6g", res.Summary.Rate[0].TruncationRMSE), "rate.png: estimated size ratio", "data:image/png;base64,"} {
+		if !strings.Contains(string(html), want) {
+			t.Errorf("report.html lacks %q", want)
 		}
 	}
 }

@@ -3,11 +3,13 @@ package job
 import (
 	"fmt"
 	"path/filepath"
+
+	"bandfold/transform"
 )
 
 // inspectReport renders report.html for a basis: the variance table, the
-// scree and loadings figures (PNG data in the order of basisPlots) and the
-// kept components' loadings.
+// scree and loadings figures (PNG data in the order of basisPlots, then
+// rate.png), the kept components' loadings and the rate–distortion table.
 func inspectReport(s BasisSummary, figures [][]byte) ([]byte, error) {
 	rep := &report{Title: "Basis " + filepath.Base(s.Basis), Caution: Caution,
 		Subtitle: fmt.Sprintf("%s mode, %d bands, %d pixels, %d components kept (broken stick: %d)", s.Mode, s.Bands, s.Pixels, s.Components, s.BrokenStick)}
@@ -37,5 +39,23 @@ func inspectReport(s BasisSummary, figures [][]byte) ([]byte, error) {
 		}
 	}
 	rep.Sections = []reportSection{sec}
+	if s.Rate != nil {
+		rate := reportSection{Heading: "Rate and distortion", Tables: []reportTable{rateTable(s.Rate)},
+			Notes: []string{"Per number of kept components k: the RMSE of dropping the others, its PSNR (20 log10(peak / RMSE), peak the largest band range in the basis), and, quantised at the coarsest step that keeps those k, the predicted RMSE and the estimated Gaussian rate (bits per pixel) and size ratio against the bands' stored types."}}
+		if len(figures) > 2 {
+			rate.Figures = append(rate.Figures, pngFigure("rate.png: estimated size ratio against predicted RMSE, one point per k", figures[2]))
+		}
+		rep.Sections = append(rep.Sections, rate)
+	}
 	return rep.render()
+}
+
+// rateTable is the rate–distortion table of a basis.
+func rateTable(rows []transform.RateRow) reportTable {
+	t := reportTable{Caption: "Rate and distortion by kept components", Head: []string{"k", "truncation RMSE", "PSNR (dB)", "step", "RMSE", "bits per pixel", "size ratio"}}
+	for _, r := range rows {
+		t.Rows = append(t.Rows, []string{fmt.Sprint(r.K), fmt.Sprintf("%.6g", r.TruncationRMSE), num(r.PSNR, 2), fmt.Sprintf("%.6g", r.Step),
+			fmt.Sprintf("%.6g", r.RMSE), fmt.Sprintf("%.2f", r.BitsPerPixel), num(r.SizeRatio, 2)})
+	}
+	return t
 }
