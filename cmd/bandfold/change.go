@@ -66,6 +66,7 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
 	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
 	f.BoolVar(&o.Differences, "differences", false, "also write differences.tif (d - m per component)")
+	f.BoolVar(&o.PValues, "pvalues", false, "also write pvalue.tif (the no-change p-value of Z)")
 	f.StringVar(&o.Reference, "reference", "", "reference change data: a raster on the same grid (non-zero = changed) or a vector file of changed polygons")
 	f.StringVar(&fl.previewBands, "preview-bands", "", "three 1-based bands of AFTER for preview.png (default: the first three)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled to estimate the no-change distribution")

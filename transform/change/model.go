@@ -195,15 +195,13 @@ func (m *Model) start(d []float64) error {
 		for p := range n {
 			col[p] = d[p*k+j]
 		}
-		slices.Sort(col)
-		med := median(col)
+		med := medianOf(col)
 		var meanAbs float64
 		for p, v := range col {
 			col[p] = math.Abs(v - med)
 			meanAbs += col[p]
 		}
-		slices.Sort(col)
-		s := madScale * median(col)
+		s := madScale * medianOf(col)
 		if s == 0 {
 			s = math.Sqrt(math.Pi/2) * meanAbs / float64(n)
 		}
@@ -217,13 +215,16 @@ func (m *Model) start(d []float64) error {
 	return nil
 }
 
-// median returns the median of the sorted, non-empty s.
-func median(s []float64) float64 {
+// medianOf returns the median of the non-empty s, free of NaN (the mean
+// of the two middle values when their number is even), reordering s.
+func medianOf(s []float64) float64 {
 	h := len(s) / 2
+	selectNth(s, h, func(v float64) float64 { return v })
 	if len(s)%2 == 1 {
 		return s[h]
 	}
-	return s[h-1] + (s[h]-s[h-1])/2
+	lo := slices.Max(s[:h])
+	return lo + (s[h]-lo)/2
 }
 
 // trimmedMoments sets loc to the mean and cov to the covariance (divisor

@@ -6,6 +6,7 @@ import (
 	"gonum.org/v1/gonum/stat/distuv"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"strings"
 	"sync"
 	"testing"
@@ -279,6 +280,8 @@ func TestPanics(t *testing.T) {
 		{"Sampler n", func() { NewSampler(0, 1, 0) }},
 		{"Sampler offer", func() { NewSampler(1, 2, 0).Offer(0, []float64{1}) }},
 		{"Sampler merge", func() { NewSampler(1, 2, 0).Merge(NewSampler(1, 2, 1)) }},
+		{"BandScorer map", func() { unit2().BandScorer([]float64{1, 2, 3}) }},
+		{"BandScorer dx", func() { unit2().BandScorer([]float64{1, 0, 0, 1}).ZTop([]float64{1}) }},
 	} {
 		func() {
 			defer func() {
@@ -477,4 +480,41 @@ func TestPValueClosedFormMatchesGonum(t *testing.T) {
 			}
 		}
 	}
+}
+
+// TestMedianOf: the selection median equals the middle of the sorted values
+// (the mean of the two middle ones for an even count), known by the
+// definition of the median, on values with and without ties.
+func TestMedianOf(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	for _, n := range []int{1, 2, 3, 4, 5, 10, 101, 1000, 1001} {
+		for _, ties := range []bool{false, true} {
+			x := make([]float64, n)
+			for i := range x {
+				x[i] = rng.NormFloat64()
+				if ties {
+					x[i] = math.Round(x[i])
+				}
+			}
+			sorted := slices.Sorted(slices.Values(x))
+			want := sorted[n/2]
+			if n%2 == 0 {
+				want = sorted[n/2-1] + (sorted[n/2]-sorted[n/2-1])/2
+			}
+			if got := medianOf(slices.Clone(x)); got != want {
+				t.Errorf("n %d, ties %v: median %v, want %v", n, ties, got, want)
+			}
+		}
+	}
+}
+
+// unit2 is the no-change model of two components with location 0 and
+// covariance I.
+func unit2() *Model {
+	cov := mat.NewSymDense(2, []float64{1, 0, 0, 1})
+	m, err := NewModel([]float64{0, 0}, cov)
+	if err != nil {
+		panic(err)
+	}
+	return m
 }

@@ -4,7 +4,6 @@ import (
 	"errors"
 	"fmt"
 	"math"
-	"slices"
 
 	"gonum.org/v1/gonum/stat/distuv"
 )
@@ -61,13 +60,11 @@ func RobustScale(x []float64, p int) (loc, scale []float64) {
 		for i := range n {
 			col[i] = x[i*p+j]
 		}
-		slices.Sort(col)
-		m := median(col)
+		m := medianOf(col)
 		for i := range col {
 			col[i] = math.Abs(col[i] - m)
 		}
-		slices.Sort(col)
-		s := madScale * median(col)
+		s := madScale * medianOf(col)
 		if !(s > 0) {
 			s = 1
 		}

@@ -25,14 +25,30 @@ import (
 // combined with Merge, and the sample is the same. A sequential reservoir
 // (Algorithm R) would instead depend on the order in which pixels arrive.
 //
-// Each index must be offered at most once. Memory is n·(k+3) words at most.
-// A Sampler is not safe for concurrent use.
+// Each index must be offered at most once. The Sampler holds its candidates
+// unordered and, whenever they reach 3n/2, keeps the n with the smallest
+// keys (a selection in linear expected time), so an offer costs a
+// comparison and a copy rather than a heap update. Memory is about
+// 1.5·n·(k+4) words at most. A Sampler is not safe for concurrent use.
 type Sampler struct {
-	n, k int
-	salt uint64
-	seen int64
-	heap []entry   // max-heap on key: heap[0] is the largest key kept
-	vals []float64 // k values per slot
+	n, k  int
+	salt  uint64
+	seen  int64
+	bound uint64      // the largest key kept at the last prune once full, else MaxUint64
+	cands []entry     // the candidates; after a prune the n smallest keys
+	vals  [][]float64 // k values per slot, chunkSlots slots per chunk
+	slots int         // slots in vals
+	free  []int       // slots of candidates pruned away
+}
+
+// chunkSlots is the number of pixels' values held per chunk: values are
+// never moved as the candidates grow.
+const chunkSlots = 1024
+
+// at returns the values of slot.
+func (s *Sampler) at(slot int) []float64 {
+	c, i := slot/chunkSlots, slot%chunkSlots
+	return s.vals[c][i*s.k : (i+1)*s.k]
 }
 
 type entry struct {
@@ -47,7 +63,7 @@ func NewSampler(n, k int, seed uint64) *Sampler {
 	if n < 1 || k < 1 {
 		panic(fmt.Sprintf("change: sampler of %d pixels of %d components", n, k))
 	}
-	return &Sampler{n: n, k: k, salt: mix64(seed + 0x9e3779b97f4a7c15)}
+	return &Sampler{n: n, k: k, salt: mix64(seed + 0x9e3779b97f4a7c15), bound: math.MaxUint64}
 }
 
 // mix64 is the finaliser of SplitMix64, a bijection on 64-bit words.
@@ -75,62 +91,96 @@ func (s *Sampler) Offer(index int64, d []float64) {
 func (s *Sampler) Key(index int64) uint64 { return mix64(uint64(index) ^ s.salt) }
 
 // Bound returns a key that no pixel offered from now on can enter the sample
-// with unless its key is smaller: the largest key kept once the Sampler is
-// full, the largest uint64 before. Bound only decreases, so a caller that
-// gathers pixels for a Sampler (in other goroutines, to be merged later) may
-// skip pixels whose Key is not below a Bound read at any earlier time: they
-// could never be kept, and the sample stays the same.
+// with unless its key is smaller: once the Sampler has held n pixels, the
+// largest key it kept when it last dropped the candidates beyond the n
+// smallest (which Bound does itself when it first holds n, and then each
+// time n/8 more arrived); the largest uint64 before. Bound only decreases,
+// so a caller that gathers pixels for a Sampler (in other goroutines, to be
+// merged later) may skip pixels whose Key is not below a Bound read at any
+// earlier time: they could never be kept, and the sample stays the same.
 func (s *Sampler) Bound() uint64 {
-	if len(s.heap) < s.n {
-		return math.MaxUint64
+	if len(s.cands) >= s.n && (s.bound == math.MaxUint64 || len(s.cands) >= s.n+s.n/8) {
+		s.prune()
 	}
-	return s.heap[0].key
+	return s.bound
 }
 
 func (s *Sampler) offer(key uint64, index int64, d []float64) {
-	if len(s.heap) < s.n {
-		slot := len(s.heap)
-		s.vals = append(s.vals, d...)
-		s.heap = append(s.heap, entry{key, index, slot})
-		s.up(len(s.heap) - 1)
+	if key >= s.bound {
 		return
 	}
-	if key >= s.heap[0].key {
-		return
-	}
-	slot := s.heap[0].slot
-	copy(s.vals[slot*s.k:(slot+1)*s.k], d)
-	s.heap[0] = entry{key, index, slot}
-	s.down(0)
-}
-
-func (s *Sampler) up(i int) {
-	h := s.heap
-	for i > 0 {
-		p := (i - 1) / 2
-		if h[p].key >= h[i].key {
-			break
+	var slot int
+	if f := len(s.free); f > 0 {
+		slot, s.free = s.free[f-1], s.free[:f-1]
+	} else {
+		if s.slots%chunkSlots == 0 {
+			s.vals = append(s.vals, make([]float64, chunkSlots*s.k))
 		}
-		h[p], h[i] = h[i], h[p]
-		i = p
+		slot = s.slots
+		s.slots++
+	}
+	copy(s.at(slot), d)
+	s.cands = append(s.cands, entry{key, index, slot})
+	if len(s.cands) >= s.n+max(1, s.n/2) {
+		s.prune()
 	}
 }
 
-func (s *Sampler) down(i int) {
-	h := s.heap
-	for {
-		c := 2*i + 1
-		if c >= len(h) {
+// prune keeps the n candidates with the smallest keys and, when there are
+// n, lowers the bound to the largest of them.
+func (s *Sampler) prune() {
+	if len(s.cands) < s.n {
+		return
+	}
+	selectNth(s.cands, s.n-1, func(e entry) uint64 { return e.key })
+	for _, e := range s.cands[s.n:] {
+		s.free = append(s.free, e.slot)
+	}
+	s.cands = s.cands[:s.n]
+	s.bound = s.cands[s.n-1].key
+}
+
+// selectNth reorders c so that c[m] holds the element of the (m+1)-th
+// smallest key, with no larger key before it and no smaller after (C. A. R.
+// Hoare, "Algorithm 65: Find", Communications of the ACM 4, 1961, with a
+// median-of-three pivot): linear time on average, where a sort would take
+// n log n. The keys must not be NaN.
+func selectNth[E any, K cmp.Ordered](c []E, m int, key func(E) K) {
+	lo, hi := 0, len(c)-1
+	for hi > lo {
+		mid := lo + (hi-lo)/2
+		if key(c[mid]) < key(c[lo]) {
+			c[mid], c[lo] = c[lo], c[mid]
+		}
+		if key(c[hi]) < key(c[lo]) {
+			c[hi], c[lo] = c[lo], c[hi]
+		}
+		if key(c[hi]) < key(c[mid]) {
+			c[hi], c[mid] = c[mid], c[hi]
+		}
+		pivot := key(c[mid])
+		i, j := lo, hi
+		for i <= j {
+			for key(c[i]) < pivot {
+				i++
+			}
+			for key(c[j]) > pivot {
+				j--
+			}
+			if i <= j {
+				c[i], c[j] = c[j], c[i]
+				i++
+				j--
+			}
+		}
+		switch {
+		case m <= j:
+			hi = j
+		case m >= i:
+			lo = i
+		default:
 			return
 		}
-		if c+1 < len(h) && h[c+1].key > h[c].key {
-			c++
-		}
-		if h[i].key >= h[c].key {
-			return
-		}
-		h[i], h[c] = h[c], h[i]
-		i = c
 	}
 }
 
@@ -142,14 +192,14 @@ func (s *Sampler) Merge(o *Sampler) {
 	if o.n != s.n || o.k != s.k || o.salt != s.salt {
 		panic("change: merging samplers of different size, components or seed")
 	}
-	for _, e := range o.heap {
-		s.offer(e.key, e.index, o.vals[e.slot*o.k:(e.slot+1)*o.k])
+	for _, e := range o.cands {
+		s.offer(e.key, e.index, o.at(e.slot))
 	}
 	s.seen += o.seen
 }
 
 // Len returns the number of pixels kept: the smaller of n and Seen.
-func (s *Sampler) Len() int { return len(s.heap) }
+func (s *Sampler) Len() int { return min(len(s.cands), s.n) }
 
 // Seen returns the number of pixels offered, including those offered to
 // samplers merged into s.
@@ -159,13 +209,14 @@ func (s *Sampler) Seen() int64 { return s.seen }
 // and their values, pixel-major (Len·k values, ready for Fit). Both slices
 // are new.
 func (s *Sampler) Pixels() (index []int64, d []float64) {
-	order := slices.Clone(s.heap)
+	s.prune()
+	order := slices.Clone(s.cands)
 	slices.SortFunc(order, func(a, b entry) int { return cmp.Compare(a.index, b.index) })
 	index = make([]int64, len(order))
 	d = make([]float64, 0, len(order)*s.k)
 	for i, e := range order {
 		index[i] = e.index
-		d = append(d, s.vals[e.slot*s.k:(e.slot+1)*s.k]...)
+		d = append(d, s.at(e.slot)...)
 	}
 	return index, d
 }

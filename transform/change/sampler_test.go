@@ -153,3 +153,75 @@ func TestSamplerBoundFilter(t *testing.T) {
 		}
 	}
 }
+
+// BenchmarkSamplerGather draws a sample of 200 000 pixels of 14 values from
+// 64 tiles of 512 x 512 pixels as a scan does: a Sampler per tile, offered
+// the pixels below the total's bound, merged into the total in tile order.
+func BenchmarkSamplerGather(b *testing.B) {
+	const tiles, side, k = 64, 512, 14
+	d := make([]float64, k)
+	for b.Loop() {
+		total := NewSampler(DefaultSampleSize, k, 1)
+		for t := range tiles {
+			bound := total.Bound()
+			part := NewSampler(DefaultSampleSize, k, 1)
+			for i := range side * side {
+				index := int64(t*side*side + i)
+				if part.Key(index) < bound {
+					part.Offer(index, d)
+				}
+			}
+			total.Merge(part)
+		}
+		total.Pixels()
+	}
+}
+
+// TestSamplerBottomN: the sample is the n offered indices with the smallest
+// keys (the definition of a bottom-n sketch), for sizes around the pruning
+// points, offered directly and through merged parts.
+func TestSamplerBottomN(t *testing.T) {
+	for _, n := range []int{1, 2, 3, 7, 64, 1000} {
+		for _, total := range []int{n - 1, n, n + n/2, 10*n + 3} {
+			if total < 1 {
+				continue
+			}
+			s, merged := NewSampler(n, 1, 5), NewSampler(n, 1, 5)
+			keys := make([]int64, total)
+			for i := range keys {
+				keys[i] = int64(i)
+			}
+			offerAll(s, keys)
+			for start := 0; start < total; start += 17 {
+				part := NewSampler(n, 1, 5)
+				offerAll(part, keys[start:min(total, start+17)])
+				merged.Merge(part)
+			}
+			slices.SortFunc(keys, func(a, b int64) int { return cmpKey(s, a, b) })
+			want := slices.Clone(keys[:min(n, total)])
+			slices.Sort(want)
+			for name, got := range map[string]*Sampler{"direct": s, "merged": merged} {
+				idx, d := got.Pixels()
+				if !slices.Equal(idx, want) || got.Len() != len(want) {
+					t.Fatalf("n %d, %d offered, %s: kept %v, want %v", n, total, name, idx, want)
+				}
+				for p, i := range idx {
+					if d[p] != pixelValue(i, 0) {
+						t.Fatalf("n %d, %d offered, %s: pixel %d holds %v", n, total, name, i, d[p])
+					}
+				}
+			}
+		}
+	}
+}
+
+func cmpKey(s *Sampler, a, b int64) int {
+	ka, kb := s.Key(a), s.Key(b)
+	switch {
+	case ka < kb:
+		return -1
+	case ka > kb:
+		return 1
+	}
+	return 0
+}

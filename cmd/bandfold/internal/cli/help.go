@@ -14,8 +14,9 @@ sieve filter (--min-area), patches are polygonized into a GeoPackage, and
 areas are ground areas on the CRS's ellipsoid.
 
 Outputs in DIR: change.tif (1 change, 0 no change, 255 nodata), magnitude.tif
-(Z), pvalue.tif (no-change p-value), differences.tif (with --differences),
-changes.gpkg (layer "changes"), preview.png (before and after side by side),
+(Z), pvalue.tif (with --pvalues: the no-change p-value of Z, the chi-square
+survival function with k degrees of freedom), differences.tif (with
+--differences), changes.gpkg (layer "changes"), preview.png (before and after side by side),
 diagnostics.png (Z against the chi-square fit), summary.json and the folder's
 manifest. --overwrite replaces only a previous change output.
 
@@ -24,8 +25,10 @@ manifest. --overwrite replaces only a previous change output.
 	DemoHelp = `demo writes an invented scenario: the Vessel river catchment, a fictional
 place seen on two dates a year apart by an 8-band multispectral sensor at 10 m
 (with a forest clearing, a growing reservoir and a burn scar between the
-dates, and their truth mask), and by a 120-band hyperspectral sensor at 30 m.
-It then runs bandfold's jobs on it and lists where every output lies.`
+dates, and their truth mask), by a 120-band hyperspectral sensor at 30 m, and
+once a year on five dates (a one-date cloud, then a clearing and a burn that
+last). It then runs bandfold's jobs on it, prints each series event's true
+date beside the date timeline found, and lists where every output lies.`
 	// DenoiseHelp is the help of the denoise command.
 	DenoiseHelp = `denoise projects every pixel onto the k leading components of the basis and
 back, without writing the components. With an MNF basis (learn --method mnf)

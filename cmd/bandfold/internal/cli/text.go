@@ -76,10 +76,10 @@ func UnfoldText(w io.Writer, r *job.UnfoldResult) {
 	fmt.Fprintf(w, "loss against %s over %d pixels:\n", r.Compared, r.ComparedPixels)
 	fmt.Fprintf(w, "  rmse %.6g (written values %.6g), max abs error %.6g, mean spectral angle %.4f deg\n", r.RMSE, *r.RMSEWritten, r.MaxAbs, r.MeanSAM)
 	if r.MeanPSNR != nil {
-		fmt.Fprintf(w, "  mean psnr %.2f dB\n", *r.MeanPSNR)
+		fmt.Fprintf(w, "  mean psnr %.2f dB (the mean over bands of 20 log10(range / band rmse), range = max - min of the band's valid values in the original)\n", *r.MeanPSNR)
 	}
 	if r.OverallPSNR != nil {
-		fmt.Fprintf(w, "  overall psnr %.2f dB (of the overall rmse; peak %.6g = the largest band range in the basis)\n", *r.OverallPSNR, r.PSNRPeak)
+		fmt.Fprintf(w, "  overall psnr %.2f dB = 20 log10(peak / rmse), peak %.6g = the largest band range (max - min of valid values) recorded in the basis\n", *r.OverallPSNR, r.PSNRPeak)
 	}
 	if r.CompressionRatio != nil {
 		fmt.Fprintf(w, "  compression %.2f : 1 (lossless DEFLATE copy %d bytes; components %d + basis %d bytes)\n",
@@ -125,11 +125,37 @@ func DemoText(w io.Writer, o job.DemoOptions, r *job.DemoResult) {
 		fmt.Fprintf(w, "  against the scenario's truth: recall %s, false alarms %s of unchanged pixels, precision %s, F1 %s\n",
 			Rate(ref.Recall, 3), fa, Rate(ref.Precision, 3), Rate(ref.F1, 3))
 	}
+	if tl := r.Timeline; tl != nil {
+		demoTimelineText(w, tl)
+	}
 	fmt.Fprintf(w, "  %s\n", job.InventedNote)
 	fmt.Fprintf(w, "  %s\n", job.Caution)
 	fmt.Fprintf(w, "\noutputs in %s:\n", o.Dir)
 	for _, p := range r.Outputs {
 		fmt.Fprintf(w, "  %s\n", p)
+	}
+}
+
+// demoTimelineText prints, for each event of the demo's series, its true
+// date and the date the timeline found.
+func demoTimelineText(w io.Writer, tl *job.DemoTimeline) {
+	res := tl.Timeline
+	n := len(res.Scenes)
+	fmt.Fprintf(w, "timeline of the %d-date series (%dx%d pixels, %s to %s; --normalize %s, --confirm %s):\n",
+		n, tl.Size, tl.Size, res.Scenes[0].Date, res.Scenes[n-1].Date, res.Normalize, res.Confirm)
+	for _, e := range tl.Events {
+		found := "found no lasting change"
+		if e.Found != "none" {
+			found = "found " + e.Found
+		}
+		if !e.Lasting {
+			fmt.Fprintf(w, "  %s on %s only: %s (the most common); no lasting change at %.1f%% of its %d pixels\n", e.Name, e.Date, found, 100*e.Correct, e.Pixels)
+		} else {
+			fmt.Fprintf(w, "  %s from %s: %s (the most common first confirmed change); the right date at %.1f%% of its %d pixels\n", e.Name, e.Date, found, 100*e.Correct, e.Pixels)
+		}
+	}
+	if tl.Unchanged > 0 {
+		fmt.Fprintf(w, "  unchanged land: %.2f%% of its %d pixels confirmed as change\n", 100*float64(tl.UnchangedConfirmed)/float64(tl.Unchanged), tl.Unchanged)
 	}
 }
 
@@ -176,6 +202,10 @@ func FoldText(w io.Writer, r job.FoldScene) {
 			fmt.Fprintf(w, ", compression %.2f : 1 against a lossless DEFLATE copy (%d bytes) with the basis (%d bytes)", *b.CompressionRatio, b.OriginalDeflateBytes, b.BasisBytes)
 		}
 		fmt.Fprintln(w)
+		if b.CompressionRatio != nil && b.OriginalDeflateSampled < 1 {
+			fmt.Fprintf(w, "  the copy's size is estimated from %.1f%% of the input compressed alike (standard error %.2f%%); unfold --compare makes the whole copy\n",
+				100*b.OriginalDeflateSampled, 100*b.OriginalDeflateStdErr/float64(b.OriginalDeflateBytes))
+		}
 	}
 	if r.Preview != "" {
 		fmt.Fprintf(w, "  quicklook %s\n", r.Preview)

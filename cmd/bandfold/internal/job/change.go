@@ -8,6 +8,7 @@ import (
 	"path/filepath"
 	"runtime/debug"
 	"strings"
+	"time"
 
 	"bandfold/bands"
 	"bandfold/raster"
@@ -42,6 +43,8 @@ type ChangeOptions struct {
 	MinArea    MinArea
 	// Differences also writes differences.tif.
 	Differences bool
+	// PValues also writes pvalue.tif.
+	PValues bool
 	// Reference is reference change data: a raster on the same grid
 	// (non-zero = changed) or a vector file of changed polygons.
 	Reference string
@@ -124,14 +127,20 @@ func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err
 	defer func() { err = classify(err) }()
 	r := &changeRun{env: env, o: &o}
 	defer r.close()
-	steps := []func(context.Context) error{
-		r.open, r.scanPair, r.normalize, r.fitBasis, r.fitModel, r.mapPixels, r.sieve,
-		r.changeMap, r.patches, r.preview, r.diagnostics, r.report, r.summary,
+	steps := []struct {
+		name string
+		do   func(context.Context) error
+	}{
+		{"open", r.open}, {"scan", r.scanPair}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"model", r.fitModel},
+		{"map", r.mapPixels}, {"sieve", r.sieve}, {"change map", r.changeMap}, {"patches", r.patches},
+		{"preview", r.preview}, {"diagnostics", r.diagnostics}, {"report", r.report}, {"summary", r.summary},
 	}
 	for _, step := range steps {
-		if err := step(ctx); err != nil {
+		start := time.Now()
+		if err := step.do(ctx); err != nil {
 			return nil, r.dir.FinalNames(err)
 		}
+		env.log().Debug("change step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
 	}
 	return r.sum, nil
 }

@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -13,8 +14,9 @@ import (
 	"bandfold/transform/change"
 )
 
-// changeOutputs are the files of a change folder without --differences.
-var changeOutputs = []string{"change.tif", "magnitude.tif", "pvalue.tif", "changes.gpkg", "preview.png", "diagnostics.png", "report.html", "summary.json"}
+// changeOutputs are the files of a change folder without --differences
+// and --pvalues.
+var changeOutputs = []string{"change.tif", "magnitude.tif", "changes.gpkg", "preview.png", "diagnostics.png", "report.html", "summary.json"}
 
 // runChange runs Change, which must succeed.
 func runChange(t *testing.T, env Env, o ChangeOptions) *ChangeResult {
@@ -221,18 +223,21 @@ func TestChangeAlignAndNoCRS(t *testing.T) {
 	bare(f.After, b)
 	env, log = loggingEnv()
 	bareOut := filepath.Join(dir, "bare")
-	sum = runChange(t, env, ChangeOptions{Before: a, After: b, Out: bareOut, MinArea: MinArea{Px: 4}, Differences: true})
+	sum = runChange(t, env, ChangeOptions{Before: a, After: b, Out: bareOut, MinArea: MinArea{Px: 4}, Differences: true, PValues: true})
 	if !strings.Contains(log.String(), "no CRS: areas are given in pixels only") {
 		t.Errorf("no warning of the missing CRS: %q", log.String())
 	}
-	// Differences adds differences.tif, one band per component.
-	diffs := filepath.Join(bareOut, "differences.tif")
-	if !contains(sum.Outputs, diffs) || len(sum.Outputs) != len(changeOutputs)+1 {
-		t.Errorf("outputs %v lack %s", sum.Outputs, diffs)
+	// Differences adds differences.tif, one band per component, and
+	// PValues pvalue.tif.
+	diffs, pvals := filepath.Join(bareOut, "differences.tif"), filepath.Join(bareOut, "pvalue.tif")
+	if !contains(sum.Outputs, diffs) || !contains(sum.Outputs, pvals) || len(sum.Outputs) != len(changeOutputs)+2 {
+		t.Errorf("outputs %v lack %s or %s", sum.Outputs, diffs, pvals)
 	} else if ds, err := raster.Open([]string{diffs}); err != nil {
 		t.Error(err)
 	} else if ds.Len() != sum.Components {
 		t.Errorf("%s has %d bands for %d components", diffs, ds.Len(), sum.Components)
+	} else {
+		checkPValues(t, pvals, filepath.Join(bareOut, "magnitude.tif"), sum.Components)
 	}
 	if sum.ChangedAreaM2 != nil || sum.ChangedAreaHa != nil || sum.ChangedPixels == 0 {
 		t.Errorf("no CRS: area %v m2 %v ha, pixels %d", sum.ChangedAreaM2, sum.ChangedAreaHa, sum.ChangedPixels)
@@ -331,4 +336,26 @@ func TestChangeRefusals(t *testing.T) {
 		mustNotExist(t, tc.name, out)
 	}
 	noTemporaries(t, dir)
+}
+
+// checkPValues: pvalue.tif holds the chi-square survival function with k
+// degrees of freedom of magnitude.tif's Z (change.PValue, checked against
+// gonum in package change) where Z is valid, and says so with its k; the
+// tolerance allows for Z stored as float32.
+func checkPValues(t *testing.T, pvals, mag string, k int) {
+	t.Helper()
+	_, z, valid := readImage(t, mag, tiles.Tile{})
+	s, pv, pvValid := readImage(t, pvals, tiles.Tile{})
+	defer s.Close()
+	if want := "p-value of Z (chi-square, k = " + strconv.Itoa(k); !strings.Contains(s.Bands[0].Name, want) {
+		t.Errorf("pvalue.tif band description %q lacks %q", s.Bands[0].Name, want)
+	}
+	for i := range z {
+		if pvValid[i] != valid[i] {
+			t.Fatalf("pixel %d: p-value valid %v, Z valid %v", i, pvValid[i], valid[i])
+		}
+		if want := change.PValue(z[i], k); valid[i] && math.Abs(pv[i]-want) > 1e-4*want+1e-30 {
+			t.Fatalf("pixel %d: p-value %v of Z = %v, want %v", i, pv[i], z[i], want)
+		}
+	}
 }

@@ -94,41 +94,66 @@ func projectorFor(b *transform.Basis, requested, p int) (*transform.Projector, e
 // worker.
 type pairScorer struct {
 	proj *transform.Projector
-	sc   *change.Scorer   // nil when the dates are identical
-	norm []change.BandFit // AFTER onto BEFORE's scale; nil for none
+	sc   *change.Scorer     // nil when the dates are identical
+	bs   *change.BandScorer // Z straight from the band differences
+	norm []change.BandFit   // AFTER onto BEFORE's scale; nil for none
 	zcut float64
-	dx   []float64
-	d    []float64 // the last tile's score differences, n x k
+	dx   []float64 // the last tile's band differences, n x p
+	d    []float64
 }
 
 func newPairScorer(proj *transform.Projector, f *pairFit, norm []change.BandFit) *pairScorer {
 	s := &pairScorer{proj: proj.Clone(), norm: norm, zcut: f.zcut}
 	if f.model != nil {
-		s.sc = f.model.Scorer()
+		s.sc, s.bs = f.model.Scorer(), f.model.BandScorer(differenceMap(s.proj))
 	}
 	return s
 }
 
+// differenceMap returns the linear map of Projector.Difference as a k x p
+// matrix, row-major: column j is the difference of the unit vector e_j, so
+// its values are the projector's own.
+func differenceMap(proj *transform.Projector) []float64 {
+	p, k := proj.Bands(), proj.Components()
+	a, e, d := make([]float64, k*p), make([]float64, p), make([]float64, k)
+	for j := range p {
+		clear(e)
+		e[j] = 1
+		proj.Difference(d, e)
+		for i, v := range d {
+			a[i*p+j] = v
+		}
+	}
+	return a
+}
+
 // score sets, for each pixel of a tile, Z (NaN where not valid), the top
 // component (1-based; 0 for none) and the flag (1 above the cut, 0 not,
-// 255 not valid); it leaves the score differences in s.d.
+// 255 not valid); it leaves the band differences in s.dx.
 func (s *pairScorer) score(xb, xa []float64, valid []bool, z []float64, top, flags []uint8) {
-	n, k := len(valid), s.proj.Components()
-	s.dx, s.d = grow(s.dx, len(xa)), grow(s.d, n*k)
+	p := s.proj.Bands()
+	s.dx = grow(s.dx, len(xa))
 	diffInto(s.dx, xb, xa, s.norm)
-	s.proj.Difference(s.d, s.dx)
-	for i := range n {
+	for i, ok := range valid {
 		switch {
-		case !valid[i]:
+		case !ok:
 			z[i], top[i], flags[i] = nan, 0, 255
-		case s.sc == nil:
+		case s.bs == nil:
 			z[i], top[i], flags[i] = 0, 0, 0
 		default:
-			zi, t := s.sc.ZTop(s.d[i*k : i*k+k])
+			zi, t := s.bs.ZTop(s.dx[i*p : i*p+p])
 			z[i], top[i], flags[i] = zi, uint8(t+1), 0
 			if zi > s.zcut {
 				flags[i] = 1
 			}
 		}
 	}
+}
+
+// differences returns the score differences d = W_k^T dx of the last tile
+// scored, n x k.
+func (s *pairScorer) differences() []float64 {
+	s.d = grow(s.d, len(s.dx)/s.proj.Bands()*s.proj.Components())
+	s.proj.Difference(s.d, s.dx)
+	return s.d
 }

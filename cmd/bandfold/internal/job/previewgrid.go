@@ -40,14 +40,14 @@ type previewPart struct {
 	x0, y0, cw, ch int
 	sum            [2][]float64
 	n              []int32
+	col            []int // the cell column of each tile column, less x0
 }
 
 func (g *previewGrid) cellX(x int) int { return x * g.pw / g.w }
 func (g *previewGrid) cellY(y int) int { return y * g.ph / g.h }
 
-// part computes tile t's contribution from both dates' pixels into dst,
-// reusing its buffers.
-func (g *previewGrid) part(t tiles.Tile, x [2][]float64, valid []bool, dst *previewPart) {
+// begin starts tile t's contribution in dst, reusing its buffers.
+func (g *previewGrid) begin(t tiles.Tile, dst *previewPart) {
 	dst.x0, dst.y0 = g.cellX(t.X), g.cellY(t.Y)
 	dst.cw, dst.ch = g.cellX(t.X+t.W-1)-dst.x0+1, g.cellY(t.Y+t.H-1)-dst.y0+1
 	cells := dst.cw * dst.ch
@@ -57,21 +57,31 @@ func (g *previewGrid) part(t tiles.Tile, x [2][]float64, valid []bool, dst *prev
 		dst.sum[d] = grow(dst.sum[d], cells*3)
 		clear(dst.sum[d])
 	}
-	for r := range t.H {
-		cy := g.cellY(t.Y+r) - dst.y0
-		for c := range t.W {
-			i := r*t.W + c
+	dst.col = grow(dst.col, t.W)
+	for c := range dst.col {
+		dst.col[c] = g.cellX(t.X+c) - dst.x0
+	}
+}
+
+// rows adds rows r0 to r1 of tile t to dst: x holds both dates' pixels of
+// those rows and valid their flags.
+func (g *previewGrid) rows(t tiles.Tile, r0, r1 int, x [2][]float64, valid []bool, dst *previewPart) {
+	p, c0, c1, c2 := g.p, g.rgb[0], g.rgb[1], g.rgb[2]
+	for r := r0; r < r1; r++ {
+		row := (g.cellY(t.Y+r) - dst.y0) * dst.cw
+		for c, cx := range dst.col {
+			i := (r-r0)*t.W + c
 			if !valid[i] {
 				continue
 			}
-			cell := cy*dst.cw + g.cellX(t.X+c) - dst.x0
+			cell := row + cx
 			dst.n[cell]++
 			for d := range x {
-				px := x[d][i*g.p : i*g.p+g.p]
+				px := x[d][i*p : i*p+p]
 				s := dst.sum[d][cell*3 : cell*3+3]
-				s[0] += px[g.rgb[0]]
-				s[1] += px[g.rgb[1]]
-				s[2] += px[g.rgb[2]]
+				s[0] += px[c0]
+				s[1] += px[c1]
+				s[2] += px[c2]
 			}
 		}
 	}

@@ -8,7 +8,8 @@ import (
 
 // TestPreviewGridBoxAverage: a 4 x 2 image of one band reduced to 2 x 1
 // cells: each cell is the mean of the valid pixels under it, whatever the
-// tiling (known by construction).
+// tiling and however the rows of a tile are handed over (known by
+// construction).
 func TestPreviewGridBoxAverage(t *testing.T) {
 	vals := []float64{1, 3, 10, 20, 5, 7, 30, 1000}
 	valid := []bool{true, true, true, true, true, true, true, false}
@@ -28,8 +29,16 @@ func TestPreviewGridBoxAverage(t *testing.T) {
 				}
 			}
 			vs = xs
+			// Whole tiles at once, or row by row.
 			var part previewPart
-			g.part(tl, [2][]float64{xs, vs}, ok, &part)
+			g.begin(tl, &part)
+			if tw == 4 {
+				g.rows(tl, 0, 2, [2][]float64{xs, vs}, ok, &part)
+			} else {
+				for r := range 2 {
+					g.rows(tl, r, r+1, [2][]float64{xs[r*tw : r*tw+tw], vs[r*tw : r*tw+tw]}, ok[r*tw:r*tw+tw], &part)
+				}
+			}
 			g.add(&part)
 		}
 		// Cell 0: (1 + 3 + 5 + 7) / 4 = 4; cell 1: (10 + 20 + 30) / 3 = 20.
