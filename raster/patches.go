@@ -81,24 +81,15 @@ func NewMask(g Grid) (*ChangeMask, error) {
 }
 
 func newMask(g Grid, ds *godal.Dataset, path string) (*ChangeMask, error) {
-	var err error
-	if g.HasGeoTransform {
-		err = ds.SetGeoTransform(g.GeoTransform, errLogger)
-	}
-	if err == nil && g.Projection != "" {
-		err = ds.SetProjection(g.Projection, errLogger)
-	}
-	if err != nil {
+	if err := georeference(ds, g); err != nil {
 		ds.Close(errLogger)
-		removeScratch(path)
-		return nil, fmt.Errorf("change map: %w", err)
+		return nil, errors.Join(fmt.Errorf("change map: %w", err), removeScratch(path))
 	}
 	// 255 is nodata: the sieve's mask leaves those pixels out.
 	for _, b := range []int{maskRaw, maskSieved} {
 		if err := ds.Bands()[b].SetNoData(float64(flagNoData), errLogger); err != nil {
 			ds.Close(errLogger)
-			removeScratch(path)
-			return nil, fmt.Errorf("change map: %w", err)
+			return nil, errors.Join(fmt.Errorf("change map: %w", err), removeScratch(path))
 		}
 	}
 	return &ChangeMask{grid: g, ds: ds, path: path}, nil
@@ -519,17 +510,24 @@ func newMem(g Grid, bands int) (*godal.Dataset, error) {
 	if err != nil {
 		return nil, err
 	}
-	if g.HasGeoTransform {
-		err = ds.SetGeoTransform(g.GeoTransform, errLogger)
-	}
-	if err == nil && g.Projection != "" {
-		err = ds.SetProjection(g.Projection, errLogger)
-	}
-	if err != nil {
+	if err := georeference(ds, g); err != nil {
 		ds.Close(errLogger)
 		return nil, err
 	}
 	return ds, nil
+}
+
+// georeference gives ds the geotransform and projection of g, where g has them.
+func georeference(ds *godal.Dataset, g Grid) error {
+	if g.HasGeoTransform {
+		if err := ds.SetGeoTransform(g.GeoTransform, errLogger); err != nil {
+			return err
+		}
+	}
+	if g.Projection != "" {
+		return ds.SetProjection(g.Projection, errLogger)
+	}
+	return nil
 }
 
 // stripRows is the number of rows of width w in a strip of about 1 MiB.

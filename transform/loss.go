@@ -15,10 +15,10 @@ import (
 type Loss struct {
 	p      int
 	n      int64     // valid pixels
-	sse    []sum     // per band Σ (x − x̂)²
+	sse    []Sum     // per band Σ (x − x̂)²
 	lo, hi []float64 // per band extremes of the original
 	maxAbs float64
-	sam    sum // Σ spectral angle, radians
+	sam    Sum // Σ spectral angle, radians
 }
 
 // LossReport summarises a Loss. Its JSON form is part of bandfold's output.
@@ -49,7 +49,7 @@ func NewLoss(p int) *Loss {
 	if p <= 0 {
 		panic("transform: NewLoss: non-positive band count")
 	}
-	l := &Loss{p: p, sse: make([]sum, p), lo: make([]float64, p), hi: make([]float64, p)}
+	l := &Loss{p: p, sse: make([]Sum, p), lo: make([]float64, p), hi: make([]float64, p)}
 	for j := range p {
 		l.lo[j], l.hi[j] = math.Inf(1), math.Inf(-1)
 	}
@@ -76,12 +76,12 @@ func (l *Loss) Add(orig, recon []float64, valid []bool) {
 		x, xh := orig[i*p:(i+1)*p], recon[i*p:(i+1)*p]
 		for j := range p {
 			e := x[j] - xh[j]
-			l.sse[j].add(e * e)
+			l.sse[j].Add(e * e)
 			l.maxAbs = max(l.maxAbs, math.Abs(e))
 			l.lo[j] = min(l.lo[j], x[j])
 			l.hi[j] = max(l.hi[j], x[j])
 		}
-		l.sam.add(SpectralAngle(x, xh))
+		l.sam.Add(SpectralAngle(x, xh))
 		l.n++
 	}
 }
@@ -117,12 +117,12 @@ func (l *Loss) Report() LossReport {
 		return r
 	}
 	n := float64(l.n)
-	var total sum
+	var total Sum
 	var psnrSum float64
 	var bands int
 	for j := range l.p {
-		sse := l.sse[j].value()
-		total.add(sse)
+		sse := l.sse[j].Value()
+		total.Add(sse)
 		mse := sse / n
 		r.BandRMSE[j] = math.Sqrt(mse)
 		if v := PSNR(mse, l.hi[j]-l.lo[j]); finite(v) {
@@ -131,11 +131,11 @@ func (l *Loss) Report() LossReport {
 			bands++
 		}
 	}
-	r.RMSE = math.Sqrt(total.value() / (n * float64(l.p)))
+	r.RMSE = math.Sqrt(total.Value() / (n * float64(l.p)))
 	if bands > 0 {
 		r.MeanPSNR = new(psnrSum / float64(bands))
 	}
-	r.MeanSAM = l.sam.value() / n * 180 / math.Pi
+	r.MeanSAM = l.sam.Value() / n * 180 / math.Pi
 	return r
 }
 
@@ -190,10 +190,12 @@ func SpectralAngle(a, b []float64) float64 {
 	return 2 * math.Atan2(math.Sqrt(diff), math.Sqrt(sum))
 }
 
-// sum is a compensated sum (Neumaier's improvement of Kahan summation).
-type sum struct{ s, c float64 }
+// Sum is a compensated sum (Neumaier's improvement of Kahan summation): the
+// zero value is an empty sum.
+type Sum struct{ s, c float64 }
 
-func (a *sum) add(x float64) {
+// Add adds x.
+func (a *Sum) Add(x float64) {
 	t := a.s + x
 	if math.Abs(a.s) >= math.Abs(x) {
 		a.c += (a.s - t) + x
@@ -203,9 +205,10 @@ func (a *sum) add(x float64) {
 	a.s = t
 }
 
-func (a *sum) merge(b sum) {
-	a.add(b.s)
+func (a *Sum) merge(b Sum) {
+	a.Add(b.s)
 	a.c += b.c
 }
 
-func (a sum) value() float64 { return a.s + a.c }
+// Value returns the sum.
+func (a Sum) Value() float64 { return a.s + a.c }

@@ -175,7 +175,7 @@ func allocateBudget(b *transform.Basis, bg Budget, path string) (*budgetPlan, er
 // achievedRMSE is the RMSE of the bands rebuilt from the codes written over
 // the valid pixels and p bands.
 func (st *foldStats) achievedRMSE(p int) float64 {
-	return st.sse.rmse(st.x.Count() * float64(p))
+	return rmseOf(st.sse, st.x.Count()*float64(p))
 }
 
 // finer returns the plan of the next write after one that achieved the
@@ -325,21 +325,7 @@ func (w *foldWorker) encode(ft *foldTile, x []float64, valid []bool) {
 // encode keeps on the stack.
 const maxCodeComponents = 64
 
-// compensated is a compensated sum (Neumaier) of per-tile squared errors,
-// added in tile order.
-type compensated struct{ s, c float64 }
-
-func (a *compensated) add(x float64) {
-	t := a.s + x
-	if math.Abs(a.s) >= math.Abs(x) {
-		a.c += (a.s - t) + x
-	} else {
-		a.c += (x - t) + a.s
-	}
-	a.s = t
-}
-
-// rmse is the root mean square of the sum over values band values.
-func (a compensated) rmse(values float64) float64 {
-	return math.Sqrt((a.s + a.c) / values)
+// rmseOf is the root mean square of a sum of squares over values band values.
+func rmseOf(sse transform.Sum, values float64) float64 {
+	return math.Sqrt(sse.Value() / values)
 }

@@ -420,7 +420,7 @@ type foldStats struct {
 	saturated int64
 	// sse is the squared error of the bands rebuilt from the codes written
 	// (a budgeted fold), summed over valid pixels and bands in tile order.
-	sse  compensated
+	sse  transform.Sum
 	plan *budgetPlan
 }
 
@@ -456,7 +456,7 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 			st.x.Merge(ft.x)
 			st.y.Merge(ft.y)
 			st.saturated += ft.saturated
-			st.sse.add(ft.sse)
+			st.sse.Add(ft.sse)
 			pool.Put(ft)
 			return err
 		})
