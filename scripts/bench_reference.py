@@ -1,0 +1,107 @@
+"""What make bench measures bandfold against, outside bandfold.
+
+The floors, the two resources learn cannot go below (each prints one line:
+seconds, then a description):
+  bench_reference.py read FILE   GDAL reading every block of FILE (all bands)
+                                 with GTIFF_DIRECT_IO, as a tiled reader must.
+  bench_reference.py syrk P N    OpenBLAS dsyrk (through numpy) forming the
+                                 P x P cross-product of N float64 pixels, in
+                                 chunks of 2^18 pixels, timing the products.
+  bench_reference.py kernel      which BLAS numpy loaded and its CPU kernel.
+The baselines, timed whole from outside:
+  bench_reference.py numpy-learn FILE
+                                 the in-memory approach: the whole cube as
+                                 float64, numpy.cov, numpy.linalg.eigh.
+  bench_reference.py gdal-fold FILE K OUT
+                                 GDAL alone reading FILE tile by tile and
+                                 writing K float32 bands with bandfold's
+                                 creation options.
+"""
+import sys
+import time
+
+
+def read(path):
+    from osgeo import gdal
+    gdal.UseExceptions()
+    gdal.SetConfigOption("GTIFF_DIRECT_IO", "YES")
+    ds = gdal.Open(path)
+    bw, bh = ds.GetRasterBand(1).GetBlockSize()
+    w, h, p = ds.RasterXSize, ds.RasterYSize, ds.RasterCount
+    t = time.perf_counter()
+    nbytes = 0
+    for y in range(0, h, bh):
+        for x in range(0, w, bw):
+            nbytes += len(ds.ReadRaster(x, y, min(bw, w - x), min(bh, h - y)))
+    dt = time.perf_counter() - t
+    print("%.3f read %d bands x %d x %d in %d x %d blocks, %.0f MiB, %.2f GiB/s"
+          % (dt, p, w, h, bw, bh, nbytes / 2**20, nbytes / dt / 2**30))
+
+
+def syrk(p, n):
+    import numpy as np
+    chunk = 1 << 18
+    x = np.random.default_rng(1).standard_normal((min(chunk, n), p))
+    c = np.zeros((p, p))
+    dt, done = 0.0, 0
+    while done < n:
+        m = min(chunk, n - done)
+        a = x[:m]
+        t = time.perf_counter()
+        c += np.dot(a.T, a)  # numpy calls dsyrk when both operands are one array
+        dt += time.perf_counter() - t
+        done += m
+    print("%.3f dsyrk p=%d n=%d, %.1f GFLOP/s (p(p+1)n flops)" % (dt, p, n, p * (p + 1) * n / dt / 1e9))
+
+
+def kernel():
+    from threadpoolctl import threadpool_info
+    import numpy  # noqa: F401 (loads the BLAS threadpoolctl reports)
+    for i in threadpool_info():
+        if i.get("user_api") == "blas":
+            print("0 %s %s kernel %s, %d threads" % (i.get("internal_api"), i.get("version"), i.get("architecture"), i.get("num_threads")))
+            return
+    print("0 no BLAS found by threadpoolctl")
+
+
+def numpy_learn(path):
+    import numpy as np
+    from osgeo import gdal
+    ds = gdal.Open(path)
+    x = ds.ReadAsArray().reshape(ds.RasterCount, -1).astype(np.float64)
+    np.linalg.eigh(np.cov(x))
+
+
+def gdal_fold(path, k, out):
+    # The values written are the input's first k bands times an irrational
+    # factor, so that they are real-valued like component scores: DEFLATE's
+    # speed depends on the content, and integral floats compress far faster.
+    from osgeo import gdal
+    gdal.UseExceptions()
+    src = gdal.Open(path)
+    opts = ["TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=DEFLATE", "PREDICTOR=3",
+            "ZLEVEL=1", "BIGTIFF=IF_SAFER", "NUM_THREADS=ALL_CPUS"]
+    dst = gdal.GetDriverByName("GTiff").Create(out, src.RasterXSize, src.RasterYSize, k, gdal.GDT_Float32, opts)
+    step = 256
+    for y in range(0, src.RasterYSize, step):
+        h = min(step, src.RasterYSize - y)
+        a = src.ReadAsArray(0, y, src.RasterXSize, h).astype("float32") * 0.70710678 + 0.318
+        for b in range(k):
+            dst.GetRasterBand(b + 1).WriteArray(a[b], 0, y)
+    dst = None
+
+
+if __name__ == "__main__":
+    cmd = sys.argv[1]
+    if cmd == "read":
+        read(sys.argv[2])
+    elif cmd == "syrk":
+        syrk(int(sys.argv[2]), int(sys.argv[3]))
+    elif cmd == "numpy-learn":
+        numpy_learn(sys.argv[2])
+    elif cmd == "gdal-fold":
+        gdal_fold(sys.argv[2], int(sys.argv[3]), sys.argv[4])
+    elif cmd == "kernel":
+        kernel()
+    else:
+        sys.exit("bench_reference.py: unknown command " + cmd)
