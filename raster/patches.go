@@ -68,7 +68,11 @@ type ChangeMask struct {
 	ds     *godal.Dataset
 	path   string // the scratch file of NewMaskFile, "" in memory
 	sieved bool
+	final  bool // Patches used the raw band: the map can only be read
 }
+
+// errFinal refuses to change or re-sieve a map whose patches were written.
+var errFinal = errors.New("the change map is final once its patches are written")
 
 // NewMask returns an empty change map of grid g (all pixels 0), held in
 // memory (3 bytes a pixel).
@@ -102,6 +106,9 @@ func (m *ChangeMask) Write(x, y, w, h int, flags, top []uint8) error {
 	if err := checkWindow(m.grid, x, y, w, h, len(flags), len(top)); err != nil {
 		return fmt.Errorf("write change map: %w", err)
 	}
+	if m.final {
+		return fmt.Errorf("write change map: %w", errFinal)
+	}
 	m.sieved = false
 	bands := m.ds.Bands()
 	if err := bands[maskRaw].Write(x, y, flags, w, h, errLogger); err != nil {
@@ -132,6 +139,9 @@ func (m *ChangeMask) Sieve(minPixels int) error {
 // Cancelling ctx stops GDAL at its next progress report (every row) and
 // returns ctx's error; the map then reads as if Sieve had not run.
 func (m *ChangeMask) SieveContext(ctx context.Context, minPixels int) error {
+	if m.final {
+		return fmt.Errorf("sieve: %w", errFinal)
+	}
 	m.sieved = false
 	bands := m.ds.Bands()
 	if minPixels <= 1 {
@@ -187,6 +197,9 @@ func (m *ChangeMask) Read(x, y, w, h int, dst []uint8) error {
 
 // ReadRaw reads the flags as written, sieved or not.
 func (m *ChangeMask) ReadRaw(x, y, w, h int, dst []uint8) error {
+	if m.final {
+		return fmt.Errorf("read change map: %w", errFinal)
+	}
 	return m.read(maskRaw, x, y, w, h, dst)
 }
 
@@ -257,7 +270,9 @@ type PatchSummary struct {
 }
 
 // Patches polygonizes the change patches (value 1) of the map, sieved if
-// Sieve ran, with GDAL's polygonize, 8-connected, and writes a GeoPackage at
+// Sieve ran (the map is then final: Read still works, Write, SetMapped,
+// Sieve and ReadRaw return an error), with GDAL's polygonize, 8-connected,
+// and writes a GeoPackage at
 // path (an output.File: written under a temporary name beside it and
 // renamed on success; it refuses an existing path unless overwrite, also
 // one that appears while it writes), layer "changes", polygons in
@@ -372,12 +387,20 @@ func (p *patchFile) addMap(st PatchStep, mag *godal.Dataset, ea *equalArea) (Pat
 // polygonize returns an OGR Memory dataset whose one layer holds the
 // polygons of the map's change patches.
 func (m *ChangeMask) polygonize() (*godal.Dataset, error) {
-	chg, err := newMem(m.grid, 1)
-	if err != nil {
-		return nil, err
+	// Once sieved, the raw map is not needed again: it holds the 0/1 copy
+	// GDAL polygonizes (a full-grid band less in memory), and the map is
+	// final from then on.
+	band := m.ds.Bands()[maskRaw]
+	if !m.sieved {
+		chg, err := newMem(m.grid, 1)
+		if err != nil {
+			return nil, err
+		}
+		defer chg.Close(errLogger)
+		band = chg.Bands()[0]
+	} else {
+		m.final = true
 	}
-	defer chg.Close(errLogger)
-	band := chg.Bands()[0]
 	isChange := func(v uint8) uint8 {
 		if v == flagChange {
 			return 1

@@ -452,3 +452,41 @@ func TestPatchesProvenance(t *testing.T) {
 		t.Error("no patches")
 	}
 }
+
+// Patches of a sieved map use its raw band as scratch: the sieved map still
+// reads as before, and changing or re-sieving the map is refused. Truth by
+// construction: the sieved map read before Patches.
+func TestPatchesLeaveTheMapFinal(t *testing.T) {
+	dir := t.TempDir()
+	s := newPatchScene(t, utm33)
+	mag := s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif"))
+	m := s.mask(t)
+	if err := m.Sieve(4); err != nil {
+		t.Fatal(err)
+	}
+	before := make([]uint8, sceneW*sceneH)
+	if err := m.Read(0, 0, sceneW, sceneH, before); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := m.Patches(filepath.Join(dir, "changes.gpkg"), PatchOptions{Magnitude: mag}); err != nil {
+		t.Fatal(err)
+	}
+	after := make([]uint8, sceneW*sceneH)
+	if err := m.Read(0, 0, sceneW, sceneH, after); err != nil {
+		t.Fatal(err)
+	}
+	if !slices.Equal(before, after) {
+		t.Error("Patches changed the sieved map")
+	}
+	raw := make([]uint8, sceneW*sceneH)
+	for name, err := range map[string]error{
+		"Write":     m.Write(0, 0, sceneW, sceneH, s.flags, s.top),
+		"SetMapped": m.SetMapped(0, 0, sceneW, sceneH, s.flags),
+		"Sieve":     m.Sieve(4),
+		"ReadRaw":   m.ReadRaw(0, 0, sceneW, sceneH, raw),
+	} {
+		if !errors.Is(err, errFinal) {
+			t.Errorf("%s after Patches: %v, want %v", name, err, errFinal)
+		}
+	}
+}

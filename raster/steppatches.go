@@ -42,6 +42,9 @@ func (m *ChangeMask) SetMapped(x, y, w, h int, flags []uint8) error {
 	if err := checkWindow(m.grid, x, y, w, h, len(flags)); err != nil {
 		return fmt.Errorf("write change map: %w", err)
 	}
+	if m.final {
+		return fmt.Errorf("write change map: %w", errFinal)
+	}
 	if err := m.ds.Bands()[m.current()].Write(x, y, flags, w, h, errLogger); err != nil {
 		return fmt.Errorf("write change map at %d,%d: %w", x, y, err)
 	}
