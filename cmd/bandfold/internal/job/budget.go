@@ -154,7 +154,7 @@ func allocateBudget(b *transform.Basis, bg Budget, path string) (*budgetPlan, er
 	target := rmse * rmse * (1 - transform.BudgetMargin)
 	a, err := transform.Allocate(v, g, p, target, b.MinCodeStep())
 	if errors.Is(err, transform.ErrBudgetTooSmall) {
-		return nil, Usagef("%s (an RMSE of %.4g): below what integer codes of the components can reach (%v); store the original losslessly instead", bg, rmse, err)
+		return nil, Usagef("%s (an RMSE of %.4g): %v; store the original losslessly instead", bg, rmse, err)
 	} else if err != nil {
 		return nil, usage(fmt.Errorf("%s: %w", bg, err))
 	}
