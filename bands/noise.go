@@ -2,6 +2,7 @@ package bands
 
 import (
 	"fmt"
+	"iter"
 	"math/bits"
 
 	"gonum.org/v1/gonum/mat"
@@ -91,23 +92,34 @@ func (w Window) check() {
 // Berman, Switzer & Craig (1988): see NoiseCovariance.
 func ShiftDifferences(dst []float64, win Window, s Shift) []float64 {
 	win.check()
-	p, w := win.P, win.W
-	for r := range win.OwnH {
-		for c := range win.OwnW {
-			i := r*w + c
-			if !win.Valid[i] {
-				continue
-			}
-			x := win.X[i*p : i*p+p]
-			if s&Horizontal != 0 && c+1 < w && win.Valid[i+1] {
-				dst = appendDiff(dst, win.X[(i+1)*p:(i+2)*p], x)
-			}
-			if s&Vertical != 0 && r+1 < win.H && win.Valid[i+w] {
-				dst = appendDiff(dst, win.X[(i+w)*p:(i+w+1)*p], x)
+	for y, x := range win.pairs(s) {
+		dst = appendDiff(dst, y, x)
+	}
+	return dst
+}
+
+// pairs yields the valid pixel pairs of the window's own part for s, row by
+// row, horizontal before vertical within a pixel: the neighbour's values,
+// then the pixel's.
+func (win Window) pairs(s Shift) iter.Seq2[[]float64, []float64] {
+	return func(yield func([]float64, []float64) bool) {
+		p, w := win.P, win.W
+		for r := range win.OwnH {
+			for c := range win.OwnW {
+				i := r*w + c
+				if !win.Valid[i] {
+					continue
+				}
+				x := win.X[i*p : i*p+p]
+				if s&Horizontal != 0 && c+1 < w && win.Valid[i+1] && !yield(win.X[(i+1)*p:(i+2)*p], x) {
+					return
+				}
+				if s&Vertical != 0 && r+1 < win.H && win.Valid[i+w] && !yield(win.X[(i+w)*p:(i+w+1)*p], x) {
+					return
+				}
 			}
 		}
 	}
-	return dst
 }
 
 // AddShiftDifferences adds to a the difference vectors that
@@ -122,8 +134,7 @@ func (a *Accumulator) AddShiftDifferences(win Window, s Shift) {
 	if win.P != a.p {
 		panic(fmt.Sprintf("bands: window of %d bands for an accumulator of %d", win.P, a.p))
 	}
-	p, w := a.p, win.W
-	if useFused(p) {
+	if useFused(a.p) {
 		a.diffs = ShiftDifferences(a.diffs[:0], win, s)
 		a.add(a.diffs, nil, true)
 		return
@@ -138,23 +149,9 @@ func (a *Accumulator) AddShiftDifferences(win Window, s Shift) {
 			k = 0
 		}
 	}
-	for r := range win.OwnH {
-		for c := range win.OwnW {
-			i := r*w + c
-			if !win.Valid[i] {
-				continue
-			}
-			x := win.X[i*p : i*p+p]
-			if s&Horizontal != 0 && c+1 < w && win.Valid[i+1] {
-				if k = b.putDiff(k, win.X[(i+1)*p:(i+2)*p], x); k == chunk {
-					flush()
-				}
-			}
-			if s&Vertical != 0 && r+1 < win.H && win.Valid[i+w] {
-				if k = b.putDiff(k, win.X[(i+w)*p:(i+w+1)*p], x); k == chunk {
-					flush()
-				}
-			}
+	for y, x := range win.pairs(s) {
+		if k = b.putDiff(k, y, x); k == chunk {
+			flush()
 		}
 	}
 	flush()
