@@ -8,7 +8,6 @@ import (
 	"path/filepath"
 	"runtime/debug"
 	"strings"
-	"time"
 
 	"bandfold/bands"
 	"bandfold/raster"
@@ -127,20 +126,13 @@ func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err
 	defer func() { err = classify(err) }()
 	r := &changeRun{env: env, o: &o}
 	defer r.close()
-	steps := []struct {
-		name string
-		do   func(context.Context) error
-	}{
+	steps := []jobStep{
 		{"open", r.open}, {"scan", r.scanPair}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"model", r.fitModel},
 		{"map", r.mapPixels}, {"sieve", r.sieve}, {"change map", r.changeMap}, {"patches", r.patches},
 		{"preview", r.preview}, {"diagnostics", r.diagnostics}, {"report", r.report}, {"summary", r.summary},
 	}
-	for _, step := range steps {
-		start := time.Now()
-		if err := step.do(ctx); err != nil {
-			return nil, r.dir.FinalNames(err)
-		}
-		env.log().Debug("change step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
+	if err := runSteps(ctx, env, "change", steps); err != nil {
+		return nil, r.dir.FinalNames(err)
 	}
 	return r.sum, nil
 }

@@ -16,6 +16,7 @@ import (
 	"io"
 	"log/slog"
 	"runtime"
+	"time"
 
 	"bandfold/raster"
 	"bandfold/raster/output"
@@ -110,4 +111,24 @@ func classify(err error) error {
 		return &UsageError{err}
 	}
 	return err
+}
+
+// jobStep is one step of a job's run: its name for the debug log and the
+// run's method doing it.
+type jobStep struct {
+	name string
+	do   func(context.Context) error
+}
+
+// runSteps runs steps in order, logging each one's duration at debug level
+// under job; the first error ends the run and is returned as it is.
+func runSteps(ctx context.Context, env Env, job string, steps []jobStep) error {
+	for _, step := range steps {
+		start := time.Now()
+		if err := step.do(ctx); err != nil {
+			return err
+		}
+		env.log().Debug(job+" step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
+	}
+	return nil
 }

@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"slices"
 	"strings"
-	"time"
 
 	"bandfold/raster"
 	"bandfold/raster/output"
@@ -124,20 +123,13 @@ func Timeline(ctx context.Context, env Env, o TimelineOptions) (_ *TimelineResul
 	defer func() { err = classify(err) }()
 	r := &timelineRun{env: env, o: &o}
 	defer r.close()
-	steps := []struct {
-		name string
-		do   func(context.Context) error
-	}{
+	steps := []jobStep{
 		{"open", r.open}, {"sample", r.sample}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"models", r.fitModels},
 		{"map", r.mapPixels}, {"sieve", r.sieve}, {"classify", r.classify}, {"patches", r.patches}, {"figures", r.figures},
 		{"report", r.report}, {"summary", r.summary},
 	}
-	for _, step := range steps {
-		start := time.Now()
-		if err := step.do(ctx); err != nil {
-			return nil, r.dir.FinalNames(err)
-		}
-		env.log().Debug("timeline step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
+	if err := runSteps(ctx, env, "timeline", steps); err != nil {
+		return nil, r.dir.FinalNames(err)
 	}
 	return r.sum, nil
 }
