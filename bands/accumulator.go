@@ -13,9 +13,12 @@ import (
 //
 // and the per-band minimum and maximum over valid pixels.
 //
-// The zero value is not usable; create an Accumulator with NewAccumulator or
-// FromState. Methods that change an Accumulator (AddPixels, Merge into it,
-// Reset) must not run concurrently with any other method on it.
+// The zero value is not usable; create an Accumulator with NewAccumulator,
+// NewExactAccumulator or FromState. Methods that change an Accumulator
+// (AddPixels, Merge into it, Reset) must not run concurrently with any other
+// method on it; nor, on an exact accumulator, may any two methods, since the
+// first to read the statistics after a change derives them from the exact
+// sums.
 type Accumulator struct {
 	p    int
 	n    float64
@@ -27,6 +30,13 @@ type Accumulator struct {
 	d     []float64 // scratch for fold, length p.
 	blk   *block    // scratch for AddPixels, allocated on first use.
 	diffs []float64 // scratch for AddShiftDifferences on the fused path.
+
+	// exact holds the exact integer sums of an exact accumulator, nil
+	// otherwise; wantExact makes Reset restore them. stale means mean and
+	// com are not yet derived from them (see sync).
+	exact     *exactSums
+	wantExact bool
+	stale     bool
 }
 
 // NewAccumulator returns an empty accumulator for pixels of p bands.
@@ -56,6 +66,13 @@ func (a *Accumulator) Count() float64 { return a.n }
 // Reset empties the accumulator, keeping its band count and scratch memory.
 func (a *Accumulator) Reset() {
 	a.n = 0
+	a.stale = false
+	if a.wantExact {
+		if a.exact == nil {
+			a.exact = newExactSums(a.p)
+		}
+		a.exact.reset()
+	}
 	clear(a.mean)
 	clear(a.com)
 	for i := range a.min {
@@ -73,12 +90,23 @@ func (a *Accumulator) Reset() {
 //	M = MA + MB + d·dᵀ·nA·nB/n,
 //
 // and takes the elementwise minimum and maximum. Merging an empty accumulator
-// is a no-op, and merging into an empty one copies b exactly. Merge panics if
-// the band counts differ.
+// is a no-op, and merging into an empty one copies b exactly. Two exact
+// accumulators merge by adding their exact sums; an exact accumulator that
+// merges an ordinary one becomes ordinary. Merge panics if the band counts
+// differ.
 func (a *Accumulator) Merge(b *Accumulator) {
 	if b.p != a.p {
 		panic("bands: band count mismatch")
 	}
+	if a.exact != nil && b.exact != nil {
+		a.mergeExact(b)
+		return
+	}
+	if b.n == 0 {
+		return
+	}
+	b.sync()
+	a.dropExact()
 	a.fold(b.n, b.mean, b.com, b.min, b.max)
 }
 
@@ -129,6 +157,7 @@ func (a *Accumulator) fold(nb float64, mb, cb, minb, maxb []float64) {
 // If dst is nil a new slice is allocated; otherwise dst must have length p and
 // is returned.
 func (a *Accumulator) Mean(dst []float64) []float64 {
+	a.sync()
 	return a.perBand(dst, a.mean)
 }
 
@@ -161,6 +190,7 @@ func (a *Accumulator) perBand(dst, src []float64) []float64 {
 // each NaN if fewer than two pixels have been accumulated. dst is handled as
 // in Mean.
 func (a *Accumulator) StdDev(dst []float64) []float64 {
+	a.sync()
 	dst = a.vector(dst)
 	if a.n <= 1 {
 		fill(dst, math.NaN())
@@ -196,6 +226,7 @@ func (a *Accumulator) Covariance(dst *mat.SymDense) *mat.SymDense {
 // it returns a *ZeroVarianceError naming the lowest such band, which wraps
 // ErrZeroVariance, and leaves dst unchanged. dst is handled as in CoMoment.
 func (a *Accumulator) Correlation(dst *mat.SymDense) (*mat.SymDense, error) {
+	a.sync()
 	p := a.p
 	for i := 0; i < p; i++ {
 		if a.com[i*p+i] <= 0 || a.min[i] == a.max[i] {
@@ -250,6 +281,7 @@ func correlationTo(dst *mat.SymDense, cov mat.Symmetric) error {
 }
 
 func (a *Accumulator) scaled(dst *mat.SymDense, f float64) *mat.SymDense {
+	a.sync()
 	dst = a.matrix(dst)
 	p := a.p
 	for i := 0; i < p; i++ {

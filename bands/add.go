@@ -55,6 +55,7 @@ type block struct {
 	com      []float64 // p×p, upper triangle used.
 	buf      []float64 // fused path: two centred pixels; BLAS path: a shifted chunk, p+1 values a pixel.
 	aug      []float64 // BLAS path: (p+1)×(p+1), the product of the shifted chunk.
+	inexact  bool      // exact path: the chunk holds a value that is not an integer.
 }
 
 func newBlock(p int) *block {
@@ -98,6 +99,9 @@ func (a *Accumulator) AddPixels(x []float64, valid []bool) {
 func (a *Accumulator) add(x []float64, valid []bool, fused bool) {
 	p := a.p
 	n := len(x) / p
+	if a.exact != nil {
+		fused = false
+	}
 	chunk := a.prepare(fused, n)
 	b := a.blk
 	for start := 0; start < n; start += chunk {
@@ -107,16 +111,24 @@ func (a *Accumulator) add(x []float64, valid []bool, fused bool) {
 		if valid != nil {
 			vs = valid[start:end]
 		}
+		if a.exact != nil {
+			b.inexact = false
+			if k := b.raw(xs, vs); k > 0 {
+				a.addRaw(k)
+			}
+			continue
+		}
 		if fused {
 			if !b.stats(xs, vs) {
 				continue
 			}
 			b.comomentFused(xs, vs)
 		} else {
-			k := b.shifted(xs, vs)
+			k := b.raw(xs, vs)
 			if k == 0 {
 				continue
 			}
+			b.shift(k)
 			b.comomentBLAS(k)
 		}
 		a.fold(b.n, b.mean, b.com, b.min, b.max)
@@ -136,6 +148,7 @@ func (a *Accumulator) prepare(fused bool, n int) int {
 	chunk, width := fusedChunk, p
 	if !fused {
 		chunk, width = max(blasChunkBytes/(8*(p+1)), 64), p+1
+		chunk = min(chunk, maxExactChunk)
 		if b.aug == nil {
 			b.aug = make([]float64, width*width)
 		}
@@ -241,14 +254,14 @@ func (b *block) comomentFused(x []float64, valid []bool) {
 	}
 }
 
-// shifted copies the valid pixels of x to the start of b.buf, p+1 values a
-// pixel: the pixel less the chunk's first valid pixel r, then a 1; it sets
-// b.mean to r, the extremes of the valid pixels in b.min and b.max, and
-// returns their number k. So x is read from memory once, and its sums come
-// out of the same product as its co-moments (comomentBLAS).
-func (b *block) shifted(x []float64, valid []bool) int {
+// raw copies the valid pixels of x to the start of b.buf, p+1 values a
+// pixel: the pixel and a 1. So x is read from memory once, and its sums come
+// out of the same product as its co-moments (comomentBLAS, after shift). It sets the
+// extremes, returns the number k of pixels copied, and sets b.inexact if
+// any value is not an integer.
+func (b *block) raw(x []float64, valid []bool) int {
 	p := len(b.mean)
-	ref, lo, hi := b.mean, b.min, b.max
+	lo, hi := b.min, b.max
 	k := 0
 	for i := range len(x) / p {
 		if valid != nil && !valid[i] {
@@ -256,15 +269,17 @@ func (b *block) shifted(x []float64, valid []bool) int {
 		}
 		px := x[i*p : i*p+p]
 		if k == 0 {
-			copy(ref, px)
 			copy(lo, px)
 			copy(hi, px)
 		}
 		c := b.buf[k*(p+1) : k*(p+1)+p+1]
 		c[p] = 1
-		c, r, lo, hi := c[:len(px)], ref[:len(px)], lo[:len(px)], hi[:len(px)]
+		c, lo, hi := c[:len(px)], lo[:len(px)], hi[:len(px)]
 		for j, v := range px {
-			c[j] = v - r[j]
+			c[j] = v
+			if float64(int64(v)) != v {
+				b.inexact = true
+			}
 			if v < lo[j] {
 				lo[j] = v
 			} else if v > hi[j] {
@@ -277,12 +292,12 @@ func (b *block) shifted(x []float64, valid []bool) int {
 	return k
 }
 
-// putDiff stores the difference d = x − y as pixel k of the shifted chunk
-// in b.buf, as shifted does for a pixel (the first one, k = 0, sets the
-// shift and the extremes), and returns k + 1.
-func (b *block) putDiff(k int, x, y []float64) int {
+// putRaw stores the difference d = x − y as pixel k of the chunk in b.buf,
+// as raw does for a pixel (the first one, k = 0, sets the extremes), and
+// returns k + 1.
+func (b *block) putRaw(k int, x, y []float64) int {
 	p := len(b.mean)
-	ref, lo, hi := b.mean[:len(x)], b.min[:len(x)], b.max[:len(x)]
+	lo, hi := b.min[:len(x)], b.max[:len(x)]
 	y = y[:len(x)]
 	c := b.buf[k*(p+1) : k*(p+1)+p+1]
 	c[p] = 1
@@ -290,13 +305,15 @@ func (b *block) putDiff(k int, x, y []float64) int {
 	if k == 0 {
 		for j, v := range x {
 			d := v - y[j]
-			ref[j], lo[j], hi[j], c[j] = d, d, d, 0
+			lo[j], hi[j] = d, d
 		}
-		return 1
 	}
 	for j, v := range x {
 		d := v - y[j]
-		c[j] = d - ref[j]
+		c[j] = d
+		if float64(int64(d)) != d {
+			b.inexact = true
+		}
 		if d < lo[j] {
 			lo[j] = d
 		} else if d > hi[j] {
@@ -306,9 +323,46 @@ func (b *block) putDiff(k int, x, y []float64) int {
 	return k + 1
 }
 
+// addRaw adds the k unshifted pixels that raw or putRaw left in a.blk: to
+// the exact sums when every value is an integer within ±MaxExact, which
+// makes the product exact; otherwise a becomes an ordinary accumulator and
+// the chunk, shifted by its first pixel, takes the ordinary path.
+func (a *Accumulator) addRaw(k int) {
+	b := a.blk
+	b.n = float64(k)
+	ok := !b.inexact
+	for j := range a.p {
+		ok = ok && b.min[j] >= -MaxExact && b.max[j] <= MaxExact
+	}
+	if ok {
+		b.product(k)
+		a.addExact(k)
+		return
+	}
+	a.dropExact()
+	b.shift(k)
+	b.comomentBLAS(k)
+	a.fold(b.n, b.mean, b.com, b.min, b.max)
+}
+
+// shift subtracts the first of the k unshifted pixels in b.buf, r, from
+// each of them and sets b.mean to r, ready for comomentBLAS.
+func (b *block) shift(k int) {
+	p, q := len(b.mean), len(b.mean)+1
+	ref := b.mean
+	copy(ref, b.buf[:p])
+	for i := 0; i < k*q; i += q {
+		px := b.buf[i : i+p]
+		px = px[:len(ref)]
+		for j, r := range ref {
+			px[j] -= r
+		}
+	}
+}
+
 // comomentBLAS sets b.mean and the upper triangle of b.com to the mean and
-// co-moment of the k pixels that shifted left in b.buf, less r =
-// b.mean. One blas64.Syrk of the k×(p+1) matrix [C 1], C the shifted pixels,
+// co-moment of the k pixels that raw (or putRaw) and shift left in b.buf,
+// less r = b.mean. One blas64.Syrk of the k×(p+1) matrix [C 1], C the shifted pixels,
 // gives CᵀC, the sums s = Cᵀ1 and k, and
 //
 //	mean = r + s/k,  M = CᵀC − s·sᵀ/k.
@@ -324,8 +378,7 @@ func (b *block) comomentBLAS(k int) {
 	q := p + 1
 	c, aug, s := b.buf[:k*q], b.aug, b.aug[p:]
 	for pass := 0; ; pass++ {
-		blas64.Syrk(blas.Trans, 1, blas64.General{Rows: k, Cols: q, Stride: q, Data: c}, 0,
-			blas64.Symmetric{N: q, Stride: q, Uplo: blas.Upper, Data: aug})
+		b.product(k)
 		if pass > 0 || !b.cancels(k) {
 			break
 		}
@@ -347,6 +400,14 @@ func (b *block) comomentBLAS(k int) {
 		}
 		b.mean[i] = min(max(b.mean[i]+si, b.min[i]), b.max[i])
 	}
+}
+
+// product sets the upper triangle of b.aug to [C 1]ᵀ[C 1] for the k
+// pixels of p+1 values in b.buf, with one blas64.Syrk.
+func (b *block) product(k int) {
+	q := len(b.mean) + 1
+	blas64.Syrk(blas.Trans, 1, blas64.General{Rows: k, Cols: q, Stride: q, Data: b.buf[:k*q]}, 0,
+		blas64.Symmetric{N: q, Stride: q, Uplo: blas.Upper, Data: b.aug})
 }
 
 // cancels reports whether the shift correction s_j²/k of some band j would

@@ -40,6 +40,21 @@
 // precision when the data sit on a large offset (for example radiances or
 // digital numbers far from zero).
 //
+// # Exact sums
+//
+// An accumulator made with NewExactAccumulator instead keeps, for as long
+// as every value is an integer of magnitude at most MaxExact (16-bit
+// digital numbers and their differences), the count, the sums and the sums
+// of products as 128-bit integers. Each chunk's product [X 1]ᵀ[X 1] comes
+// from the same Syrk, unshifted: its terms are integers below 2³⁵ and a
+// chunk holds at most 2¹⁷ pixels, so every partial sum stays below 2⁵³ and
+// the product is exact whatever order the BLAS adds in. Merging adds the
+// integers; the mean and the co-moment M = (n·P − s·sᵀ)/n are derived once,
+// correctly rounded, with math/big. The statistics are then the same bit for
+// bit for any cut into chunks, tiles or shards and any merge order. At the
+// first chunk with another value the accumulator switches, for good, to the
+// method above.
+//
 // Reference: T. F. Chan, G. H. Golub and R. J. LeVeque, "Updating formulae and
 // a pairwise algorithm for computing sample variances", Technical Report
 // STAN-CS-79-773, Stanford University, 1979.

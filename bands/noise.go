@@ -134,23 +134,30 @@ func (a *Accumulator) AddShiftDifferences(win Window, s Shift) {
 	if win.P != a.p {
 		panic(fmt.Sprintf("bands: window of %d bands for an accumulator of %d", win.P, a.p))
 	}
-	if useFused(a.p) {
+	if a.exact == nil && useFused(a.p) {
 		a.diffs = ShiftDifferences(a.diffs[:0], win, s)
 		a.add(a.diffs, nil, true)
 		return
 	}
 	chunk := a.prepare(false, win.OwnW*win.OwnH*bits.OnesCount(uint(s&Both)))
 	b, k := a.blk, 0
+	b.inexact = false
 	flush := func() {
-		if k > 0 {
+		switch {
+		case k == 0:
+			return
+		case a.exact != nil:
+			a.addRaw(k)
+		default:
 			b.n = float64(k)
+			b.shift(k)
 			b.comomentBLAS(k)
 			a.fold(b.n, b.mean, b.com, b.min, b.max)
-			k = 0
 		}
+		k, b.inexact = 0, false
 	}
 	for y, x := range win.pairs(s) {
-		if k = b.putDiff(k, y, x); k == chunk {
+		if k = b.putRaw(k, y, x); k == chunk {
 			flush()
 		}
 	}

@@ -198,3 +198,57 @@ func TestAddShiftDifferences(t *testing.T) {
 		}
 	}
 }
+
+// TestExactShiftDifferences: on an integer-valued cube, exact accumulators
+// of the shift differences give the same state bit for bit for every tile
+// size (1 to 512) and set of pairs, equal to AddPixels of the differences of
+// the whole image in one exact accumulator (the exact sums are the same
+// integers, so this holds by construction), and within 1e-12 of gonum's
+// in-memory covariance (as TestNoiseCovarianceMatchesInMemory). A
+// non-integer value makes them ordinary (Exact false) and still correct.
+func TestExactShiftDifferences(t *testing.T) {
+	c := randomCube(11, 6, 71, 45, 0.1)
+	for i := range c.x {
+		c.x[i] = math.Round(c.x[i] * 7)
+	}
+	tiled := func(tile int, s bands.Shift) *bands.Accumulator {
+		total := bands.NewExactAccumulator(c.p)
+		for y := 0; y < c.h; y += tile {
+			for x := 0; x < c.w; x += tile {
+				a := bands.NewExactAccumulator(c.p)
+				a.AddShiftDifferences(c.window(x, y, tile, tile, s), s)
+				total.Merge(a)
+			}
+		}
+		return total
+	}
+	for _, s := range []bands.Shift{bands.Horizontal, bands.Vertical, bands.Both} {
+		whole := bands.NewExactAccumulator(c.p)
+		whole.AddPixels(bands.ShiftDifferences(nil, c.window(0, 0, c.w, c.h, s), s), nil)
+		want := whole.State()
+		for _, tile := range []int{1, 2, 7, 16, 64, 512} {
+			got := tiled(tile, s)
+			if !got.Exact() || !reflect.DeepEqual(got.State(), want) {
+				t.Errorf("%v tile %d: exact %v, state differs from the whole image's", s, tile, got.Exact())
+			}
+		}
+		ref, _ := c.reference(s)
+		got := bands.NoiseCovariance(whole, nil)
+		for i := range c.p {
+			for j := range c.p {
+				if d := math.Abs(got.At(i, j) - ref.At(i, j)); d > 1e-12*ref.At(i, i) {
+					t.Errorf("%v: Σ_N[%d][%d] = %v, want %v (gonum in memory)", s, i, j, got.At(i, j), ref.At(i, j))
+				}
+			}
+		}
+	}
+	c.x[5*c.p+2] += 0.25
+	ref, _ := c.reference(bands.Both)
+	got := tiled(16, bands.Both)
+	if got.Exact() {
+		t.Error("exact with a non-integer value")
+	}
+	if d := math.Abs(bands.NoiseCovariance(got, nil).At(2, 2) - ref.At(2, 2)); d > 1e-12*ref.At(2, 2) {
+		t.Errorf("after falling back: Σ_N[2][2] off by %v", d)
+	}
+}

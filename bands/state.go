@@ -18,11 +18,16 @@ type State struct {
 	CoMoment [][]float64 `json:"comoment"`
 	Min      []float64   `json:"min"`
 	Max      []float64   `json:"max"`
+	// Exact holds the exact integer sums of an exact accumulator
+	// (NewExactAccumulator), nil for any other; Mean and CoMoment are then
+	// the values derived from them.
+	Exact *ExactState `json:"exact,omitempty"`
 }
 
 // State returns the statistics of a as a State sharing no memory with a.
 // FromState(a.State()) reproduces a exactly.
 func (a *Accumulator) State() State {
+	a.sync()
 	p := a.p
 	s := State{
 		Count:    a.n,
@@ -40,6 +45,9 @@ func (a *Accumulator) State() State {
 		s.Min = append([]float64(nil), a.min...)
 		s.Max = append([]float64(nil), a.max...)
 	}
+	if a.exact != nil {
+		s.Exact = a.exactState()
+	}
 	return s
 }
 
@@ -47,7 +55,9 @@ func (a *Accumulator) State() State {
 // error wrapping ErrInvalidState if s is malformed: no bands, inconsistent
 // lengths, a non-finite value, a negative count, an asymmetric co-moment
 // matrix or one with a negative diagonal, a minimum above a maximum, or an
-// empty state with non-zero statistics.
+// empty state with non-zero statistics, or exact sums that are malformed or
+// do not give its count, mean and co-moment. A state with exact sums gives
+// an exact accumulator.
 func FromState(s State) (*Accumulator, error) {
 	if err := s.check(); err != nil {
 		return nil, fmt.Errorf("%w: %s", ErrInvalidState, err)
@@ -62,6 +72,11 @@ func FromState(s State) (*Accumulator, error) {
 	if s.Count > 0 {
 		copy(a.min, s.Min)
 		copy(a.max, s.Max)
+	}
+	if s.Exact != nil {
+		if err := a.fromExactState(s); err != nil {
+			return nil, fmt.Errorf("%w: %s", ErrInvalidState, err)
+		}
 	}
 	return a, nil
 }

@@ -222,6 +222,14 @@ func FuzzReadPartial(f *testing.F) {
 	}
 	f.Add(data)
 	f.Add([]byte(`{"format":"bandfold-partial","version":1,"state":{}}`))
+	exact := goldenPartial()
+	acc := bands.NewExactAccumulator(2)
+	acc.AddPixels([]float64{1, 2, 3, 5, -4, 4}, nil)
+	exact.State = acc.State()
+	if data, err = exact.Marshal(); err != nil {
+		f.Fatal(err)
+	}
+	f.Add(data)
 	f.Fuzz(func(t *testing.T, data []byte) {
 		pt, err := parsePartial(data)
 		if err != nil {

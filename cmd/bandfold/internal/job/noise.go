@@ -78,12 +78,13 @@ func (w *noiseWorker) Close() error {
 
 // momentsAndNoise accumulates the band co-moments and the shift differences
 // over the scan in one pass, merged in tile order (identical for any number
-// of workers). The scan's stride must be 1: the noise estimate needs
+// of workers) in exact accumulators (identical for any tiling and shard
+// split too when the pixels are integers). The scan's stride must be 1: the noise estimate needs
 // adjacent pixels.
 func (sc *scan) momentsAndNoise(ctx context.Context, env Env, shift bands.Shift) (mom, noise *bands.Accumulator, err error) {
 	p := sc.scenes[0].Len()
-	pool := &sync.Pool{New: func() any { return bands.NewAccumulator(p) }}
-	mom, noise = bands.NewAccumulator(p), bands.NewAccumulator(p)
+	pool := &sync.Pool{New: func() any { return bands.NewExactAccumulator(p) }}
+	mom, noise = bands.NewExactAccumulator(p), bands.NewExactAccumulator(p)
 	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("co-moments and noise", sc.pixels())},
 		func(int) (tiles.Worker[tileStats], error) {
 			return &noiseWorker{sc: sc, shift: shift, readers: make([]*raster.Reader, len(sc.scenes)), pool: pool}, nil

@@ -155,11 +155,13 @@ func (w *momentWorker) Do(_ context.Context, t tiles.Tile) (*bands.Accumulator, 
 
 // moments accumulates band co-moments over the scan, tile by tile in
 // parallel, merged in tile order so the result is the same for any number
-// of workers.
+// of workers. The accumulators are exact (bands.NewExactAccumulator): for
+// integer pixels, as digital numbers are, the result is also the same for
+// any tile size and shard split.
 func (sc *scan) moments(ctx context.Context, env Env) (*bands.Accumulator, error) {
 	p := sc.scenes[0].Len()
-	pool := &sync.Pool{New: func() any { return bands.NewAccumulator(p) }}
-	total := bands.NewAccumulator(p)
+	pool := &sync.Pool{New: func() any { return bands.NewExactAccumulator(p) }}
+	total := bands.NewExactAccumulator(p)
 	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("co-moments", sc.pixels())},
 		func(int) (tiles.Worker[*bands.Accumulator], error) {
 			return &momentWorker{reader: sc.newReader(), pool: pool}, nil
