@@ -30,6 +30,7 @@ type Accumulator struct {
 	d     []float64 // scratch for fold, length p.
 	blk   *block    // scratch for AddPixels, allocated on first use.
 	diffs []float64 // scratch for AddShiftDifferences on the fused path.
+	own   []bool    // scratch for AddWindow: the owned pixels' validity.
 
 	// exact holds the exact integer sums of an exact accumulator, nil
 	// otherwise; wantExact makes Reset restore them. stale means mean and

@@ -99,18 +99,27 @@ func NewExactAccumulator(p int) *Accumulator {
 func (a *Accumulator) Exact() bool { return a.exact != nil }
 
 // addExact adds the product of the k unshifted pixels that raw or putRaw
-// left in a.blk (after product) to a's exact sums.
+// left in a.blk (after product) to a's exact sums, and their extremes.
 func (a *Accumulator) addExact(k int) {
-	b, e, p := a.blk, a.exact, a.p
+	b := a.blk
+	a.addProduct(b.aug, k)
+	for i := range a.p {
+		a.min[i] = min(a.min[i], b.min[i])
+		a.max[i] = max(a.max[i], b.max[i])
+	}
+}
+
+// addProduct adds to a's exact sums the product aug of k rows [x 1]
+// (the upper triangle of (p+1)×(p+1), as product leaves it).
+func (a *Accumulator) addProduct(aug []float64, k int) {
+	e, p := a.exact, a.p
 	q := p + 1
 	for i := range p {
-		row, arow := e.prod[i*p+i:i*p+p], b.aug[i*q+i:i*q+p]
+		row, arow := e.prod[i*p+i:i*p+p], aug[i*q+i:i*q+p]
 		for j, v := range arow {
 			row[j].add(int64(v))
 		}
-		e.sum[i].add(int64(b.aug[i*q+p]))
-		a.min[i] = min(a.min[i], b.min[i])
-		a.max[i] = max(a.max[i], b.max[i])
+		e.sum[i].add(int64(aug[i*q+p]))
 	}
 	e.n += int64(k)
 	a.n = float64(e.n)

@@ -62,11 +62,16 @@ func (s Shift) Halo() (cols, rows int) {
 // validity. The first OwnW columns and OwnH rows are the pixels the window
 // owns; the rest is a halo of at most one column and one row read from the
 // neighbouring tiles (or nothing at the raster's right and bottom edges).
+//
+// Bound, when not zero, is the caller's guarantee that every valid value is
+// an integer of magnitude at most Bound, as for pixels of an integer data
+// type read unscaled; AddWindow then need not check the values.
 type Window struct {
 	X          []float64
 	Valid      []bool
 	P, W, H    int
 	OwnW, OwnH int
+	Bound      float64
 }
 
 func (w Window) check() {

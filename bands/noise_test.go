@@ -252,3 +252,57 @@ func TestExactShiftDifferences(t *testing.T) {
 		t.Errorf("after falling back: Σ_N[2][2] off by %v", d)
 	}
 }
+
+// TestAddWindow: the paired path of AddWindow gives, bit for bit, the
+// states of AddPixels of the owned pixels and AddShiftDifferences (true by
+// construction: the same exact integer sums), for odd and even tile
+// widths, with and without halo and invalid pixels, every set of pairs and
+// both co-moment kernels; and it falls back to those two calls for
+// ordinary accumulators and values beyond MaxExact/2.
+func TestAddWindow(t *testing.T) {
+	for _, c := range []struct {
+		p, w, h int
+		invalid float64
+		scale   float64
+	}{{7, 41, 30, 0.1, 7}, {30, 130, 90, 0, 3}, {30, 37, 23, 0.3, 11}, {224, 21, 9, 0.2, 1}, {3, 40, 20, 0, 1000}} {
+		cb := randomCube(uint64(c.p*c.w+1), c.p, c.w, c.h, c.invalid)
+		for i := range cb.x {
+			cb.x[i] = math.Round(cb.x[i] * c.scale)
+		}
+		for _, s := range []bands.Shift{bands.Horizontal, bands.Vertical, bands.Both} {
+			for _, tile := range []int{c.w, 16, 7} {
+				mom, noise := bands.NewExactAccumulator(c.p), bands.NewExactAccumulator(c.p)
+				wm, wn := bands.NewExactAccumulator(c.p), bands.NewExactAccumulator(c.p)
+				for y := 0; y < c.h; y += tile {
+					for x := 0; x < c.w; x += tile {
+						win := cb.window(x, y, tile, tile, s)
+						bands.AddWindow(mom, noise, win, s)
+						own := cb.window(x, y, tile, tile, 0)
+						wm.AddPixels(own.X, own.Valid)
+						wn.AddShiftDifferences(win, s)
+					}
+				}
+				// 1000·(values up to ~300) is beyond MaxExact; the
+				// differences stay within it.
+				if exact := c.scale < 1000; mom.Exact() != exact || !noise.Exact() {
+					t.Errorf("p=%d %v tile %d: exact %v/%v, want %v/true", c.p, s, tile, mom.Exact(), noise.Exact(), exact)
+				}
+				if !reflect.DeepEqual(mom.State(), wm.State()) || !reflect.DeepEqual(noise.State(), wn.State()) {
+					t.Errorf("p=%d %dx%d %v tile %d: AddWindow differs from AddPixels and AddShiftDifferences", c.p, c.w, c.h, s, tile)
+				}
+			}
+		}
+	}
+	// Ordinary accumulators take the two calls.
+	cb := randomCube(5, 4, 20, 10, 0.1)
+	win := cb.window(0, 0, 20, 10, bands.Both)
+	mom, noise := bands.NewAccumulator(4), bands.NewAccumulator(4)
+	bands.AddWindow(mom, noise, win, bands.Both)
+	wm, wn := bands.NewAccumulator(4), bands.NewAccumulator(4)
+	own := cb.window(0, 0, 20, 10, 0)
+	wm.AddPixels(own.X, own.Valid)
+	wn.AddShiftDifferences(win, bands.Both)
+	if !reflect.DeepEqual(mom.State(), wm.State()) || !reflect.DeepEqual(noise.State(), wn.State()) {
+		t.Error("ordinary accumulators: AddWindow differs from AddPixels and AddShiftDifferences")
+	}
+}

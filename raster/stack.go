@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"slices"
@@ -473,6 +474,21 @@ func Stem(path string) string {
 
 // Len returns the number of selected bands of the stack.
 func (s *Stack) Len() int { return len(s.Bands) }
+
+// IntegerBound returns, when every value a Reader's Read gives is an
+// integer (bands of integer data types, read unscaled), a bound on their
+// magnitude: 2^bits of the widest type. It returns 0 otherwise.
+func (s *Stack) IntegerBound() float64 {
+	bound := 0.0
+	for _, b := range s.Bands {
+		bits := integerBits(b.DataType)
+		if bits == 0 || b.Scale != 1 || b.Offset != 0 {
+			return 0
+		}
+		bound = max(bound, math.Ldexp(1, bits))
+	}
+	return bound
+}
 
 // EPSG returns the WKT of the CRS with the given EPSG code.
 func EPSG(code int) (string, error) {
