@@ -113,7 +113,7 @@ func (a *Accumulator) add(x []float64, valid []bool, fused bool) {
 		}
 		if a.exact != nil {
 			b.inexact = false
-			if k := b.raw(xs, vs); k > 0 {
+			if k := b.raw(xs, vs, false); k > 0 {
 				a.addRaw(k)
 			}
 			continue
@@ -124,11 +124,10 @@ func (a *Accumulator) add(x []float64, valid []bool, fused bool) {
 			}
 			b.comomentFused(xs, vs)
 		} else {
-			k := b.raw(xs, vs)
+			k := b.raw(xs, vs, true)
 			if k == 0 {
 				continue
 			}
-			b.shift(k)
 			b.comomentBLAS(k)
 		}
 		a.fold(b.n, b.mean, b.com, b.min, b.max)
@@ -255,13 +254,14 @@ func (b *block) comomentFused(x []float64, valid []bool) {
 }
 
 // raw copies the valid pixels of x to the start of b.buf, p+1 values a
-// pixel: the pixel and a 1. So x is read from memory once, and its sums come
-// out of the same product as its co-moments (comomentBLAS, after shift). It sets the
-// extremes, returns the number k of pixels copied, and sets b.inexact if
-// any value is not an integer.
-func (b *block) raw(x []float64, valid []bool) int {
+// pixel: the pixel and a 1, so that x is read from memory once and its sums
+// come out of the same product as its co-moments (comomentBLAS). With
+// shifted, each pixel is stored less the first valid one, r, and b.mean is
+// set to r; without, b.inexact is set if any value is not an integer. It
+// sets the extremes and returns the number k of pixels copied.
+func (b *block) raw(x []float64, valid []bool, shifted bool) int {
 	p := len(b.mean)
-	lo, hi := b.min, b.max
+	ref, lo, hi := b.mean, b.min, b.max
 	k := 0
 	for i := range len(x) / p {
 		if valid != nil && !valid[i] {
@@ -269,21 +269,33 @@ func (b *block) raw(x []float64, valid []bool) int {
 		}
 		px := x[i*p : i*p+p]
 		if k == 0 {
+			copy(ref, px)
 			copy(lo, px)
 			copy(hi, px)
 		}
 		c := b.buf[k*(p+1) : k*(p+1)+p+1]
 		c[p] = 1
-		c, lo, hi := c[:len(px)], lo[:len(px)], hi[:len(px)]
-		for j, v := range px {
-			c[j] = v
-			if float64(int64(v)) != v {
-				b.inexact = true
+		c, r, lo, hi := c[:len(px)], ref[:len(px)], lo[:len(px)], hi[:len(px)]
+		if shifted {
+			for j, v := range px {
+				c[j] = v - r[j]
+				if v < lo[j] {
+					lo[j] = v
+				} else if v > hi[j] {
+					hi[j] = v
+				}
 			}
-			if v < lo[j] {
-				lo[j] = v
-			} else if v > hi[j] {
-				hi[j] = v
+		} else {
+			for j, v := range px {
+				c[j] = v
+				if float64(int64(v)) != v {
+					b.inexact = true
+				}
+				if v < lo[j] {
+					lo[j] = v
+				} else if v > hi[j] {
+					hi[j] = v
+				}
 			}
 		}
 		k++

@@ -222,6 +222,7 @@ func pool(accB, accA *bands.Accumulator, norm []change.BandFit) (*bands.Accumula
 // co-moments a_i·a_j·M_ij.
 func normalized(acc *bands.Accumulator, norm []change.BandFit) (*bands.Accumulator, error) {
 	st := acc.State()
+	st.Exact = nil // the transformed statistics are no longer integer sums
 	for i, f := range norm {
 		st.Mean[i] = f.Apply(st.Mean[i])
 		for j := range st.CoMoment[i] {

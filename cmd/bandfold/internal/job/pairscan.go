@@ -85,7 +85,7 @@ func (w *gatherWorker) Do(_ context.Context, t tiles.Tile) (pairStats, error) {
 		return pairStats{}, err
 	}
 	res := pairStats{sample: change.NewSampler(w.size, 2*w.p, 1), valid: int64(count),
-		accB: bands.NewAccumulator(w.p), accA: bands.NewAccumulator(w.p)}
+		accB: bands.NewExactAccumulator(w.p), accA: bands.NewExactAccumulator(w.p)}
 	res.accB.AddPixels(xb, valid)
 	res.accA.AddPixels(xa, valid)
 	w.diff = grow(w.diff, 2*w.p)
@@ -113,7 +113,7 @@ func (w *gatherWorker) Do(_ context.Context, t tiles.Tile) (pairStats, error) {
 // with the smallest hashes of their positions).
 func (ps *pairScan) gather(ctx context.Context, env Env, size int) (pairStats, error) {
 	p := ps.before.scenes[0].Len()
-	total := pairStats{sample: change.NewSampler(size, 2*p, 1), accB: bands.NewAccumulator(p), accA: bands.NewAccumulator(p)}
+	total := pairStats{sample: change.NewSampler(size, 2*p, 1), accB: bands.NewExactAccumulator(p), accA: bands.NewExactAccumulator(p)}
 	var bound atomic.Uint64
 	bound.Store(total.sample.Bound())
 	err := tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("statistics", ps.before.pixels())},

@@ -144,7 +144,7 @@ func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
 			return sampled{}, err
 		}
 		x, valid := w.x[0], w.valid[0]
-		acc := bands.NewAccumulator(p)
+		acc := bands.NewExactAccumulator(p)
 		acc.AddPixels(x, valid)
 		res.acc = append(res.acc, acc)
 		copy(w.dvalid[d], valid)
@@ -175,7 +175,7 @@ func (r *timelineRun) sample(ctx context.Context) error {
 	for {
 		total := seriesStats{sample: newSeriesSample(r.o.Sample, p, len(r.scenes), pairs, hint, int64(g.Width)*int64(g.Height))}
 		for range r.scenes {
-			total.acc = append(total.acc, bands.NewAccumulator(p))
+			total.acc = append(total.acc, bands.NewExactAccumulator(p))
 		}
 		var bound atomic.Uint64
 		bound.Store(total.sample.bound())
