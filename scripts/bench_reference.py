@@ -12,10 +12,14 @@ The baselines, timed whole from outside:
   bench_reference.py numpy-learn FILE
                                  the in-memory approach: the whole cube as
                                  float64, numpy.cov, numpy.linalg.eigh.
-  bench_reference.py gdal-fold FILE K OUT
+  bench_reference.py gdal-fold FILE K OUT [VALUES]
                                  GDAL alone reading FILE tile by tile and
                                  writing K float32 bands with bandfold's
-                                 creation options.
+                                 creation options: stand-in values made
+                                 from FILE's bands, or, with VALUES (a
+                                 K-band file such as fold's own output), the
+                                 values of VALUES, so that the compressor
+                                 gets the same content as bandfold's.
 """
 import sys
 import time
@@ -72,13 +76,15 @@ def numpy_learn(path):
     np.linalg.eigh(np.cov(x))
 
 
-def gdal_fold(path, k, out):
-    # The values written are the input's first k bands times an irrational
+def gdal_fold(path, k, out, values=None):
+    # The stand-in values are the input's first k bands times an irrational
     # factor, so that they are real-valued like component scores: DEFLATE's
     # speed depends on the content, and integral floats compress far faster.
+    # Real scores compress worse still, hence VALUES.
     from osgeo import gdal
     gdal.UseExceptions()
     src = gdal.Open(path)
+    vals = gdal.Open(values) if values else None
     opts = ["TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=DEFLATE", "PREDICTOR=3",
             "ZLEVEL=1", "BIGTIFF=IF_SAFER", "NUM_THREADS=ALL_CPUS"]
     dst = gdal.GetDriverByName("GTiff").Create(out, src.RasterXSize, src.RasterYSize, k, gdal.GDT_Float32, opts)
@@ -86,6 +92,8 @@ def gdal_fold(path, k, out):
     for y in range(0, src.RasterYSize, step):
         h = min(step, src.RasterYSize - y)
         a = src.ReadAsArray(0, y, src.RasterXSize, h).astype("float32") * 0.70710678 + 0.318
+        if vals is not None:
+            a = vals.ReadAsArray(0, y, src.RasterXSize, h).astype("float32").reshape(k, h, src.RasterXSize)
         for b in range(k):
             dst.GetRasterBand(b + 1).WriteArray(a[b], 0, y)
     dst = None
@@ -100,7 +108,7 @@ if __name__ == "__main__":
     elif cmd == "numpy-learn":
         numpy_learn(sys.argv[2])
     elif cmd == "gdal-fold":
-        gdal_fold(sys.argv[2], int(sys.argv[3]), sys.argv[4])
+        gdal_fold(sys.argv[2], int(sys.argv[3]), sys.argv[4], sys.argv[5] if len(sys.argv) > 5 else None)
     elif cmd == "kernel":
         kernel()
     else:
