@@ -146,8 +146,7 @@ func (a *Accumulator) prepare(fused bool, n int) int {
 	b := a.blk
 	chunk, width := fusedChunk, p
 	if !fused {
-		chunk, width = max(blasChunkBytes/(8*(p+1)), 64), p+1
-		chunk = min(chunk, maxExactChunk)
+		chunk, width = blasChunk(p), p+1
 		if b.aug == nil {
 			b.aug = make([]float64, width*width)
 		}
@@ -156,6 +155,13 @@ func (a *Accumulator) prepare(fused bool, n int) int {
 		b.buf = make([]float64, size)
 	}
 	return chunk
+}
+
+// blasChunk is the number of pixels of a chunk on the BLAS path: its copy
+// (p+1 values a pixel) within blasChunkBytes, and few enough pixels for an
+// exact accumulator's product to be exact (maxExactChunk).
+func blasChunk(p int) int {
+	return min(max(blasChunkBytes/(8*(p+1)), 64), maxExactChunk)
 }
 
 // stats sets the count, mean, minimum and maximum of the valid pixels in x
@@ -305,11 +311,12 @@ func (b *block) raw(x []float64, valid []bool, shifted bool) int {
 }
 
 // putRaw stores the difference d = x − y as pixel k of the chunk in b.buf,
-// as raw does for a pixel (the first one, k = 0, sets the extremes), and
-// returns k + 1.
-func (b *block) putRaw(k int, x, y []float64) int {
+// as raw does for a pixel: with shifted, less the chunk's first difference
+// (which k = 0 sets in b.mean); without, setting b.inexact if d is not an
+// integer. The first one, k = 0, also sets the extremes. It returns k + 1.
+func (b *block) putRaw(k int, x, y []float64, shifted bool) int {
 	p := len(b.mean)
-	lo, hi := b.min[:len(x)], b.max[:len(x)]
+	ref, lo, hi := b.mean[:len(x)], b.min[:len(x)], b.max[:len(x)]
 	y = y[:len(x)]
 	c := b.buf[k*(p+1) : k*(p+1)+p+1]
 	c[p] = 1
@@ -317,8 +324,20 @@ func (b *block) putRaw(k int, x, y []float64) int {
 	if k == 0 {
 		for j, v := range x {
 			d := v - y[j]
-			lo[j], hi[j] = d, d
+			ref[j], lo[j], hi[j] = d, d, d
 		}
+	}
+	if shifted {
+		for j, v := range x {
+			d := v - y[j]
+			c[j] = d - ref[j]
+			if d < lo[j] {
+				lo[j] = d
+			} else if d > hi[j] {
+				hi[j] = d
+			}
+		}
+		return k + 1
 	}
 	for j, v := range x {
 		d := v - y[j]
@@ -373,7 +392,7 @@ func (b *block) shift(k int) {
 }
 
 // comomentBLAS sets b.mean and the upper triangle of b.com to the mean and
-// co-moment of the k pixels that raw (or putRaw) and shift left in b.buf,
+// co-moment of the k pixels that raw or putRaw (shifted) or shift left in b.buf,
 // less r = b.mean. One blas64.Syrk of the k×(p+1) matrix [C 1], C the shifted pixels,
 // gives CᵀC, the sums s = Cᵀ1 and k, and
 //

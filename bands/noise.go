@@ -155,14 +155,13 @@ func (a *Accumulator) AddShiftDifferences(win Window, s Shift) {
 			a.addRaw(k)
 		default:
 			b.n = float64(k)
-			b.shift(k)
 			b.comomentBLAS(k)
 			a.fold(b.n, b.mean, b.com, b.min, b.max)
 		}
 		k, b.inexact = 0, false
 	}
 	for y, x := range win.pairs(s) {
-		if k = b.putRaw(k, y, x); k == chunk {
+		if k = b.putRaw(k, y, x, a.exact == nil); k == chunk {
 			flush()
 		}
 	}

@@ -121,7 +121,7 @@ type pairScratch struct {
 }
 
 func newPairScratch(p int) *pairScratch {
-	chunk := min(max(blasChunkBytes/(8*(p+1)), 64), maxExactChunk)
+	chunk := blasChunk(p)
 	nb := func() *block {
 		b := newBlock(p)
 		b.buf, b.aug = make([]float64, chunk*(p+1)), make([]float64, (p+1)*(p+1))
