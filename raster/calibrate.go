@@ -18,23 +18,12 @@ import (
 // (USGS "Landsat 8 (L8) Data Users Handbook", "Conversion to TOA
 // Reflectance"). The two forms differ by rounding only, a few units in the
 // last place of the terms.
-func (s *Stack) calibrate(mode string) error {
+func (s *Stack) calibrate(mode string, read func(string) (*MTL, error)) error {
 	for i := range s.Bands {
 		s.Bands[i].Calibration = mode
 	}
 	if mode != CalibrateTOA {
 		return nil
-	}
-	cache := map[string]*MTL{}
-	read := func(p string) (*MTL, error) {
-		if m, ok := cache[p]; ok {
-			return m, nil
-		}
-		m, err := ReadMTL(p)
-		if err == nil {
-			cache[p] = m
-		}
-		return m, err
 	}
 	for i := range s.Bands {
 		b := &s.Bands[i]

@@ -26,6 +26,9 @@ type MTL struct {
 	// DATE_ACQUIRED ("2013-07-07") and SunElevation SUN_ELEVATION, the
 	// sun's elevation at the scene centre in degrees.
 	SpacecraftID string
+	// SensorID is SENSOR_ID ("OLI_TIRS", "ETM", "TM"); empty in files
+	// that lack it.
+	SensorID     string
 	DateAcquired string
 	SunElevation float64
 	// ProcessingLevel is PROCESSING_LEVEL (Collection 2) or DATA_TYPE
@@ -123,6 +126,7 @@ func parseMTL(path string, data []byte) (*MTL, error) {
 	if m.SunElevation, err = mtlNumber(path, "SUN_ELEVATION", se); err != nil {
 		return nil, err
 	}
+	m.SensorID = entries["SENSOR_ID"]
 	m.ProcessingLevel = cmp.Or(entries["PROCESSING_LEVEL"], entries["DATA_TYPE"])
 	for _, key := range slices.Sorted(maps.Keys(entries)) {
 		if band, ok := strings.CutPrefix(key, "FILE_NAME_BAND_"); ok && band != "" {

@@ -65,6 +65,13 @@ type Band struct {
 	// width at half maximum in nanometres from its metadata, 0 when unknown
 	// (see bandWavelength).
 	WavelengthNM, FWHMNM float64
+	// Range is the band's spectral range: centre ± FWHM/2 from its
+	// metadata, or the nominal band edges of its sensor for a Landsat band
+	// file beside its *_MTL.txt; zero when unknown.
+	Range SpectralRange
+	// Product names the band as its product does ("LANDSAT_8 OLI_TIRS band
+	// 4") when its MTL told its sensor; empty otherwise.
+	Product string
 }
 
 // Stack is one logical p-band image made of one multiband file or several
@@ -312,9 +319,11 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 			}
 		}
 	}
-	if err := s.calibrate(o.calibrate); err != nil {
+	read := mtlCache()
+	if err := s.calibrate(o.calibrate, read); err != nil {
 		return nil, err
 	}
+	s.spectral(read)
 	if err := s.openMasks(o.masks, o.maskAlign); err != nil {
 		return nil, err
 	}
