@@ -14,6 +14,16 @@
 set -euo pipefail
 dest=testdata/external
 mkdir -p "$dest"
+# unpack: downloads a Debian package (no install) and unpacks it into DIR/x.
+unpack() { # package, dir
+	local pkg=$1 tmp=$2
+	chmod 755 "$tmp"
+	if ! (cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1); then
+		if [ "$(id -u)" -eq 0 ]; then apt-get update -qq; else sudo -n apt-get update -qq || true; fi
+		(cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1) || { echo "testdata: cannot download Debian package $pkg" >&2; return 1; }
+	fi
+	dpkg -x "$tmp"/*.deb "$tmp/x"
+}
 fetch() { # package, path inside the package, file name, sha256
 	local pkg=$1 inner=$2 name=$3 sum=$4
 	if [ -f "$dest/$name" ] && echo "$sum  $dest/$name" | sha256sum -c --quiet - 2>/dev/null; then
@@ -22,12 +32,7 @@ fetch() { # package, path inside the package, file name, sha256
 	local tmp
 	tmp=$(mktemp -d)
 	trap 'rm -rf "$tmp"' RETURN
-	chmod 755 "$tmp"
-	if ! (cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1); then
-		if [ "$(id -u)" -eq 0 ]; then apt-get update -qq; else sudo -n apt-get update -qq || true; fi
-		(cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1) || { echo "testdata: cannot download Debian package $pkg" >&2; return 1; }
-	fi
-	dpkg -x "$tmp"/*.deb "$tmp/x"
+	unpack "$pkg" "$tmp" || return 1
 	local file
 	file=$(find "$tmp/x" -path "*$inner" | head -n 1)
 	[ -n "$file" ] || { echo "testdata: $inner not found in $pkg" >&2; return 1; }
@@ -45,12 +50,7 @@ fetch_dir() { # package, folder inside the package, destination, checksum file
 	local tmp
 	tmp=$(mktemp -d)
 	trap 'rm -rf "$tmp"' RETURN
-	chmod 755 "$tmp"
-	if ! (cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1); then
-		if [ "$(id -u)" -eq 0 ]; then apt-get update -qq; else sudo -n apt-get update -qq || true; fi
-		(cd "$tmp" && apt-get download "$pkg" >/dev/null 2>&1) || { echo "testdata: cannot download Debian package $pkg" >&2; return 1; }
-	fi
-	dpkg -x "$tmp"/*.deb "$tmp/x"
+	unpack "$pkg" "$tmp" || return 1
 	local dir
 	dir=$(find "$tmp/x" -type d -path "*$inner" | head -n 1)
 	[ -n "$dir" ] || { echo "testdata: $inner not found in $pkg" >&2; return 1; }
