@@ -79,9 +79,10 @@
 // the ordinary compiler flags and runs on any x86-64 CPU; the path is
 // chosen at run time from the CPU's features (cpuid, through
 // golang.org/x/sys/cpu, which also checks that the operating system saves
-// the vector registers). The scalar path, in Go, serves CPUs without AVX2,
-// builds without cgo and other architectures, and is the reference the
-// SIMD paths are tested against. C rather than Go assembly: the compiler
+// the vector registers). The scalar path, in Go, is the reference the
+// SIMD paths are tested against; CPUs without AVX2, builds without cgo and
+// other architectures send integer tiles to AddPixels instead, which with
+// a BLAS is several times faster than scalar integer products. C rather than Go assembly: the compiler
 // allocates the 24 vector registers of a 4×4 block and vectorises the
 // packing loops, and intrinsics keep the kernel readable.
 //

@@ -39,6 +39,13 @@ func KernelISAs() []ISA { return append([]ISA{Scalar}, simdISAs()...) }
 // CPU has. Tests set it to try each.
 var kernelISA = bestISA()
 
+// scalarKernel makes the Scalar path form the products in Go. Otherwise a
+// CPU without AVX2 sends integer tiles to AddPixels, which with any BLAS
+// is faster than scalar integer arithmetic (BenchmarkKernel, p = 64: 132
+// ms a tile against 27 ms with OpenBLAS, 4.5 with AVX-512 VNNI). Tests set
+// it: the Go products are the reference of the SIMD ones.
+var scalarKernel = false
+
 func bestISA() ISA {
 	isas := KernelISAs()
 	return isas[len(isas)-1]
@@ -58,7 +65,9 @@ const (
 	// kernelChunkBytes bounds the chunk of centred int16 rows (one a band
 	// and one of validity flags) that the SIMD paths form their products
 	// from, so that it stays in a core's L2 cache while every block of
-	// band pairs reads it.
+	// band pairs reads it; but a chunk has at least 1024 pixels, since each
+	// block adds its 16 lanes into int64 once a chunk (BenchmarkKernel,
+	// p = 425: 1024 pixels, 0.9 MiB, about 20% faster than 608).
 	kernelChunkBytes = 512 << 10
 )
 
@@ -172,7 +181,7 @@ type intScratch struct {
 
 func newIntScratch(p int) *intScratch {
 	qb := (p + 4) &^ 3
-	cw := min(max(kernelChunkBytes/(2*qb)&^31, 256), 8192)
+	cw := min(max(kernelChunkBytes/(2*qb)&^31, 1024), 8192)
 	nb := qb / 4
 	return &intScratch{p: p, qb: qb, cw: cw,
 		chunk: make([]int16, qb*cw), acc: make([]int64, qb*qb),
@@ -227,7 +236,7 @@ func (a *Accumulator) addInt(ks *intScratch, t intTile, shift []int32) {
 	if k == 0 {
 		return
 	}
-	if a.exact == nil || !ks.plan(shift) {
+	if a.exact == nil || (kernelISA == Scalar && !scalarKernel) || !ks.plan(shift) {
 		a.addWide(ks, t, shift)
 		return
 	}

@@ -200,8 +200,9 @@ func TestAddInt16Tile(t *testing.T) {
 // eachISA calls f once for each path of the integer kernel this CPU has,
 // with kernelISA set to it.
 func eachISA(f func(isa ISA)) {
-	old := kernelISA
-	defer func() { kernelISA = old }()
+	old, oldScalar := kernelISA, scalarKernel
+	defer func() { kernelISA, scalarKernel = old, oldScalar }()
+	scalarKernel = true
 	for _, isa := range KernelISAs() {
 		kernelISA = isa
 		f(isa)
