@@ -55,6 +55,37 @@
 // first chunk with another value the accumulator switches, for good, to the
 // method above.
 //
+// # Integer kernel
+//
+// AddInt16Tile and AddInt16Window take integer pixels band-sequentially
+// (each band's values of a tile consecutive, as int16 plus a per-band
+// shift: 8-bit data as they are, unsigned 16-bit data less 32768) and form
+// the same exact sums in integer arithmetic. Each band of the tile is
+// centred on the middle of its range, c = ⌊(min+max)/2⌋, which brings it
+// within ±32767 when its values span at most 65534; chunks of about 512
+// KiB of the centred rows, with a row of validity flags (0 or 1, giving the
+// count and the sums as the 1s of [X 1] do above), are multiplied in 4×4
+// blocks of band pairs: AVX-512 VNNI's vpdpwssd or AVX2's vpmaddwd add two
+// int16 products into each int32 lane a step. A lane takes at most s steps
+// before it is added into int64, s the largest with 2·s·mᵢ·mⱼ ≤ 2³¹ − 1 for
+// the block's largest centred magnitudes mᵢ, mⱼ, so it cannot overflow
+// (s = 1 at ±32767). The centring is undone exactly in integers and the
+// sums added to the 128-bit ones. A tile whose values do not fit (a band
+// spanning more than 65534, or beyond ±MaxExact), and any tile added to an
+// ordinary accumulator, goes through AddPixels instead.
+//
+// The kernel is C, through cgo: AVX2 and AVX-512 VNNI paths each compiled
+// with a function-level target attribute, so that the package builds with
+// the ordinary compiler flags and runs on any x86-64 CPU; the path is
+// chosen at run time from the CPU's features (cpuid, through
+// golang.org/x/sys/cpu, which also checks that the operating system saves
+// the vector registers). The scalar path, in Go, is the reference the
+// SIMD paths are tested against; CPUs without AVX2, builds without cgo and
+// other architectures send integer tiles to AddPixels instead, which with
+// a BLAS is several times faster than scalar integer products. C rather than Go assembly: the compiler
+// allocates the 24 vector registers of a 4×4 block and vectorises the
+// packing loops, and intrinsics keep the kernel readable.
+//
 // Reference: T. F. Chan, G. H. Golub and R. J. LeVeque, "Updating formulae and
 // a pairwise algorithm for computing sample variances", Technical Report
 // STAN-CS-79-773, Stanford University, 1979.

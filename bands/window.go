@@ -49,26 +49,29 @@ func AddWindow(mom, noise *Accumulator, win Window, s Shift) {
 // accumulators waiting to be merged in order), and, unlike a sync.Pool,
 // not dropped at each garbage collection, which made every few calls
 // allocate (and fault in) 8 MiB afresh.
-var spare scratchList
+var spare = scratchList[*pairScratch]{make: newPairScratch}
 
-type scratchList struct {
+// scratchList keeps scratch memory for a band count between calls (see
+// spare).
+type scratchList[T interface{ bands() int }] struct {
 	sync.Mutex
-	free []*pairScratch
+	free []T
+	make func(p int) T
 }
 
-func (l *scratchList) get(p int) *pairScratch {
+func (l *scratchList[T]) get(p int) T {
 	l.Lock()
 	defer l.Unlock()
 	for i, ps := range l.free {
-		if ps.p == p {
+		if ps.bands() == p {
 			l.free = slices.Delete(l.free, i, i+1)
 			return ps
 		}
 	}
-	return newPairScratch(p)
+	return l.make(p)
 }
 
-func (l *scratchList) put(ps *pairScratch) {
+func (l *scratchList[T]) put(ps T) {
 	l.Lock()
 	defer l.Unlock()
 	if len(l.free) >= maxSpare {
@@ -129,6 +132,8 @@ func newPairScratch(p int) *pairScratch {
 	}
 	return &pairScratch{sum: nb(), diff: nb(), other: nb(), lone: nb(), chunk: chunk, p: p}
 }
+
+func (ps *pairScratch) bands() int { return ps.p }
 
 // put stores v as row k of b's chunk, [v 1], and returns k + 1.
 func (b *block) put(k int, v []float64) int {
