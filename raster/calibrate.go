@@ -31,6 +31,7 @@ func (s *Stack) calibrate(mode string, read func(string) (*MTL, error)) error {
 		if err != nil {
 			return fmt.Errorf("calibrate band %s to TOA reflectance: %w", b.Name, err)
 		}
+		s.addSideFile(m.Path)
 		if strings.HasPrefix(strings.ToUpper(m.ProcessingLevel), "L2") {
 			return fmt.Errorf("calibrate band %s to TOA reflectance: %s describes a Level-2 product (%s); TOA reflectance is computed from Level-1 digital numbers",
 				b.Name, m.Path, m.ProcessingLevel)

@@ -2,6 +2,9 @@ package raster
 
 import (
 	"fmt"
+	"path/filepath"
+	"regexp"
+	"slices"
 	"strings"
 )
 
@@ -96,8 +99,8 @@ func (s *Stack) spectral(read func(string) (*MTL, error)) {
 			b.Range = SpectralRange{LoNM: b.WavelengthNM - b.FWHMNM/2, HiNM: b.WavelengthNM + b.FWHMNM/2}
 			continue
 		}
-		if b.Index != 1 {
-			continue // a Landsat band file holds one band
+		if b.Index != 1 || !landsatBandName.MatchString(filepath.Base(b.Path)) {
+			continue // a Landsat band file holds one band, and is named so
 		}
 		m, err := findMTL(b.Path, read)
 		if err != nil {
@@ -105,12 +108,19 @@ func (s *Stack) spectral(read func(string) (*MTL, error)) {
 		}
 		_, base := splitPath(b.Path)
 		id, _ := m.BandOf(base)
+		s.addSideFile(m.Path)
 		if r, ok := m.LandsatBand(id); ok {
 			b.Range, b.Product = r, fmt.Sprintf("%s band %s", m.Sensor(), id)
 			b.WavelengthNM, b.FWHMNM = r.CentreNM(), r.HiNM-r.LoNM
 		}
 	}
 }
+
+// landsatBandName matches the names of Landsat band files ("..._B4.TIF",
+// "..._SR_B4.TIF", "..._B6_VCID_1.TIF"): only beside those is an MTL looked
+// for, so that other rasters (remote ones above all) never cost a folder
+// listing.
+var landsatBandName = regexp.MustCompile(`(?i)_B[0-9]+(_VCID_[12])?\.TIF+$`)
 
 // mtlCache reads each MTL file once.
 func mtlCache() func(string) (*MTL, error) {
@@ -126,3 +136,14 @@ func mtlCache() func(string) (*MTL, error) {
 		return m, err
 	}
 }
+
+// addSideFile records a file the stack reads besides its bands.
+func (s *Stack) addSideFile(p string) {
+	if !slices.Contains(s.sideFiles, p) {
+		s.sideFiles = append(s.sideFiles, p)
+	}
+}
+
+// SideFiles are the files the stack read besides its bands and masks: the
+// products' metadata (*_MTL.txt). A run must not write over them.
+func (s *Stack) SideFiles() []string { return slices.Clone(s.sideFiles) }

@@ -105,7 +105,9 @@ type Stack struct {
 	// sources are what readers open for Paths and masks: the file itself
 	// or its warped VRT.
 	sources, maskSources []string
-	maskTests            []maskTest
+	// sideFiles are the metadata files read beside the bands (SideFiles).
+	sideFiles []string
+	maskTests []maskTest
 	// parts are the names telling single-band files apart (by path), for
 	// the label; nil when the files are not such a stack.
 	parts       map[string]string
@@ -528,7 +530,7 @@ func (s *Stack) addBand(b Band, f int) {
 func (s *Stack) Subset(positions []int) (*Stack, error) {
 	sub := &Stack{Grid: s.Grid, Paths: s.Paths, BlockW: s.BlockW, BlockH: s.BlockH,
 		MaskRules: s.MaskRules, Masks: s.Masks, Aligned: s.Aligned, Metadata: s.Metadata,
-		sources: s.sources, maskSources: s.maskSources, maskTests: s.maskTests,
+		sources: s.sources, maskSources: s.maskSources, maskTests: s.maskTests, sideFiles: s.sideFiles,
 		parts: s.parts, labelCommon: s.labelCommon}
 	fileOf := map[string]int{}
 	for i, p := range s.Paths {

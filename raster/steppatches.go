@@ -1,6 +1,7 @@
 package raster
 
 import (
+	"context"
 	"errors"
 	"fmt"
 	"io/fs"
@@ -74,4 +75,21 @@ func removeScratch(path string) error {
 		return err
 	}
 	return nil
+}
+
+// SieveAgain applies the minimum mapping unit to the map as it now reads
+// (after SetMapped kept only some of its flags): that map becomes the raw
+// flags and is sieved again, so that no patch left smaller than minPixels
+// survives a later selection of flags.
+func (m *ChangeMask) SieveAgain(ctx context.Context, minPixels int) error {
+	if m.final {
+		return fmt.Errorf("sieve: %w", errFinal)
+	}
+	bands := m.ds.Bands()
+	if m.sieved {
+		if err := m.mapBand(bands[maskSieved], bands[maskRaw], nil); err != nil {
+			return fmt.Errorf("sieve: %w", err)
+		}
+	}
+	return m.SieveContext(ctx, minPixels)
 }

@@ -58,6 +58,7 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.StringArrayVar(&fl.maskAfter, "mask-after", nil, "quality mask of the AFTER date only, on BEFORE's grid, as --mask (repeatable)")
 	f.StringVar(&fl.bandsBefore, "bands-before", "", "bands of BEFORE only, as --bands (for a change of sensor)")
 	f.StringVar(&fl.bandsAfter, "bands-after", "", "bands of AFTER only, as --bands; the same number as BEFORE's")
+	f.BoolVar(&fl.o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
 	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
 	f.BoolVar(&o.Align, "align", false, "warp AFTER onto BEFORE's grid with GDAL when the grids differ")
 	f.StringVar(&o.Resampling, "resampling", "bilinear", "resampling for --align: bilinear, nearest (categorical data), cubic, cubicspline, lanczos, average, mode")

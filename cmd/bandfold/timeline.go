@@ -8,15 +8,17 @@ import (
 
 	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/raster"
 	"bandfold/transform/change"
 )
 
 type timelineFlags struct {
-	input     inputFlags
-	threshold string
-	minArea   string
-	dates     []string
-	o         job.TimelineOptions
+	input      inputFlags
+	threshold  string
+	minArea    string
+	dates      []string
+	sceneBands []string
+	o          job.TimelineOptions
 }
 
 func newTimelineCommand(g *globals) *cobra.Command { return timelineCommand(g, &timelineFlags{}) }
@@ -56,10 +58,13 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
 	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
 	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
-	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of every date onto the first: stable or none")
+	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of every date onto the reference date: stable or none")
 	f.StringVar(&o.Confirm, "confirm", job.ConfirmLasting, "lasting (a flag must last and not be a return) or none (keep every flag)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled per pair to estimate its no-change distribution")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous timeline output folder")
+	f.StringArrayVar(&fl.sceneBands, "scene-bands", nil, "bands of one scene, as --bands; give it once per scene, in the order of the scenes (for a change of sensor)")
+	f.StringVar(&o.ReferenceDate, "reference-date", "", "the date every date is normalised onto (default: the first)")
+	f.BoolVar(&o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
 	cmd.MarkFlagRequired("out")
 	return cmd
 }
@@ -80,6 +85,13 @@ func (fl *timelineFlags) options(scenes []string) (job.TimelineOptions, error) {
 	}
 	if o.Input, err = fl.input.input(); err != nil {
 		return o, err
+	}
+	for i, spec := range fl.sceneBands {
+		sel, err := raster.ParseBands(spec)
+		if err != nil || len(sel) == 0 {
+			return o, usagef("--scene-bands %q (scene %d): want bands such as \"1-5,7\"", spec, i+1)
+		}
+		o.SceneBands = append(o.SceneBands, sel)
 	}
 	return o, nil
 }

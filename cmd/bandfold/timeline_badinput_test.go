@@ -58,8 +58,8 @@ func TestTimelineBadInputs(t *testing.T) {
 	tl := func(extra ...string) []string { return append([]string{"timeline", "--out", out}, extra...) }
 
 	tests := []badCase{
-		{"timeline two scenes", tl(a, b), 2, []string{"at least 3 scenes, got 2"}},
-		{"timeline one scene", tl(a), 2, []string{"at least 3 scenes, got 1"}},
+
+		{"timeline one scene", tl(a), 2, []string{"at least 2 scenes, got 1"}},
 		{"timeline without out", []string{"timeline", a, b, c}, 2, []string{"out", "not set"}},
 		{"timeline dates too few", tl(a, b, c, "--dates", "2019,2020"), 2, []string{"--dates lists 2 dates for 3 scenes"}},
 		{"timeline dates too many", tl(a, b, c, "--dates", "2019,2020,2021,2022"), 2, []string{"--dates lists 4 dates for 3 scenes"}},

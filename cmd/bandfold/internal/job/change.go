@@ -3,16 +3,12 @@ package job
 import (
 	"context"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"path/filepath"
-	"runtime/debug"
 	"strings"
 
-	"bandfold/bands"
 	"bandfold/raster"
 	"bandfold/raster/output"
-	"bandfold/transform"
 	"bandfold/transform/change"
 )
 
@@ -53,6 +49,9 @@ type ChangeOptions struct {
 	Overwrite    bool
 	// Normalize is NormalizeStable (the default) or NormalizeNone.
 	Normalize string
+	// IgnoreBandNames compares the dates band for band even where their
+	// wavelengths differ.
+	IgnoreBandNames bool
 }
 
 // ChangeResult is summary.json.
@@ -79,12 +78,19 @@ type ChangeResult struct {
 	Converged   bool             `json:"converged"`
 	// Identical is set when the dates do not differ at all over the valid
 	// pixels: no change is mapped and no model is fitted.
-	Identical     bool                 `json:"identical"`
-	SamplePixels  int                  `json:"sample_pixels"`
-	MinAreaPixels int                  `json:"min_area_pixels"`
-	Patches       int                  `json:"patches"`
-	Basis         string               `json:"basis"`
-	Aligned       bool                 `json:"aligned"`
+	Identical     bool   `json:"identical"`
+	SamplePixels  int    `json:"sample_pixels"`
+	MinAreaPixels int    `json:"min_area_pixels"`
+	Patches       int    `json:"patches"`
+	Basis         string `json:"basis"`
+	Aligned       bool   `json:"aligned"`
+	// BeforeDate and AfterDate are the dates' dates and where each came
+	// from; BandMatch says how the bands were matched when the dates'
+	// bands differed ("" when compared as given).
+	BeforeDate    string               `json:"before_date"`
+	AfterDate     string               `json:"after_date"`
+	DateSource    []string             `json:"date_sources"`
+	BandMatch     string               `json:"band_match,omitempty"`
 	Reference     *ChangeAccuracy      `json:"reference,omitempty"`
 	Normalization NormalizationSummary `json:"normalization"`
 	// Scenario is the SCENARIO tag of invented input data.
@@ -124,10 +130,10 @@ var resamplings = []string{"nearest", "bilinear", "cubic", "cubicspline", "lancz
 // the patches and writes everything into the output folder at once.
 func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err error) {
 	defer func() { err = classify(err) }()
-	r := &changeRun{env: env, o: &o}
+	r := &changeRun{seriesRun: &seriesRun{env: env}, o: &o}
 	defer r.close()
 	steps := []jobStep{
-		{"open", r.open}, {"scan", r.scanPair}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"model", r.fitModel},
+		{"open", r.open}, {"scan", r.sample}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"model", r.fitModel},
 		{"map", r.mapPixels}, {"sieve", r.sieve}, {"change map", r.changeMap}, {"patches", r.patches},
 		{"preview", r.preview}, {"diagnostics", r.diagnostics}, {"report", r.report}, {"summary", r.summary},
 	}
@@ -191,36 +197,21 @@ func (o *ChangeOptions) dateInput(bands []int) Input {
 	return in
 }
 
-// changeRun is one run of Change, a step per method.
+// changeRun is one run of Change: the series engine on two dates (BEFORE
+// the reference), and the change folder's own outputs.
 type changeRun struct {
-	env Env
-	o   *ChangeOptions
+	*seriesRun
+	o *ChangeOptions
 
 	before, after *raster.Stack
-	aligned       bool
-	cleanups      []func()
-	areas         *raster.CellAreas
-	minPixels     int
 	ref           *raster.Reference
 	rgb           [3]int
 	rgbNote       bool // the preview bands are the first three, not known colours
-	dir           *output.Folder
 
-	pair      *pairScan
-	given     *transform.Basis
-	stats     pairStats
-	norm      []change.BandFit     // AFTER onto BEFORE's scale; nil for none
-	sum0      NormalizationSummary // the normalisation, for the summary
-	dx        []float64            // the sample's band differences, normalised
-	pooled    *bands.Accumulator   // BEFORE and the normalised AFTER
-	zs        []float64            // the sample's Z values
-	eta       *float64             // Otsu separability, for otsu
-	warnings  []string
-	basis     *transform.Basis
-	basisName string
-	proj      *transform.Projector
 	fit       *pairFit
 	model     *change.Model
+	zs        []float64 // the sample's Z values
+	eta       *float64  // Otsu separability, for otsu
 	identical bool
 	zcut      float64
 	mask      *raster.ChangeMask
@@ -230,137 +221,52 @@ type changeRun struct {
 }
 
 func (r *changeRun) close() {
-	if r.dir != nil {
-		r.dir.Abort()
-	}
 	if r.mask != nil {
 		r.mask.Close()
-	}
-	for _, s := range []*raster.Stack{r.before, r.after} {
-		if s != nil {
-			s.Close()
-		}
 	}
 	if r.ref != nil {
 		r.ref.Close()
 	}
-	for _, c := range r.cleanups {
-		c()
-	}
+	r.seriesRun.close()
 }
 
-// open checks the options, opens both dates (warping AFTER with Align),
-// the reference and the output folder.
-func (r *changeRun) open(context.Context) error {
+// open checks the options and hands BEFORE and AFTER to the engine (which
+// opens them, warping AFTER with Align, and matches their bands), then
+// opens the reference.
+func (r *changeRun) open(ctx context.Context) error {
 	o := r.o
 	if err := o.check(); err != nil {
 		return err
 	}
-	ins := append(argPaths("BEFORE", []string{o.Before}, append(o.Input.Masks, o.MaskBefore...)), argPaths("AFTER", []string{o.After}, o.MaskAfter)...)
+	c := &seriesConfig{Args: []string{o.Before, o.After}, Roles: []string{"BEFORE", "AFTER"},
+		Inputs:          []Input{o.dateInput(o.BandsBefore).withMasks(o.MaskBefore), o.dateInput(o.BandsAfter).withMasks(o.MaskAfter)},
+		BandsChosen:     o.Input.Bands != nil || o.BandsBefore != nil || o.BandsAfter != nil,
+		IgnoreBandNames: o.IgnoreBandNames, Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components,
+		Threshold: o.Threshold, MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile,
+		Pairs: func(int) [][2]int { return [][2]int{{0, 1}} }, Out: o.Out, Overwrite: o.Overwrite}
 	for _, extra := range []output.Path{{Role: "basis", Path: o.Basis}, {Role: "reference", Path: o.Reference}} {
 		if extra.Path != "" {
-			ins = append(ins, extra)
+			c.Extra = append(c.Extra, extra)
 		}
 	}
-	if err := output.Distinct(ins, []output.Path{{Role: "output folder", Path: o.Out, Folder: true}}); err != nil {
+	r.c = c
+	if err := r.seriesRun.open(ctx); err != nil {
 		return err
 	}
-	if err := output.CheckFolder(o.Out, o.Overwrite); err != nil {
-		return err
-	}
+	r.before, r.after = r.scenes[0], r.scenes[1]
 	var err error
-	if o.Basis != "" {
-		if r.given, err = transform.ReadBasis(o.Basis); err != nil {
-			return err
-		}
-		if o.Input, err = o.Input.withBasis(r.given, o.Basis); err != nil {
-			return err
-		}
-	}
-	if r.before, err = openImage(o.Before, o.dateInput(o.BandsBefore).options(o.MaskBefore...)); err != nil {
-		return err
-	}
-	if err := r.openAfter(); err != nil {
-		return err
-	}
-	if err := r.distinct(); err != nil {
-		return err
-	}
-	if r.before.Len() != r.after.Len() {
-		if o.BandsBefore != nil || o.BandsAfter != nil {
-			return Usagef("--bands-before selects %d bands of %s but --bands-after %d of %s: both dates need the same number", r.before.Len(), describe(r.before), r.after.Len(), describe(r.after))
-		}
-		return fmt.Errorf("%s has %d bands but %s has %d: both dates need the same bands (select them per date with --bands-before and --bands-after)", describe(r.before), r.before.Len(), describe(r.after), r.after.Len())
-	}
-	if err := needTwoBands(r.before, o.Input.Bands); err != nil {
-		return err
-	}
 	if r.rgb, err = previewBands(o.PreviewBands, r.after.Len()); err != nil {
 		return err
 	}
 	if len(o.PreviewBands) == 0 {
 		r.naturalColour()
 	}
-	r.areas, err = raster.NewCellAreas(r.before.Grid)
-	if errors.Is(err, raster.ErrNoCRS) {
-		if o.MinArea.M2 > 0 {
-			return Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", describe(r.before))
-		}
-		r.env.warn("%s has no CRS: areas are given in pixels only", o.Before)
-		r.areas = nil
-	} else if err != nil {
-		return fmt.Errorf("%s: %w", o.Before, err)
-	}
-	if r.minPixels, err = o.MinArea.pixels(r.areas); err != nil {
-		return err
-	}
 	if o.Reference != "" {
 		if r.ref, err = raster.OpenReference(o.Reference, r.before.Grid); err != nil {
 			return err
 		}
 	}
-	if r.given != nil {
-		if err := checkBands(r.given, o.Basis, r.before, bandCheck{selected: o.Input.Bands != nil || o.BandsBefore != nil}); err != nil {
-			return err
-		}
-	}
-	r.dir, err = output.CreateFolder(o.Out, o.Overwrite)
-	return err
-}
-
-// distinct refuses an output folder that holds or is any input.
-func (r *changeRun) distinct() error {
-	ins := []output.Path{}
-	for _, s := range []*raster.Stack{r.before} {
-		for _, p := range s.Paths {
-			ins = append(ins, output.Path{Role: "BEFORE", Path: p})
-		}
-		for _, m := range s.Masks {
-			ins = append(ins, output.Path{Role: "mask", Path: m})
-		}
-	}
-	for _, p := range SplitStack(r.o.After) {
-		ins = append(ins, output.Path{Role: "AFTER", Path: p})
-	}
-	for _, m := range maskPaths(r.o.MaskAfter) {
-		ins = append(ins, output.Path{Role: "mask", Path: m})
-	}
-	for _, extra := range []struct{ role, path string }{{"basis", r.o.Basis}, {"reference", r.o.Reference}} {
-		if extra.path != "" {
-			ins = append(ins, output.Path{Role: extra.role, Path: extra.path})
-		}
-	}
-	return output.Distinct(ins, []output.Path{{Role: "output folder", Path: r.o.Out, Folder: true}})
-}
-
-// openAfter opens the AFTER stack, warped onto BEFORE's grid with Align when
-// the grids differ.
-func (r *changeRun) openAfter() error {
-	o := r.o
-	g := onGrid{ref: r.before, align: o.Align, resampling: o.Resampling}
-	var err error
-	r.after, r.aligned, err = g.open(r.env, o.After, o.dateInput(o.BandsAfter).options(o.MaskAfter...), &r.cleanups)
-	return err
+	return nil
 }
 
 // onGrid opens stacks on a reference stack's grid.
@@ -406,61 +312,19 @@ func (g onGrid) open(env Env, arg string, opts []raster.Option, cleanups *[]func
 	return s, err == nil, err
 }
 
-// scanPair reads both dates once: the pooled co-moments (unless a basis is
-// given) and a bounded sample of band differences.
-func (r *changeRun) scanPair(ctx context.Context) error {
-	r.pair = newPairScan(r.before, r.after, r.o.Input.Tile)
-	var err error
-	if r.stats, err = r.pair.gather(ctx, r.env, r.o.Sample); err != nil {
-		return err
-	}
-	if r.stats.valid == 0 {
-		return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", r.o.Before, r.o.After)
-	}
-	return nil
-}
-
-// fitBasis fits the basis on the pooled pixels valid on both dates, keeping
-// the fewest components reaching 99% of the variance, at least min(p, 3);
-// or takes the given one.
-func (r *changeRun) fitBasis(context.Context) error {
-	b, name := r.given, r.o.Basis
-	p := r.before.Len()
-	if b == nil {
-		what := r.o.Before + " and " + r.o.After + " (pixels valid on both dates)"
-		var err error
-		if b, err = fitBasis(r.env, r.pooled, transform.Covariance, basisBands(r.before), what); err != nil {
-			return err
-		}
-		if b.Inputs, err = fingerprints([]*raster.Stack{r.before, r.after}); err != nil {
-			return err
-		}
-		b.Components = defaultComponents(b, p)
-		name = "fitted on both dates"
-	}
-	proj, err := projectorFor(b, r.o.Components, p)
-	if err != nil {
-		return err
-	}
-	r.basis, r.basisName, r.proj = b, name, proj
-	return nil
-}
-
 // fitModel fits the robust no-change model on the sample's score
 // differences d = W_k^T (x_after - x_before) / s and resolves the threshold.
-func (r *changeRun) fitModel(context.Context) error {
-	f, err := fitPair(r.dx, r.before.Len(), r.proj, r.o.Threshold, r.o.Before+" and "+r.o.After)
-	if err != nil {
+func (r *changeRun) fitModel(ctx context.Context) error {
+	if err := r.fitModels(ctx); err != nil {
 		return err
 	}
+	f := r.fits[0]
 	r.fit, r.zs, r.eta, r.identical = f, f.zs, f.eta, f.identical
 	if f.identical {
-		r.env.warn("%s and %s are identical over the %d sampled pixels: no change is mapped", r.o.Before, r.o.After, len(r.dx)/r.before.Len())
 		r.zcut = 0
 		return nil
 	}
 	r.model, r.zcut = f.model, f.zcut
-	r.checkThreshold()
 	r.env.log().Debug("no-change model", "iterations", f.model.Iterations, "sample", f.model.Sample, "z", f.zcut)
 	return nil
 }
@@ -478,15 +342,16 @@ func allZero(x []float64) bool {
 // are garbage by now: their pages go back before the sieve and the polygons
 // take their share.
 func (r *changeRun) sieve(ctx context.Context) error {
-	debug.FreeOSMemory()
-	if err := r.mask.SieveContext(ctx, r.minPixels); err != nil {
-		return fmt.Errorf("sieve: %w", err)
+	if err := r.seriesRun.sieve(ctx, []*raster.ChangeMask{r.mask}, func(int) string { return "" }); err != nil {
+		return err
 	}
 	o := r.o
+	norm := r.normSums[1]
 	r.sum = &ChangeResult{Before: o.Before, After: o.After, BeforeLabel: describe(r.before), AfterLabel: describe(r.after), Threshold: r.thresholdSummary(),
 		Components: r.proj.Components(), MinAreaPixels: r.minPixels, Basis: r.basisName, Aligned: r.aligned,
 		Identical: r.identical, Caution: Caution, Location: []float64{}, Covariance: [][]float64{},
-		Normalization: r.sum0, Warnings: r.warnings, Scenario: r.before.Metadata["SCENARIO"],
+		Normalization: norm, Warnings: r.warnings, Scenario: r.before.Metadata["SCENARIO"],
+		BeforeDate: r.dates[0].Label, AfterDate: r.dates[1].Label, DateSource: []string{r.dates[0].Source, r.dates[1].Source}, BandMatch: r.matched,
 		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}
 	if r.identical {
 		r.sum.Converged = true
@@ -508,9 +373,8 @@ func (r *changeRun) sieve(ctx context.Context) error {
 // patches polygonizes the change patches into changes.gpkg.
 func (r *changeRun) patches(context.Context) error {
 	md := r.metadata()
-	md["BANDFOLD_NORMALIZATION"] = r.normDescription()
 	ps, err := r.mask.Patches(r.dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.dir.Path("magnitude.tif"), Metadata: md,
-		Dates: r.dateLabel(r.before, r.o.Before) + " to " + r.dateLabel(r.after, r.o.After)})
+		Dates: r.name(0) + " to " + r.name(1)})
 	if err != nil {
 		return err
 	}

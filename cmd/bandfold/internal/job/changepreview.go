@@ -101,7 +101,7 @@ func (r *changeRun) preview(context.Context) error {
 	draw.Draw(img, image.Rect(0, 0, pw, ph), before, image.Point{}, draw.Src)
 	draw.Draw(img, image.Rect(pw+panelGap, 0, 2*pw+panelGap, ph), after, image.Point{}, draw.Src)
 
-	bl, al := r.dateLabel(r.before, r.o.Before), r.dateLabel(r.after, r.o.After)
+	bl, al := r.name(0), r.name(1)
 	text := fmt.Sprintf("mapped change: %s of %s valid pixels", Count(r.sum.ChangedPixels), Count(r.sum.ValidPixels))
 	if r.sum.ChangedAreaHa != nil {
 		text = fmt.Sprintf("mapped area of change: %.1f ha of %.1f ha valid", *r.sum.ChangedAreaHa, *r.sum.ValidAreaHa)

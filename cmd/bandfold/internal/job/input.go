@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 
 	"bandfold/raster"
@@ -65,6 +66,12 @@ func (in Input) options(extra ...raster.MaskRule) []raster.Option {
 		opts = append(opts, raster.Calibrate(in.Calibrate))
 	}
 	return opts
+}
+
+// withMasks is in with more mask rules (one date's own masks).
+func (in Input) withMasks(rules []raster.MaskRule) Input {
+	in.Masks = append(slices.Clone(in.Masks), rules...)
+	return in
 }
 
 // withBasis is in with the basis's calibration when none was asked for; a

@@ -43,6 +43,9 @@ const landsatPixels = 349 * 352
 func needLandsat(t *testing.T) {
 	t.Helper()
 	if _, err := os.Stat(landsat); err != nil {
+		if os.Getenv("CI") != "" {
+			t.Fatal("testdata/external/L7_ETMs.tif missing under CI: make testdata failed")
+		}
 		t.Skip("testdata/external/L7_ETMs.tif missing: run make testdata")
 	}
 }

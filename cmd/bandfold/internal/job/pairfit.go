@@ -93,17 +93,17 @@ func projectorFor(b *transform.Basis, requested, p int) (*transform.Projector, e
 // pairScorer computes a pair's change statistic tile by tile: one per
 // worker.
 type pairScorer struct {
-	proj *transform.Projector
-	sc   *change.Scorer     // nil when the dates are identical
-	bs   *change.BandScorer // Z straight from the band differences
-	norm []change.BandFit   // AFTER onto BEFORE's scale; nil for none
-	zcut float64
-	dx   []float64 // the last tile's band differences, n x p
-	d    []float64
+	proj  *transform.Projector
+	sc    *change.Scorer      // nil when the dates are identical
+	bs    *change.BandScorer  // Z straight from the band differences
+	norms [2][]change.BandFit // each date onto the reference's scale; nil for none
+	zcut  float64
+	dx    []float64 // the last tile's band differences, n x p
+	d     []float64
 }
 
-func newPairScorer(proj *transform.Projector, f *pairFit, norm []change.BandFit) *pairScorer {
-	s := &pairScorer{proj: proj.Clone(), norm: norm, zcut: f.zcut}
+func newPairScorer(proj *transform.Projector, f *pairFit, normA, normB []change.BandFit) *pairScorer {
+	s := &pairScorer{proj: proj.Clone(), norms: [2][]change.BandFit{normA, normB}, zcut: f.zcut}
 	if f.model != nil {
 		s.sc, s.bs = f.model.Scorer(), f.model.BandScorer(differenceMap(s.proj))
 	}
@@ -127,13 +127,35 @@ func differenceMap(proj *transform.Projector) []float64 {
 	return a
 }
 
+// diffInto sets dx to the band differences of the normalised later date b
+// and the normalised earlier date a, pixel-major.
+func diffInto(dx, xa, xb []float64, norms [2][]change.BandFit) {
+	na, nb := norms[0], norms[1]
+	if na == nil && nb == nil {
+		for i := range xb {
+			dx[i] = xb[i] - xa[i]
+		}
+		return
+	}
+	for i := range xb {
+		a, b := xa[i], xb[i]
+		if na != nil {
+			a = na[i%len(na)].Apply(a)
+		}
+		if nb != nil {
+			b = nb[i%len(nb)].Apply(b)
+		}
+		dx[i] = b - a
+	}
+}
+
 // score sets, for each pixel of a tile, Z (NaN where not valid), the top
 // component (1-based; 0 for none) and the flag (1 above the cut, 0 not,
 // 255 not valid); it leaves the band differences in s.dx.
-func (s *pairScorer) score(xb, xa []float64, valid []bool, z []float64, top, flags []uint8) {
+func (s *pairScorer) score(xa, xb []float64, valid []bool, z []float64, top, flags []uint8) {
 	p := s.proj.Bands()
 	s.dx = grow(s.dx, len(xa))
-	diffInto(s.dx, xb, xa, s.norm)
+	diffInto(s.dx, xa, xb, s.norms)
 	for i, ok := range valid {
 		switch {
 		case !ok:

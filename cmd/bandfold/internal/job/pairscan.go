@@ -2,224 +2,87 @@ package job
 
 import (
 	"context"
-	"errors"
 	"fmt"
 	"path/filepath"
 	"strconv"
-	"sync"
-	"sync/atomic"
 
-	"bandfold/bands"
 	"bandfold/raster"
 	"bandfold/tiles"
 	"bandfold/transform/change"
 )
 
-// pairScan reads the same tiles of both dates (AFTER on BEFORE's tile grid).
-type pairScan struct {
-	before, after *scan
-}
-
-func newPairScan(before, after *raster.Stack, tile int) *pairScan {
-	g := gridFor(before, tile)
-	same := func(*raster.Stack) tiles.Grid { return g }
-	return &pairScan{before: newScan([]*raster.Stack{before}, same, 1, Shard{}), after: newScan([]*raster.Stack{after}, same, 1, Shard{})}
-}
-
-type pairReader struct {
-	b, a  *reader
-	valid []bool
-}
-
-func (ps *pairScan) newReader() *pairReader {
-	return &pairReader{b: ps.before.newReader(), a: ps.after.newReader()}
-}
-
-// read returns both dates' pixels of tile k and the pixels valid on both.
-func (r *pairReader) read(k int) (xb, xa []float64, valid []bool, count int, err error) {
-	xb, vb, _, err := r.b.read(k)
-	if err != nil {
-		return nil, nil, nil, 0, err
-	}
-	xa, va, _, err := r.a.read(k)
-	if err != nil {
-		return nil, nil, nil, 0, err
-	}
-	r.valid = grow(r.valid, len(vb))
-	valid = r.valid
-	for i := range valid {
-		valid[i] = vb[i] && va[i]
-		if valid[i] {
-			count++
-		}
-	}
-	return xb, xa, valid, count, nil
-}
-
-func (r *pairReader) Close() error {
-	return errors.Join(r.b.Close(), r.a.Close())
-}
-
-// pairStats is what the statistics pass over both dates gathers.
-type pairStats struct {
-	// accB and accA are each date's co-moments over the pixels valid on
-	// both; pooled they give the basis, and their means and standard
-	// deviations compare the dates' radiometry.
-	accB, accA *bands.Accumulator
-	// sample holds 2p values per pixel: BEFORE's bands, then AFTER's.
-	sample *change.Sampler
-	valid  int64
-}
-
-type gatherWorker struct {
-	*pairReader
-	p, size int
-	width   int64
-	bound   *atomic.Uint64
-	diff    []float64
-}
-
-func (w *gatherWorker) Do(_ context.Context, t tiles.Tile) (pairStats, error) {
-	xb, xa, valid, count, err := w.read(t.Index)
-	if err != nil {
-		return pairStats{}, err
-	}
-	res := pairStats{sample: change.NewSampler(w.size, 2*w.p, 1), valid: int64(count),
-		accB: bands.NewExactAccumulator(w.p), accA: bands.NewExactAccumulator(w.p)}
-	res.accB.AddPixels(xb, valid)
-	res.accA.AddPixels(xa, valid)
-	w.diff = grow(w.diff, 2*w.p)
-	// Pixels whose key is not below the sample's current bound can never
-	// be kept: skipping them keeps the per-tile samples small.
-	bound := w.bound.Load()
-	for i, ok := range valid {
-		if !ok {
-			continue
-		}
-		index := int64(t.Y+i/t.W)*w.width + int64(t.X+i%t.W)
-		if res.sample.Key(index) >= bound {
-			continue
-		}
-		copy(w.diff[:w.p], xb[i*w.p:i*w.p+w.p])
-		copy(w.diff[w.p:], xa[i*w.p:i*w.p+w.p])
-		res.sample.Offer(index, w.diff)
-	}
-	return res, nil
-}
-
-// gather reads both dates once: it accumulates each date's co-moments over
-// the pixels valid on both and draws a sample of at most size pixels of both
-// dates, the same for any number of workers (the sampler keeps the pixels
-// with the smallest hashes of their positions).
-func (ps *pairScan) gather(ctx context.Context, env Env, size int) (pairStats, error) {
-	p := ps.before.scenes[0].Len()
-	total := pairStats{sample: change.NewSampler(size, 2*p, 1), accB: bands.NewExactAccumulator(p), accA: bands.NewExactAccumulator(p)}
-	var bound atomic.Uint64
-	bound.Store(total.sample.Bound())
-	err := tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("statistics", ps.before.pixels())},
-		func(int) (tiles.Worker[pairStats], error) {
-			return &gatherWorker{pairReader: ps.newReader(), p: p, size: size,
-				width: int64(ps.before.scenes[0].Width), bound: &bound}, nil
-		},
-		func(_ tiles.Tile, r pairStats) error {
-			total.accB.Merge(r.accB)
-			total.accA.Merge(r.accA)
-			total.sample.Merge(r.sample)
-			bound.Store(total.sample.Bound())
-			total.valid += r.valid
-			return nil
-		})
-	return total, err
-}
-
 // mapTile is one tile of the change statistic: Z and the p-values as
 // float32, converted by the workers rather than by GDAL in the one
 // goroutine that writes.
 type mapTile struct {
-	z          []float64
-	z32, pv32  []float32
-	diffs      []float64
-	flags, top []uint8
-	prev       previewPart
+	z32, pv32 []float32
+	diffs     []float64
+	prev      previewPart
 }
 
-type mapWorker struct {
-	*pairReader
-	*pairScorer
+// changeHook is a worker's share of change's map outputs: Z and the
+// p-values as float32 (converted by the workers rather than by GDAL in
+// the one goroutine that writes), the score differences and the preview
+// sums.
+type changeHook struct {
 	k     int
 	pvals bool
 	diffs bool
-	pool  *sync.Pool
 	grid  *previewGrid // nil: the preview reads the images itself
 }
 
-func (w *mapWorker) Do(_ context.Context, t tiles.Tile) (*mapTile, error) {
-	xb, xa, valid, _, err := w.read(t.Index)
-	if err != nil {
-		return nil, err
+func (h *changeHook) begin(t tiles.Tile, pt *pairTile) {
+	if pt.extra == nil {
+		pt.extra = &mapTile{}
 	}
+	mt := pt.extra.(*mapTile)
 	n := t.Pixels()
-	mt := w.pool.Get().(*mapTile)
-	mt.z, mt.z32 = grow(mt.z, n), grow(mt.z32, n)
-	mt.flags, mt.top = grow(mt.flags, n), grow(mt.top, n)
-	if w.pvals {
+	mt.z32 = grow(mt.z32, n)
+	if h.pvals {
 		mt.pv32 = grow(mt.pv32, n)
 	}
-	if w.diffs {
-		mt.diffs = grow(mt.diffs, n*w.k)
+	if h.diffs {
+		mt.diffs = grow(mt.diffs, n*h.k)
 	}
-	if w.grid != nil {
-		w.grid.begin(t, &mt.prev)
+	if h.grid != nil {
+		h.grid.begin(t, &mt.prev)
 	}
-	// A few rows at a time, so that the pixels are still in the cache for
-	// the score after the preview has summed them.
-	rows := max(1, mapChunk/t.W)
-	for r0 := 0; r0 < t.H; r0 += rows {
-		w.rows(t, r0, min(t.H, r0+rows), [2][]float64{xb, xa}, valid, mt)
-	}
-	return mt, nil
 }
 
-// mapChunk is about the number of pixels a map worker scores at a time:
-// both dates' values of 2048 pixels of 7 bands take 229 KB.
-const mapChunk = 2048
-
-// rows computes rows r0 to r1 of tile t from both dates' pixels x of the
-// whole tile.
-func (w *mapWorker) rows(t tiles.Tile, r0, r1 int, x [2][]float64, valid []bool, mt *mapTile) {
-	lo, hi, p, k := r0*t.W, r1*t.W, w.proj.Bands(), w.k
-	xb, xa, ok := x[0][lo*p:hi*p], x[1][lo*p:hi*p], valid[lo:hi]
-	if w.grid != nil {
-		w.grid.rows(t, r0, r1, [2][]float64{xb, xa}, ok, &mt.prev)
+// pair adds pixels lo to hi, scored, to the outputs of the tile.
+func (h *changeHook) pair(_ int, t tiles.Tile, lo, hi int, x [2][]float64, ok []bool, s *pairScorer, pt *pairTile) {
+	mt, k := pt.extra.(*mapTile), h.k
+	if h.grid != nil {
+		h.grid.pixels(t, lo, hi, x, ok, &mt.prev)
 	}
-	z := mt.z[lo:hi]
-	w.score(xb, xa, ok, z, mt.top[lo:hi], mt.flags[lo:hi])
+	z := pt.z[0][lo:hi]
 	z32 := mt.z32[lo:hi]
 	for i, v := range z {
 		z32[i] = float32(v)
 	}
-	if w.pvals {
+	if h.pvals {
 		pv := mt.pv32[lo:hi]
 		for i, v := range z {
 			switch {
 			case !ok[i]:
 				pv[i] = float32(nan)
-			case w.sc == nil:
+			case s.sc == nil:
 				pv[i] = 1
 			default:
 				pv[i] = float32(change.PValue(v, k))
 			}
 		}
 	}
-	if w.diffs {
-		w.centred(mt.diffs[lo*k:hi*k], ok)
+	if h.diffs {
+		centred(mt.diffs[lo*k:hi*k], ok, s, k)
 	}
 }
 
+func (h *changeHook) done(tiles.Tile, *pairTile) {}
+
 // centred sets dst to the score differences of the pixels last scored
 // minus the no-change location (NaN where not valid).
-func (w *mapWorker) centred(dst []float64, valid []bool) {
-	k := w.k
+func centred(dst []float64, valid []bool, w *pairScorer, k int) {
 	d := w.differences()
 	for i, ok := range valid {
 		out, px := dst[i*k:i*k+k], d[i*k:i*k+k]
@@ -304,8 +167,9 @@ func (m *mapOutputs) write(t tiles.Tile, mt *mapTile) error {
 	return nil
 }
 
-// mapPixels computes Z (and the p-values) and the raw flags of every pixel:
-// it writes magnitude.tif (pvalue.tif, differences.tif) and fills the mask.
+// mapPixels computes Z (and the p-values) and the raw flags of every pixel
+// through the engine's map pass: it writes magnitude.tif (pvalue.tif,
+// differences.tif) and fills the mask.
 func (r *changeRun) mapPixels(ctx context.Context) error {
 	k := r.proj.Components()
 	var err error
@@ -321,23 +185,20 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
-	pool := &sync.Pool{New: func() any { return &mapTile{} }}
-	ps := r.pair
-	err = tiles.Run(ctx, ps.before.runTiles(), tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", ps.before.pixels())},
-		func(int) (tiles.Worker[*mapTile], error) {
-			return &mapWorker{pairReader: ps.newReader(), pairScorer: newPairScorer(r.proj, r.fit, r.norm), k: k,
-				pvals: r.o.PValues, diffs: r.o.Differences, pool: pool, grid: r.grid}, nil
+	err = r.mapPairs(ctx, mapHooks{
+		newWorker: func() tileHook {
+			return &changeHook{k: k, pvals: r.o.PValues, diffs: r.o.Differences, grid: r.grid}
 		},
-		func(t tiles.Tile, mt *mapTile) error {
-			defer pool.Put(mt)
+		deliver: func(t tiles.Tile, pt *pairTile) error {
+			mt := pt.extra.(*mapTile)
 			if r.grid != nil {
 				r.grid.add(&mt.prev)
 			}
 			if err := outs.write(t, mt); err != nil {
 				return err
 			}
-			return r.mask.Write(t.X, t.Y, t.W, t.H, mt.flags, mt.top)
-		})
+			return r.mask.Write(t.X, t.Y, t.W, t.H, pt.flags[0], pt.top[0])
+		}})
 	if err != nil {
 		return err
 	}
@@ -356,11 +217,11 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 // normalisation and the scenario tag of invented data.
 func (r *changeRun) metadata() map[string]string {
 	md := map[string]string{"BANDFOLD_VERSION": r.env.Version, "BANDFOLD_CAUTION": Caution,
-		"BANDFOLD_BEFORE": r.dateLabel(r.before, r.o.Before), "BANDFOLD_AFTER": r.dateLabel(r.after, r.o.After),
+		"BANDFOLD_BEFORE": r.name(0), "BANDFOLD_AFTER": r.name(1),
 		"BANDFOLD_THRESHOLD":       r.o.Threshold.String(),
 		"BANDFOLD_Z_THRESHOLD":     strconv.FormatFloat(r.zcut, 'g', -1, 64),
 		"BANDFOLD_MIN_AREA_PIXELS": strconv.Itoa(r.minPixels),
-		"BANDFOLD_NORMALIZATION":   r.normDescription(),
+		"BANDFOLD_NORMALIZATION":   r.normDescription(1),
 	}
 	if r.proj != nil {
 		md["BANDFOLD_COMPONENTS"] = strconv.Itoa(r.proj.Components())

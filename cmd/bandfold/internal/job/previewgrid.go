@@ -63,26 +63,24 @@ func (g *previewGrid) begin(t tiles.Tile, dst *previewPart) {
 	}
 }
 
-// rows adds rows r0 to r1 of tile t to dst: x holds both dates' pixels of
-// those rows and valid their flags.
-func (g *previewGrid) rows(t tiles.Tile, r0, r1 int, x [2][]float64, valid []bool, dst *previewPart) {
+// pixels adds pixels lo to hi (offsets in tile t) to dst: x holds both
+// dates' values of those pixels and valid their flags.
+func (g *previewGrid) pixels(t tiles.Tile, lo, hi int, x [2][]float64, valid []bool, dst *previewPart) {
 	p, c0, c1, c2 := g.p, g.rgb[0], g.rgb[1], g.rgb[2]
-	for r := r0; r < r1; r++ {
-		row := (g.cellY(t.Y+r) - dst.y0) * dst.cw
-		for c, cx := range dst.col {
-			i := (r-r0)*t.W + c
-			if !valid[i] {
-				continue
-			}
-			cell := row + cx
-			dst.n[cell]++
-			for d := range x {
-				px := x[d][i*p : i*p+p]
-				s := dst.sum[d][cell*3 : cell*3+3]
-				s[0] += px[c0]
-				s[1] += px[c1]
-				s[2] += px[c2]
-			}
+	for at := lo; at < hi; at++ {
+		i := at - lo
+		if !valid[i] {
+			continue
+		}
+		r, c := at/t.W, at%t.W
+		cell := (g.cellY(t.Y+r)-dst.y0)*dst.cw + dst.col[c]
+		dst.n[cell]++
+		for d := range x {
+			px := x[d][i*p : i*p+p]
+			s := dst.sum[d][cell*3 : cell*3+3]
+			s[0] += px[c0]
+			s[1] += px[c1]
+			s[2] += px[c2]
 		}
 	}
 }

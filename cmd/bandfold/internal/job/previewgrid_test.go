@@ -29,14 +29,15 @@ func TestPreviewGridBoxAverage(t *testing.T) {
 				}
 			}
 			vs = xs
-			// Whole tiles at once, or row by row.
+			// Whole tiles at once, or a chunk of pixels at a time.
 			var part previewPart
 			g.begin(tl, &part)
 			if tw == 4 {
-				g.rows(tl, 0, 2, [2][]float64{xs, vs}, ok, &part)
+				g.pixels(tl, 0, 2*tw, [2][]float64{xs, vs}, ok, &part)
 			} else {
-				for r := range 2 {
-					g.rows(tl, r, r+1, [2][]float64{xs[r*tw : r*tw+tw], vs[r*tw : r*tw+tw]}, ok[r*tw:r*tw+tw], &part)
+				for lo := 0; lo < 2*tw; lo += 3 {
+					hi := min(2*tw, lo+3)
+					g.pixels(tl, lo, hi, [2][]float64{xs[lo:hi], vs[lo:hi]}, ok[lo:hi], &part)
 				}
 			}
 			g.add(&part)

@@ -2,15 +2,9 @@ package job
 
 import (
 	"context"
-	"errors"
-	"fmt"
-	"slices"
-	"strings"
 
 	"bandfold/raster"
 	"bandfold/raster/output"
-	"bandfold/tiles"
-	"bandfold/transform"
 	"bandfold/transform/change"
 )
 
@@ -22,7 +16,7 @@ const (
 
 // TimelineOptions are the options of Timeline.
 type TimelineOptions struct {
-	// Scenes are the dates' stacks, at least 3, in any order.
+	// Scenes are the dates' stacks, at least 2, in any order.
 	Scenes []string
 	Input  Input
 	// Dates, when set, date the scenes in the order given (YYYY-MM-DD,
@@ -45,6 +39,13 @@ type TimelineOptions struct {
 	Confirm   string
 	Sample    int
 	Overwrite bool
+	// SceneBands select each scene's own bands, in the order of Scenes
+	// (nil: Input.Bands for all).
+	SceneBands [][]int
+	// ReferenceDate is the date every date is normalised onto ("": the
+	// first).
+	ReferenceDate   string
+	IgnoreBandNames bool
 }
 
 // TimelineResult is timeline.json.
@@ -53,23 +54,28 @@ type TimelineResult struct {
 	// ValidPixels are the pixels valid on at least one step.
 	ValidPixels int64 `json:"valid_pixels"`
 	// ChangedPixels have at least one confirmed change.
-	ChangedPixels int64          `json:"changed_pixels"`
-	ChangedAreaM2 *float64       `json:"changed_area_m2"`
-	ChangedAreaHa *float64       `json:"changed_area_ha"`
-	Components    int            `json:"components"`
-	Basis         string         `json:"basis"`
-	Threshold     string         `json:"threshold"`
-	MinAreaPixels int            `json:"min_area_pixels"`
-	Normalize     string         `json:"normalize"`
-	Confirm       string         `json:"confirm"`
-	Aligned       bool           `json:"aligned"`
-	Steps         []TimelineStep `json:"steps"`
-	Patches       int            `json:"patches"`
-	Scenario      string         `json:"scenario,omitempty"`
-	Warnings      []string       `json:"warnings"`
-	Outputs       []string       `json:"outputs"`
-	AreaNote      string         `json:"area_note"`
-	Caution       string         `json:"caution"`
+	ChangedPixels int64    `json:"changed_pixels"`
+	ChangedAreaM2 *float64 `json:"changed_area_m2"`
+	ChangedAreaHa *float64 `json:"changed_area_ha"`
+	Components    int      `json:"components"`
+	Basis         string   `json:"basis"`
+	Threshold     string   `json:"threshold"`
+	MinAreaPixels int      `json:"min_area_pixels"`
+	Normalize     string   `json:"normalize"`
+	Confirm       string   `json:"confirm"`
+	Aligned       bool     `json:"aligned"`
+	// ReferenceDate is the date every date was normalised onto.
+	ReferenceDate string `json:"reference_date"`
+	// BandMatch says how the bands were matched when the dates' bands
+	// differed ("" when compared as given).
+	BandMatch string         `json:"band_match,omitempty"`
+	Steps     []TimelineStep `json:"steps"`
+	Patches   int            `json:"patches"`
+	Scenario  string         `json:"scenario,omitempty"`
+	Warnings  []string       `json:"warnings"`
+	Outputs   []string       `json:"outputs"`
+	AreaNote  string         `json:"area_note"`
+	Caution   string         `json:"caution"`
 }
 
 // TimelineScene is one date of the series.
@@ -80,8 +86,8 @@ type TimelineScene struct {
 	// DateSource says where the date came from: --dates, a metadata key or
 	// the file name.
 	DateSource string `json:"date_source"`
-	// Normalization is this date's normalisation onto the first date's
-	// radiometric scale.
+	// Normalization is this date's normalisation onto the reference
+	// date's radiometric scale.
 	Normalization NormalizationSummary `json:"normalization"`
 }
 
@@ -121,7 +127,7 @@ type TimelineStep struct {
 // confirmed patches, in one streaming pass over the tiles per stage.
 func Timeline(ctx context.Context, env Env, o TimelineOptions) (_ *TimelineResult, err error) {
 	defer func() { err = classify(err) }()
-	r := &timelineRun{env: env, o: &o}
+	r := &timelineRun{seriesRun: &seriesRun{env: env}, o: &o}
 	defer r.close()
 	steps := []jobStep{
 		{"open", r.open}, {"sample", r.sample}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"models", r.fitModels},
@@ -136,8 +142,11 @@ func Timeline(ctx context.Context, env Env, o TimelineOptions) (_ *TimelineResul
 
 // check refuses option values that cannot be right.
 func (o *TimelineOptions) check() error {
-	if len(o.Scenes) < 3 {
-		return Usagef("timeline needs at least 3 scenes, got %d", len(o.Scenes))
+	if len(o.Scenes) < 2 {
+		return Usagef("timeline needs at least 2 scenes, got %d", len(o.Scenes))
+	}
+	if o.SceneBands != nil && len(o.SceneBands) != len(o.Scenes) {
+		return Usagef("--scene-bands is given %d times for %d scenes: give it once per scene, in the order of the scenes", len(o.SceneBands), len(o.Scenes))
 	}
 	if o.Dates != nil && len(o.Dates) != len(o.Scenes) {
 		return Usagef("--dates lists %d dates for %d scenes", len(o.Dates), len(o.Scenes))
@@ -159,203 +168,78 @@ func (o *TimelineOptions) check() error {
 	return nil
 }
 
-// timelineRun is one run of Timeline, a step per method.
+// timelineRun is one run of Timeline: the series engine on every date
+// (sorted by date), and the timeline folder's own outputs.
 type timelineRun struct {
-	env Env
-	o   *TimelineOptions
+	*seriesRun
+	o *TimelineOptions
 
-	scenes    []*raster.Stack // sorted by date
-	tiles     []tiles.Tile    // of every pass
-	args      []string        // their arguments
-	dates     []sceneDate
-	aligned   bool
-	cleanups  []func()
-	areas     *raster.CellAreas
-	minPixels int
-	dir       *output.Folder
-	given     *transform.Basis
-
-	stats     seriesStats
-	norms     [][]change.BandFit // each date onto the first's scale; nil for none
-	normSums  []NormalizationSummary
-	dxs       [][]float64 // each pair's sample of band differences
-	basis     *transform.Basis
-	basisName string
-	proj      *transform.Projector
-	fits      []*pairFit // per pair: the steps, then the skips
-	masks     []*raster.ChangeMask
-	confirm   [][]uint64 // per step: the pixels whose flags the skips confirm
-	valid     []int64    // per step
-	scratch   string     // the steps' Z, for the patches
-	counts    []stepCount
+	masks   []*raster.ChangeMask
+	confirm [][]uint64 // per step: the pixels whose flags the skips confirm
+	valid   []int64    // per step
+	scratch string     // the steps' Z, for the patches
+	counts  []stepCount
 	// totalValid and totalChanged count the pixels valid on some step and
 	// those with a confirmed change; changedArea is the latter's area.
 	totalValid, totalChanged int64
 	changedArea              float64
 	firstPrev                []uint8 // first-change.png's step per preview pixel
 	pw, ph                   int
-	warnings                 []string
 	outputs                  []string
 	sum                      *TimelineResult
 }
 
 func (r *timelineRun) close() {
-	if r.dir != nil {
-		r.dir.Abort()
-	}
 	for _, m := range r.masks {
 		if m != nil {
 			m.Close()
 		}
 	}
-	for _, s := range r.scenes {
-		if s != nil {
-			s.Close()
-		}
-	}
-	for _, c := range r.cleanups {
-		c()
-	}
+	r.seriesRun.close()
 }
 
 // steps is the number of consecutive pairs.
 func (r *timelineRun) steps() int { return len(r.scenes) - 1 }
 
-// pairs are the pairs of dates scored: the steps (t-1, t), then the skips
-// (t-1, t+1) that confirm them.
-func (r *timelineRun) pairs() [][2]int {
+// timelinePairs are the pairs of dates scored: the steps (t-1, t), then
+// the skips (t-1, t+1) that confirm them.
+func timelinePairs(dates int) [][2]int {
 	var out [][2]int
-	for t := 1; t < len(r.scenes); t++ {
+	for t := 1; t < dates; t++ {
 		out = append(out, [2]int{t - 1, t})
 	}
-	for t := 2; t < len(r.scenes); t++ {
+	for t := 2; t < dates; t++ {
 		out = append(out, [2]int{t - 2, t})
 	}
 	return out
 }
 
-// open checks the options, dates and opens the scenes in date order (all
-// on the first's grid, or aligned onto it) and the output folder.
-func (r *timelineRun) open(context.Context) error {
+// open checks the options and hands the scenes to the engine, which dates
+// them, sorts them and opens them (all on the first's grid, or aligned
+// onto it) with their bands matched, and the output folder.
+func (r *timelineRun) open(ctx context.Context) error {
 	o := r.o
 	if err := o.check(); err != nil {
 		return err
 	}
-	ins := argPaths("SCENE", o.Scenes, o.Input.Masks)
+	c := &seriesConfig{Args: o.Scenes, Dates: o.Dates, RefDate: o.ReferenceDate, Chronological: true,
+		BandsChosen: o.Input.Bands != nil || o.SceneBands != nil, IgnoreBandNames: o.IgnoreBandNames,
+		Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components, Threshold: o.Threshold,
+		MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile, Pairs: timelinePairs,
+		Out: o.Out, Overwrite: o.Overwrite}
+	for i := range o.Scenes {
+		in := o.Input
+		if o.SceneBands != nil {
+			in.Bands = o.SceneBands[i]
+		}
+		c.Inputs, c.Roles = append(c.Inputs, in), append(c.Roles, "SCENE")
+	}
 	if o.Basis != "" {
-		ins = append(ins, output.Path{Role: "basis", Path: o.Basis})
+		c.Extra = append(c.Extra, output.Path{Role: "basis", Path: o.Basis})
 	}
-	if err := output.Distinct(ins, []output.Path{{Role: "output folder", Path: o.Out, Folder: true}}); err != nil {
-		return err
-	}
-	if err := output.CheckFolder(o.Out, o.Overwrite); err != nil {
-		return err
-	}
-	if err := r.date(); err != nil {
-		return err
-	}
-	var err error
-	if o.Basis != "" {
-		if r.given, err = transform.ReadBasis(o.Basis); err != nil {
-			return err
-		}
-		if o.Input, err = o.Input.withBasis(r.given, o.Basis); err != nil {
-			return err
-		}
-	}
-	if err := r.openScenes(); err != nil {
-		return err
-	}
-	first := r.scenes[0]
-	if err := needTwoBands(first, o.Input.Bands); err != nil {
-		return err
-	}
-	r.tileGrid()
-	r.areas, err = raster.NewCellAreas(first.Grid)
-	if errors.Is(err, raster.ErrNoCRS) {
-		if o.MinArea.M2 > 0 {
-			return Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", describe(first))
-		}
-		r.env.warn("%s has no CRS: areas are given in pixels only", r.args[0])
-		r.areas = nil
-	} else if err != nil {
-		return fmt.Errorf("%s: %w", r.args[0], err)
-	}
-	if r.minPixels, err = o.MinArea.pixels(r.areas); err != nil {
-		return err
-	}
-	if r.given != nil {
-		if err := checkBands(r.given, o.Basis, first, bandCheck{selected: o.Input.Bands != nil}); err != nil {
-			return err
-		}
-	}
-	r.dir, err = output.CreateFolder(o.Out, o.Overwrite)
-	return err
-}
-
-// date dates every scene and sorts them; a duplicate date is an error
-// naming both scenes.
-func (r *timelineRun) date() error {
-	o := r.o
-	type dated struct {
-		arg string
-		d   sceneDate
-	}
-	var all []dated
-	for i, arg := range o.Scenes {
-		given := ""
-		if o.Dates != nil {
-			given = strings.TrimSpace(o.Dates[i])
-		}
-		d, err := dateOf(arg, given)
-		if err != nil {
-			return err
-		}
-		all = append(all, dated{arg, d})
-	}
-	slices.SortStableFunc(all, func(a, b dated) int { return a.d.t.Compare(b.d.t) })
-	for i := 1; i < len(all); i++ {
-		if all[i].d.t.Equal(all[i-1].d.t) {
-			return Usagef("%s and %s have the same date %s (from %s and %s): each date needs one scene", all[i-1].arg, all[i].arg, all[i].d.label, all[i-1].d.source, all[i].d.source)
-		}
-	}
-	for _, a := range all {
-		r.args, r.dates = append(r.args, a.arg), append(r.dates, a.d)
-	}
-	return nil
-}
-
-// openScenes opens the scenes in date order, each on the first's grid.
-func (r *timelineRun) openScenes() error {
-	o := r.o
-	first, err := openImage(r.args[0], o.Input.options())
-	if err != nil {
-		return err
-	}
-	r.scenes = append(r.scenes, first)
-	g := onGrid{ref: first, align: o.Align, resampling: o.Resampling}
-	for _, arg := range r.args[1:] {
-		s, aligned, err := g.open(r.env, arg, o.Input.options(), &r.cleanups)
-		if err != nil {
-			return err
-		}
-		r.scenes = append(r.scenes, s)
-		r.aligned = r.aligned || aligned
-		if s.Len() != first.Len() {
-			return fmt.Errorf("%s has %d bands but %s has %d: every date needs the same bands (select them with --bands)", describe(s), s.Len(), describe(first), first.Len())
-		}
-		for j, b := range s.Bands {
-			if a := first.Bands[j]; described(a) && described(b) && a.Name != b.Name {
-				return fmt.Errorf("band %d of %s is %q but of %s %q: every date needs the same bands in the same order", j+1, describe(s), b.Name, describe(first), a.Name)
-			}
-		}
-	}
-	return nil
+	r.c = c
+	return r.seriesRun.open(ctx)
 }
 
 // label names a date for people.
-func (r *timelineRun) label(i int) string { return r.dates[i].label }
-
-// described reports whether a band's name is its description, not made up
-// from its file's name (which differs between dates).
-func described(b raster.Band) bool { return b.Name != "" && !strings.Contains(b.Name, ":") }
+func (r *timelineRun) label(i int) string { return r.dates[i].Label }

@@ -130,7 +130,7 @@ func TestTimelineRefusals(t *testing.T) {
 		usage  bool
 		expect []string
 	}{
-		{"two scenes", TimelineOptions{Scenes: []string{f.Before, f.After}}, true, []string{"at least 3 scenes, got 2"}},
+		{"one scene", TimelineOptions{Scenes: []string{f.Before}}, true, []string{"at least 2 scenes, got 1"}},
 		{"dates of the wrong length", TimelineOptions{Scenes: []string{f.Before, f.After, third}, Dates: []string{"2020", "2021"}}, true, []string{"--dates lists 2 dates for 3 scenes"}},
 		{"bad date", TimelineOptions{Scenes: []string{f.Before, f.After, third}, Dates: []string{"2020", "2021", "soon"}}, true, []string{`"soon"`}},
 		{"no date", TimelineOptions{Scenes: []string{f.Before, f.After, undated}}, false, []string{undated, "has no date"}},

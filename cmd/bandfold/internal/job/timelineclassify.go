@@ -14,11 +14,53 @@ type stepCount struct {
 	patches                    int
 }
 
-// classify reads the sieved maps tile by tile and writes steps.tif,
-// first-change.tif, last-change.tif and change-count.tif; it leaves only
-// the confirmed flags in each mask for the patches and counts the mapped
-// pixels and areas.
+// confirmFlags keeps in each step's mask only its confirmed flags and
+// applies the minimum mapping unit to them again, so that no confirmed
+// patch is smaller than --min-area; each step's bits then hold its flags
+// before confirmation (after the first sieve).
+func (r *timelineRun) confirmFlags(ctx context.Context) error {
+	g := r.scenes[0].Grid
+	var flags []uint8
+	for q, m := range r.masks {
+		for t := range gridFor(r.scenes[0], r.c.Tile).Tiles() {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			flags = grow(flags, t.Pixels())
+			if err := m.Read(t.X, t.Y, t.W, t.H, flags); err != nil {
+				return err
+			}
+			for i, f := range flags {
+				bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
+				word, mask := &r.confirm[q][bit/64], uint64(1)<<(bit%64)
+				confirmed := *word&mask != 0
+				if f == 1 {
+					*word |= mask
+				} else {
+					*word &^= mask
+				}
+				if f == 1 && !confirmed {
+					flags[i] = 0
+				}
+			}
+			if err := m.SetMapped(t.X, t.Y, t.W, t.H, flags); err != nil {
+				return err
+			}
+		}
+		if err := m.SieveAgain(ctx, r.minPixels); err != nil {
+			return fmt.Errorf("sieve of the confirmed changes of %s to %s: %w", r.label(q), r.label(q+1), err)
+		}
+	}
+	return nil
+}
+
+// classify reads the maps tile by tile and writes steps.tif,
+// first-change.tif, last-change.tif and change-count.tif, and counts the
+// mapped pixels and areas.
 func (r *timelineRun) classify(ctx context.Context) error {
+	if err := r.confirmFlags(ctx); err != nil {
+		return err
+	}
 	S, g := r.steps(), r.scenes[0].Grid
 	md := r.metadata()
 	nd8, nd0, ndc := float64(stepNoData), 0.0, -1.0
@@ -56,7 +98,7 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	r.firstPrev = make([]uint8, r.pw*r.ph)
 	flags := make([][]uint8, S)
 	var vals, first, last, count []float64
-	for t := range gridFor(r.scenes[0], r.o.Input.Tile).Tiles() {
+	for t := range gridFor(r.scenes[0], r.c.Tile).Tiles() {
 		if err := ctx.Err(); err != nil {
 			return err
 		}
@@ -79,26 +121,27 @@ func (r *timelineRun) classify(ctx context.Context) error {
 			for q := range S {
 				f := flags[q][i]
 				v := float64(stepNoData)
+				// The mask holds the confirmed flags, sieved again; the bits
+				// the flags before confirmation (confirmFlags).
 				switch {
 				case f == 255:
-				case f == 0:
-					v = stepNone
-				case r.confirm[q][bit/64]&(1<<(bit%64)) != 0:
+				case f == 1:
 					v = stepConfirmed
 					c := &r.counts[q]
 					c.flagged, c.confirmed, c.flaggedArea, c.confirmedArea = c.flagged+1, c.confirmed+1, c.flaggedArea+cell, c.confirmedArea+cell
-				default:
-					v, f = stepUnconfirmed, 0
+				case r.confirm[q][bit/64]&(1<<(bit%64)) != 0:
+					v = stepUnconfirmed
 					c := &r.counts[q]
 					c.flagged, c.flaggedArea = c.flagged+1, c.flaggedArea+cell
+				default:
+					v = stepNone
 				}
-				flags[q][i] = f
 				vals[i*S+q] = v
 				if v != stepNoData {
 					count[i] = max(count[i], 0)
 				}
 				if v == stepConfirmed {
-					date := float64(r.dates[q+1].yyyymmdd())
+					date := float64(r.dates[q+1].YYYYMMDD())
 					if first[i] == 0 {
 						first[i] = date
 						r.markPreview(x, y, q+1)
@@ -117,11 +160,6 @@ func (r *timelineRun) classify(ctx context.Context) error {
 				if r.areas != nil {
 					r.changedArea += r.areas.At(t.X+i%t.W, t.Y+i/t.W)
 				}
-			}
-		}
-		for q := range S {
-			if err := r.masks[q].SetMapped(t.X, t.Y, t.W, t.H, flags[q]); err != nil {
-				return err
 			}
 		}
 		for i, buf := range [][]float64{vals, first, last, count} {

@@ -9,47 +9,17 @@ import (
 	"bandfold/raster"
 )
 
-// TestSceneDates: each form of date in metadata values and file names
-// (known by construction: the strings are written to carry these dates).
-func TestSceneDates(t *testing.T) {
-	values := []struct{ in, want string }{
-		{"2016-07-01", "2016-07-01"},               // ACQUISITION_DATE, DATE_ACQUIRED, --dates
-		{"2016:07:01 10:20:30", "2016-07-01"},      // TIFFTAG_DATETIME
-		{"2016-07-01T10:20:30.000Z", "2016-07-01"}, // ACQUISITIONDATETIME (IMAGERY)
-		{"20160701", "2016-07-01"},                 // --dates
-		{"2016", "2016"},                           // a year
-		{"2016-02-30", ""}, {"", ""}, {"soon", ""}, {"1850", ""},
-	}
-	for _, tc := range values {
-		d, ok := parseDateValue(tc.in)
-		if got := map[bool]string{true: d.label}[ok]; got != tc.want {
-			t.Errorf("parseDateValue(%q) = %q, want %q", tc.in, got, tc.want)
-		}
-	}
-	names := []struct{ in, want string }{
-		{"scenes/vessel-2023-06-14.tif", "2023-06-14"},
-		{"LC08_L1TP_195025_20130707_20170503_01_T1_B4.TIF", "2013-07-07"},
-		{"/data/mosaic_2019_summer.tif", "2019"},
-		{"s1.tif", ""}, {"tile_123456789.tif", ""}, {"x-2023-13-01.tif", "2023"},
-	}
-	for _, tc := range names {
-		d, ok := dateFromName(tc.in)
-		if got := map[bool]string{true: d.label}[ok]; got != tc.want {
-			t.Errorf("dateFromName(%q) = %q, want %q", tc.in, got, tc.want)
-		}
-	}
-}
-
 // mtlDir holds the Landsat metadata fixtures (testdata/README.md): both
 // give DATE_ACQUIRED = 2013-07-07 for the product whose band files they
 // list.
 const mtlDir = "../../../../testdata/mtl"
 
 // TestDateSources: each scene is written with GDAL (raster.Create) under
-// the name given, carrying its date in one source, and dateOf must find
-// that date from that source, in the order of preference TIFFTAG_DATETIME,
-// the IMAGERY domain's ACQUISITIONDATETIME, ACQUISITION_DATE, a Landsat
-// MTL beside the file, then the file name. The dates are known by
+// the name given, carrying its date in one source, and the resolver must find
+// that date from that source (raster.SceneDate, as the series engine
+// dates scenes), in the order of preference: a Landsat MTL beside the
+// file, the IMAGERY domain's ACQUISITIONDATETIME, ACQUISITION_DATE, the
+// file name, then TIFFTAG_DATETIME (a file's creation time in TIFF 6.0). The dates are known by
 // construction (they are what each file is written with); the MTL
 // fixtures' DATE_ACQUIRED is 2013-07-07.
 func TestDateSources(t *testing.T) {
@@ -73,8 +43,8 @@ func TestDateSources(t *testing.T) {
 		{"vessel-2023-06-14.tif", nil, "", "", "2023-06-14", "file name"},
 		{"S2A_MSIL2A_20190704_T31UFQ.tif", nil, "", "", "2019-07-04", "file name"},
 		{"mosaic_2019_summer.tif", nil, "", "", "2019", "file name"},
-		// Metadata wins over the name.
-		{"x-2020-01-01.tif", map[string]string{"TIFFTAG_DATETIME": "2018:05:05 00:00:00"}, "", "", "2018-05-05", "TIFFTAG_DATETIME"},
+		// Acquisition metadata wins over the name, the name over the TIFF tag.
+		{"x-2020-01-01.tif", map[string]string{"TIFFTAG_DATETIME": "2018:05:05 00:00:00"}, "", "", "2020-01-01", "file name"},
 		{"y-2020-01-01.vrt", nil, "2019-01-01T00:00:00Z", "", "2019-01-01", "IMAGERY:ACQUISITIONDATETIME"},
 	}
 	grid := raster.Grid{Width: 4, Height: 3, GeoTransform: [6]float64{0, 10, 0, 30, 0, -10}, HasGeoTransform: true}
@@ -100,13 +70,13 @@ func TestDateSources(t *testing.T) {
 		if tc.mtl != "" {
 			copyFile(t, filepath.Join(mtlDir, tc.mtl), filepath.Join(dir, tc.mtl))
 		}
-		d, err := dateOf(path, "")
+		d, _, err := raster.SceneDate(path)
 		if err != nil {
 			t.Errorf("%s: %v", tc.name, err)
 			continue
 		}
-		if d.label != tc.want || d.source != tc.source {
-			t.Errorf("%s: %s from %s, want %s from %s", tc.name, d.label, d.source, tc.want, tc.source)
+		if d.Label != tc.want || d.Source != tc.source {
+			t.Errorf("%s: %s from %s, want %s from %s", tc.name, d.Label, d.Source, tc.want, tc.source)
 		}
 	}
 }
@@ -118,14 +88,14 @@ func FuzzDateParser(f *testing.F) {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
-		for _, parse := range []func(string) (sceneDate, bool){parseDateValue, dateFromName} {
+		for _, parse := range []func(string) (raster.Date, bool){raster.ParseDate, raster.DateFromName} {
 			d, ok := parse(s)
 			if !ok {
 				continue
 			}
-			back, ok := parseDateValue(d.label)
-			if !ok || !back.t.Equal(d.t) || d.t.Location() != time.UTC {
-				t.Fatalf("%q: date %v (%q) does not read back", s, d.t, d.label)
+			back, ok := raster.ParseDate(d.Label)
+			if !ok || !back.Time.Equal(d.Time) || d.Time.Location() != time.UTC {
+				t.Fatalf("%q: date %v (%q) does not read back", s, d.Time, d.Label)
 			}
 		}
 	})

@@ -71,7 +71,7 @@ func writeSeries(ctx context.Context, env Env, o seriesWrite) (*scenario.Series,
 	dates := s.Dates()
 	for date, path := range files.Dates {
 		spec := raster.Spec{Grid: g, Bands: scenario.MSBands, DataType: "UInt16", NoData: &nd, Descriptions: c.BandNames(), Overwrite: o.Overwrite,
-			Metadata: tag("TIFFTAG_DATETIME", strings.ReplaceAll(dates[date], "-", ":")+" 10:30:00")}
+			Metadata: tag("ACQUISITION_DATE", dates[date])}
 		err := writeRaster(ctx, env, path, spec, grid, func(int) renderFunc {
 			return func(t tiles.Tile, dst []float64) error {
 				s.Multispectral(date, t.X, t.Y, t.W, t.H, dst)
@@ -240,6 +240,6 @@ func (d *DemoTimeline) score(s *scenario.Series, firstChange string) error {
 // yyyymmdd turns a YYYY-MM-DD date into the integer first-change.tif
 // stores.
 func yyyymmdd(date string) int {
-	d, _ := parseDateValue(date)
-	return d.yyyymmdd()
+	d, _ := raster.ParseDate(date)
+	return d.YYYYMMDD()
 }

@@ -73,7 +73,7 @@ func (r *timelineRun) figures(context.Context) error {
 // result fills timeline.json's content.
 func (r *timelineRun) result() {
 	s := &TimelineResult{Components: r.proj.Components(), Basis: r.basisName, Threshold: r.o.Threshold.String(),
-		MinAreaPixels: r.minPixels, Normalize: r.o.Normalize, Confirm: r.o.Confirm, Aligned: r.aligned,
+		MinAreaPixels: r.minPixels, Normalize: r.o.Normalize, Confirm: r.o.Confirm, Aligned: r.aligned, ReferenceDate: r.dates[r.ref].Label, BandMatch: r.matched,
 		Scenario: r.scenes[0].Metadata["SCENARIO"], Warnings: r.warnings, Caution: Caution, Outputs: []string{},
 		AreaNote: "mapped areas (pixels flagged after the minimum mapping unit), not estimates of the true area of change"}
 	if s.Warnings == nil {
@@ -84,7 +84,7 @@ func (r *timelineRun) result() {
 		s.ChangedAreaM2, s.ChangedAreaHa = ptr(r.changedArea), ptr(r.changedArea/1e4)
 	}
 	for i, sc := range r.scenes {
-		s.Scenes = append(s.Scenes, TimelineScene{Path: r.args[i], Label: describe(sc), Date: r.label(i), DateSource: r.dates[i].source, Normalization: r.normSums[i]})
+		s.Scenes = append(s.Scenes, TimelineScene{Path: r.args[i], Label: describe(sc), Date: r.label(i), DateSource: r.dates[i].Source, Normalization: r.normSums[i]})
 	}
 	k := r.proj.Components()
 	ha := func(m2 float64) (*float64, *float64) {

@@ -35,7 +35,7 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 	}
 	out := filepath.Join(dir, "tl")
 	// The dates given out of order: the timeline sorts them by the
-	// TIFFTAG_DATETIME each carries.
+	// ACQUISITION_DATE each carries.
 	scenes := []string{files.Dates[3], files.Dates[0], files.Dates[4], files.Dates[2], files.Dates[1]}
 	res, err := Timeline(t.Context(), workersEnv(3), TimelineOptions{Scenes: scenes, Out: out, Threshold: thr, MinArea: MinArea{Px: 4}})
 	if err != nil {
@@ -43,8 +43,8 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 	}
 	dates := s.Dates()
 	for i, sc := range res.Scenes {
-		if sc.Date != dates[i] || sc.DateSource != "TIFFTAG_DATETIME" || sc.Path != files.Dates[i] {
-			t.Errorf("scene %d: %s dated %s from %s, want %s dated %s from TIFFTAG_DATETIME", i+1, sc.Path, sc.Date, sc.DateSource, files.Dates[i], dates[i])
+		if sc.Date != dates[i] || sc.DateSource != "ACQUISITION_DATE" || sc.Path != files.Dates[i] {
+			t.Errorf("scene %d: %s dated %s from %s, want %s dated %s from ACQUISITION_DATE", i+1, sc.Path, sc.Date, sc.DateSource, files.Dates[i], dates[i])
 		}
 	}
 	if res.Normalize != NormalizeStable || res.Confirm != ConfirmLasting {
@@ -134,7 +134,7 @@ func TestTimelineWorkers(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if sampleHint(1000, 128*128) == math.MaxUint64 {
+	if change.SampleHint(1000, 128*128) == math.MaxUint64 {
 		t.Fatal("the hint would not cut")
 	}
 	var first map[string][]float64

@@ -1,0 +1,488 @@
+package job
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"slices"
+	"strings"
+
+	"bandfold/raster"
+	"bandfold/raster/output"
+	"bandfold/tiles"
+	"bandfold/transform"
+	"bandfold/transform/change"
+)
+
+// The series engine: change (a series of two dates) and timeline (of many)
+// run through it. It opens and aligns the dates, dates them, matches their
+// bands by wavelength, draws one sample for every pair it scores, fits
+// every date's normalisation onto the reference date, the pooled basis and
+// each pair's no-change model, scores every pair tile by tile (the outputs
+// being the command's, through mapHooks) and applies the minimum mapping
+// unit. What differs between the commands is a field of seriesConfig.
+
+// seriesConfig is what a command asks of the engine.
+type seriesConfig struct {
+	// Args are the dates' stacks as given, Inputs the input options of
+	// each (its bands and masks), Roles how errors name them ("BEFORE").
+	Args   []string
+	Inputs []Input
+	Roles  []string
+	// Dates are the --dates items (nil: metadata or file names), RefDate
+	// the --reference-date ("" for the first date).
+	Dates   []string
+	RefDate string
+	// Chronological sorts the dates by date and needs every scene dated
+	// (timeline); otherwise the order given stands, a scene may be
+	// undated, and a later first date is warned about (change).
+	Chronological bool
+	// BandsChosen is set when the user selected bands of some date: a
+	// mismatch of wavelengths is then refused, not resolved.
+	BandsChosen     bool
+	IgnoreBandNames bool
+	Align           bool
+	Resampling      string
+	Basis           string
+	Components      int
+	Threshold       change.Threshold
+	MinArea         MinArea
+	Normalize       string
+	Sample          int
+	Tile            int
+	// Pairs lists the pairs of dates (indices in date order) to score.
+	Pairs func(dates int) [][2]int
+	// Extra are more files the run reads (basis, reference), for the
+	// same-file refusal; Out is the output folder.
+	Extra     []output.Path
+	Out       string
+	Overwrite bool
+}
+
+// seriesRun is one run of the engine, a step per method.
+type seriesRun struct {
+	env Env
+	c   *seriesConfig
+
+	scenes    []*raster.Stack // in date order
+	args      []string        // their arguments
+	inputs    []Input
+	dates     []raster.Date
+	ref       int // the reference date's index
+	aligned   bool
+	cleanups  []func()
+	areas     *raster.CellAreas
+	minPixels int
+	tiles     []tiles.Tile
+	given     *transform.Basis
+	matched   string // how the bands were matched, for people; "" when as given
+
+	pairs     [][2]int // scored
+	sampled   [][2]int // scored, then the normalisation pairs not scored
+	stats     seriesStats
+	norms     [][]change.BandFit // per date onto the reference; nil for none
+	normSums  []NormalizationSummary
+	dxs       [][]float64 // each scored pair's sample of band differences
+	basis     *transform.Basis
+	basisName string
+	proj      *transform.Projector
+	fits      []*pairFit
+	warnings  []string
+	dir       *output.Folder
+}
+
+// runSeries runs the engine's steps up to the fitted models; the command
+// then maps.
+func (r *seriesRun) steps() []jobStep {
+	return []jobStep{{"open", r.open}, {"sample", r.sample}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"models", r.fitModels}}
+}
+
+func (r *seriesRun) close() {
+	if r.dir != nil {
+		r.dir.Abort()
+	}
+	for _, s := range r.scenes {
+		if s != nil {
+			s.Close()
+		}
+	}
+	for _, c := range r.cleanups {
+		c()
+	}
+}
+
+// warnf keeps a warning for the summary; the command prints them at the
+// end, so that a run that fails prints only its error.
+func (r *seriesRun) warnf(format string, args ...any) {
+	r.warnings = append(r.warnings, fmt.Sprintf(format, args...))
+}
+
+// name names date i for people and outputs: its date and its stack's
+// label, never one member file.
+func (r *seriesRun) name(i int) string {
+	if r.dates[i].Label == "" {
+		return describe(r.scenes[i])
+	}
+	return r.dates[i].Label + " (" + describe(r.scenes[i]) + ")"
+}
+
+// open checks the files, dates the scenes, opens them in date order (all
+// on the first's grid, or aligned onto it), matches their bands and opens
+// the output folder.
+func (r *seriesRun) open(context.Context) error {
+	c := r.c
+	var ins []output.Path
+	for i, arg := range c.Args {
+		ins = append(ins, argPaths(c.Roles[i], []string{arg}, c.Inputs[i].Masks)...)
+	}
+	ins = append(ins, c.Extra...)
+	outs := []output.Path{{Role: "output folder", Path: c.Out, Folder: true}}
+	if err := output.Distinct(ins, outs); err != nil {
+		return err
+	}
+	if err := output.CheckFolder(c.Out, c.Overwrite); err != nil {
+		return err
+	}
+	if err := r.date(); err != nil {
+		return err
+	}
+	var err error
+	if c.Basis != "" {
+		if r.given, err = transform.ReadBasis(c.Basis); err != nil {
+			return err
+		}
+		for i := range r.inputs {
+			if r.inputs[i], err = r.inputs[i].withBasis(r.given, c.Basis); err != nil {
+				return err
+			}
+		}
+	}
+	if err := r.openScenes(); err != nil {
+		return err
+	}
+	if err := r.matchBands(); err != nil {
+		return err
+	}
+	if err := r.distinct(outs); err != nil {
+		return err
+	}
+	first := r.scenes[0]
+	if err := needTwoBands(first, r.inputs[0].Bands); err != nil {
+		return err
+	}
+	r.tiles = numbered(gridFor(first, c.Tile))
+	r.pairs = c.Pairs(len(r.scenes))
+	if err := r.setAreas(); err != nil {
+		return err
+	}
+	if r.given != nil {
+		if err := checkBands(r.given, c.Basis, first, bandCheck{selected: c.BandsChosen || r.matched != "", ignoreNames: c.IgnoreBandNames}); err != nil {
+			return err
+		}
+	}
+	r.dir, err = output.CreateFolder(c.Out, c.Overwrite)
+	return err
+}
+
+// distinct refuses an output folder that holds or is any file the stacks
+// read (their members, masks and the MTLs beside them).
+func (r *seriesRun) distinct(outs []output.Path) error {
+	ins := slices.Clone(r.c.Extra)
+	for i, s := range r.scenes {
+		for _, p := range s.Paths {
+			ins = append(ins, output.Path{Role: r.c.Roles[min(i, len(r.c.Roles)-1)], Path: p})
+		}
+		for _, m := range s.Masks {
+			ins = append(ins, output.Path{Role: "mask", Path: m})
+		}
+		for _, p := range s.SideFiles() {
+			ins = append(ins, output.Path{Role: "metadata", Path: p})
+		}
+	}
+	return output.Distinct(ins, outs)
+}
+
+// setAreas sets the cell areas (nil without a CRS) and the minimum
+// mapping unit in pixels.
+func (r *seriesRun) setAreas() error {
+	first := r.scenes[0]
+	var err error
+	r.areas, err = raster.NewCellAreas(first.Grid)
+	if errors.Is(err, raster.ErrNoCRS) {
+		if r.c.MinArea.M2 > 0 {
+			return Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", describe(first))
+		}
+		r.env.warn("%s has no CRS: areas are given in pixels only", r.args[0])
+		r.areas = nil
+	} else if err != nil {
+		return fmt.Errorf("%s: %w", r.args[0], err)
+	}
+	r.minPixels, err = r.c.MinArea.pixels(r.areas)
+	return err
+}
+
+// date dates every scene (--dates, else raster.SceneDate) and, for a
+// chronological series, sorts them; two scenes of one date are refused,
+// and sources of one scene that disagree are warned about.
+func (r *seriesRun) date() error {
+	c := r.c
+	type dated struct {
+		arg string
+		in  Input
+		d   raster.Date
+	}
+	var all []dated
+	for i, arg := range c.Args {
+		var d raster.Date
+		if c.Dates != nil {
+			given := strings.TrimSpace(c.Dates[i])
+			v, ok := raster.ParseDate(given)
+			if !ok {
+				return Usagef("--dates: %q (for %s) is not a date: want YYYY-MM-DD, YYYYMMDD or YYYY", given, arg)
+			}
+			v.Source, d = "--dates", v
+		} else {
+			v, disagree, err := raster.SceneDate(SplitStack(arg)[0])
+			if errors.Is(err, raster.ErrNoDate) && !c.Chronological {
+				v, err = raster.Date{}, nil // an undated date of a pair is named by its stack alone
+			}
+			if errors.Is(err, raster.ErrNoDate) {
+				return fmt.Errorf("%s has no date: none in its metadata (a Landsat MTL's DATE_ACQUIRED, ACQUISITIONDATETIME, ACQUISITION_DATE, TIFFTAG_DATETIME) or its name (YYYY-MM-DD, YYYYMMDD, YYYY); give the dates with --dates", arg)
+			} else if err != nil {
+				return err
+			}
+			if len(disagree) > 0 {
+				r.warnf("%s: its date %s from %s, but %s", arg, v.Label, v.Source, strings.Join(disagree, ", "))
+			}
+			d = v
+		}
+		all = append(all, dated{arg, c.Inputs[i], d})
+	}
+	if c.Chronological {
+		slices.SortStableFunc(all, func(a, b dated) int { return a.d.Time.Compare(b.d.Time) })
+	}
+	for i := range all {
+		for j := range i {
+			if all[i].d.Label != "" && all[i].d.Time.Equal(all[j].d.Time) {
+				return Usagef("%s and %s have the same date %s (from %s and %s): each date needs one scene", all[j].arg, all[i].arg, all[i].d.Label, all[j].d.Source, all[i].d.Source)
+			}
+		}
+	}
+	if !c.Chronological && len(all) == 2 && all[1].d.Label != "" && all[0].d.Time.After(all[1].d.Time) {
+		r.warnf("%s (%s) is later than %s (%s): the map shows the change from the later date to the earlier one; swap them if that is not meant",
+			all[0].arg, all[0].d.Label, all[1].arg, all[1].d.Label)
+	}
+	for _, a := range all {
+		r.args, r.inputs, r.dates = append(r.args, a.arg), append(r.inputs, a.in), append(r.dates, a.d)
+	}
+	if c.RefDate != "" {
+		want, ok := raster.ParseDate(c.RefDate)
+		if !ok {
+			return Usagef("--reference-date %q: want YYYY-MM-DD, YYYYMMDD or YYYY", c.RefDate)
+		}
+		r.ref = slices.IndexFunc(r.dates, func(d raster.Date) bool { return d.Label == want.Label })
+		if r.ref < 0 {
+			labels := make([]string, len(r.dates))
+			for i, d := range r.dates {
+				labels[i] = d.Label
+			}
+			return Usagef("--reference-date %s: no scene has that date (the dates are %s)", want.Label, strings.Join(labels, ", "))
+		}
+	}
+	return nil
+}
+
+// openScenes opens the scenes in date order, each on the first's grid.
+func (r *seriesRun) openScenes() error {
+	first, err := openImage(r.args[0], r.inputs[0].options())
+	if err != nil {
+		return err
+	}
+	r.scenes = append(r.scenes[:0], first)
+	g := onGrid{ref: first, align: r.c.Align, resampling: r.c.Resampling}
+	for i, arg := range r.args[1:] {
+		s, aligned, err := g.open(r.env, arg, r.inputs[i+1].options(), &r.cleanups)
+		if err != nil {
+			return err
+		}
+		r.scenes = append(r.scenes, s)
+		r.aligned = r.aligned || aligned
+	}
+	return nil
+}
+
+// reopen closes the scenes and opens them again with the inputs as they
+// are now (after an automatic band selection).
+func (r *seriesRun) reopen() error {
+	for _, s := range r.scenes {
+		s.Close()
+	}
+	r.scenes = nil
+	return r.openScenes()
+}
+
+// spectralBands describes a stack's bands for matching.
+func spectralBands(s *raster.Stack) []transform.SpectralBand {
+	out := make([]transform.SpectralBand, len(s.Bands))
+	for i, b := range s.Bands {
+		label := b.Name
+		if b.Product != "" {
+			label = b.Product
+		}
+		out[i] = transform.SpectralBand{Label: label, LoNM: b.Range.LoNM, HiNM: b.Range.HiNM, Centre: b.WavelengthNM}
+	}
+	return out
+}
+
+// matchBands checks that the dates' bands correspond, date by date against
+// the first: the same number, and where both wavelengths are known, each
+// band's centre within the other's range (transform.Compatible). When the
+// user chose no bands and the dates' bands differ, the bands every date
+// shares by wavelength are selected (said on stderr and in the summary);
+// a mismatch of chosen bands is refused naming both bands, unless
+// --ignore-band-names.
+func (r *seriesRun) matchBands() error {
+	if r.c.IgnoreBandNames {
+		return r.sameCount()
+	}
+	first := spectralBands(r.scenes[0])
+	bad := -1
+	for d := 1; d < len(r.scenes) && bad < 0; d++ {
+		if !r.correspond(first, spectralBands(r.scenes[d])) {
+			bad = d
+		}
+	}
+	if bad < 0 {
+		return r.sameCount()
+	}
+	if r.c.BandsChosen || r.given != nil {
+		return r.mismatch(bad)
+	}
+	// Keep the bands of the first date every other date has, each date's
+	// band nearest in wavelength.
+	keep := make([][]int, len(r.scenes))
+	shared := make([]bool, len(first))
+	for i := range shared {
+		shared[i] = first[i].Known()
+	}
+	pairs := make([][][2]int, len(r.scenes))
+	for d := 1; d < len(r.scenes); d++ {
+		pairs[d] = transform.MatchShared(first, spectralBands(r.scenes[d]))
+		in := make([]bool, len(first))
+		for _, p := range pairs[d] {
+			in[p[0]] = true
+		}
+		for i := range shared {
+			shared[i] = shared[i] && in[i]
+		}
+	}
+	var labels []string
+	for i, ok := range shared {
+		if !ok {
+			continue
+		}
+		keep[0] = append(keep[0], i+1) // the stacks were opened whole: position i is band i+1
+		parts := []string{first[i].Label}
+		for d := 1; d < len(r.scenes); d++ {
+			for _, p := range pairs[d] {
+				if p[0] == i {
+					keep[d] = append(keep[d], p[1]+1)
+					parts = append(parts, spectralBands(r.scenes[d])[p[1]].Label)
+				}
+			}
+		}
+		labels = append(labels, strings.Join(parts, " = "))
+	}
+	if len(labels) < 2 {
+		return r.mismatch(bad)
+	}
+	for d := range r.inputs {
+		r.inputs[d].Bands = keep[d]
+	}
+	r.matched = "bands matched by wavelength: " + strings.Join(labels, "; ")
+	r.env.warn("the dates' bands differ: %s", r.matched)
+	if err := r.reopen(); err != nil {
+		return err
+	}
+	return r.sameCount()
+}
+
+// correspond reports whether a date's bands can be compared with the
+// first date's band for band.
+func (r *seriesRun) correspond(first, other []transform.SpectralBand) bool {
+	if len(first) != len(other) {
+		return false
+	}
+	for i := range first {
+		if !transform.Compatible(first[i], other[i]) || namesDiffer(first[i], other[i]) {
+			return false
+		}
+	}
+	return true
+}
+
+// namesDiffer reports whether two bands of unknown wavelength carry
+// different descriptions ("blue", "green"): bands named by their files
+// ("scene:1") or by a product's band tables say nothing here.
+func namesDiffer(a, b transform.SpectralBand) bool {
+	if a.Known() && b.Known() {
+		return false
+	}
+	described := func(s string) bool { return s != "" && !strings.Contains(s, ":") }
+	return described(a.Label) && described(b.Label) && a.Label != b.Label
+}
+
+// sameCount refuses dates with different numbers of bands.
+func (r *seriesRun) sameCount() error {
+	first := r.scenes[0]
+	every := "every date needs"
+	if len(r.scenes) == 2 {
+		every = "both dates need"
+	}
+	for d, s := range r.scenes[1:] {
+		if s.Len() != first.Len() {
+			err := fmt.Errorf("%s has %d bands but %s has %d bands: %s the same bands (select them per date: %s)",
+				describe(first), first.Len(), describe(s), s.Len(), every, r.bandsHint(d+1))
+			if r.c.BandsChosen {
+				return usage(err) // the selections themselves differ
+			}
+			return err
+		}
+	}
+	return nil
+}
+
+// bandsHint names the options that select bands per date.
+func (r *seriesRun) bandsHint(int) string {
+	if r.c.Chronological {
+		return "--scene-bands, once per scene"
+	}
+	return "--bands-before and --bands-after"
+}
+
+// mismatch is the refusal of date d's bands against the first date's.
+func (r *seriesRun) mismatch(d int) error {
+	first, other := spectralBands(r.scenes[0]), spectralBands(r.scenes[d])
+	if len(first) != len(other) {
+		return r.sameCount()
+	}
+	for i := range first {
+		if namesDiffer(first[i], other[i]) {
+			return fmt.Errorf("band %d of %s is %q but of %s %q: every date needs the same bands in the same order (or pass --ignore-band-names)",
+				i+1, describe(r.scenes[d]), other[i].Label, describe(r.scenes[0]), first[i].Label)
+		}
+		if !transform.Compatible(first[i], other[i]) {
+			return Usagef("band %d of %s is %s (%s) but of %s %s (%s): the dates would compare different wavelengths; select matching bands per date (%s), or pass --ignore-band-names to compare them anyway",
+				i+1, describe(r.scenes[0]), first[i].Label, nmRange(first[i]), describe(r.scenes[d]), other[i].Label, nmRange(other[i]), r.bandsHint(d))
+		}
+	}
+	return nil
+}
+
+// nmRange writes a band's wavelengths for people.
+func nmRange(b transform.SpectralBand) string {
+	if b.HiNM > b.LoNM {
+		return fmt.Sprintf("%g-%g nm", b.LoNM, b.HiNM)
+	}
+	return fmt.Sprintf("%g nm", b.Centre)
+}

@@ -1,0 +1,137 @@
+package job
+
+import (
+	"context"
+	"fmt"
+	"runtime/debug"
+	"sync"
+
+	"bandfold/raster"
+	"bandfold/tiles"
+)
+
+// pairTile is one tile of every scored pair's change statistic.
+type pairTile struct {
+	z          [][]float64 // per pair
+	flags, top [][]uint8   // per pair
+	// extra is the command's own per-tile results (mapHooks).
+	extra any
+}
+
+// mapHooks are what a command adds to the engine's map pass: per worker,
+// pair is called after each chunk of a pair is scored (rows lo to hi of
+// the tile, pixel offsets), with the dates' raw values of the tile at
+// hand; done once a tile is scored. deliver runs in tile order in the
+// one goroutine that merges.
+type mapHooks struct {
+	newWorker func() tileHook
+	deliver   func(t tiles.Tile, pt *pairTile) error
+}
+
+// tileHook is a worker's share of a command's map outputs.
+type tileHook interface {
+	begin(t tiles.Tile, pt *pairTile)
+	pair(q int, t tiles.Tile, lo, hi int, x [2][]float64, both []bool, s *pairScorer, pt *pairTile)
+	done(t tiles.Tile, pt *pairTile)
+}
+
+// seriesChunk is the number of pixels a worker scores at a time: the
+// scorers' buffers stay small whatever the tile and the number of pairs.
+const seriesChunk = 2048
+
+// pairWorker reads the dates of a tile in order into a ring holding the
+// last ring dates and scores the pairs ending on each date.
+type pairWorker struct {
+	*seriesReader
+	scorers []*pairScorer
+	pairs   [][2]int
+	ring    int
+	pool    *sync.Pool
+	hook    tileHook
+	p       int
+	both    []bool
+	ending  []int
+}
+
+func (w *pairWorker) Do(_ context.Context, t tiles.Tile) (*pairTile, error) {
+	n, p := t.Pixels(), w.p
+	pt := w.pool.Get().(*pairTile)
+	Q := len(w.pairs)
+	pt.z, pt.flags, pt.top = grows(pt.z, Q, n), grows(pt.flags, Q, n), grows(pt.top, Q, n)
+	w.hook.begin(t, pt)
+	w.both = grow(w.both, seriesChunk)
+	for d := range w.scenes {
+		if err := w.readDate(t.Index, d, d%w.ring); err != nil {
+			return nil, err
+		}
+		w.ending = w.ending[:0]
+		for q, pr := range w.pairs {
+			if pr[1] == d {
+				w.ending = append(w.ending, q)
+			}
+		}
+		for lo := 0; lo < n; lo += seriesChunk {
+			hi := min(n, lo+seriesChunk)
+			for _, q := range w.ending {
+				a, b := w.pairs[q][0]%w.ring, w.pairs[q][1]%w.ring
+				both := w.both[:hi-lo]
+				for i := range both {
+					both[i] = w.valid[a][lo+i] && w.valid[b][lo+i]
+				}
+				x := [2][]float64{w.x[a][lo*p : hi*p], w.x[b][lo*p : hi*p]}
+				w.scorers[q].score(x[0], x[1], both, pt.z[q][lo:hi], pt.top[q][lo:hi], pt.flags[q][lo:hi])
+				w.hook.pair(q, t, lo, hi, x, both, w.scorers[q], pt)
+			}
+		}
+	}
+	w.hook.done(t, pt)
+	return pt, nil
+}
+
+// grows returns m rows of n values, reusing buf.
+func grows[T any](buf [][]T, m, n int) [][]T {
+	if len(buf) < m {
+		buf = append(buf, make([][]T, m-len(buf))...)
+	}
+	buf = buf[:m]
+	for i := range buf {
+		buf[i] = grow(buf[i], n)
+	}
+	return buf
+}
+
+// mapPairs scores every pair in one pass over the tiles, handing each
+// tile to the command's hooks.
+func (r *seriesRun) mapPairs(ctx context.Context, h mapHooks) error {
+	g := r.scenes[0].Grid
+	ring := 1
+	for _, pr := range r.pairs {
+		ring = max(ring, pr[1]-pr[0]+1)
+	}
+	pool := &sync.Pool{New: func() any { return &pairTile{} }}
+	return tiles.Run(ctx, r.tiles, tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", int64(g.Width)*int64(g.Height))},
+		func(int) (tiles.Worker[*pairTile], error) {
+			w := &pairWorker{seriesReader: newSeriesReader(r.scenes, r.tiles, ring), pairs: r.pairs, ring: ring, pool: pool,
+				hook: h.newWorker(), p: r.scenes[0].Len()}
+			for q, pr := range r.pairs {
+				w.scorers = append(w.scorers, newPairScorer(r.proj, r.fits[q], r.norms[pr[0]], r.norms[pr[1]]))
+			}
+			return w, nil
+		},
+		func(t tiles.Tile, pt *pairTile) error {
+			defer pool.Put(pt)
+			return h.deliver(t, pt)
+		})
+}
+
+// sieve applies the minimum mapping unit to each mask; the tile buffers
+// are garbage by now: their pages go back before the sieve.
+func (r *seriesRun) sieve(ctx context.Context, masks []*raster.ChangeMask, what func(q int) string) error {
+	debug.FreeOSMemory()
+	for q, m := range masks {
+		if err := m.SieveContext(ctx, r.minPixels); err != nil {
+			return fmt.Errorf("sieve%s: %w", what(q), err)
+		}
+	}
+	return nil
+}
