@@ -20,7 +20,27 @@ var (
 	ErrNotRaster    = errors.New("not a raster GDAL can read")
 	ErrGridMismatch = errors.New("grids differ")
 	ErrBandRange    = errors.New("band out of range")
+	// ErrComplex marks a selected band (or a mask's band 1) of a complex
+	// type, CInt16, CInt32, CFloat32 or CFloat64: bandfold reads real
+	// values only, and GDAL would silently drop the imaginary part. Its
+	// errors also match ErrBadSpec: the band selection cannot apply.
+	ErrComplex = errors.New("complex band")
 )
+
+// isComplex reports whether a GDAL data type name is a complex type.
+func isComplex(dataType string) bool {
+	switch dataType {
+	case "CInt16", "CInt32", "CFloat32", "CFloat64":
+		return true
+	}
+	return false
+}
+
+// complexErr is the refusal of band index of path, of complex type
+// dataType; it matches ErrComplex and ErrBadSpec.
+func complexErr(prefix, path string, index int, dataType string) error {
+	return specErr(errors.Join(ErrComplex, ErrBadSpec), "%sband %d of %s is complex (%s): bandfold reads real values only", prefix, index, path, dataType)
+}
 
 // Grid is the pixel grid of a raster: its size, geotransform and CRS.
 type Grid struct {
@@ -280,6 +300,9 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	for _, n := range sel {
 		if n < 1 || n > len(all) {
 			return nil, specErr(ErrBandRange, "%s: band %d selected but the stack has %d bands", strings.Join(paths, ", "), n, len(all))
+		}
+		if b := all[n-1]; isComplex(b.DataType) {
+			return nil, complexErr("", b.Path, b.Index, b.DataType)
 		}
 		s.addBand(all[n-1], fileOf[n-1])
 	}
