@@ -11,6 +11,8 @@ import (
 	"strings"
 
 	"github.com/airbusgeo/godal"
+
+	"bandfold/raster/output"
 )
 
 // Sentinel errors callers may branch on. Errors returned by this package wrap
@@ -198,13 +200,12 @@ func IsVirtual(path string) bool { return strings.HasPrefix(path, "/vsi") }
 // openDataset opens path read-only with a clear, file-naming error.
 func openDataset(path string) (*godal.Dataset, error) {
 	if !IsVirtual(path) {
-		fi, err := os.Stat(path)
-		switch {
-		case errors.Is(err, os.ErrNotExist):
-			return nil, fmt.Errorf("%s: %w", path, ErrNotFound)
-		case err != nil:
-			return nil, fmt.Errorf("%s: %w", path, err)
-		case fi.IsDir():
+		// A missing or unreadable file matches output.ErrInput (a usage
+		// error) and, missing, ErrNotFound.
+		if err := output.CheckInput(path, ErrNotFound); err != nil {
+			return nil, err
+		}
+		if fi, err := os.Stat(path); err == nil && fi.IsDir() {
 			return nil, fmt.Errorf("%s: is a folder: %w", path, ErrNotRaster)
 		}
 	}

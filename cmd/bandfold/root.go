@@ -134,6 +134,9 @@ func (g *globals) runE(work func(ctx context.Context, env job.Env, args []string
 		if g.workers < 1 {
 			return job.Usagef("--workers %d: need at least 1", g.workers)
 		}
+		if err := cli.CheckInputs(cmd, args); err != nil {
+			return err
+		}
 		// A soft limit makes the collector work harder before the heap
 		// grows past what the tile buffers need; GOMEMLIMIT in the
 		// environment wins.

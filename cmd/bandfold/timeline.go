@@ -61,6 +61,8 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled per pair to estimate its no-change distribution")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous timeline output folder")
 	cmd.MarkFlagRequired("out")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "basis")
 	return cmd
 }
 
