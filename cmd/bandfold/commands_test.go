@@ -60,3 +60,23 @@ func TestUnknownCommandsAreUsageErrors(t *testing.T) {
 		}
 	}
 }
+
+// TestFlagValuesInUserWords (issue 24, item 10): a flag value pflag cannot
+// parse is refused in the user's words, naming the flag, the value and
+// what it wants, never "strconv.ParseInt: parsing ..."; exit 2. Known by
+// construction: each value is not of its flag's type.
+func TestFlagValuesInUserWords(t *testing.T) {
+	for _, tc := range []badCase{
+		{"int", []string{"learn", "x.tif", "--out", "y.json", "--stride", "x"}, 2, []string{`--stride "x": want a whole number`}},
+		{"int shorthand", []string{"learn", "x.tif", "--out", "y.json", "-k", "two"}, 2, []string{`--components "two": want a whole number`}},
+		{"float out of range", []string{"learn", "x.tif", "--out", "y.json", "--variance", "1e999"}, 2, []string{`--variance "1e999": out of range`}},
+		{"bool", []string{"learn", "x.tif", "--out", "y.json", "--overwrite=maybe"}, 2, []string{`--overwrite "maybe": want true or false`}},
+		{"uint", []string{"survey", "draw", "d", "--out", "s.gpkg", "--seed", "-1"}, 2, []string{`--seed "-1": want a whole number, 0 or more`}},
+	} {
+		code, stdout, stderr := bandfold(t, tc.argv...)
+		checkFailure(t, tc, code, stdout, stderr)
+		if strings.Contains(stderr, "strconv") || strings.Contains(stderr, "invalid argument") {
+			t.Errorf("%s: %q leaks the parser", tc.name, stderr)
+		}
+	}
+}

@@ -1,11 +1,13 @@
 package cli
 
 import (
+	"errors"
 	"fmt"
 	"strconv"
 	"strings"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"bandfold/cmd/bandfold/internal/job"
 )
@@ -31,6 +33,34 @@ func StrictCommands(root *cobra.Command) {
 		}
 	}
 	walk(root)
+	root.SetFlagErrorFunc(flagError)
+}
+
+// flagError turns pflag's refusal of a flag value ("invalid argument "x"
+// for "--stride" flag: strconv.ParseInt: parsing "x": invalid syntax")
+// into the user's words: `--stride "x": want a whole number`.
+func flagError(_ *cobra.Command, err error) error {
+	var ive *pflag.InvalidValueError
+	if !errors.As(err, &ive) {
+		return err
+	}
+	want := "not a valid value"
+	switch ive.GetFlag().Value.Type() {
+	case "int", "int8", "int16", "int32", "int64", "intSlice", "int32Slice", "int64Slice":
+		want = "want a whole number"
+	case "uint", "uint8", "uint16", "uint32", "uint64", "uintSlice":
+		want = "want a whole number, 0 or more"
+	case "float32", "float64", "float32Slice", "float64Slice":
+		want = "want a number"
+	case "bool", "boolSlice":
+		want = "want true or false"
+	case "duration", "durationSlice":
+		want = `want a duration such as "90s" or "5m"`
+	}
+	if errors.Is(err, strconv.ErrRange) {
+		want = "out of range"
+	}
+	return &job.UsageError{Err: fmt.Errorf("--%s %q: %s", ive.GetFlag().Name, ive.GetValue(), want)}
 }
 
 // unknownSubcommand refuses the arguments of a command that only groups
