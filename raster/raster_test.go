@@ -12,6 +12,7 @@ import (
 
 	"github.com/airbusgeo/godal"
 
+	"bandfold/internal/testenv"
 	"bandfold/raster/output"
 	"bandfold/tiles"
 )
@@ -308,9 +309,7 @@ func TestScaleOffsetApplied(t *testing.T) {
 // the writer put in the file.
 func gdalinfo(t *testing.T, path string) map[string]any {
 	t.Helper()
-	if _, err := exec.LookPath("gdalinfo"); err != nil {
-		t.Skip("gdalinfo not installed (Debian's gdal-bin; make test installs it)")
-	}
+	testenv.NeedTool(t, "gdalinfo", "gdal-bin")
 	out, err := exec.Command("gdalinfo", "-json", "-mdd", "all", path).Output()
 	if err != nil {
 		t.Fatalf("gdalinfo %s: %v", path, err)
