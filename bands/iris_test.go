@@ -11,6 +11,8 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/stat"
+
+	"bandfold/internal/testenv"
 )
 
 // irisPath is Fisher's iris data as shipped in Debian's python3-sklearn
@@ -24,7 +26,7 @@ func readIris(t *testing.T) []float64 {
 	t.Helper()
 	f, err := os.Open(irisPath)
 	if errors.Is(err, fs.ErrNotExist) {
-		t.Skipf("%s is absent: run `make testdata` to fetch it from Debian's python3-sklearn", irisPath)
+		testenv.Missing(t, "%s is absent: run `make testdata` to fetch it from Debian's python3-sklearn", irisPath)
 	}
 	if err != nil {
 		t.Fatal(err)

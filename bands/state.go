@@ -53,14 +53,15 @@ func (a *Accumulator) State() State {
 
 // FromState returns an Accumulator holding the statistics in s. It returns an
 // error wrapping ErrInvalidState if s is malformed: no bands, inconsistent
-// lengths, a non-finite value, a negative count, an asymmetric co-moment
+// lengths, a non-finite value (a mean or co-moment that is not finite
+// also wraps ErrTooLarge: the sums overflowed), a negative count, an asymmetric co-moment
 // matrix or one with a negative diagonal, a minimum above a maximum, or an
 // empty state with non-zero statistics, or exact sums that are malformed or
 // do not give its count, mean and co-moment. A state with exact sums gives
 // an exact accumulator.
 func FromState(s State) (*Accumulator, error) {
 	if err := s.check(); err != nil {
-		return nil, fmt.Errorf("%w: %s", ErrInvalidState, err)
+		return nil, fmt.Errorf("%w: %w", ErrInvalidState, err)
 	}
 	a := NewAccumulator(len(s.Mean))
 	p := a.p
@@ -106,10 +107,16 @@ func (s *State) check() error {
 	} else if len(s.Min) != p || len(s.Max) != p {
 		return fmt.Errorf("min and max have lengths %d and %d, want %d", len(s.Min), len(s.Max), p)
 	}
+	if !allFinite(s.Mean) {
+		return ErrTooLarge
+	}
 	if err := checkVector("mean", s.Mean, empty); err != nil {
 		return err
 	}
 	for i, row := range s.CoMoment {
+		if !allFinite(row) {
+			return ErrTooLarge
+		}
 		if err := checkVector(fmt.Sprintf("comoment row %d", i), row, empty); err != nil {
 			return err
 		}

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"math"
 	"math/rand/v2"
+	"strings"
 	"testing"
 )
 
@@ -187,4 +188,25 @@ func FuzzFromStateJSON(f *testing.F) {
 			t.Fatalf("round trip of %s differs", out)
 		}
 	})
+}
+
+// TestTooLarge (issue 24, item 10): values of 1e300, whose squares pass the
+// float64 range, make the co-moment NaN; the accumulator and its state say
+// so with ErrTooLarge (known by construction: (1e300)^2 = +Inf), and
+// values of 1e150 are summed.
+func TestTooLarge(t *testing.T) {
+	for _, c := range []struct {
+		v    float64
+		want error
+	}{{1e300, ErrTooLarge}, {1e150, nil}} {
+		a := NewAccumulator(2)
+		a.AddPixels([]float64{c.v, 1, -c.v, 2, c.v / 2, 3}, []bool{true, true, true})
+		if err := a.Err(); !errors.Is(err, c.want) || (c.want == nil) != (err == nil) {
+			t.Errorf("%g: Err() = %v, want %v", c.v, err, c.want)
+		}
+		_, err := FromState(a.State())
+		if (c.want == nil) != (err == nil) || c.want != nil && (!errors.Is(err, ErrTooLarge) || !errors.Is(err, ErrInvalidState) || strings.Contains(err.Error(), "NaN")) {
+			t.Errorf("%g: FromState = %v, want %v", c.v, err, c.want)
+		}
+	}
 }

@@ -9,6 +9,8 @@ import (
 	"testing"
 
 	"github.com/airbusgeo/godal"
+
+	"bandfold/internal/testenv"
 )
 
 // TestAlignStack stacks a 30 m band with a 15 m band over the same ground.
@@ -16,9 +18,7 @@ import (
 // AlignStack("average") the fine band reads as GDAL's own gdalwarp -tr 30
 // 30 -r average makes it, to 1e-12.
 func TestAlignStack(t *testing.T) {
-	if _, err := exec.LookPath("gdalwarp"); err != nil {
-		t.Skip("gdalwarp not installed (Debian's gdal-bin): cannot make the reference resampling")
-	}
+	testenv.NeedTool(t, "gdalwarp", "gdal-bin") // for the reference resampling
 	dir := t.TempDir()
 	coarse := defaultRaster()
 	coarse.w, coarse.h, coarse.bands, coarse.dtype = 20, 12, 1, godal.Float64

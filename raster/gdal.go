@@ -169,3 +169,23 @@ func tidy(err error) error {
 	}
 	return &tidyError{strings.Join(keep, "; "), err}
 }
+
+// tidyRead is tidy for a failed read of a file's data: GDAL's read of a
+// damaged or truncated file can fail without a message, which godal then
+// reports as "unknown cpl error 3" (or "unknown error"); that is said in
+// the user's words.
+func tidyRead(err error) error {
+	if err == nil {
+		return nil
+	}
+	var keep []string
+	for _, l := range strings.Split(tidy(err).Error(), "; ") {
+		if strings.HasPrefix(l, "unknown cpl error ") || l == "unknown error" {
+			l = "cannot read the data (the file is damaged or truncated)"
+		}
+		if !slices.Contains(keep, l) {
+			keep = append(keep, l)
+		}
+	}
+	return &tidyError{strings.Join(keep, "; "), err}
+}

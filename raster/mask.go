@@ -203,12 +203,15 @@ type maskTest struct {
 // (from the file itself, before any warp) and prepares it.
 func newMaskTest(r MaskRule, dataType string, nodata float64, hasND bool) (maskTest, error) {
 	m := maskTest{values: r.Values, nodata: nodata, hasND: hasND && !math.IsNaN(nodata)}
+	if isComplex(dataType) {
+		return m, complexErr("mask: ", r.Path, 1, dataType)
+	}
 	if len(r.Bits) == 0 {
 		return m, nil
 	}
 	width := integerBits(dataType)
 	if width == 0 {
-		return m, fmt.Errorf("mask %s: bit rules need an integer band, band 1 is %s", r.Path, dataType)
+		return m, specErr(ErrBadSpec, "mask %s: bit rules need an integer band, band 1 is %s", r.Path, dataType)
 	}
 	exact := width
 	if width == 64 {
@@ -216,7 +219,7 @@ func newMaskTest(r MaskRule, dataType string, nodata float64, hasND bool) (maskT
 	}
 	for _, b := range r.Bits {
 		if b >= exact {
-			return m, fmt.Errorf("mask %s: bit %d is beyond the %d bits of its %s band 1", r.Path, b, exact, dataType)
+			return m, specErr(ErrBadSpec, "mask %s: bit %d is beyond the %d bits of its %s band 1", r.Path, b, exact, dataType)
 		}
 		m.bits |= 1 << b
 	}

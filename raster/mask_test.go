@@ -224,9 +224,11 @@ func TestMaskErrors(t *testing.T) {
 		is   error
 	}{
 		{filepath.Join(dir, "missing.tif"), []string{"missing.tif"}, ErrNotFound},
-		{float + ":bits=1", []string{"float.tif", "integer", "Float32"}, nil},
-		{class + ":bits=8", []string{"class.tif", "bit 8", "8 bits", "Byte"}, nil},
-		{qa + ":bits=16", []string{"qa.tif", "bit 16", "16 bits", "UInt16"}, nil},
+		// Issue 24, item 9: a bit rule that cannot apply to the mask's
+		// type is the user's rule that is wrong (ErrBadSpec, exit 2).
+		{float + ":bits=1", []string{"float.tif", "integer", "Float32"}, ErrBadSpec},
+		{class + ":bits=8", []string{"class.tif", "bit 8", "8 bits", "Byte"}, ErrBadSpec},
+		{qa + ":bits=16", []string{"qa.tif", "bit 16", "16 bits", "UInt16"}, ErrBadSpec},
 		{other, []string{"coarse.tif", "3x2 pixels of 20 x 20", "6x4 pixels of 10 x 10", "image.tif", "--align"}, ErrGridMismatch},
 	}
 	for _, tc := range tests {
@@ -244,6 +246,13 @@ func TestMaskErrors(t *testing.T) {
 				t.Errorf("%s: %q does not say %q", tc.spec, err, w)
 			}
 		}
+	}
+	// Issue 24, item 4: a complex mask is refused, naming it.
+	cm := defaultRaster()
+	cm.w, cm.h, cm.bands, cm.dtype = 6, 4, 1, godal.CInt16
+	cmask := cm.write(t, filepath.Join(dir, "cmask.tif"))
+	if _, err := Open([]string{image}, Mask(cmask)); !errors.Is(err, ErrComplex) || !strings.Contains(err.Error(), "band 1 of "+cmask+" is complex (CInt16)") {
+		t.Errorf("complex mask: got %v, want ErrComplex naming the file", err)
 	}
 	// Masks hold codes: only nearest and mode may warp them.
 	if _, err := Open([]string{image}, Mask(other), AlignMasks("bilinear")); !errors.Is(err, ErrBadSpec) {

@@ -2,11 +2,12 @@ package raster
 
 import (
 	"fmt"
-	"os"
 	"os/exec"
 	"path/filepath"
 	"slices"
 	"testing"
+
+	"bandfold/internal/testenv"
 )
 
 // landsatSubset is the Landsat 7 ETM+ subset shipped in r-cran-stars as
@@ -130,12 +131,8 @@ func TestLabelAndNames(t *testing.T) {
 // bands are named after the differing part of the file names, and the
 // pixels equal those of the 6-band original (gdal_translate copies them).
 func TestLandsatSingleBandFiles(t *testing.T) {
-	if _, err := os.Stat(landsatSubset); err != nil {
-		t.Skip("testdata/external/L7_ETMs.tif missing: run bash scripts/testdata.sh")
-	}
-	if _, err := exec.LookPath("gdal_translate"); err != nil {
-		t.Skip("gdal_translate not installed (Debian's gdal-bin)")
-	}
+	testenv.NeedFile(t, landsatSubset, "run bash scripts/testdata.sh")
+	testenv.NeedTool(t, "gdal_translate", "gdal-bin")
 	dir := t.TempDir()
 	bands := []int{1, 2, 3, 4, 5, 7} // the ETM+ bands of the subset's six
 	var paths, want []string

@@ -14,6 +14,7 @@ import (
 	"strings"
 	"testing"
 
+	"bandfold/internal/testenv"
 	"bandfold/raster/output"
 )
 
@@ -229,9 +230,7 @@ type patchRow struct {
 // included. Rows are sorted by size; crs is the GeoJSON crs name.
 func readPatches(t *testing.T, path string) (rows []patchRow, crs string) {
 	t.Helper()
-	if _, err := exec.LookPath("ogr2ogr"); err != nil {
-		t.Skip("ogr2ogr not installed (Debian's gdal-bin; make test installs it)")
-	}
+	testenv.NeedTool(t, "ogr2ogr", "gdal-bin")
 	out, err := exec.Command("ogr2ogr", "-f", "GeoJSON", "/vsistdout/", path, "changes").Output()
 	if err != nil {
 		t.Fatalf("ogr2ogr %s: %v", path, err)

@@ -12,6 +12,7 @@ import (
 
 	"github.com/airbusgeo/godal"
 
+	"bandfold/internal/testenv"
 	"bandfold/raster/output"
 	"bandfold/tiles"
 )
@@ -176,6 +177,14 @@ func TestOpenBadInputs(t *testing.T) {
 	other := defaultRaster()
 	other.w = 10
 	otherGrid := other.write(t, filepath.Join(dir, "other.tif"))
+	// Issue 24, item 4: complex bands (band 2 of a stack of good.tif and
+	// a one-band complex file; band 1 of a CFloat32 file) are refused,
+	// naming the band and its file, and match ErrBadSpec too (exit 2).
+	cx := defaultRaster()
+	cx.bands, cx.dtype = 1, godal.CFloat32
+	complexTif := cx.write(t, filepath.Join(dir, "x.tif"))
+	cx.dtype = godal.CInt16
+	cint := cx.write(t, filepath.Join(dir, "cint.tif"))
 	tests := []struct {
 		name  string
 		paths []string
@@ -189,6 +198,9 @@ func TestOpenBadInputs(t *testing.T) {
 		{"band", []string{good}, []Option{SelectBands([]int{4})}, ErrBandRange, "band 4"},
 		{"mask grid", []string{good}, []Option{Mask(otherGrid)}, ErrGridMismatch, "other.tif"},
 		{"nodata count", []string{good}, []Option{NoData([]float64{1, 2})}, ErrBadSpec, "2 values given for 3 bands"},
+		{"complex", []string{complexTif}, nil, ErrComplex, "band 1 of " + complexTif + " is complex (CFloat32): bandfold reads real values only"},
+		{"complex in a stack", []string{good, cint}, nil, ErrComplex, "band 1 of " + cint + " is complex (CInt16)"},
+		{"complex is a bad selection", []string{complexTif}, nil, ErrBadSpec, "complex"},
 	}
 	for _, tc := range tests {
 		_, err := Open(tc.paths, tc.opts...)
@@ -196,6 +208,12 @@ func TestOpenBadInputs(t *testing.T) {
 			t.Errorf("%s: got %v, want one line wrapping %v naming %s", tc.name, err, tc.is, tc.names)
 		}
 	}
+	// A complex band left out of the selection is no obstacle.
+	s, err := Open([]string{good, cint}, SelectBands([]int{1, 2, 3}))
+	if err != nil {
+		t.Fatalf("complex band not selected: %v", err)
+	}
+	s.Close()
 }
 
 // TestValidity checks nodata, NaN, infinity and mask handling on a raster
@@ -291,9 +309,7 @@ func TestScaleOffsetApplied(t *testing.T) {
 // the writer put in the file.
 func gdalinfo(t *testing.T, path string) map[string]any {
 	t.Helper()
-	if _, err := exec.LookPath("gdalinfo"); err != nil {
-		t.Skip("gdalinfo not installed (Debian's gdal-bin; make test installs it)")
-	}
+	testenv.NeedTool(t, "gdalinfo", "gdal-bin")
 	out, err := exec.Command("gdalinfo", "-json", "-mdd", "all", path).Output()
 	if err != nil {
 		t.Fatalf("gdalinfo %s: %v", path, err)

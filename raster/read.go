@@ -222,7 +222,7 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 				godal.Bands(rn.bands...), godal.PixelStride(p), godal.LineStride(p*bw), godal.BandStride(1), errLogger)
 		}
 		if err != nil {
-			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, tidy(err))
+			return 0, fmt.Errorf("read %s at %v: %w", r.s.Paths[rn.file], t, tidyRead(err))
 		}
 	}
 	for i := range valid {
@@ -234,7 +234,7 @@ func (r *Reader) read(t tiles.Tile, bw, bh int, dst []float64, valid []bool) (in
 		}
 		m := r.maskBuf[:n]
 		if err := mask.Read(t.X, t.Y, m, bw, bh, window, godal.Bands(0), errLogger); err != nil {
-			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Masks[k], t, tidy(err))
+			return 0, fmt.Errorf("read mask %s at %v: %w", r.s.Masks[k], t, tidyRead(err))
 		}
 		test := &r.s.maskTests[k]
 		for i, v := range m {

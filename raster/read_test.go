@@ -2,7 +2,9 @@ package raster
 
 import (
 	"fmt"
+	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"github.com/airbusgeo/godal"
@@ -103,4 +105,38 @@ func gdalBand(t *testing.T, path string, index int, tl tiles.Tile) []float64 {
 		t.Fatal(fmt.Errorf("read %s: %w", path, err))
 	}
 	return buf
+}
+
+// TestReadTruncated (issue 24, item 10): reading a striped GeoTIFF cut
+// short fails with one line naming the file and saying it is damaged or
+// truncated, not GDAL's bare "unknown cpl error 3". Known by construction:
+// the file loses its last half.
+func TestReadTruncated(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "cut.tif")
+	r := defaultRaster()
+	r.w, r.h = 300, 200
+	r.write(t, path)
+	fi, err := os.Stat(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Truncate(path, fi.Size()/2); err != nil {
+		t.Fatal(err)
+	}
+	s, err := Open([]string{path})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	rd, err := s.NewReader()
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rd.Close()
+	tile := tiles.Tile{W: r.w, H: r.h}
+	_, err = rd.Read(tile, make([]float64, r.w*r.h*r.bands), make([]bool, r.w*r.h))
+	if err == nil || !strings.Contains(err.Error(), path) || !strings.Contains(err.Error(), "damaged or truncated") ||
+		strings.Contains(err.Error(), "cpl error") || strings.Contains(err.Error(), "\n") {
+		t.Errorf("read of a truncated file: %v", err)
+	}
 }

@@ -11,6 +11,8 @@ import (
 	"strings"
 
 	"github.com/airbusgeo/godal"
+
+	"bandfold/raster/output"
 )
 
 // Sentinel errors callers may branch on. Errors returned by this package wrap
@@ -20,7 +22,27 @@ var (
 	ErrNotRaster    = errors.New("not a raster GDAL can read")
 	ErrGridMismatch = errors.New("grids differ")
 	ErrBandRange    = errors.New("band out of range")
+	// ErrComplex marks a selected band (or a mask's band 1) of a complex
+	// type, CInt16, CInt32, CFloat32 or CFloat64: bandfold reads real
+	// values only, and GDAL would silently drop the imaginary part. Its
+	// errors also match ErrBadSpec: the band selection cannot apply.
+	ErrComplex = errors.New("complex band")
 )
+
+// isComplex reports whether a GDAL data type name is a complex type.
+func isComplex(dataType string) bool {
+	switch dataType {
+	case "CInt16", "CInt32", "CFloat32", "CFloat64":
+		return true
+	}
+	return false
+}
+
+// complexErr is the refusal of band index of path, of complex type
+// dataType; it matches ErrComplex and ErrBadSpec.
+func complexErr(prefix, path string, index int, dataType string) error {
+	return specErr(errors.Join(ErrComplex, ErrBadSpec), "%sband %d of %s is complex (%s): bandfold reads real values only", prefix, index, path, dataType)
+}
 
 // Grid is the pixel grid of a raster: its size, geotransform and CRS.
 type Grid struct {
@@ -187,13 +209,12 @@ func IsVirtual(path string) bool { return strings.HasPrefix(path, "/vsi") }
 // openDataset opens path read-only with a clear, file-naming error.
 func openDataset(path string) (*godal.Dataset, error) {
 	if !IsVirtual(path) {
-		fi, err := os.Stat(path)
-		switch {
-		case errors.Is(err, os.ErrNotExist):
-			return nil, fmt.Errorf("%s: %w", path, ErrNotFound)
-		case err != nil:
-			return nil, fmt.Errorf("%s: %w", path, err)
-		case fi.IsDir():
+		// A missing or unreadable file matches output.ErrInput (a usage
+		// error) and, missing, ErrNotFound.
+		if err := output.CheckInput(path, ErrNotFound); err != nil {
+			return nil, err
+		}
+		if fi, err := os.Stat(path); err == nil && fi.IsDir() {
 			return nil, fmt.Errorf("%s: is a folder: %w", path, ErrNotRaster)
 		}
 	}
@@ -289,6 +310,9 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	for _, n := range sel {
 		if n < 1 || n > len(all) {
 			return nil, specErr(ErrBandRange, "%s: band %d selected but the stack has %d bands", strings.Join(paths, ", "), n, len(all))
+		}
+		if b := all[n-1]; isComplex(b.DataType) {
+			return nil, complexErr("", b.Path, b.Index, b.DataType)
 		}
 		s.addBand(all[n-1], fileOf[n-1])
 	}

@@ -87,7 +87,7 @@ func ReadStrata(path string, buf Buffer) (*Strata, error) {
 	for y := 0; y < g.Height; y += 256 {
 		h := min(256, g.Height-y)
 		if err := band.Read(0, y, vals[:g.Width*h], g.Width, h, errLogger); err != nil {
-			return nil, fmt.Errorf("read %s: %w", path, tidy(err))
+			return nil, fmt.Errorf("read %s: %w", path, tidyRead(err))
 		}
 		for i, v := range vals[:g.Width*h] {
 			c := StratumChange

@@ -200,11 +200,14 @@ func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetr
 		}
 		b.StdDev[i] = math.Sqrt(cov.At(i, i))
 	}
-	if err := checkFinite("mean", b.Mean); err != nil {
-		return nil, fmt.Errorf("%w", err)
+	// Means and co-moments summed from pixels are not finite only when
+	// the sums overflowed.
+	finite := checkFinite("mean", b.Mean) == nil && checkFinite("stddev", b.StdDev) == nil
+	for _, row := range b.Covariance {
+		finite = finite && checkFinite("covariance", row) == nil
 	}
-	if err := checkFinite("stddev", b.StdDev); err != nil {
-		return nil, fmt.Errorf("%w", err)
+	if !finite {
+		return nil, bands.ErrTooLarge
 	}
 
 	target := cov

@@ -11,6 +11,10 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"gonum.org/v1/gonum/mat"
+
+	"bandfold/bands"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden files in testdata")
@@ -350,4 +354,21 @@ func FuzzReadBasis(f *testing.F) {
 			t.Fatalf("second round trip changed the file (%v)", err)
 		}
 	})
+}
+
+// TestNewBasisTooLarge (issue 24, item 10): a covariance summed from
+// values too large for float64 (an infinite variance, a NaN co-moment) is
+// refused with bands.ErrTooLarge, which the caller wraps with the file,
+// not "stddev[0] is NaN". Known by construction: the matrices hold +Inf and
+// NaN.
+func TestNewBasisTooLarge(t *testing.T) {
+	for _, cov := range []*mat.SymDense{
+		symOf([]float64{math.Inf(1), 0}, []float64{0, 1}),
+		symOf([]float64{1, math.NaN()}, []float64{math.NaN(), 1}),
+	} {
+		_, err := NewBasis(Covariance, testBands(2), 10, []float64{1, 2}, cov)
+		if !errors.Is(err, bands.ErrTooLarge) || strings.Contains(err.Error(), "NaN") {
+			t.Errorf("NewBasis(%v) = %v, want bands.ErrTooLarge", mat.Formatted(cov), err)
+		}
+	}
 }

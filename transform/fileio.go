@@ -2,12 +2,14 @@ package transform
 
 import (
 	"bytes"
+	"cmp"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"os"
+	"reflect"
 	"strings"
 )
 
@@ -38,6 +40,8 @@ func readFile[T any, PT interface {
 	if err != nil {
 		return nil, fmt.Errorf("%s %s: %w", kind, path, err)
 	}
+	// Editors on some systems begin UTF-8 files with a byte-order mark.
+	data = bytes.TrimPrefix(data, []byte("\ufeff"))
 	v, err := parse[T, PT](format, data)
 	if err != nil {
 		return nil, fmt.Errorf("%s %s: %w", kind, path, err)
@@ -82,7 +86,7 @@ func decodeVersioned(data []byte, format string, v any) error {
 		Version int    `json:"version"`
 	}
 	if err := json.Unmarshal(data, &head); err != nil {
-		return fmt.Errorf("%w: %w", ErrMalformed, err)
+		return jsonErr(data, err)
 	}
 	if head.Format != format {
 		return fmt.Errorf("%w: format %q, want %q", ErrMalformed, head.Format, format)
@@ -93,12 +97,90 @@ func decodeVersioned(data []byte, format string, v any) error {
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(v); err != nil {
-		return fmt.Errorf("%w: %w", ErrMalformed, err)
+		return jsonErr(data, err)
 	}
 	if _, err := dec.Token(); err != io.EOF {
 		return fmt.Errorf("%w: data after the JSON object", ErrMalformed)
 	}
 	return nil
+}
+
+// malformedError is a refused file content said in the user's words; it
+// matches ErrMalformed without repeating its text.
+type malformedError struct{ msg string }
+
+func (e *malformedError) Error() string { return e.msg }
+func (e *malformedError) Unwrap() error { return ErrMalformed }
+
+// jsonErr says what encoding/json's err found wrong in data, in the user's
+// words: "components must be a whole number, got 2.5" for a value of the
+// wrong type, `unknown key "x"`, or where the text stops being JSON.
+func jsonErr(data []byte, err error) error {
+	var me *malformedError
+	var te *json.UnmarshalTypeError
+	var se *json.SyntaxError
+	switch {
+	case errors.As(err, &me):
+		return me
+	case errors.As(err, &te):
+		return &malformedError{fmt.Sprintf("%s must be %s, got %s", cmp.Or(te.Field, "the file"), jsonWant(te.Type), jsonGot(te.Value))}
+	case errors.Is(err, io.ErrUnexpectedEOF) || errors.As(err, &se) && se.Offset >= int64(len(data)):
+		return fmt.Errorf("%w: the JSON ends early (the file is truncated)", ErrMalformed)
+	case errors.As(err, &se):
+		// The offending byte is the last one read.
+		line, col := lineCol(data, se.Offset-1)
+		return fmt.Errorf("%w: not JSON at line %d, column %d (%s)", ErrMalformed, line, col, se)
+	}
+	if key, ok := strings.CutPrefix(err.Error(), "json: unknown field "); ok {
+		return &malformedError{"unknown key " + key}
+	}
+	return fmt.Errorf("%w: %w", ErrMalformed, err)
+}
+
+// jsonWant names what a value of Go type t is in a JSON file.
+func jsonWant(t reflect.Type) string {
+	switch t.Kind() {
+	case reflect.Int, reflect.Int8, reflect.Int16, reflect.Int32, reflect.Int64:
+		return "a whole number"
+	case reflect.Uint, reflect.Uint8, reflect.Uint16, reflect.Uint32, reflect.Uint64:
+		return "a whole number, 0 or more"
+	case reflect.Float32, reflect.Float64:
+		return "a number"
+	case reflect.String:
+		return "a string"
+	case reflect.Bool:
+		return "true or false"
+	case reflect.Slice, reflect.Array:
+		return "a list"
+	}
+	return "an object"
+}
+
+// jsonGot names the JSON value an UnmarshalTypeError describes ("number
+// 2.5", "string", "array" ...).
+func jsonGot(v string) string {
+	if n, ok := strings.CutPrefix(v, "number "); ok {
+		return n
+	}
+	switch v {
+	case "array":
+		return "a list"
+	case "object":
+		return "an object"
+	case "bool":
+		return "true or false"
+	case "number":
+		return "a number"
+	}
+	return "a " + v
+}
+
+// lineCol returns the 1-based line and column of byte offset off of data.
+func lineCol(data []byte, off int64) (line, col int) {
+	off = min(max(off, 0), int64(len(data)))
+	before := data[:off]
+	line = bytes.Count(before, []byte("\n")) + 1
+	return line, int(off) - bytes.LastIndexByte(before, '\n')
 }
 
 // flattenLeaves rewrites JSON indented by json.MarshalIndent so that every
@@ -202,7 +284,12 @@ func (b *Band) UnmarshalJSON(data []byte) error {
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
 	if err := dec.Decode(&f); err != nil {
-		return fmt.Errorf("band: %w", err)
+		err = jsonErr(data, err)
+		var me *malformedError
+		if errors.As(err, &me) {
+			return &malformedError{"bands: " + me.msg}
+		}
+		return fmt.Errorf("bands: %w", err)
 	}
 	*b = Band{Name: f.Name, Source: f.Source, Index: f.Index, DataType: f.DataType,
 		NoData: (*float64)(f.NoData), Scale: f.Scale, Offset: f.Offset, Min: f.Min, Max: f.Max, Calibration: f.Calibration}

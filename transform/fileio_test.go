@@ -3,8 +3,10 @@ package transform
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 	"time"
 )
@@ -61,5 +63,47 @@ func TestFileFingerprint(t *testing.T) {
 	}
 	if _, err := FileFingerprint(path + ".absent"); err == nil {
 		t.Error("FileFingerprint of a missing file succeeded")
+	}
+}
+
+// TestReadFileInUserWords (issue 24, item 10): a basis or partial with a
+// UTF-8 byte-order mark is read; a value of the wrong type is reported by
+// its key, what it must be and what it is, never as "json: cannot
+// unmarshal ..." (the messages are known by construction from each edit).
+func TestReadFileInUserWords(t *testing.T) {
+	dir := t.TempDir()
+	good, err := goldenBasis().Marshal()
+	if err != nil {
+		t.Fatal(err)
+	}
+	bom := filepath.Join(dir, "bom.json")
+	if err := os.WriteFile(bom, append([]byte("\ufeff"), good...), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ReadBasis(bom); err != nil {
+		t.Errorf("basis with a byte-order mark: %v", err)
+	}
+	for _, tc := range []struct {
+		name string
+		data []byte
+		want string
+	}{
+		{"fraction", editJSON(t, func(m map[string]any) { m["components"] = 2.5 }), "components must be a whole number, got 2.5"},
+		{"string", editJSON(t, func(m map[string]any) { m["pixels"] = "1000" }), "pixels must be a whole number, got a string"},
+		{"version", editJSON(t, func(m map[string]any) { m["version"] = "1" }), "version must be a whole number, got a string"},
+		{"list", editJSON(t, func(m map[string]any) { m["mean"] = 3 }), "mean must be a list, got a number"},
+		{"band member", editJSON(t, func(m map[string]any) { m["bands"].([]any)[0].(map[string]any)["index"] = "one" }), "bands: index must be a whole number, got a string"},
+		{"unknown key", editJSON(t, func(m map[string]any) { m["eigenvalue"] = 1 }), `unknown key "eigenvalue"`},
+		{"not JSON", []byte("{\n  \"format\": x\n}"), "not JSON at line 2, column 13"},
+		{"truncated", good[:len(good)/2], "truncated"},
+	} {
+		path := filepath.Join(dir, "x.json")
+		if err := os.WriteFile(path, tc.data, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		_, err := ReadBasis(path)
+		if !errors.Is(err, ErrMalformed) || !strings.Contains(err.Error(), tc.want) || strings.Contains(err.Error(), "unmarshal") || strings.Contains(err.Error(), "Go struct") {
+			t.Errorf("%s: %v; want ErrMalformed saying %q", tc.name, err, tc.want)
+		}
 	}
 }

@@ -12,6 +12,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"bandfold/bands"
+	"bandfold/internal/testenv"
 )
 
 // relDiff returns |got − want| / max(|want|, ref): the error relative to
@@ -109,7 +110,7 @@ func readIris(t *testing.T) []float64 {
 	t.Helper()
 	f, err := os.Open("../testdata/external/iris.csv")
 	if os.IsNotExist(err) {
-		t.Skip("iris data absent: copy sklearn/datasets/data/iris.csv (Debian package python3-sklearn) to testdata/external/iris.csv")
+		testenv.Missing(t, "iris data absent: run make testdata, or copy sklearn/datasets/data/iris.csv (Debian package python3-sklearn) to testdata/external/iris.csv")
 	}
 	if err != nil {
 		t.Fatal(err)

@@ -1,7 +1,6 @@
 package transform
 
 import (
-	"bufio"
 	"bytes"
 	"errors"
 	"fmt"
@@ -23,14 +22,40 @@ func unitScale(u string) (float64, bool) {
 	return 0, false
 }
 
+// MinNM and MaxNM bound the band centre wavelengths bandfold accepts, in
+// nanometres: 0.1 to 100 micrometres, from the ultraviolet to beyond the
+// thermal infrared, wider than any imaging sensor's bands. A value outside
+// is a unit mistake: micrometres (0.45) written under nanometres, or
+// nanometres (450) under micrometres.
+const (
+	MinNM = 100
+	MaxNM = 100000
+)
+
 // WavelengthToNM converts a wavelength v given in unit ("nm", "um", ...;
-// case-insensitive) to nanometres.
+// case-insensitive) to nanometres. A result outside [MinNM, MaxNM] is
+// refused as a unit that contradicts the value.
 func WavelengthToNM(v float64, unit string) (float64, error) {
 	f, ok := unitScale(unit)
 	if !ok {
 		return 0, fmt.Errorf("unknown wavelength unit %q (want nm or um)", unit)
 	}
-	return v * f, nil
+	return toNM(v, f, unit)
+}
+
+// toNM is v times scale (1 for nm, 1000 for um), checked against [MinNM,
+// MaxNM]; unit names the unit as the user wrote it.
+func toNM(v, scale float64, unit string) (float64, error) {
+	nm := v * scale
+	switch {
+	case nm < MinNM && scale == 1:
+		return 0, fmt.Errorf("%g %s is below %d nm: are the values in micrometres? (say um in the header or after the value)", v, unit, MinNM)
+	case nm > MaxNM && scale != 1:
+		return 0, fmt.Errorf("%g %s is above %d um: are the values in nanometres? (say nm in the header or after the value)", v, unit, MaxNM/1000)
+	case nm < MinNM || nm > MaxNM:
+		return 0, fmt.Errorf("%g %s is outside %d nm to %d um", v, unit, MinNM, MaxNM/1000)
+	}
+	return nm, nil
 }
 
 // headerUnit finds the unit named in a column header such as
@@ -58,19 +83,18 @@ func headerUnit(h string) (float64, bool) {
 // checks their count against the bands.
 func ParseWavelengths(data []byte) ([]float64, error) {
 	var out []float64
-	col, scale := -1, 0.0
-	sc := bufio.NewScanner(bytes.NewReader(data))
-	line := 0
-	for sc.Scan() {
-		line++
-		text := strings.TrimSpace(sc.Text())
+	col, scale, unit, columns := -1, 0.0, "", 0
+	data = bytes.TrimPrefix(data, []byte("\ufeff")) // a spreadsheet's byte-order mark
+	for i, raw := range bytes.Split(data, []byte("\n")) {
+		line := i + 1
+		text := strings.TrimSpace(string(raw))
 		if text == "" || strings.HasPrefix(text, "#") {
 			continue
 		}
 		fields := strings.Split(text, ",")
 		if col < 0 && len(out) == 0 && scale == 0 {
 			if c, f, ok := headerColumn(fields); ok {
-				col, scale = c, f
+				col, scale, unit, columns = c, f, headerName(fields[c]), len(fields)
 				continue
 			}
 			col = 0
@@ -81,17 +105,19 @@ func ParseWavelengths(data []byte) ([]float64, error) {
 		if col < 0 {
 			col = 0
 		}
-		if col >= len(fields) {
+		switch {
+		case columns == 1 && len(fields) == 2:
+			return nil, fmt.Errorf("line %d: %q has two values under a header of one column (a decimal comma? write %s)", line, shorten(text), strings.Replace(shorten(text), ",", ".", 1))
+		case columns > 0 && len(fields) != columns:
+			return nil, fmt.Errorf("line %d: %d columns under a header of %d", line, len(fields), columns)
+		case col >= len(fields):
 			return nil, fmt.Errorf("line %d: %d columns, want at least %d", line, len(fields), col+1)
 		}
-		v, err := parseValue(strings.TrimSpace(fields[col]), scale)
+		v, err := parseValue(strings.TrimSpace(fields[col]), scale, unit)
 		if err != nil {
 			return nil, fmt.Errorf("line %d: %w", line, err)
 		}
 		out = append(out, v)
-	}
-	if err := sc.Err(); err != nil {
-		return nil, err
 	}
 	if len(out) == 0 {
 		return nil, errors.New("no wavelengths")
@@ -100,6 +126,22 @@ func ParseWavelengths(data []byte) ([]float64, error) {
 		return nil, err
 	}
 	return out, nil
+}
+
+// headerName is the unit a header names, for messages: "nm" or "um".
+func headerName(h string) string {
+	if f, _ := headerUnit(h); f == 1 {
+		return "nm"
+	}
+	return "um"
+}
+
+// shorten cuts text to 40 bytes for messages: a line may be megabytes.
+func shorten(text string) string {
+	if len(text) <= 40 {
+		return text
+	}
+	return strings.ToValidUTF8(text[:37], "") + "..."
 }
 
 // headerColumn recognises a header row: the column whose name carries a
@@ -122,25 +164,22 @@ func headerColumn(fields []string) (int, float64, bool) {
 	return best, scale, best >= 0
 }
 
-// parseValue parses "450", with scale from the header, or "450 nm".
-func parseValue(s string, scale float64) (float64, error) {
+// parseValue parses "450", with scale from the header naming headerUnit,
+// or "450 nm"; the result in nanometres must lie in [MinNM, MaxNM].
+func parseValue(s string, scale float64, headerUnit string) (float64, error) {
 	num := strings.TrimRightFunc(s, func(r rune) bool { return !(r >= '0' && r <= '9' || r == '.') })
 	unit := strings.TrimSpace(s[len(num):])
 	v, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return 0, fmt.Errorf("%q is not a wavelength", s)
+		return 0, fmt.Errorf("%q is not a wavelength", shorten(s))
 	}
 	switch {
 	case unit != "":
-		f, ok := unitScale(unit)
-		if !ok {
-			return 0, fmt.Errorf("%q: unknown unit %q (want nm or um)", s, unit)
-		}
-		return v * f, nil
+		return WavelengthToNM(v, unit)
 	case scale == 0:
-		return 0, fmt.Errorf("%q has no unit: add a header such as wavelength_nm or write \"%s nm\"", s, s)
+		return 0, fmt.Errorf("%q has no unit: add a header such as wavelength_nm or write \"%s nm\"", shorten(s), shorten(s))
 	}
-	return v * scale, nil
+	return toNM(v, scale, headerUnit)
 }
 
 // ParseBandRanges parses a list of 1-based band numbers and ranges,

@@ -23,8 +23,10 @@ type badCase struct {
 }
 
 // TestBadInputs runs every command on bad input built by newFixtures. For
-// each case it checks the exit code (2 for a malformed flag or option value
-// or a missing or extra argument, 1 for a file or its data that is wrong),
+// each case it checks the exit code (2 for a malformed flag or option value,
+// a missing or extra argument, or a file the user named that is missing or
+// unreadable, whatever flag or argument named it (issue 24, item 9); 1 for
+// a file or its data that is wrong),
 // that stderr is exactly one line starting "bandfold: " and holding every
 // wanted string, that stdout is empty, and, run again with --json, that
 // stdout is exactly one object {"error": the same message, "exit_code": the
@@ -126,39 +128,39 @@ func TestBadInputs(t *testing.T) {
 		{"unfold nodata not a number", unfold("--compare", a, "--nodata", "none"), 2, []string{`--nodata "none"`, "not a number"}},
 
 		// Masks.
-		{"learn missing mask", learn("--mask", f.missing), 1, []string{f.missing, "no such file"}},
+		{"learn missing mask", learn("--mask", f.missing), 2, []string{f.missing, "no such file"}},
 		{"learn mask on another grid", learn("--mask", f.maskOther), 1, []string{f.maskOther, "not on the grid", a}},
 		{"learn mask not a raster", learn("--mask", f.text), 1, []string{f.text, "not a raster"}},
-		{"fold missing mask", fold("--mask", f.missing), 1, []string{f.missing, "no such file"}},
-		{"change mask-before missing", change("--mask-before", f.missing), 1, []string{f.missing, "no such file"}},
+		{"fold missing mask", fold("--mask", f.missing), 2, []string{f.missing, "no such file"}},
+		{"change mask-before missing", change("--mask-before", f.missing), 2, []string{f.missing, "no such file"}},
 		{"change mask-after on another grid", change("--mask-after", f.maskOther), 1, []string{f.maskOther, "not on the grid"}},
 
 		// Input files.
-		{"learn missing input", []string{"learn", f.missing, "--out", newBasis}, 1, []string{f.missing, "no such file"}},
+		{"learn missing input", []string{"learn", f.missing, "--out", newBasis}, 2, []string{f.missing, "no such file"}},
 		{"learn input not a raster", []string{"learn", f.text, "--out", newBasis}, 1, []string{f.text, "not a raster"}},
 		{"learn empty input", []string{"learn", f.empty, "--out", newBasis}, 1, []string{f.empty, "empty"}},
 		{"learn folder as input", []string{"learn", f.misc, "--out", newBasis}, 1, []string{f.misc, "folder"}},
-		{"learn stack with a missing file", []string{"learn", a + "," + f.missing, "--out", newBasis}, 1, []string{f.missing, "no such file"}},
+		{"learn stack with a missing file", []string{"learn", a + "," + f.missing, "--out", newBasis}, 2, []string{f.missing, "no such file"}},
 		{"learn pooled band counts", []string{"learn", a, five, "--out", newBasis}, 1, []string{five, "5 bands", "same bands"}},
 		{"learn all-NaN band", []string{"learn", f.allNaN, "--out", newBasis}, 1, []string{f.allNaN, "no valid pixels"}},
-		{"fold missing basis", []string{"fold", a, "--basis", f.path("none.basis.json"), "--out", newTif}, 1, []string{f.path("none.basis.json"), "no such file"}},
+		{"fold missing basis", []string{"fold", a, "--basis", f.path("none.basis.json"), "--out", newTif}, 2, []string{f.path("none.basis.json"), "no such file"}},
 		{"fold corrupted basis", []string{"fold", a, "--basis", f.corrupt, "--out", newTif}, 1, []string{f.corrupt, "malformed", "eigenvalues"}},
 		{"fold basis of 5 bands", []string{"fold", a, "--basis", f.fiveBasis, "--out", newTif}, 1, []string{a, f.fiveBasis, "6 bands", "has 5"}},
 		{"fold partial as basis", []string{"fold", a, "--basis", part, "--out", newTif}, 1, []string{part, "bandfold-partial"}},
 		{"fold text as basis", []string{"fold", a, "--basis", f.text, "--out", newTif}, 1, []string{f.text, "malformed"}},
-		{"fold missing input", []string{"fold", f.missing, "--basis", basis, "--out", newTif}, 1, []string{f.missing, "no such file"}},
+		{"fold missing input", []string{"fold", f.missing, "--basis", basis, "--out", newTif}, 2, []string{f.missing, "no such file"}},
 		{"fold empty input", []string{"fold", f.empty, "--basis", basis, "--out", newTif}, 1, []string{f.empty, "empty"}},
-		{"fold missing list", []string{"fold", "--list", f.path("none.txt"), "--basis", basis, "--out-dir", newDir}, 1, []string{f.path("none.txt"), "no such file"}},
+		{"fold missing list", []string{"fold", "--list", f.path("none.txt"), "--basis", basis, "--out-dir", newDir}, 2, []string{f.path("none.txt"), "no such file"}},
 		{"fold glob matching nothing", []string{"fold", f.path("*.nothing"), "--basis", basis, "--out-dir", newDir}, 1, []string{f.path("*.nothing"), "no file matches"}},
 		{"inspect corrupted basis", []string{"inspect", f.corrupt}, 1, []string{f.corrupt, "malformed", "eigenvalues"}},
 		{"inspect text", []string{"inspect", f.text}, 1, []string{f.text, "malformed"}},
 		{"inspect empty file", []string{"inspect", f.empty}, 1, []string{f.empty, "empty"}},
 		{"inspect folder", []string{"inspect", f.misc}, 1, []string{f.misc, "is a directory"}},
 		{"inspect partial", []string{"inspect", part}, 1, []string{part, "bandfold-partial"}},
-		{"unfold missing components", []string{"unfold", f.missing, "--basis", basis, "--out", newTif}, 1, []string{f.missing, "no such file"}},
+		{"unfold missing components", []string{"unfold", f.missing, "--basis", basis, "--out", newTif}, 2, []string{f.missing, "no such file"}},
 		{"unfold text as components", []string{"unfold", f.text, "--basis", basis, "--out", newTif}, 1, []string{f.text, "not a raster"}},
 		{"unfold corrupted basis", []string{"unfold", comps, "--basis", f.corrupt, "--out", newTif}, 1, []string{f.corrupt, "malformed"}},
-		{"change missing after", []string{"change", a, f.missing, "--out", newChange}, 1, []string{f.missing, "no such file"}},
+		{"change missing after", []string{"change", a, f.missing, "--out", newChange}, 2, []string{f.missing, "no such file"}},
 		{"change empty before", []string{"change", f.empty, b, "--out", newChange}, 1, []string{f.empty, "empty"}},
 		{"change all-NaN band", []string{"change", a, f.allNaN, "--out", newChange}, 1, []string{f.allNaN, "no pixel is valid"}},
 
@@ -240,7 +242,7 @@ func TestBadInputs(t *testing.T) {
 		{"merge missing shard", []string{"merge", part, "--out", newBasis}, 1, []string{part, "shard 1 of 2 missing"}},
 		{"merge duplicated shard", []string{"merge", part, part, "--out", newBasis}, 1, []string{part, "duplicated"}},
 		{"merge a basis file", []string{"merge", basis, "--out", newBasis}, 1, []string{basis, "bandfold-basis", "bandfold-partial"}},
-		{"merge missing partial", []string{"merge", f.path("none.json"), "--out", newBasis}, 1, []string{f.path("none.json"), "no such file"}},
+		{"merge missing partial", []string{"merge", f.path("none.json"), "--out", newBasis}, 2, []string{f.path("none.json"), "no such file"}},
 		{"merge variance zero", []string{"merge", part, "--out", newBasis, "--variance", "0"}, 2, []string{"--variance 0", "(0, 1]"}},
 		{"merge components negative", []string{"merge", part, "--out", newBasis, "--components", "-1"}, 2, []string{"--components -1"}},
 
@@ -250,7 +252,7 @@ func TestBadInputs(t *testing.T) {
 		{"unfold with a basis of 5 bands", []string{"unfold", comps, "--basis", f.fiveBasis, "--out", newTif}, 1, []string{comps, f.fiveBasis}},
 		{"unfold compare on another grid", unfold("--compare", other), 1, []string{other, "not on the grid", comps}},
 		{"unfold compare with 5 bands", unfold("--compare", five), 1, []string{five, "5 bands", "has 6"}},
-		{"unfold compare missing", unfold("--compare", f.missing), 1, []string{f.missing, "no such file"}},
+		{"unfold compare missing", unfold("--compare", f.missing), 2, []string{f.missing, "no such file"}},
 
 		// change.
 		{"change bands-after zero", change("--bands-after", "0"), 2, []string{`--bands-after "0"`, "count from 1"}},
@@ -269,7 +271,7 @@ func TestBadInputs(t *testing.T) {
 		{"change resampling unknown", change("--align", "--resampling", "x"), 2, []string{`--resampling "x"`}},
 		{"change components beyond the bands", change("--components", "9"), 2, []string{"--components 9", "6"}},
 		{"change reference on another grid", change("--reference", f.maskOther), 1, []string{f.maskOther, "grid"}},
-		{"change reference missing", change("--reference", f.missing), 1, []string{f.missing, "no such file"}},
+		{"change reference missing", change("--reference", f.missing), 2, []string{f.missing, "no such file"}},
 		{"change basis of 5 bands", change("--basis", f.fiveBasis), 1, []string{f.fiveBasis, "5"}},
 		{"change corrupted basis", change("--basis", f.corrupt), 1, []string{f.corrupt, "malformed"}},
 
@@ -283,12 +285,21 @@ func TestBadInputs(t *testing.T) {
 		{"synth interleave unknown", synth("--interleave", "x"), 2, []string{`--interleave "x"`, "pixel or band"}},
 		{"synth type unknown", synth("--type", "x"), 2, []string{`--type "x"`, "int16, uint16 or float32"}},
 	}
-	before := snapshotTree(t, f.dir)
+	checkBadCases(t, f.dir, tests)
+}
+
+// checkBadCases runs each case, checks its failure with checkFailure and
+// the same run with --json: exactly one object on stdout holding stderr's
+// message and the exit code. After each run, every file and folder under
+// dir must be as it was (restoreTree).
+func checkBadCases(t *testing.T, dir string, tests []badCase) {
+	t.Helper()
+	before := snapshotTree(t, dir)
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
 			code, stdout, stderr := bandfold(t, tc.argv...)
 			checkFailure(t, tc, code, stdout, stderr)
-			restoreTree(t, f.dir, before)
+			restoreTree(t, dir, before)
 			// The same run with --json: one object on stdout, holding the
 			// message of stderr's "bandfold: " line.
 			jcode, jout, jerr := bandfold(t, append([]string{"--json"}, tc.argv...)...)
@@ -306,7 +317,7 @@ func TestBadInputs(t *testing.T) {
 			if jerr != stderr {
 				t.Errorf("with --json: stderr %q, want %q as without it", jerr, stderr)
 			}
-			restoreTree(t, f.dir, before)
+			restoreTree(t, dir, before)
 		})
 	}
 }

@@ -74,6 +74,9 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous change output folder")
 	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
 	cmd.MarkFlagRequired("out")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "basis", "reference")
+	cli.MarkInputs(f, cli.InputMask, "mask-before", "mask-after")
 	return cmd
 }
 

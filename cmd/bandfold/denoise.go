@@ -57,5 +57,7 @@ func denoiseCommand(g *globals, fl *denoiseFlags) *cobra.Command {
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace an existing output")
 	cmd.MarkFlagRequired("basis")
 	cmd.MarkFlagRequired("out")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "basis")
 	return cmd
 }

@@ -76,6 +76,8 @@ func foldCommand(g *globals, fl *foldFlags) *cobra.Command {
 	cmd.MarkFlagRequired("basis")
 	cmd.MarkFlagsMutuallyExclusive("out", "out-dir")
 	cmd.MarkFlagsOneRequired("out", "out-dir")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "basis", "list")
 	return cmd
 }
 

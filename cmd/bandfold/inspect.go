@@ -52,6 +52,7 @@ func newInspectCommand(g *globals) *cobra.Command {
 	f.BoolVar(&fl.loadings, "loadings", false, "print the kept components' loadings (bands x components) on stderr")
 	f.BoolVar(&fl.Overwrite, "overwrite", false, "replace existing plots")
 	f.Float64Var(&fl.MaxRMSE, "max-rmse", 0, "error budget drawn on rate.png")
+	cli.MarkArgs(cmd, cli.InputFile)
 	return cmd
 }
 

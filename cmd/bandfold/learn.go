@@ -85,6 +85,8 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 	f.StringVar(&fl.excludeNM, "exclude-nm", "", `wavelength ranges in nm to drop before fitting, e.g. "1340-1450,1790-1970"`)
 	cmd.MarkFlagsMutuallyExclusive("out", "partial", "suggest-exclude")
 	cmd.MarkFlagsOneRequired("out", "partial", "suggest-exclude")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "wavelengths")
 	return cmd
 }
 

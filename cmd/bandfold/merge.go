@@ -33,5 +33,6 @@ func newMergeCommand(g *globals) *cobra.Command {
 	f.Float64Var(&o.MinSNR, "min-snr", 0, "for MNF partials, keep the components whose signal-to-noise ratio is at least this")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace an existing output")
 	cmd.MarkFlagRequired("out")
+	cli.MarkArgs(cmd, cli.InputFile)
 	return cmd
 }

@@ -12,7 +12,6 @@ import (
 	"os/signal"
 	"runtime"
 	"runtime/debug"
-	"strings"
 	"syscall"
 
 	"github.com/spf13/cobra"
@@ -70,7 +69,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if !g.started || job.IsUsage(err) {
 		code = exitUsage
 	}
-	msg := strings.ReplaceAll(err.Error(), "\n", "; ")
+	msg := cli.OneLine(err.Error())
 	switch {
 	case errors.Is(err, context.Canceled):
 		msg = "interrupted; partial outputs removed"
@@ -80,7 +79,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 	if msg != "" {
 		fmt.Fprintf(stderr, "bandfold: %s\n", msg)
 	}
-	if g.json {
+	if g.json || !g.started && cli.JSONRequested(args) {
 		if msg == "" {
 			msg = err.Error()
 		}
@@ -122,6 +121,7 @@ func newRootCommand(g *globals) *cobra.Command {
 		newDemoCommand(g),
 		newSurveyCommand(g),
 	)
+	cli.StrictCommands(root)
 	return root
 }
 
@@ -133,6 +133,9 @@ func (g *globals) runE(work func(ctx context.Context, env job.Env, args []string
 		g.started = true
 		if g.workers < 1 {
 			return job.Usagef("--workers %d: need at least 1", g.workers)
+		}
+		if err := cli.CheckInputs(cmd, args); err != nil {
+			return err
 		}
 		// A soft limit makes the collector work harder before the heap
 		// grows past what the tile buffers need; GOMEMLIMIT in the

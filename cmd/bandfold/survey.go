@@ -45,6 +45,8 @@ func newSurveyCommand(g *globals) *cobra.Command {
 	f.Uint64Var(&o.Seed, "seed", 1, "seed of the draw")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace an existing survey")
 	draw.MarkFlagRequired("out")
+	cli.MarkArgs(draw, cli.InputFile)
+	cli.MarkInputs(f, cli.InputImage, "map")
 	var e job.SurveyEstimateOptions
 	est := &cobra.Command{
 		Use: "estimate DIR survey.gpkg|survey.csv", Short: "Estimate areas and accuracy from a labelled survey",
@@ -68,6 +70,7 @@ func newSurveyCommand(g *globals) *cobra.Command {
 		}),
 	}
 	est.Flags().BoolVar(&e.Overwrite, "overwrite", false, "replace an existing estimate.json")
+	cli.MarkArgs(est, cli.InputFile)
 	cmd.AddCommand(draw, est)
 	return cmd
 }

@@ -66,6 +66,8 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.StringVar(&o.ReferenceDate, "reference-date", "", "the date every date is normalised onto (default: the first)")
 	f.BoolVar(&o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
 	cmd.MarkFlagRequired("out")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "basis")
 	return cmd
 }
 

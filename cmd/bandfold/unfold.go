@@ -54,6 +54,9 @@ func unfoldCommand(g *globals, fl *unfoldFlags) *cobra.Command {
 	f.BoolVar(&o.IgnoreBasisMismatch, "ignore-basis-mismatch", false, "unfold even when the components record another basis")
 	cmd.MarkFlagRequired("basis")
 	cmd.MarkFlagRequired("out")
+	cli.MarkArgs(cmd, cli.InputImage)
+	cli.MarkInputs(f, cli.InputFile, "basis")
+	cli.MarkInputs(f, cli.InputImage, "compare")
 	return cmd
 }
 

@@ -778,6 +778,47 @@ func TestTempNames(t *testing.T) {
 	}
 }
 
+// TestLongNames (issue 24, item 12): an output name that is legal but long
+// (246 bytes, with multi-byte characters) is written under its own name; its
+// temporaries, sidecar included, stay under the 255 bytes a file name may
+// have, and a dead run's temporary of that name is recognised as stale.
+func TestLongNames(t *testing.T) {
+	for _, base := range []string{
+		strings.Repeat("a", 242) + ".tif",
+		strings.Repeat("é", 121) + ".tif",
+		strings.Repeat("b", 251) + ".tif", // 255 bytes: the longest legal name
+	} {
+		dir := t.TempDir()
+		path := filepath.Join(dir, base)
+		f, err := Create(path, false, ".tif")
+		if err != nil {
+			t.Fatalf("%d bytes: %v", len(base), err)
+		}
+		if n := len(filepath.Base(f.Temp()) + ".aux.xml"); n > 255 {
+			t.Errorf("%d bytes: temporary with sidecar has %d bytes", len(base), n)
+		}
+		if err := os.WriteFile(f.Temp(), []byte("x"), 0o644); err != nil {
+			t.Fatalf("%d bytes: %v", len(base), err)
+		}
+		f.Sidecars(".aux.xml")
+		if err := os.WriteFile(f.Temp()+".aux.xml", []byte("x"), 0o644); err != nil {
+			t.Fatalf("%d bytes: %v", len(base), err)
+		}
+		if err := f.Commit(); err != nil {
+			t.Fatalf("%d bytes: %v", len(base), err)
+		}
+		if got := entries(t, dir); !slices.Equal(got, []string{base}) {
+			t.Errorf("%d bytes: folder holds %q, want only the output", len(base), got)
+		}
+		if host, pid, ok := owner(filepath.Base(tempName(path, ".tif")), base); !ok || host != hostName() || pid != os.Getpid() {
+			t.Errorf("%d bytes: owner = %q %d %v", len(base), host, pid, ok)
+		}
+		if _, _, ok := owner(filepath.Base(tempName(path+"x", ".tif")), base); ok {
+			t.Errorf("%d bytes: another long name's temporary taken as this one's", len(base))
+		}
+	}
+}
+
 // TestStaleCleanup: temporaries of this target left by a dead process on
 // this host are removed, files and folders, new and old scheme; another
 // host's, a live process's and other targets' are kept.

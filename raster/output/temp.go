@@ -1,6 +1,8 @@
 package output
 
 import (
+	"crypto/sha256"
+	"encoding/hex"
 	"errors"
 	"fmt"
 	"io/fs"
@@ -11,6 +13,7 @@ import (
 	"sync"
 	"sync/atomic"
 	"syscall"
+	"unicode/utf8"
 
 	"golang.org/x/sys/unix"
 )
@@ -51,17 +54,41 @@ func shortHost(name string, err error) string {
 	return string(b)
 }
 
+// maxTempBase bounds the part of a temporary name taken from its target's
+// name. A file name may have 255 bytes; a target's name of up to that
+// length is legal, so a temporary repeating it whole, with the host (up to
+// 63 bytes), pid, sequence number, suffix and a writer's sidecar suffix
+// (".aux.xml"), would not be. Past this length the temporary keeps the
+// name's first bytes and a hash of the whole name, which still tells the
+// targets apart; the user's own name is never shortened.
+const maxTempBase = 100
+
+// tempBase is the part of the temporaries of target name base that names
+// the target: base itself, or when longer than maxTempBase its first bytes
+// (whole UTF-8 characters), "~" and 8 hex digits of its SHA-256.
+func tempBase(base string) string {
+	if len(base) <= maxTempBase {
+		return base
+	}
+	sum := sha256.Sum256([]byte(base))
+	cut := maxTempBase - 9
+	for cut > 0 && !utf8.RuneStart(base[cut]) {
+		cut--
+	}
+	return base[:cut] + "~" + hex.EncodeToString(sum[:4])
+}
+
 // tempName returns a fresh temporary name beside path (cleaned) ending in
 // suffix.
 func tempName(path, suffix string) string {
 	dir, base := filepath.Split(path)
-	return filepath.Join(dir, fmt.Sprintf(".%s.%s.%d.%d.tmp%s", base, hostName(), os.Getpid(), seq.Add(1), suffix))
+	return filepath.Join(dir, fmt.Sprintf(".%s.%s.%d.%d.tmp%s", tempBase(base), hostName(), os.Getpid(), seq.Add(1), suffix))
 }
 
 // owner parses name as a temporary of base: the writer's host ("" for the
 // old scheme, which has none) and pid.
 func owner(name, base string) (host string, pid int, ok bool) {
-	prefix := "." + base + "."
+	prefix := "." + tempBase(base) + "."
 	if len(name) <= len(prefix) || name[:len(prefix)] != prefix {
 		return "", 0, false
 	}

@@ -77,6 +77,7 @@ func (f *InputFlags) Register(fs *pflag.FlagSet, align bool) {
 	fs.StringVar(&f.bands, "bands", "", `bands to use, 1-based lists and ranges such as "1-5,7" (default all)`)
 	fs.StringVar(&f.nodata, "nodata", "", `nodata value overriding the files': one for all bands, or a comma list with one per band ("nan" for NaN)`)
 	fs.StringArrayVar(&f.masks, "mask", nil, `quality mask (repeatable; a pixel must pass all): FILE (non-zero = valid), FILE:bits=0-4,9 (invalid where a listed bit is set) or FILE:values=0,3,8-10 (invalid at those values)`)
+	MarkInputs(fs, InputMask, "mask")
 	fs.IntVar(&f.tile, "tile", 0, "tile size N for N x N pixel tiles (default: aligned to the file's blocks, about 16 MiB of float64 per tile)")
 	fs.StringVar(&f.calibrate, "calibrate", "", `scale (the bands' scale/offset metadata) or toa (Landsat Level-1 digital numbers to top-of-atmosphere reflectance from the *_MTL.txt beside the bands); default scale, or the basis's`)
 	if align {
