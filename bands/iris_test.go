@@ -12,7 +12,7 @@ import (
 
 	"gonum.org/v1/gonum/stat"
 
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 )
 
 // irisPath is Fisher's iris data as shipped in Debian's python3-sklearn

@@ -10,7 +10,7 @@ import (
 
 	"github.com/airbusgeo/godal"
 
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 )
 
 // TestAlignStack stacks a 30 m band with a 15 m band over the same ground.

@@ -7,7 +7,7 @@ import (
 	"slices"
 	"testing"
 
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 )
 
 // landsatSubset is the Landsat 7 ETM+ subset shipped in r-cran-stars as

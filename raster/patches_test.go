@@ -14,7 +14,7 @@ import (
 	"strings"
 	"testing"
 
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 	"bandfold/raster/output"
 )
 

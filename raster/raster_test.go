@@ -12,7 +12,7 @@ import (
 
 	"github.com/airbusgeo/godal"
 
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 	"bandfold/raster/output"
 	"bandfold/tiles"
 )

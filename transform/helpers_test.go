@@ -12,7 +12,7 @@ import (
 	"gonum.org/v1/gonum/mat"
 
 	"bandfold/bands"
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 )
 
 // relDiff returns |got − want| / max(|want|, ref): the error relative to

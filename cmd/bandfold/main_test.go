@@ -9,7 +9,7 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"bandfold/internal/testenv"
+	"bandfold/tiles/testenv"
 )
 
 // landsat is the real test scene: a Landsat 7 ETM+ 6-band subset (349 x 352,

@@ -107,7 +107,7 @@ func classify(err error) error {
 	if err == nil || IsUsage(err) {
 		return err
 	}
-	if errors.Is(err, raster.ErrBadSpec) || errors.Is(err, raster.ErrBandRange) || errors.Is(err, output.ErrVirtual) {
+	if errors.Is(err, raster.ErrBadSpec) || errors.Is(err, raster.ErrBandRange) || errors.Is(err, output.ErrVirtual) || errors.Is(err, output.ErrInput) {
 		return &UsageError{err}
 	}
 	return err
