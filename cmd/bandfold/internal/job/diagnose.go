@@ -10,21 +10,9 @@ import (
 	"bandfold/raster/output"
 )
 
-// warnf keeps a warning about the map for the summary; summary prints
-// them once the map is complete, so that a run that fails prints only its
-// error.
-func (r *changeRun) warnf(format string, args ...any) {
-	r.warnings = append(r.warnings, fmt.Sprintf(format, args...))
-}
-
 // chisqMedian is the median of the chi-square distribution with k degrees
 // of freedom.
 func chisqMedian(k int) float64 { return distuv.ChiSquared{K: float64(k)}.Quantile(0.5) }
-
-// checkThreshold keeps the fit's doubts (pairFit.warnings).
-func (r *changeRun) checkThreshold() {
-	r.warnings = append(r.warnings, r.fit.warnings(r.o.Threshold, r.proj.Components())...)
-}
 
 // thresholdSummary is the threshold for the summary.
 func (r *changeRun) thresholdSummary() ThresholdSummary {

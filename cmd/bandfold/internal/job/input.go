@@ -53,11 +53,11 @@ func (in Input) check() error {
 	return nil
 }
 
-// options turns Input into raster options; extra masks come last.
-func (in Input) options(extra ...raster.MaskRule) []raster.Option {
+// options turns Input into raster options (a date's own masks are added with withMasks).
+func (in Input) options() []raster.Option {
 	opts := []raster.Option{raster.SelectBands(in.Bands), raster.NoData(in.NoData)}
-	if rules := append(append([]raster.MaskRule(nil), in.Masks...), extra...); len(rules) > 0 {
-		opts = append(opts, raster.MaskRules(rules...))
+	if len(in.Masks) > 0 {
+		opts = append(opts, raster.MaskRules(in.Masks...))
 	}
 	if in.Align {
 		opts = append(opts, raster.AlignStack(cmp.Or(in.Resampling, "bilinear")), raster.AlignMasks("nearest"))

@@ -64,23 +64,28 @@ func (g *previewGrid) begin(t tiles.Tile, dst *previewPart) {
 }
 
 // pixels adds pixels lo to hi (offsets in tile t) to dst: x holds both
-// dates' values of those pixels and valid their flags.
+// dates' values of those pixels and valid their flags. It walks the run
+// row by row, so that the cell of a pixel costs no division.
 func (g *previewGrid) pixels(t tiles.Tile, lo, hi int, x [2][]float64, valid []bool, dst *previewPart) {
 	p, c0, c1, c2 := g.p, g.rgb[0], g.rgb[1], g.rgb[2]
-	for at := lo; at < hi; at++ {
-		i := at - lo
-		if !valid[i] {
-			continue
-		}
+	for at := lo; at < hi; {
 		r, c := at/t.W, at%t.W
-		cell := (g.cellY(t.Y+r)-dst.y0)*dst.cw + dst.col[c]
-		dst.n[cell]++
-		for d := range x {
-			px := x[d][i*p : i*p+p]
-			s := dst.sum[d][cell*3 : cell*3+3]
-			s[0] += px[c0]
-			s[1] += px[c1]
-			s[2] += px[c2]
+		end := min(hi, at+t.W-c) // the end of this row within the run
+		row := (g.cellY(t.Y+r) - dst.y0) * dst.cw
+		for ; at < end; at, c = at+1, c+1 {
+			i := at - lo
+			if !valid[i] {
+				continue
+			}
+			cell := row + dst.col[c]
+			dst.n[cell]++
+			for d := range x {
+				px := x[d][i*p : i*p+p]
+				s := dst.sum[d][cell*3 : cell*3+3]
+				s[0] += px[c0]
+				s[1] += px[c1]
+				s[2] += px[c2]
+			}
 		}
 	}
 }

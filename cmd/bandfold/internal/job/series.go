@@ -91,12 +91,6 @@ type seriesRun struct {
 	dir       *output.Folder
 }
 
-// runSeries runs the engine's steps up to the fitted models; the command
-// then maps.
-func (r *seriesRun) steps() []jobStep {
-	return []jobStep{{"open", r.open}, {"sample", r.sample}, {"normalize", r.normalize}, {"basis", r.fitBasis}, {"models", r.fitModels}}
-}
-
 func (r *seriesRun) close() {
 	if r.dir != nil {
 		r.dir.Abort()
@@ -439,10 +433,10 @@ func (r *seriesRun) sameCount() error {
 	if len(r.scenes) == 2 {
 		every = "both dates need"
 	}
-	for d, s := range r.scenes[1:] {
+	for _, s := range r.scenes[1:] {
 		if s.Len() != first.Len() {
 			err := fmt.Errorf("%s has %d bands but %s has %d bands: %s the same bands (select them per date: %s)",
-				describe(first), first.Len(), describe(s), s.Len(), every, r.bandsHint(d+1))
+				describe(first), first.Len(), describe(s), s.Len(), every, r.bandsHint())
 			if r.c.BandsChosen {
 				return usage(err) // the selections themselves differ
 			}
@@ -453,7 +447,7 @@ func (r *seriesRun) sameCount() error {
 }
 
 // bandsHint names the options that select bands per date.
-func (r *seriesRun) bandsHint(int) string {
+func (r *seriesRun) bandsHint() string {
 	if r.c.Chronological {
 		return "--scene-bands, once per scene"
 	}
@@ -473,7 +467,7 @@ func (r *seriesRun) mismatch(d int) error {
 		}
 		if !transform.Compatible(first[i], other[i]) {
 			return Usagef("band %d of %s is %s (%s) but of %s %s (%s): the dates would compare different wavelengths; select matching bands per date (%s), or pass --ignore-band-names to compare them anyway",
-				i+1, describe(r.scenes[0]), first[i].Label, nmRange(first[i]), describe(r.scenes[d]), other[i].Label, nmRange(other[i]), r.bandsHint(d))
+				i+1, describe(r.scenes[0]), first[i].Label, nmRange(first[i]), describe(r.scenes[d]), other[i].Label, nmRange(other[i]), r.bandsHint())
 		}
 	}
 	return nil

@@ -131,11 +131,13 @@ func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
 	res := sampled{acc: make([]*bands.Accumulator, D)}
 	// The reference first, into buffer 0, kept while the others pass
 	// through buffer 1.
-	order := append([]int{w.ref}, slices.DeleteFunc(rangeOf(D), func(d int) bool { return d == w.ref })...)
-	for _, d := range order {
-		b := 1
-		if d == w.ref {
-			b = 0
+	for k := range D {
+		d, b := k, 1
+		switch {
+		case k == 0:
+			d, b = w.ref, 0
+		case k <= w.ref:
+			d = k - 1
 		}
 		if err := w.readDate(t.Index, d, b); err != nil {
 			return sampled{}, err
@@ -172,14 +174,6 @@ func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
 	}
 	res.ts = ts
 	return res, nil
-}
-
-func rangeOf(n int) []int {
-	out := make([]int, n)
-	for i := range out {
-		out[i] = i
-	}
-	return out
 }
 
 // samplePairs are the pairs sampled: the scored pairs, then each date with
