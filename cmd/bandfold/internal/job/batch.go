@@ -3,7 +3,6 @@ package job
 import (
 	"bufio"
 	"context"
-	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -213,14 +212,4 @@ func stackStem(paths []string) string {
 		return stem
 	}
 	return common
-}
-
-// unwrapPath drops the path that os errors repeat, since messages name it
-// already.
-func unwrapPath(err error) error {
-	var pe *os.PathError
-	if errors.As(err, &pe) {
-		return pe.Err
-	}
-	return err
 }

@@ -239,7 +239,7 @@ func (f *folding) write(ctx context.Context, s *raster.Stack, out string, overwr
 			return nil, stats, fmt.Errorf("%s: the achieved RMSE %.6g exceeds the budget %.6g (%s) after %d writes, the last at step %.4g: the basis fits this scene too poorly for the budget; refit the basis on it or raise the budget",
 				describe(s), achieved, plan.budget, f.o.Budget, maxAttempts, plan.step)
 		}
-		f.env.log().Info(fmt.Sprintf("%s: achieved RMSE %.6g above the budget %.6g at step %.4g: writing again with a finer step", describe(s), achieved, plan.budget, plan.step))
+		f.env.logger().Info(fmt.Sprintf("%s: achieved RMSE %.6g above the budget %.6g at step %.4g: writing again with a finer step", describe(s), achieved, plan.budget, plan.step))
 		next, err := plan.finer(f.basis, f.k, achieved)
 		if err != nil {
 			return nil, stats, fmt.Errorf("%s: the achieved RMSE %.6g exceeds the budget %.6g and a finer step is %w", describe(s), achieved, plan.budget, err)

@@ -2,18 +2,12 @@ package job
 
 import (
 	"context"
-	"encoding/json"
-	"fmt"
 	"path/filepath"
-	"strings"
 
 	"bandfold/raster"
 	"bandfold/raster/output"
 	"bandfold/transform/change"
 )
-
-// Caution is repeated wherever a change map is reported.
-const Caution = "A change map is a screening result: verify mapped changes against imagery or field checks before acting on them; local regulations and licensed practice govern any action taken on it."
 
 // ChangeOptions are the options of Change.
 type ChangeOptions struct {
@@ -54,76 +48,6 @@ type ChangeOptions struct {
 	IgnoreBandNames bool
 }
 
-// ChangeResult is summary.json.
-type ChangeResult struct {
-	Before string `json:"before"`
-	After  string `json:"after"`
-	// BeforeLabel and AfterLabel name the dates' stacks for people.
-	BeforeLabel   string   `json:"before_label"`
-	AfterLabel    string   `json:"after_label"`
-	ValidPixels   int64    `json:"valid_pixels"`
-	ChangedPixels int64    `json:"changed_pixels"`
-	ChangedAreaM2 *float64 `json:"changed_area_m2"`
-	ChangedAreaHa *float64 `json:"changed_area_ha"`
-	ChangedFrac   float64  `json:"changed_fraction"`
-	// ValidAreaM2 and ValidAreaHa are the ground area of the pixels valid
-	// on both dates; null without a CRS.
-	ValidAreaM2 *float64         `json:"valid_area_m2"`
-	ValidAreaHa *float64         `json:"valid_area_ha"`
-	Threshold   ThresholdSummary `json:"threshold"`
-	Components  int              `json:"components"`
-	Location    []float64        `json:"location"`
-	Covariance  [][]float64      `json:"covariance"`
-	Iterations  int              `json:"iterations"`
-	Converged   bool             `json:"converged"`
-	// Identical is set when the dates do not differ at all over the valid
-	// pixels: no change is mapped and no model is fitted.
-	Identical     bool   `json:"identical"`
-	SamplePixels  int    `json:"sample_pixels"`
-	MinAreaPixels int    `json:"min_area_pixels"`
-	Patches       int    `json:"patches"`
-	Basis         string `json:"basis"`
-	Aligned       bool   `json:"aligned"`
-	// BeforeDate and AfterDate are the dates' dates and where each came
-	// from; BandMatch says how the bands were matched when the dates'
-	// bands differed ("" when compared as given).
-	BeforeDate    string               `json:"before_date"`
-	AfterDate     string               `json:"after_date"`
-	DateSource    []string             `json:"date_sources"`
-	BandMatch     string               `json:"band_match,omitempty"`
-	Reference     *ChangeAccuracy      `json:"reference,omitempty"`
-	Normalization NormalizationSummary `json:"normalization"`
-	// Scenario is the SCENARIO tag of invented input data.
-	Scenario string `json:"scenario,omitempty"`
-	// Warnings repeats the warnings printed on stderr about the map.
-	Warnings []string `json:"warnings"`
-	Outputs  []string `json:"outputs"`
-	AreaNote string   `json:"area_note"`
-	Caution  string   `json:"caution"`
-}
-
-// ThresholdSummary is the threshold rule and the Z it resolved to.
-type ThresholdSummary struct {
-	Rule string  `json:"rule"`
-	Z    float64 `json:"z"`
-	// Median is the chi-square median of the no-change model with k
-	// degrees of freedom: a cut below it flags more than half of the
-	// unchanged pixels.
-	Median float64 `json:"chisq_median"`
-	// Separability is Otsu's eta of the split (otsu only).
-	Separability *float64 `json:"otsu_separability,omitempty"`
-}
-
-// ChangeAccuracy compares the map with reference data over the pixels valid
-// in both; undefined rates are null.
-type ChangeAccuracy struct {
-	File string `json:"file"`
-	change.Confusion
-	change.Rates
-}
-
-var resamplings = []string{"nearest", "bilinear", "cubic", "cubicspline", "lanczos", "average", "mode"}
-
 // Change maps land-cover change between two dates: it fits (or reads) a
 // basis, the robust no-change model of the score differences, maps every
 // pixel's change statistic, applies the minimum mapping unit, polygonizes
@@ -145,47 +69,13 @@ func Change(ctx context.Context, env Env, o ChangeOptions) (_ *ChangeResult, err
 
 // check refuses option values that cannot be right.
 func (o *ChangeOptions) check() error {
-	if o.Resampling == "" {
-		o.Resampling = "bilinear"
-	}
-	if !contains(resamplings, o.Resampling) {
-		return Usagef("--resampling %q: want %s", o.Resampling, strings.Join(resamplings, ", "))
-	}
-	if o.Sample == 0 {
-		o.Sample = change.DefaultSampleSize
-	}
-	if o.Sample < 100 {
-		return Usagef("--sample %d: need at least 100 pixels", o.Sample)
-	}
-	if o.Components < 0 {
-		return Usagef("--components %d: must be positive", o.Components)
-	}
-	if o.Threshold == (change.Threshold{}) {
-		t, err := change.ParseThreshold(change.DefaultThreshold)
-		if err != nil {
-			return err
-		}
-		o.Threshold = t
-	}
-	if o.Out == "" {
-		return Usagef("no output folder (--out)")
-	}
-	if err := checkNormalize(o); err != nil {
+	sh := sharedOptions{Input: o.Input, Out: o.Out, Align: o.Align, Resampling: o.Resampling, Sample: o.Sample,
+		Components: o.Components, Threshold: o.Threshold, Normalize: o.Normalize}
+	if err := sh.check(); err != nil {
 		return err
 	}
-	if o.Align {
-		o.Input.Align, o.Input.Resampling = true, o.Resampling
-	}
-	return o.Input.check()
-}
-
-func contains(list []string, s string) bool {
-	for _, v := range list {
-		if v == s {
-			return true
-		}
-	}
-	return false
+	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = sh.Input, sh.Resampling, sh.Sample, sh.Threshold, sh.Normalize
+	return nil
 }
 
 // dateInput is Input with one date's own band selection, if any.
@@ -269,49 +159,6 @@ func (r *changeRun) open(ctx context.Context) error {
 	return nil
 }
 
-// onGrid opens stacks on a reference stack's grid.
-type onGrid struct {
-	ref        *raster.Stack
-	align      bool
-	resampling string
-}
-
-// open opens arg with opts, warped onto the reference grid when align is
-// set and the grids differ (reporting whether it was); the warped files'
-// cleanups are added to cleanups.
-func (g onGrid) open(env Env, arg string, opts []raster.Option, cleanups *[]func()) (*raster.Stack, bool, error) {
-	paths := SplitStack(arg)
-	if len(paths) == 0 {
-		return nil, false, Usagef("empty image argument %q", arg)
-	}
-	// Masks are on the reference grid, so open the files alone first.
-	probe, err := raster.Open(paths)
-	if err != nil {
-		return nil, false, err
-	}
-	defer probe.Close()
-	gridErr := g.ref.Grid.Compare(probe.Grid)
-	if gridErr == nil {
-		s, err := openStack(paths, opts)
-		return s, false, err
-	}
-	if !g.align {
-		return nil, false, fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", arg, describe(g.ref), gridErr)
-	}
-	var vrts []string
-	for _, p := range paths {
-		vrt, cleanup, err := raster.AlignTo(p, g.ref.Grid, g.resampling)
-		if err != nil {
-			return nil, false, err
-		}
-		vrts = append(vrts, vrt)
-		*cleanups = append(*cleanups, cleanup)
-	}
-	env.warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", arg, describe(g.ref), g.resampling)
-	s, err := openStack(vrts, opts)
-	return s, err == nil, err
-}
-
 // fitModel fits the robust no-change model on the sample's score
 // differences d = W_k^T (x_after - x_before) / s and resolves the threshold.
 func (r *changeRun) fitModel(ctx context.Context) error {
@@ -325,17 +172,8 @@ func (r *changeRun) fitModel(ctx context.Context) error {
 		return nil
 	}
 	r.model, r.zcut = f.model, f.zcut
-	r.env.log().Debug("no-change model", "iterations", f.model.Iterations, "sample", f.model.Sample, "z", f.zcut)
+	r.env.logger().Debug("no-change model", "iterations", f.model.Iterations, "sample", f.model.Sample, "z", f.zcut)
 	return nil
-}
-
-func allZero(x []float64) bool {
-	for _, v := range x {
-		if v != 0 {
-			return false
-		}
-	}
-	return true
 }
 
 // sieve applies the minimum mapping unit to the raw flags. The tile buffers
@@ -390,20 +228,4 @@ func (r *changeRun) summary(context.Context) error {
 		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.dir.Final(), name))
 	}
 	return commitSummary(r.env, r.dir, "summary.json", r.sum, r.warnings)
-}
-
-// commitSummary prints the warnings kept for the end, writes v as the JSON
-// file name in the folder and moves the folder into place.
-func commitSummary(env Env, dir *output.Folder, name string, v any, warnings []string) error {
-	for _, w := range warnings {
-		env.warn("%s", w)
-	}
-	js, err := json.MarshalIndent(v, "", "  ")
-	if err != nil {
-		return fmt.Errorf("summary of %s: %w", dir.Final(), err)
-	}
-	if err := output.WriteFile(dir.Path(name), append(js, '\n'), false); err != nil {
-		return err
-	}
-	return dir.Commit()
 }

@@ -18,16 +18,6 @@ import (
 // and --pvalues.
 var changeOutputs = []string{"change.tif", "magnitude.tif", "changes.gpkg", "preview.png", "diagnostics.png", "report.html", "summary.json"}
 
-// runChange runs Change, which must succeed.
-func runChange(t *testing.T, env Env, o ChangeOptions) *ChangeResult {
-	t.Helper()
-	res, err := Change(t.Context(), env, o)
-	if err != nil {
-		t.Fatalf("change %s %s: %v", o.Before, o.After, err)
-	}
-	return res
-}
-
 // TestChangeCalibrationOnUnchangedLandsat: the real Landsat 7 subset
 // (Debian's r-cran-stars) against itself, each date with its own noise that
 // correlates across bands, and a radiometric offset on one date. Nothing

@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"strconv"
-	"strings"
 )
 
 // Percent writes a fraction as a percentage with two significant decimals
@@ -16,24 +15,6 @@ func Percent(f float64) string {
 	pc := f * 100
 	digits := max(0, 1-int(math.Floor(math.Log10(math.Abs(pc)))))
 	return strconv.FormatFloat(pc, 'f', digits, 64) + "%"
-}
-
-// Count writes n with thousands separators: 4,013,117.
-func Count(n int64) string {
-	s := strconv.FormatInt(n, 10)
-	neg := strings.HasPrefix(s, "-")
-	s = strings.TrimPrefix(s, "-")
-	var b strings.Builder
-	for i, c := range s {
-		if i > 0 && (len(s)-i)%3 == 0 {
-			b.WriteByte(',')
-		}
-		b.WriteRune(c)
-	}
-	if neg {
-		return "-" + b.String()
-	}
-	return b.String()
 }
 
 // share writes "x of n what, p%", or "x of 0 what, undefined".

@@ -82,7 +82,7 @@ func Demo(ctx context.Context, env Env, o DemoOptions) (_ *DemoResult, err error
 		Out: j("hyper.restored.tif"), Compare: f.Hyper, Overwrite: o.Overwrite}); err != nil {
 		return nil, fmt.Errorf("demo unfold: %w", err)
 	}
-	if res.Hyper, err = demoHyper(ctx, env, &o, c); err != nil {
+	if res.Hyper, err = runHyperDemo(ctx, env, &o, c); err != nil {
 		return nil, err
 	}
 	if res.PairLearn, err = Learn(ctx, env, LearnOptions{Scenes: []string{f.Before, f.After}, Variance: 0.99, Out: j("pair.basis.json"), Overwrite: o.Overwrite}); err != nil {

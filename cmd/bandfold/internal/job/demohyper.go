@@ -36,10 +36,10 @@ type DemoHyper struct {
 	Pixels                      int64
 }
 
-// demoHyper fits PCA and MNF bases to the cube without the absorption
+// runHyperDemo fits PCA and MNF bases to the cube without the absorption
 // windows and measures how close each k-component reconstruction comes to
 // the noise-free cube.
-func demoHyper(ctx context.Context, env Env, o *DemoOptions, c *scenario.Catchment) (*DemoHyper, error) {
+func runHyperDemo(ctx context.Context, env Env, o *DemoOptions, c *scenario.Catchment) (*DemoHyper, error) {
 	hy := o.files().Hyper
 	res := &DemoHyper{Components: demoHyperK}
 	for _, m := range []transform.Method{transform.PCA, transform.MNF} {
@@ -77,7 +77,7 @@ func demoHyper(ctx context.Context, env Env, o *DemoOptions, c *scenario.Catchme
 	sc := newScan([]*raster.Stack{sub}, tileGrid(0), 1, Shard{})
 	var sum [3]float64 // squared errors: noisy, PCA, MNF
 	var n int64
-	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("denoising error", sc.pixels())},
+	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workerCount(), Progress: env.progressFor("denoising error", sc.pixels())},
 		func(int) (tiles.Worker[demoErr], error) {
 			return &demoErrWorker{reader: sc.newReader(), c: c, keep: keep, projs: [2]*transform.Projector{projs[0].Clone(), projs[1].Clone()}}, nil
 		},

@@ -17,7 +17,7 @@ func TestDemoHyper(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	r, err := demoHyper(context.Background(), testEnv, &o, c)
+	r, err := runHyperDemo(context.Background(), testEnv, &o, c)
 	if err != nil {
 		t.Fatal(err)
 	}

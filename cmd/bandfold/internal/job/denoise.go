@@ -144,7 +144,7 @@ func (d *denoising) run(ctx context.Context, dst *raster.Output) (int64, error) 
 	sc := newScan([]*raster.Stack{d.img}, tileGrid(d.o.Input.Tile), 1, Shard{})
 	pool := &sync.Pool{New: func() any { return &denoiseTile{} }}
 	var pixels int64
-	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: d.env.workers(), Progress: d.env.progress("denoise", sc.pixels())},
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: d.env.workerCount(), Progress: d.env.progressFor("denoise", sc.pixels())},
 		func(int) (tiles.Worker[*denoiseTile], error) {
 			return &denoiseWorker{reader: sc.newReader(), proj: d.proj.Clone(), st: &d.st, pool: pool}, nil
 		},

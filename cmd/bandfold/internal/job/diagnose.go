@@ -1,40 +1,21 @@
 package job
 
 import (
-	"context"
-	"fmt"
-
 	"gonum.org/v1/gonum/stat/distuv"
-
-	"bandfold/cmd/bandfold/internal/figures"
-	"bandfold/raster/output"
 )
 
 // chisqMedian is the median of the chi-square distribution with k degrees
 // of freedom.
 func chisqMedian(k int) float64 { return distuv.ChiSquared{K: float64(k)}.Quantile(0.5) }
 
-// thresholdSummary is the threshold for the summary.
-func (r *changeRun) thresholdSummary() ThresholdSummary {
-	return ThresholdSummary{Rule: r.o.Threshold.String(), Z: r.zcut, Median: chisqMedian(r.proj.Components()), Separability: r.eta}
-}
-
-// diagnostics writes diagnostics.png: the histogram of Z over the sample
-// against the chi-square density with k degrees of freedom, the threshold
-// marked, and a QQ panel.
-func (r *changeRun) diagnostics(context.Context) error {
-	if r.model == nil {
-		return nil
-	}
-	k := r.proj.Components()
-	data, err := figures.Diagnostics(figures.DiagnosticsData{Z: r.zs, K: k, Threshold: r.zcut,
-		Title: fmt.Sprintf("Z of %s sampled pixels against chi-square, k = %d", Count(int64(len(r.zs))), k)})
-	if err != nil {
-		return fmt.Errorf("diagnostics of %s: %w", r.o.Out, err)
-	}
-	if err := output.WriteFile(r.dir.Path("diagnostics.png"), data, false); err != nil {
-		return err
-	}
-	r.outputs = append(r.outputs, "diagnostics.png")
-	return nil
+// ThresholdSummary is the threshold rule and the Z it resolved to.
+type ThresholdSummary struct {
+	Rule string  `json:"rule"`
+	Z    float64 `json:"z"`
+	// Median is the chi-square median of the no-change model with k
+	// degrees of freedom: a cut below it flags more than half of the
+	// unchanged pixels.
+	Median float64 `json:"chisq_median"`
+	// Separability is Otsu's eta of the split (otsu only).
+	Separability *float64 `json:"otsu_separability,omitempty"`
 }

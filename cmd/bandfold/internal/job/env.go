@@ -39,21 +39,21 @@ type Env struct {
 	Version string
 }
 
-func (e Env) workers() int {
+func (e Env) workerCount() int {
 	if e.Workers < 1 {
 		return runtime.NumCPU()
 	}
 	return e.Workers
 }
 
-func (e Env) log() *slog.Logger {
+func (e Env) logger() *slog.Logger {
 	if e.Log == nil {
 		return slog.New(slog.NewTextHandler(io.Discard, nil))
 	}
 	return e.Log
 }
 
-func (e Env) progress(label string, pixels int64) func(done, total int) {
+func (e Env) progressFor(label string, pixels int64) func(done, total int) {
 	if e.Progress == nil {
 		return nil
 	}
@@ -62,7 +62,7 @@ func (e Env) progress(label string, pixels int64) func(done, total int) {
 
 // warn logs a warning for the user.
 func (e Env) warn(format string, args ...any) {
-	e.log().Warn(fmt.Sprintf(format, args...))
+	e.logger().Warn(fmt.Sprintf(format, args...))
 }
 
 // UsageError marks an error in the options a user gave, as opposed to a
@@ -128,7 +128,7 @@ func runSteps(ctx context.Context, env Env, job string, steps []jobStep) error {
 		if err := step.do(ctx); err != nil {
 			return err
 		}
-		env.log().Debug(job+" step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
+		env.logger().Debug(job+" step", "step", step.name, "seconds", fmt.Sprintf("%.3f", time.Since(start).Seconds()))
 	}
 	return nil
 }

@@ -178,57 +178,6 @@ func Fold(ctx context.Context, env Env, o FoldOptions) (_ *FoldScene, err error)
 	return &res, nil
 }
 
-// checkBands requires the image's bands to match the basis's, by count and,
-// where both sides carry real names, by name in order.
-func checkBands(b *transform.Basis, basisPath string, s *raster.Stack, how bandCheck) error {
-	if s.Len() != len(b.Bands) && how.selected {
-		return Usagef("--bands selects %d bands of %s but the basis %s has %d", s.Len(), describe(s), basisPath, len(b.Bands))
-	}
-	if s.Len() != len(b.Bands) {
-		hint := ""
-		if s.Len() == 1 && len(b.Bands) > 1 {
-			hint = " (give --stack, or join the band files with commas, to read one file per band as one stack)"
-		}
-		return fmt.Errorf("%s has %d bands but the basis %s has %d%s", describe(s), s.Len(), basisPath, len(b.Bands), hint)
-	}
-	if how.ignoreNames {
-		return nil
-	}
-	return sameBandNames(describe(s), basisBands(s), "the basis "+basisPath, b.Bands)
-}
-
-// bandCheck says how checkBands compares: whether --bands made the
-// selection, and whether names are compared.
-type bandCheck struct{ selected, ignoreNames bool }
-
-// sameBandNames requires two band lists of one length to carry the same
-// names in the same order, where both sides have real names: a reordered
-// stack would otherwise pass with a silently wrong result.
-func sameBandNames(haveName string, have []transform.Band, wantName string, want []transform.Band) error {
-	var hs, ws []string
-	differ := false
-	for i := range have {
-		hs = append(hs, have[i].Name)
-		ws = append(ws, want[i].Name)
-		// Names made up from the file name ("scene:3") say nothing about
-		// the band, so they are not compared.
-		if !autoNamed(have[i].Name, have[i].Source, have[i].Index) && !autoNamed(want[i].Name, want[i].Source, want[i].Index) {
-			differ = differ || have[i].Name != want[i].Name
-		}
-	}
-	if differ {
-		return fmt.Errorf("%s has bands [%s] but %s has [%s]; give the bands in the same order, or pass --ignore-band-names if they match in order",
-			haveName, strings.Join(hs, ", "), wantName, strings.Join(ws, ", "))
-	}
-	return nil
-}
-
-// autoNamed reports whether name is the "<file stem>:<band>" name given to a
-// band without a description.
-func autoNamed(name, path string, index int) bool {
-	return name == fmt.Sprintf("%s:%d", raster.Stem(path), index)
-}
-
 // completeKey is the metadata item holding a component image's completion
 // record.
 const completeKey = "BANDFOLD_COMPLETE"
@@ -434,7 +383,7 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 		meter = transform.NewErrorMeter(f.proj)
 	}
 	pool := &sync.Pool{New: func() any { return &foldTile{x: bands.NewMoments(p), y: bands.NewMoments(f.k)} }}
-	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: f.env.workers(), Progress: f.env.progress("fold", sc.pixels())},
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: f.env.workerCount(), Progress: f.env.progressFor("fold", sc.pixels())},
 		func(int) (tiles.Worker[*foldTile], error) {
 			limit := math.MaxFloat64
 			if spec.DataType == "Float32" {

@@ -280,3 +280,69 @@ func argPaths(role string, args []string, masks []raster.MaskRule) []output.Path
 	}
 	return out
 }
+
+// distinctFromStacks refuses outputs that are the same file as any file or
+// mask of the stacks, or as each other.
+func distinctFromStacks(stacks []*raster.Stack, outs ...output.Path) error {
+	var ins []output.Path
+	for _, s := range stacks {
+		for _, p := range s.Paths {
+			ins = append(ins, output.Path{Role: "input", Path: p})
+		}
+		for _, m := range s.Masks {
+			ins = append(ins, output.Path{Role: "mask", Path: m})
+		}
+	}
+	return output.Distinct(ins, outs)
+}
+
+// sameBandNames requires two band lists of one length to carry the same
+// names in the same order, where both sides have real names: a reordered
+// stack would otherwise pass with a silently wrong result.
+func sameBandNames(haveName string, have []transform.Band, wantName string, want []transform.Band) error {
+	var hs, ws []string
+	differ := false
+	for i := range have {
+		hs = append(hs, have[i].Name)
+		ws = append(ws, want[i].Name)
+		// Names made up from the file name ("scene:3") say nothing about
+		// the band, so they are not compared.
+		if !autoNamed(have[i].Name, have[i].Source, have[i].Index) && !autoNamed(want[i].Name, want[i].Source, want[i].Index) {
+			differ = differ || have[i].Name != want[i].Name
+		}
+	}
+	if differ {
+		return fmt.Errorf("%s has bands [%s] but %s has [%s]; give the bands in the same order, or pass --ignore-band-names if they match in order",
+			haveName, strings.Join(hs, ", "), wantName, strings.Join(ws, ", "))
+	}
+	return nil
+}
+
+// bandCheck says how checkBands compares: whether --bands made the
+// selection, and whether names are compared.
+type bandCheck struct{ selected, ignoreNames bool }
+
+// checkBands requires the image's bands to match the basis's, by count and,
+// where both sides carry real names, by name in order.
+func checkBands(b *transform.Basis, basisPath string, s *raster.Stack, how bandCheck) error {
+	if s.Len() != len(b.Bands) && how.selected {
+		return Usagef("--bands selects %d bands of %s but the basis %s has %d", s.Len(), describe(s), basisPath, len(b.Bands))
+	}
+	if s.Len() != len(b.Bands) {
+		hint := ""
+		if s.Len() == 1 && len(b.Bands) > 1 {
+			hint = " (give --stack, or join the band files with commas, to read one file per band as one stack)"
+		}
+		return fmt.Errorf("%s has %d bands but the basis %s has %d%s", describe(s), s.Len(), basisPath, len(b.Bands), hint)
+	}
+	if how.ignoreNames {
+		return nil
+	}
+	return sameBandNames(describe(s), basisBands(s), "the basis "+basisPath, b.Bands)
+}
+
+// autoNamed reports whether name is the "<file stem>:<band>" name given to a
+// band without a description.
+func autoNamed(name, path string, index int) bool {
+	return name == fmt.Sprintf("%s:%d", raster.Stem(path), index)
+}

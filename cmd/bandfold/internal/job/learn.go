@@ -149,7 +149,7 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 	}
 	sh := o.Shard.orWhole()
 	sc := newScan(scenes, tileGrid(o.Input.Tile), o.Stride, sh)
-	env.log().Debug("learn", "scenes", len(scenes), "bands", p, "tiles", len(sc.items), "shard", sh.String())
+	env.logger().Debug("learn", "scenes", len(scenes), "bands", p, "tiles", len(sc.items), "shard", sh.String())
 	var acc, noise *bands.Accumulator
 	if o.Method == transform.MNF || o.SuggestExclude {
 		acc, noise, err = sc.momentsAndNoise(ctx, env, o.Noise)
@@ -200,21 +200,6 @@ func Learn(ctx context.Context, env Env, o LearnOptions) (_ *LearnResult, err er
 		return nil, err
 	}
 	return &LearnResult{Basis: b, Summary: Summarize(b, o.Out), Path: o.Out}, nil
-}
-
-// distinctFromStacks refuses outputs that are the same file as any file or
-// mask of the stacks, or as each other.
-func distinctFromStacks(stacks []*raster.Stack, outs ...output.Path) error {
-	var ins []output.Path
-	for _, s := range stacks {
-		for _, p := range s.Paths {
-			ins = append(ins, output.Path{Role: "input", Path: p})
-		}
-		for _, m := range s.Masks {
-			ins = append(ins, output.Path{Role: "mask", Path: m})
-		}
-	}
-	return output.Distinct(ins, outs)
 }
 
 // MergeOptions are the options of Merge.

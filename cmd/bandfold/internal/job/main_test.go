@@ -298,3 +298,24 @@ func writeNamed(t *testing.T, path, src string, names []string) {
 	}
 	writeRasterFile(t, path, raster.Spec{Grid: s.Grid, Bands: len(names), DataType: "Float32", Descriptions: names}, buf)
 }
+
+// runChange runs Change, which must succeed.
+func runChange(t *testing.T, env Env, o ChangeOptions) *ChangeResult {
+	t.Helper()
+	res, err := Change(t.Context(), env, o)
+	if err != nil {
+		t.Fatalf("change %s %s: %v", o.Before, o.After, err)
+	}
+	return res
+}
+
+func copyFile(t *testing.T, src, dst string) {
+	t.Helper()
+	data, err := os.ReadFile(src)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(dst, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+}

@@ -133,7 +133,7 @@ func (sc *scan) momentsAndNoise(ctx context.Context, env Env, shift bands.Shift)
 		}
 	}
 	var right column // the right edge of the last tile merged, when joined
-	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("co-moments and noise", sc.pixels())},
+	err = tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workerCount(), Progress: env.progressFor("co-moments and noise", sc.pixels())},
 		func(int) (tiles.Worker[tileStats], error) {
 			return &noiseWorker{sc: sc, shift: shift, joined: joined, readers: make([]*raster.Reader, len(sc.scenes)), pool: pool}, nil
 		},

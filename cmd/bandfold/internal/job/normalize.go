@@ -36,9 +36,10 @@ type BandNormalized struct {
 // normalizations are the values --normalize takes.
 var normalizations = []string{NormalizeStable, NormalizeNone}
 
-func checkNormalize(o *ChangeOptions) error {
+// checkNormalize checks and defaults a --normalize value in place.
+func checkNormalize(value *string) error {
 	var err error
-	o.Normalize, err = ParseNormalize(o.Normalize)
+	*value, err = ParseNormalize(*value)
 	return err
 }
 

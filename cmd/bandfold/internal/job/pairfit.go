@@ -179,3 +179,12 @@ func (s *pairScorer) differences() []float64 {
 	s.proj.Difference(s.d, s.dx)
 	return s.d
 }
+
+func allZero(x []float64) bool {
+	for _, v := range x {
+		if v != 0 {
+			return false
+		}
+	}
+	return true
+}

@@ -37,8 +37,8 @@ func writeRaster(ctx context.Context, env Env, path string, spec raster.Spec, gr
 		return err
 	}
 	defer out.Abort()
-	pool := make(chan []float64, 4*env.workers())
-	err = tiles.Run(ctx, grid.All(), tiles.Options{Workers: env.workers()},
+	pool := make(chan []float64, 4*env.workerCount())
+	err = tiles.Run(ctx, grid.All(), tiles.Options{Workers: env.workerCount()},
 		func(w int) (tiles.Worker[[]float64], error) {
 			return &renderWorker{bands: spec.Bands, render: render(w), pool: pool}, nil
 		},

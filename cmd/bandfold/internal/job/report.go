@@ -5,6 +5,9 @@ import (
 	"encoding/base64"
 	"fmt"
 	"html/template"
+	"os"
+	"path/filepath"
+	"slices"
 	"time"
 )
 
@@ -118,4 +121,27 @@ func num(v *float64, decimals int) string {
 		return "n/a"
 	}
 	return fmt.Sprintf("%.*f", decimals, *v)
+}
+
+type namedImage struct {
+	name string
+	data []byte
+}
+
+// folderImages reads the PNG figures of a change folder, by name.
+func folderImages(dir string) ([]namedImage, error) {
+	names, err := filepath.Glob(filepath.Join(dir, "*.png"))
+	if err != nil {
+		return nil, err
+	}
+	slices.Sort(names)
+	var out []namedImage
+	for _, n := range names {
+		data, err := os.ReadFile(n)
+		if err != nil {
+			return nil, fmt.Errorf("report: %w", err)
+		}
+		out = append(out, namedImage{filepath.Base(n), data})
+	}
+	return out, nil
 }

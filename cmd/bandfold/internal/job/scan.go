@@ -162,7 +162,7 @@ func (sc *scan) moments(ctx context.Context, env Env) (*bands.Accumulator, error
 	p := sc.scenes[0].Len()
 	pool := &sync.Pool{New: func() any { return bands.NewExactAccumulator(p) }}
 	total := bands.NewExactAccumulator(p)
-	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers(), Progress: env.progress("co-moments", sc.pixels())},
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workerCount(), Progress: env.progressFor("co-moments", sc.pixels())},
 		func(int) (tiles.Worker[*bands.Accumulator], error) {
 			return &momentWorker{reader: sc.newReader(), pool: pool}, nil
 		},
@@ -181,7 +181,7 @@ func (sc *scan) moments(ctx context.Context, env Env) (*bands.Accumulator, error
 func countValid(ctx context.Context, env Env, s *raster.Stack, tile int) (int64, error) {
 	sc := newScan([]*raster.Stack{s}, tileGrid(tile), 1, Shard{})
 	var total int64
-	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workers()},
+	err := tiles.Run(ctx, sc.runTiles(), tiles.Options{Workers: env.workerCount()},
 		func(int) (tiles.Worker[int], error) { return &countWorker{sc.newReader()}, nil },
 		func(_ tiles.Tile, n int) error { total += int64(n); return nil })
 	return total, err

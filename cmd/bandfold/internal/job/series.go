@@ -59,6 +59,55 @@ type seriesConfig struct {
 	Overwrite bool
 }
 
+// sharedOptions are the options of change and timeline that the engine
+// reads, checked and defaulted in one place.
+type sharedOptions struct {
+	Input      Input
+	Out        string
+	Align      bool
+	Resampling string
+	Sample     int
+	Components int
+	Threshold  change.Threshold
+	Normalize  string
+}
+
+// check refuses option values that cannot be right and fills defaults.
+func (o *sharedOptions) check() error {
+	if o.Resampling == "" {
+		o.Resampling = "bilinear"
+	}
+	if !contains(resamplings, o.Resampling) {
+		return Usagef("--resampling %q: want %s", o.Resampling, strings.Join(resamplings, ", "))
+	}
+	if o.Sample == 0 {
+		o.Sample = change.DefaultSampleSize
+	}
+	if o.Sample < 100 {
+		return Usagef("--sample %d: need at least 100 pixels", o.Sample)
+	}
+	if o.Components < 0 {
+		return Usagef("--components %d: must be positive", o.Components)
+	}
+	if o.Threshold == (change.Threshold{}) {
+		t, err := change.ParseThreshold(change.DefaultThreshold)
+		if err != nil {
+			return err
+		}
+		o.Threshold = t
+	}
+	if o.Out == "" {
+		return Usagef("no output folder (--out)")
+	}
+	if err := checkNormalize(&o.Normalize); err != nil {
+		return err
+	}
+	if o.Align {
+		o.Input.Align, o.Input.Resampling = true, o.Resampling
+	}
+	return o.Input.check()
+}
+
 // seriesRun is one run of the engine, a step per method.
 type seriesRun struct {
 	env Env
@@ -479,4 +528,47 @@ func nmRange(b transform.SpectralBand) string {
 		return fmt.Sprintf("%g-%g nm", b.LoNM, b.HiNM)
 	}
 	return fmt.Sprintf("%g nm", b.Centre)
+}
+
+// onGrid opens stacks on a reference stack's grid.
+type onGrid struct {
+	ref        *raster.Stack
+	align      bool
+	resampling string
+}
+
+// open opens arg with opts, warped onto the reference grid when align is
+// set and the grids differ (reporting whether it was); the warped files'
+// cleanups are added to cleanups.
+func (g onGrid) open(env Env, arg string, opts []raster.Option, cleanups *[]func()) (*raster.Stack, bool, error) {
+	paths := SplitStack(arg)
+	if len(paths) == 0 {
+		return nil, false, Usagef("empty image argument %q", arg)
+	}
+	// Masks are on the reference grid, so open the files alone first.
+	probe, err := raster.Open(paths)
+	if err != nil {
+		return nil, false, err
+	}
+	defer probe.Close()
+	gridErr := g.ref.Grid.Compare(probe.Grid)
+	if gridErr == nil {
+		s, err := openStack(paths, opts)
+		return s, false, err
+	}
+	if !g.align {
+		return nil, false, fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", arg, describe(g.ref), gridErr)
+	}
+	var vrts []string
+	for _, p := range paths {
+		vrt, cleanup, err := raster.AlignTo(p, g.ref.Grid, g.resampling)
+		if err != nil {
+			return nil, false, err
+		}
+		vrts = append(vrts, vrt)
+		*cleanups = append(*cleanups, cleanup)
+	}
+	env.warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", arg, describe(g.ref), g.resampling)
+	s, err := openStack(vrts, opts)
+	return s, err == nil, err
 }

@@ -200,7 +200,7 @@ func (r *seriesRun) fitBasis(context.Context) error {
 func (r *seriesRun) fitModels(ctx context.Context) error {
 	p := r.scenes[0].Len()
 	r.fits = make([]*pairFit, len(r.pairs))
-	err := tiles.Each(ctx, len(r.pairs), r.env.workers(), func(q int) error {
+	err := tiles.Each(ctx, len(r.pairs), r.env.workerCount(), func(q int) error {
 		pr := r.pairs[q]
 		f, err := fitPair(r.dxs[q], p, r.proj.Clone(), r.c.Threshold, r.args[pr[0]]+" and "+r.args[pr[1]])
 		r.fits[q] = f

@@ -109,7 +109,7 @@ func (r *seriesRun) mapPairs(ctx context.Context, h mapHooks) error {
 		ring = max(ring, pr[1]-pr[0]+1)
 	}
 	pool := &sync.Pool{New: func() any { return &pairTile{} }}
-	return tiles.Run(ctx, r.tiles, tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("map", int64(g.Width)*int64(g.Height))},
+	return tiles.Run(ctx, r.tiles, tiles.Options{Workers: r.env.workerCount(), Progress: r.env.progressFor("map", int64(g.Width)*int64(g.Height))},
 		func(int) (tiles.Worker[*pairTile], error) {
 			w := &pairWorker{seriesReader: newSeriesReader(r.scenes, r.tiles, ring), pairs: r.pairs, ring: ring, pool: pool,
 				hook: h.newWorker(), p: r.scenes[0].Len()}

@@ -212,7 +212,7 @@ func (r *seriesRun) sample(ctx context.Context) error {
 		bound.Store(total.sample.Bound())
 		keys := change.NewSampler(r.c.Sample, 1, 1)
 		ts := r.sampleTiles(hint)
-		err := tiles.Run(ctx, ts, tiles.Options{Workers: r.env.workers(), Progress: r.env.progress("statistics", pixels)},
+		err := tiles.Run(ctx, ts, tiles.Options{Workers: r.env.workerCount(), Progress: r.env.progressFor("statistics", pixels)},
 			func(int) (tiles.Worker[sampled], error) {
 				return &sampleWorker{seriesReader: newSeriesReader(r.scenes, ts, 2), ref: r.ref, pairs: r.sampled, p: p, width: int64(g.Width), keyer: keys, bound: &bound}, nil
 			},

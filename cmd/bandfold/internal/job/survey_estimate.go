@@ -98,7 +98,8 @@ func SurveyEstimate(_ context.Context, _ Env, o SurveyEstimateOptions) (_ *Surve
 	var report []byte
 	dir := filepath.Dir(mapPath)
 	if _, err := os.Stat(filepath.Join(dir, "summary.json")); err == nil && mapOf(o.Dir, "") != o.Dir {
-		if report, err = folderReport(dir, res); err != nil {
+		section := estimateSection(res)
+		if report, err = folderReport(dir, res.validArea(), &section); err != nil {
 			return nil, err
 		}
 		res.Outputs = append(res.Outputs, filepath.Join(dir, "report.html"))
@@ -116,20 +117,6 @@ func SurveyEstimate(_ context.Context, _ Env, o SurveyEstimateOptions) (_ *Surve
 		}
 	}
 	return res, nil
-}
-
-// label reads a reference label: change (or 1), no change (or 0), "" for
-// none.
-func label(s string) (int, bool) {
-	switch strings.ToLower(strings.TrimSpace(s)) {
-	case "change", "1":
-		return 0, true
-	case "no change", "0":
-		return 1, true
-	case "":
-		return -1, true
-	}
-	return -1, false
 }
 
 // estimate applies the stratified estimator (Olofsson et al. 2014) when
@@ -223,11 +210,44 @@ func estimate(path string, pts *raster.Points) (*SurveyEstimateResult, error) {
 	return res, nil
 }
 
-func ptr(v float64) *float64 { return &v }
-
 func finite(v float64) *float64 {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return nil
 	}
 	return &v
+}
+
+// estimateSection shows a survey's estimates.
+func estimateSection(e *SurveyEstimateResult) reportSection {
+	areas := reportTable{Caption: "Estimated area (95% confidence interval) beside the mapped area",
+		Head: []string{"class", "mapped area (ha)", "estimated area (ha)", "standard error (ha)", "95% interval (ha)", "user's accuracy", "producer's accuracy"}}
+	for _, c := range e.Classes {
+		ci := "n/a"
+		if c.AreaCI95Ha != nil {
+			ci = fmt.Sprintf("%.2f to %.2f", c.AreaCI95Ha[0], c.AreaCI95Ha[1])
+		}
+		areas.Rows = append(areas.Rows, []string{c.Class, num(c.MappedAreaHa, 2), num(c.AreaHa, 2), num(c.AreaSEHa, 2), ci,
+			num(c.UsersAccuracy, 3) + " ± " + num(c.UsersAccuracySE, 3), num(c.ProducersAccuracy, 3) + " ± " + num(c.ProducersAccuracySE, 3)})
+	}
+	matrix := reportTable{Caption: "Estimated error matrix in area proportions (rows: map class, columns: reference class)", Head: append([]string{"map \\ reference"}, e.MatrixClasses...)}
+	for i, row := range e.ErrorMatrix {
+		cells := []string{e.MatrixClasses[i]}
+		for _, v := range row {
+			cells = append(cells, fmt.Sprintf("%.4f", v))
+		}
+		matrix.Rows = append(matrix.Rows, cells)
+	}
+	return reportSection{Heading: "Estimated area from the reference survey", Notes: []string{
+		fmt.Sprintf("Survey %s: %d labelled points, %d without a label excluded. Estimator: %s.", e.Survey, e.Labelled, e.Excluded, e.Estimator),
+		fmt.Sprintf("Overall accuracy %.3f ± %.3f (standard error).", e.OverallAccuracy, e.OverallAccuracySE),
+	}, Tables: []reportTable{areas, matrix}}
+}
+
+// validArea is the mapped area of both classes of a change map's survey,
+// nil otherwise.
+func (e *SurveyEstimateResult) validArea() *float64 {
+	if len(e.Classes) != 2 || e.Classes[0].MappedAreaHa == nil || e.Classes[1].MappedAreaHa == nil {
+		return nil
+	}
+	return ptr(*e.Classes[0].MappedAreaHa + *e.Classes[1].MappedAreaHa)
 }

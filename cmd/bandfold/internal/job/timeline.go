@@ -159,7 +159,7 @@ func (o *TimelineOptions) check() error {
 		return Usagef("--confirm %q: want lasting or none", o.Confirm)
 	}
 	// The options Change shares are checked as Change checks them.
-	co := ChangeOptions{Input: o.Input, Out: o.Out, Resampling: o.Resampling, Sample: o.Sample, Components: o.Components,
+	co := sharedOptions{Input: o.Input, Out: o.Out, Resampling: o.Resampling, Sample: o.Sample, Components: o.Components,
 		Threshold: o.Threshold, Normalize: o.Normalize, Align: o.Align}
 	if err := co.check(); err != nil {
 		return err

@@ -148,14 +148,3 @@ func TestTimelineRefusals(t *testing.T) {
 		mustNotExist(t, tc.name, out)
 	}
 }
-
-func copyFile(t *testing.T, src, dst string) {
-	t.Helper()
-	data, err := os.ReadFile(src)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := os.WriteFile(dst, data, 0o644); err != nil {
-		t.Fatal(err)
-	}
-}

@@ -217,7 +217,7 @@ func (u *unfolding) rebuild(ctx context.Context, dst *raster.Output) (loss, loss
 	}
 	loss, lossW = transform.NewLoss(p), transform.NewLoss(p)
 	pool := &sync.Pool{New: func() any { return &unfoldTile{} }}
-	err = tiles.Run(ctx, compScan.runTiles(), tiles.Options{Workers: u.env.workers(), Progress: u.env.progress("unfold", compScan.pixels())},
+	err = tiles.Run(ctx, compScan.runTiles(), tiles.Options{Workers: u.env.workerCount(), Progress: u.env.progressFor("unfold", compScan.pixels())},
 		func(int) (tiles.Worker[*unfoldTile], error) {
 			w := &unfoldWorker{comp: compScan.newReader(), proj: u.proj.Clone(), st: &u.st, p: p, pool: pool}
 			if origScan != nil {
