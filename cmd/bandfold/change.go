@@ -7,8 +7,11 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/changefolder"
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/transform/change"
 )
@@ -22,7 +25,7 @@ type changeFlags struct {
 	maskAfter    []string
 	bandsBefore  string
 	bandsAfter   string
-	o            job.ChangeOptions
+	o            pairchange.ChangeOptions
 }
 
 func newChangeCommand(g *globals) *cobra.Command { return changeCommand(g, &changeFlags{}) }
@@ -32,18 +35,18 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "change BEFORE AFTER --out DIR",
 		Short: "Map land-cover change between two dates from component score differences",
-		Long:  cli.ChangeHelp + job.Caution,
+		Long:  cli.ChangeHelp + jobkit.Caution,
 		Example: `  bandfold change 2023.tif 2024.tif --out change-2024
   bandfold change l7-2001.tif l8-2013.tif --out change --bands-before 1-4 --bands-after 2-5 --min-area 0.5ha
   bandfold change 2023.tif 2024.tif --out change --threshold chisq:0.9999 --min-area 0.5ha --reference truth.gpkg
   bandfold change a.tif b.tif --out change --align --resampling bilinear --mask-after clouds-b.tif`,
 		Args: args(cobra.ExactArgs(2)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o, err := fl.options(a[0], a[1])
 			if err != nil {
 				return err
 			}
-			res, err := job.Change(ctx, env, o)
+			res, err := pairchange.Change(ctx, env, o)
 			if err != nil {
 				return err
 			}
@@ -72,7 +75,7 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.StringVar(&fl.previewBands, "preview-bands", "", "three 1-based bands of AFTER for preview.png (default: the first three)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled to estimate the no-change distribution")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous change output folder")
-	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
+	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
 	cmd.MarkFlagRequired("out")
 	cli.MarkArgs(cmd, cli.InputImage)
 	cli.MarkInputs(f, cli.InputFile, "basis", "reference")
@@ -81,17 +84,17 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 }
 
 // options translates the flags.
-func (fl *changeFlags) options(before, after string) (job.ChangeOptions, error) {
+func (fl *changeFlags) options(before, after string) (pairchange.ChangeOptions, error) {
 	o := fl.o
 	o.Before, o.After = before, after
 	var err error
 	if o.Threshold, err = change.ParseThreshold(fl.threshold); err != nil {
-		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+		return o, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
-	if o.MinArea, err = job.ParseMinArea(fl.minArea); err != nil {
+	if o.MinArea, err = jobkit.ParseMinArea(fl.minArea); err != nil {
 		return o, err
 	}
-	if o.Normalize, err = job.ParseNormalize(o.Normalize); err != nil {
+	if o.Normalize, err = series.ParseNormalize(o.Normalize); err != nil {
 		return o, err
 	}
 	if o.PreviewBands, err = raster.ParseBands(fl.previewBands); err != nil || (fl.previewBands != "" && len(o.PreviewBands) != 3) {
@@ -120,7 +123,7 @@ func (fl *changeFlags) options(before, after string) (job.ChangeOptions, error) 
 }
 
 // reportChange prints the summary table on stderr.
-func (g *globals) reportChange(s *job.ChangeResult) {
+func (g *globals) reportChange(s *changefolder.ChangeResult) {
 	if !g.quiet {
 		cli.ChangeText(g.stderr, s)
 	}

@@ -6,11 +6,12 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/demo"
+	"bandfold/cmd/bandfold/internal/jobkit"
 )
 
 func newDemoCommand(g *globals) *cobra.Command {
-	o := job.DemoOptions{}
+	o := demo.DemoOptions{}
 	cmd := &cobra.Command{
 		Use:   "demo",
 		Short: "Make the invented Vessel river scenario and run the whole job on it",
@@ -18,8 +19,8 @@ func newDemoCommand(g *globals) *cobra.Command {
 		Example: `  bandfold demo --dir demo-out
   bandfold demo --dir small --size 512`,
 		Args: args(cobra.NoArgs),
-		RunE: g.runE(func(ctx context.Context, env job.Env, _ []string) error {
-			res, err := job.Demo(ctx, env, o)
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, _ []string) error {
+			res, err := demo.Demo(ctx, env, o)
 			if err != nil {
 				return err
 			}
@@ -37,7 +38,7 @@ func newDemoCommand(g *globals) *cobra.Command {
 }
 
 // reportDemo prints the closing report of the demo.
-func (g *globals) reportDemo(o job.DemoOptions, r *job.DemoResult) {
+func (g *globals) reportDemo(o demo.DemoOptions, r *demo.DemoResult) {
 	if !g.quiet {
 		cli.DemoText(g.stderr, o, r)
 	}

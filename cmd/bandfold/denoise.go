@@ -7,14 +7,15 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/fold"
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 )
 
 type denoiseFlags struct {
 	input  inputFlags
 	format string
-	o      job.DenoiseOptions
+	o      fold.DenoiseOptions
 }
 
 func newDenoiseCommand(g *globals) *cobra.Command { return denoiseCommand(g, &denoiseFlags{}) }
@@ -27,17 +28,17 @@ func denoiseCommand(g *globals, fl *denoiseFlags) *cobra.Command {
 		Long:    cli.DenoiseHelp,
 		Example: `  bandfold denoise cube.tif --basis cube.mnf.json --out cube.denoised.tif -k 12`,
 		Args:    args(cobra.ExactArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o := fl.o
 			o.Image = a[0]
 			var err error
 			if o.Format, err = raster.ParseFormat(fl.format); err != nil {
-				return &job.UsageError{Err: fmt.Errorf("--%w", err)}
+				return &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 			}
 			if o.Input, err = fl.input.input(); err != nil {
 				return err
 			}
-			res, err := job.Denoise(ctx, env, o)
+			res, err := fold.Denoise(ctx, env, o)
 			if err != nil {
 				return err
 			}

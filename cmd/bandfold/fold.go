@@ -11,7 +11,8 @@ import (
 	"github.com/spf13/pflag"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/fold"
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 )
 
@@ -23,7 +24,7 @@ type foldFlags struct {
 	maxRMSE    string
 	minPSNR    float64
 	set        *pflag.FlagSet
-	o          job.FoldOptions
+	o          fold.FoldOptions
 }
 
 func newFoldCommand(g *globals) *cobra.Command { return foldCommand(g, &foldFlags{}) }
@@ -37,13 +38,13 @@ func foldCommand(g *globals, fl *foldFlags) *cobra.Command {
 		Example: `  bandfold fold cube.tif --basis cube.basis.json --out cube.components.tif --type int16
   bandfold fold scenes/*.tif --basis ref.basis.json --out-dir components --json
   bandfold fold --list scenes.txt --basis ref.basis.json --out-dir components --shard auto`,
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o, err := fl.options(a, os.Getenv)
 			if err != nil {
 				return err
 			}
 			if o.Out != "" {
-				res, err := job.Fold(ctx, env, o)
+				res, err := fold.Fold(ctx, env, o)
 				if err != nil {
 					return err
 				}
@@ -82,14 +83,14 @@ func foldCommand(g *globals, fl *foldFlags) *cobra.Command {
 }
 
 // options translates the flags.
-func (fl *foldFlags) options(scenes []string, getenv func(string) string) (job.FoldOptions, error) {
+func (fl *foldFlags) options(scenes []string, getenv func(string) string) (fold.FoldOptions, error) {
 	o := fl.o
 	o.Scenes = fl.input.scenes(scenes)
 	var err error
 	if o.Format, err = raster.ParseFormat(fl.format); err != nil {
-		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+		return o, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
-	if o.Shard, err = job.ParseShard(fl.shard, fl.shardCount, getenv); err != nil {
+	if o.Shard, err = jobkit.ParseShard(fl.shard, fl.shardCount, getenv); err != nil {
 		return o, err
 	}
 	if o.Input, err = fl.input.input(); err != nil {
@@ -117,42 +118,42 @@ func (fl *foldFlags) options(scenes []string, getenv func(string) string) (job.F
 }
 
 // budget translates --max-rmse and --min-psnr.
-func (fl *foldFlags) budget() (job.Budget, error) {
+func (fl *foldFlags) budget() (fold.Budget, error) {
 	rmse, psnr := fl.set.Changed("max-rmse"), fl.set.Changed("min-psnr")
 	v, err := strconv.ParseFloat(fl.maxRMSE, 64)
 	switch {
 	case rmse && psnr:
-		return job.Budget{}, usagef("--max-rmse and --min-psnr: give one budget")
+		return fold.Budget{}, usagef("--max-rmse and --min-psnr: give one budget")
 	case psnr:
-		return job.Budget{Kind: job.BudgetPSNR, Value: fl.minPSNR}, nil
+		return fold.Budget{Kind: fold.BudgetPSNR, Value: fl.minPSNR}, nil
 	case rmse && fl.maxRMSE == "noise":
-		return job.Budget{Kind: job.BudgetNoise}, nil
+		return fold.Budget{Kind: fold.BudgetNoise}, nil
 	case rmse && err != nil:
-		return job.Budget{}, usagef(`--max-rmse %q: want a number or "noise"`, fl.maxRMSE)
+		return fold.Budget{}, usagef(`--max-rmse %q: want a number or "noise"`, fl.maxRMSE)
 	case rmse:
-		return job.Budget{Kind: job.BudgetRMSE, Value: v}, nil
+		return fold.Budget{Kind: fold.BudgetRMSE, Value: v}, nil
 	}
-	return job.Budget{}, nil
+	return fold.Budget{}, nil
 }
 
 // reportFold prints what fold wrote; a failed scene is printed even with
 // --quiet.
-func (g *globals) reportFold(r job.FoldScene) {
+func (g *globals) reportFold(r fold.FoldScene) {
 	if !g.quiet || r.Status == "failed" {
 		cli.FoldText(g.stderr, r)
 	}
 }
 
 // foldBatch folds many scenes, printing each scene's result as it comes.
-func (g *globals) foldBatch(ctx context.Context, env job.Env, o job.FoldOptions) error {
+func (g *globals) foldBatch(ctx context.Context, env jobkit.Env, o fold.FoldOptions) error {
 	var emitErr error
-	o.OnScene = func(r job.FoldScene) {
+	o.OnScene = func(r fold.FoldScene) {
 		g.reportFold(r)
 		if err := g.emit(r); err != nil && emitErr == nil {
 			emitErr = err
 		}
 	}
-	sum, err := job.FoldBatch(ctx, env, o)
+	sum, err := fold.FoldBatch(ctx, env, o)
 	if sum == nil {
 		return err
 	}

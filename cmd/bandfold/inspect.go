@@ -7,13 +7,14 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/learn"
 )
 
 // inspectFlags are the flags of inspect: the job's options and what to
 // print.
 type inspectFlags struct {
-	job.InspectOptions
+	learn.InspectOptions
 	// loadings prints the kept components' loadings as a table.
 	loadings bool
 }
@@ -28,10 +29,10 @@ func newInspectCommand(g *globals) *cobra.Command {
   bandfold inspect cube.basis.json --loadings
   bandfold inspect cube.basis.json --plots cube-plots --json`,
 		Args: args(cobra.ExactArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o := fl.InspectOptions
 			o.Basis = a[0]
-			res, err := job.Inspect(ctx, env, o)
+			res, err := learn.Inspect(ctx, env, o)
 			if err != nil {
 				return err
 			}
@@ -57,7 +58,7 @@ func newInspectCommand(g *globals) *cobra.Command {
 }
 
 // reportLoadings prints the loadings of the kept components on stderr.
-func (g *globals) reportLoadings(s job.BasisSummary) {
+func (g *globals) reportLoadings(s learn.BasisSummary) {
 	if !g.quiet {
 		cli.LoadingsTable(g.stderr, s)
 	}

@@ -9,7 +9,8 @@ import (
 
 	"bandfold/bands"
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/transform"
 )
 
@@ -45,18 +46,18 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
   bandfold learn 2025.tif 2026.tif --bands 1-6 --mode correlation --out pooled.basis.json
   bandfold learn scene.tif --shard 0/4 --partial part0.json`,
 		Args: args(cobra.MinimumNArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o, err := fl.options(a, os.Getenv)
 			if err != nil {
 				return err
 			}
-			res, err := job.Learn(ctx, env, o)
+			res, err := learn.Learn(ctx, env, o)
 			if err != nil {
 				return err
 			}
 			if res.Suggest != nil {
 				g.reportSuggest(res.Suggest)
-				return g.emit(map[string]any{"suggest_exclude": res.Suggest, "threshold_snr": job.SuggestSNR})
+				return g.emit(map[string]any{"suggest_exclude": res.Suggest, "threshold_snr": learn.SuggestSNR})
 			}
 			if res.Partial != nil {
 				g.info("wrote partial statistics of shard %s (%.0f pixels) to %s", o.Shard, res.Partial.State.Count, res.Path)
@@ -79,7 +80,7 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 	f.StringVar(&fl.method, "method", "pca", "pca (order by variance) or mnf (minimum noise fraction: order by signal-to-noise ratio)")
 	f.StringVar(&fl.noise, "noise", "horizontal", "pixel pairs of the noise estimate: horizontal, vertical or both")
 	f.Float64Var(&fl.minSNR, "min-snr", 0, "with --method mnf, keep the components whose signal-to-noise ratio is at least this")
-	f.BoolVar(&fl.suggest, "suggest-exclude", false, fmt.Sprintf("list the bands whose estimated signal-to-noise ratio is below %g, without fitting", job.SuggestSNR))
+	f.BoolVar(&fl.suggest, "suggest-exclude", false, fmt.Sprintf("list the bands whose estimated signal-to-noise ratio is below %g, without fitting", learn.SuggestSNR))
 	f.StringVar(&fl.wavelength, "wavelengths", "", "file of band centre wavelengths (one per line or a CSV column; unit nm or um in the header or after each value)")
 	f.StringVar(&fl.exclude, "exclude", "", `band numbers to drop before fitting, e.g. "104-113,150-170"`)
 	f.StringVar(&fl.excludeNM, "exclude-nm", "", `wavelength ranges in nm to drop before fitting, e.g. "1340-1450,1790-1970"`)
@@ -91,25 +92,25 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 }
 
 // options translates the flags; getenv reads the scheduler's environment.
-func (fl *learnFlags) options(scenes []string, getenv func(string) string) (job.LearnOptions, error) {
+func (fl *learnFlags) options(scenes []string, getenv func(string) string) (learn.LearnOptions, error) {
 	if fl.stride < 1 {
-		return job.LearnOptions{}, usagef("--stride %d: must be at least 1", fl.stride)
+		return learn.LearnOptions{}, usagef("--stride %d: must be at least 1", fl.stride)
 	}
 	mode, err := transform.ParseMode(fl.mode)
 	if err != nil {
-		return job.LearnOptions{}, usagef("--mode %q: want covariance or correlation", fl.mode)
+		return learn.LearnOptions{}, usagef("--mode %q: want covariance or correlation", fl.mode)
 	}
-	sh, err := job.ParseShard(fl.shard, fl.shardCount, getenv)
+	sh, err := jobkit.ParseShard(fl.shard, fl.shardCount, getenv)
 	if err != nil {
-		return job.LearnOptions{}, err
+		return learn.LearnOptions{}, err
 	}
 	in, err := fl.input.input()
 	if err != nil {
-		return job.LearnOptions{}, err
+		return learn.LearnOptions{}, err
 	}
-	o := job.LearnOptions{Scenes: fl.input.scenes(scenes), Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
+	o := learn.LearnOptions{Scenes: fl.input.scenes(scenes), Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
 		Components: fl.components, Variance: fl.variance, Stride: fl.stride, Shard: sh, Overwrite: fl.overwrite,
-		MinSNR: fl.minSNR, SuggestExclude: fl.suggest, Spectral: job.Spectral{WavelengthsFile: fl.wavelength}}
+		MinSNR: fl.minSNR, SuggestExclude: fl.suggest, Spectral: jobkit.Spectral{WavelengthsFile: fl.wavelength}}
 	if o.Method, err = transform.ParseMethod(fl.method); err != nil {
 		return o, usagef("--method %q: want pca or mnf", fl.method)
 	}
@@ -131,7 +132,7 @@ func (fl *learnFlags) options(scenes []string, getenv func(string) string) (job.
 
 // reportBasis prints the variance table on stderr and the summary as JSON
 // on stdout with --json.
-func (g *globals) reportBasis(s job.BasisSummary, path string) error {
+func (g *globals) reportBasis(s learn.BasisSummary, path string) error {
 	if !g.quiet {
 		cli.BasisTable(g.stderr, s, path, g.verbose)
 	}
@@ -139,7 +140,7 @@ func (g *globals) reportBasis(s job.BasisSummary, path string) error {
 }
 
 // reportSuggest lists the bands learn --suggest-exclude found.
-func (g *globals) reportSuggest(list []job.BandSNR) {
+func (g *globals) reportSuggest(list []learn.BandSNR) {
 	if !g.quiet {
 		cli.SuggestText(g.stderr, list)
 	}

@@ -17,7 +17,7 @@ import (
 // tif/L7_ETMs.tif and fetched by "make testdata".
 const landsat = "../../testdata/external/L7_ETMs.tif"
 
-// needLandsat skips the test where the scene is missing, and fails it
+// NeedLandsat skips the test where the scene is missing, and fails it
 // under CI (issue 24, item 13).
 func needLandsat(t *testing.T) {
 	t.Helper()

@@ -6,20 +6,21 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/learn"
 )
 
 func newMergeCommand(g *globals) *cobra.Command {
-	o := job.MergeOptions{}
+	o := learn.MergeOptions{}
 	cmd := &cobra.Command{
 		Use:     "merge PART... --out BASIS.json",
 		Short:   "Combine the partial statistics of all shards into a basis",
 		Long:    cli.MergeHelp,
 		Example: `  bandfold merge parts/part-*.json --out scene.basis.json`,
 		Args:    args(cobra.MinimumNArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o.Parts = a
-			res, err := job.Merge(ctx, env, o)
+			res, err := learn.Merge(ctx, env, o)
 			if err != nil {
 				return err
 			}

@@ -19,7 +19,7 @@ import (
 
 	"bandfold/bands/openblas"
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 )
 
@@ -66,14 +66,14 @@ func run(args []string, stdout, stderr io.Writer) int {
 		return exitOK
 	}
 	code := exitFailure
-	if !g.started || job.IsUsage(err) {
+	if !g.started || jobkit.IsUsage(err) {
 		code = exitUsage
 	}
 	msg := cli.OneLine(err.Error())
 	switch {
 	case errors.Is(err, context.Canceled):
 		msg = "interrupted; partial outputs removed"
-	case errors.Is(err, job.ErrBatchFailed):
+	case errors.Is(err, jobkit.ErrBatchFailed):
 		msg = "" // every failed scene was reported on its own line
 	}
 	if msg != "" {
@@ -128,11 +128,11 @@ func newRootCommand(g *globals) *cobra.Command {
 // runE wraps a command's work: it marks the command line as parsed, sets up
 // the process (memory limit, BLAS threads, GDAL) and builds the job
 // environment.
-func (g *globals) runE(work func(ctx context.Context, env job.Env, args []string) error) func(*cobra.Command, []string) error {
+func (g *globals) runE(work func(ctx context.Context, env jobkit.Env, args []string) error) func(*cobra.Command, []string) error {
 	return func(cmd *cobra.Command, args []string) error {
 		g.started = true
 		if g.workers < 1 {
-			return job.Usagef("--workers %d: need at least 1", g.workers)
+			return jobkit.Usagef("--workers %d: need at least 1", g.workers)
 		}
 		if err := cli.CheckInputs(cmd, args); err != nil {
 			return err
@@ -155,7 +155,7 @@ func (g *globals) runE(work func(ctx context.Context, env job.Env, args []string
 }
 
 // env is the job environment of a command.
-func (g *globals) env() job.Env {
+func (g *globals) env() jobkit.Env {
 	level := slog.LevelWarn
 	switch {
 	case g.verbose:
@@ -163,7 +163,7 @@ func (g *globals) env() job.Env {
 	case g.quiet:
 		level = slog.LevelError
 	}
-	return job.Env{Workers: g.workers, Version: version, Progress: g.passProgress,
+	return jobkit.Env{Workers: g.workers, Version: version, Progress: g.passProgress,
 		Log: slog.New(&cli.LineHandler{W: g.stderr, Level: level, Details: g.verbose})}
 }
 
@@ -191,20 +191,20 @@ func (g *globals) emit(v any) error {
 func args(check cobra.PositionalArgs) cobra.PositionalArgs {
 	return func(cmd *cobra.Command, a []string) error {
 		if err := check(cmd, a); err != nil {
-			return &job.UsageError{Err: err}
+			return &jobkit.UsageError{Err: err}
 		}
 		return nil
 	}
 }
 
 // usagef is job.Usagef, for flag translation.
-var usagef = job.Usagef
+var usagef = jobkit.Usagef
 
 // inputFlags are the input flags of a command (see cli.InputFlags).
 type inputFlags struct{ cli.InputFlags }
 
 func (f *inputFlags) register(fs *pflag.FlagSet, align bool) { f.Register(fs, align) }
-func (f *inputFlags) input() (job.Input, error)              { return f.Input() }
+func (f *inputFlags) input() (jobkit.Input, error)           { return f.Input() }
 func (f *inputFlags) scenes(args []string) []string          { return f.Scenes(args) }
 
 var (

@@ -6,26 +6,27 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"bandfold/cmd/bandfold/internal/areasurvey"
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
 )
 
 func newSurveyCommand(g *globals) *cobra.Command {
-	cmd := &cobra.Command{Use: "survey", Short: "Draw a reference sample of a change map and estimate areas from it", Long: "survey draw samples a change map for an interpreter to label; survey estimate turns the labels into area estimates with 95% intervals (Olofsson et al. 2014).\n\n" + job.Caution,
+	cmd := &cobra.Command{Use: "survey", Short: "Draw a reference sample of a change map and estimate areas from it", Long: "survey draw samples a change map for an interpreter to label; survey estimate turns the labels into area estimates with 95% intervals (Olofsson et al. 2014).\n\n" + jobkit.Caution,
 		Example: "  bandfold survey draw change-2024 --points 300 --out survey.gpkg\n  bandfold survey estimate change-2024 survey.gpkg"}
-	var o job.SurveyDrawOptions
+	var o areasurvey.SurveyDrawOptions
 	var acc string
 	draw := &cobra.Command{
 		Use: "draw DIR --points N --out survey.gpkg", Short: "Draw a stratified random sample of a change map's pixels",
 		Example: "  bandfold survey draw change-2024 --points 300 --buffer 30m --out survey.gpkg",
 		Args:    args(cobra.ExactArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o.Dir = a[0]
 			var err error
 			if o.ExpectedAccuracy, err = cli.ParseAccuracy(acc); err != nil {
 				return err
 			}
-			res, err := job.SurveyDraw(ctx, env, o)
+			res, err := areasurvey.SurveyDraw(ctx, env, o)
 			if err != nil {
 				return err
 			}
@@ -47,14 +48,14 @@ func newSurveyCommand(g *globals) *cobra.Command {
 	draw.MarkFlagRequired("out")
 	cli.MarkArgs(draw, cli.InputFile)
 	cli.MarkInputs(f, cli.InputImage, "map")
-	var e job.SurveyEstimateOptions
+	var e areasurvey.SurveyEstimateOptions
 	est := &cobra.Command{
 		Use: "estimate DIR survey.gpkg|survey.csv", Short: "Estimate areas and accuracy from a labelled survey",
 		Example: "  bandfold survey estimate change-2024 survey.gpkg --json",
 		Args:    args(cobra.ExactArgs(2)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			e.Dir, e.Survey = a[0], a[1]
-			res, err := job.SurveyEstimate(ctx, env, e)
+			res, err := areasurvey.SurveyEstimate(ctx, env, e)
 			if err != nil {
 				return err
 			}

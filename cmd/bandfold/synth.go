@@ -6,11 +6,12 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/demo"
+	"bandfold/cmd/bandfold/internal/jobkit"
 )
 
 func newSynthCommand(g *globals) *cobra.Command {
-	o := job.SynthOptions{}
+	o := demo.SynthOptions{}
 	cmd := &cobra.Command{
 		Use:   "synth --bands P --width W --height H --out FILE",
 		Short: "Write a synthetic cube of spectrally correlated bands (for benchmarks)",
@@ -18,8 +19,8 @@ func newSynthCommand(g *globals) *cobra.Command {
 		Example: `  bandfold demo synth --bands 224 --width 1024 --height 1024 --type int16 --out cube224.tif
   bandfold demo synth --bands 7 --width 8192 --height 8192 --type uint16 --block 512 --out scene7.tif`,
 		Args: args(cobra.NoArgs),
-		RunE: g.runE(func(ctx context.Context, env job.Env, _ []string) error {
-			res, err := job.Synth(ctx, env, o)
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, _ []string) error {
+			res, err := demo.Synth(ctx, env, o)
 			if err != nil {
 				return err
 			}

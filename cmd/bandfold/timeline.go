@@ -7,7 +7,9 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/series"
+	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
 	"bandfold/transform/change"
 )
@@ -18,7 +20,7 @@ type timelineFlags struct {
 	minArea    string
 	dates      []string
 	sceneBands []string
-	o          job.TimelineOptions
+	o          timeline.TimelineOptions
 }
 
 func newTimelineCommand(g *globals) *cobra.Command { return timelineCommand(g, &timelineFlags{}) }
@@ -28,16 +30,16 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "timeline SCENE... --out DIR",
 		Short: "Map when each pixel changed over a series of at least three dates",
-		Long:  cli.TimelineHelp + job.Caution,
+		Long:  cli.TimelineHelp + jobkit.Caution,
 		Example: `  bandfold timeline 2019.tif 2020.tif 2021.tif 2022.tif --out timeline
   bandfold timeline a.tif b.tif c.tif --dates 2016-07-01,2017-06-28,2018-07-03 --out timeline`,
 		Args: args(cobra.MinimumNArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o, err := fl.options(a)
 			if err != nil {
 				return err
 			}
-			res, err := job.Timeline(ctx, env, o)
+			res, err := timeline.Timeline(ctx, env, o)
 			if err != nil {
 				return err
 			}
@@ -58,8 +60,8 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
 	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
 	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
-	f.StringVar(&o.Normalize, "normalize", job.NormalizeStable, "radiometric normalisation of every date onto the reference date: stable or none")
-	f.StringVar(&o.Confirm, "confirm", job.ConfirmLasting, "lasting (a flag must last and not be a return) or none (keep every flag)")
+	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of every date onto the reference date: stable or none")
+	f.StringVar(&o.Confirm, "confirm", timeline.ConfirmLasting, "lasting (a flag must last and not be a return) or none (keep every flag)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled per pair to estimate its no-change distribution")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous timeline output folder")
 	f.StringArrayVar(&fl.sceneBands, "scene-bands", nil, "bands of one scene, as --bands; give it once per scene, in the order of the scenes (for a change of sensor)")
@@ -72,17 +74,17 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 }
 
 // options translates the flags.
-func (fl *timelineFlags) options(scenes []string) (job.TimelineOptions, error) {
+func (fl *timelineFlags) options(scenes []string) (timeline.TimelineOptions, error) {
 	o := fl.o
 	o.Scenes, o.Dates = scenes, fl.dates
 	var err error
 	if o.Threshold, err = change.ParseThreshold(fl.threshold); err != nil {
-		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+		return o, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
-	if o.MinArea, err = job.ParseMinArea(fl.minArea); err != nil {
+	if o.MinArea, err = jobkit.ParseMinArea(fl.minArea); err != nil {
 		return o, err
 	}
-	if o.Normalize, err = job.ParseNormalize(o.Normalize); err != nil {
+	if o.Normalize, err = series.ParseNormalize(o.Normalize); err != nil {
 		return o, err
 	}
 	if o.Input, err = fl.input.input(); err != nil {

@@ -7,14 +7,15 @@ import (
 	"github.com/spf13/cobra"
 
 	"bandfold/cmd/bandfold/internal/cli"
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/fold"
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 )
 
 type unfoldFlags struct {
 	input  inputFlags // applies to the --compare image
 	format string
-	o      job.UnfoldOptions
+	o      fold.UnfoldOptions
 }
 
 func newUnfoldCommand(g *globals) *cobra.Command { return unfoldCommand(g, &unfoldFlags{}) }
@@ -28,12 +29,12 @@ func unfoldCommand(g *globals, fl *unfoldFlags) *cobra.Command {
 		Example: `  bandfold unfold cube.components.tif --basis cube.basis.json --out cube.restored.tif --compare cube.tif
   bandfold unfold cube.components.tif --basis cube.basis.json --out restored.tif --type float32 --json`,
 		Args: args(cobra.ExactArgs(1)),
-		RunE: g.runE(func(ctx context.Context, env job.Env, a []string) error {
+		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o, err := fl.options(a[0])
 			if err != nil {
 				return err
 			}
-			res, err := job.Unfold(ctx, env, o)
+			res, err := fold.Unfold(ctx, env, o)
 			if err != nil {
 				return err
 			}
@@ -61,12 +62,12 @@ func unfoldCommand(g *globals, fl *unfoldFlags) *cobra.Command {
 }
 
 // options translates the flags.
-func (fl *unfoldFlags) options(components string) (job.UnfoldOptions, error) {
+func (fl *unfoldFlags) options(components string) (fold.UnfoldOptions, error) {
 	o := fl.o
 	o.Components = components
 	var err error
 	if o.Format, err = raster.ParseFormat(fl.format); err != nil {
-		return o, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+		return o, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
 	if o.Input, err = fl.input.input(); err != nil {
 		return o, err
@@ -78,7 +79,7 @@ func (fl *unfoldFlags) options(components string) (job.UnfoldOptions, error) {
 }
 
 // reportUnfold prints what unfold wrote and the loss.
-func (g *globals) reportUnfold(r *job.UnfoldResult) {
+func (g *globals) reportUnfold(r *fold.UnfoldResult) {
 	if !g.quiet {
 		cli.UnfoldText(g.stderr, r)
 	}

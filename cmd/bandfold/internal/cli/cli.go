@@ -12,7 +12,7 @@ import (
 
 	"github.com/spf13/pflag"
 
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 )
 
@@ -88,28 +88,28 @@ func (f *InputFlags) Register(fs *pflag.FlagSet, align bool) {
 }
 
 // Input translates the flags.
-func (f *InputFlags) Input() (job.Input, error) {
+func (f *InputFlags) Input() (jobkit.Input, error) {
 	sel, err := raster.ParseBands(f.bands)
 	if err != nil {
-		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+		return jobkit.Input{}, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
 	nd, err := raster.ParseNoData(f.nodata)
 	if err != nil {
-		return job.Input{}, &job.UsageError{Err: fmt.Errorf("--%w", err)}
+		return jobkit.Input{}, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
 	masks, err := ParseMasks("--mask", f.masks)
 	if err != nil {
-		return job.Input{}, err
+		return jobkit.Input{}, err
 	}
-	in := job.Input{Bands: sel, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
+	in := jobkit.Input{Bands: sel, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
 	if f.align {
 		if in.Resampling, err = raster.ParseResampling(f.resampling); err != nil {
-			return job.Input{}, job.Usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
+			return jobkit.Input{}, jobkit.Usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
 		}
 	}
 	if f.calibrate != "" {
 		if in.Calibrate, err = raster.ParseCalibration(f.calibrate); err != nil {
-			return job.Input{}, job.Usagef("--calibrate %q: want scale or toa", f.calibrate)
+			return jobkit.Input{}, jobkit.Usagef("--calibrate %q: want scale or toa", f.calibrate)
 		}
 	}
 	return in, nil
@@ -129,7 +129,7 @@ func ParseMasks(flag string, specs []string) ([]raster.MaskRule, error) {
 	for _, spec := range specs {
 		r, err := raster.ParseMask(spec)
 		if err != nil {
-			return nil, job.Usagef("%s %q: %v", flag, spec, err)
+			return nil, jobkit.Usagef("%s %q: %v", flag, spec, err)
 		}
 		out = append(out, r)
 	}
@@ -141,7 +141,7 @@ func ParseMasks(flag string, specs []string) ([]raster.MaskRule, error) {
 func CheckCreationOptions(co []string) error {
 	for _, kv := range co {
 		if k, _, ok := strings.Cut(kv, "="); !ok || strings.TrimSpace(k) == "" {
-			return job.Usagef("--co %q: want KEY=VALUE", kv)
+			return jobkit.Usagef("--co %q: want KEY=VALUE", kv)
 		}
 	}
 	return nil

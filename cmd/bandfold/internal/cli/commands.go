@@ -1,6 +1,7 @@
 package cli
 
 import (
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"errors"
 	"fmt"
 	"strconv"
@@ -8,8 +9,6 @@ import (
 
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
-
-	"bandfold/cmd/bandfold/internal/job"
 )
 
 // StrictCommands makes unknown subcommands and help topics usage errors
@@ -60,7 +59,7 @@ func flagError(_ *cobra.Command, err error) error {
 	if errors.Is(err, strconv.ErrRange) {
 		want = "out of range"
 	}
-	return &job.UsageError{Err: fmt.Errorf("--%s %q: %s", ive.GetFlag().Name, ive.GetValue(), want)}
+	return &jobkit.UsageError{Err: fmt.Errorf("--%s %q: %s", ive.GetFlag().Name, ive.GetValue(), want)}
 }
 
 // unknownSubcommand refuses the arguments of a command that only groups
@@ -69,7 +68,7 @@ func unknownSubcommand(c *cobra.Command, args []string) error {
 	if len(args) == 0 {
 		return nil
 	}
-	return job.Usagef("unknown command %q for %q%s", args[0], c.CommandPath(), suggest(c, args[0]))
+	return jobkit.Usagef("unknown command %q for %q%s", args[0], c.CommandPath(), suggest(c, args[0]))
 }
 
 // suggest returns " (did you mean X?)" for the subcommands of c close to
@@ -100,7 +99,7 @@ func helpCommand() *cobra.Command {
 				if cmd != nil {
 					parent = cmd
 				}
-				return job.Usagef("unknown help topic %q%s", strings.Join(args, " "), suggest(parent, args[len(args)-1]))
+				return jobkit.Usagef("unknown help topic %q%s", strings.Join(args, " "), suggest(parent, args[len(args)-1]))
 			}
 			cmd.InitDefaultHelpFlag()
 			cmd.InitDefaultVersionFlag()

@@ -8,7 +8,7 @@ import (
 	"github.com/spf13/cobra"
 	"github.com/spf13/pflag"
 
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 	"bandfold/raster/output"
 )
@@ -92,7 +92,7 @@ func checkInput(prefix, kind, value string) error {
 		}
 		paths = []string{r.Path}
 	case InputImage:
-		paths = job.SplitStack(value)
+		paths = jobkit.SplitStack(value)
 	}
 	for _, p := range paths {
 		if p == "" || raster.IsVirtual(p) {
@@ -104,7 +104,7 @@ func checkInput(prefix, kind, value string) error {
 			}
 		}
 		if err := output.CheckInput(p, nil); err != nil {
-			return &job.UsageError{Err: fmt.Errorf("%s%w", prefix, err)}
+			return &jobkit.UsageError{Err: fmt.Errorf("%s%w", prefix, err)}
 		}
 	}
 	return nil

@@ -8,13 +8,18 @@ import (
 	"strings"
 	"unicode/utf8"
 
-	"bandfold/cmd/bandfold/internal/job"
+	"bandfold/cmd/bandfold/internal/changefolder"
+	"bandfold/cmd/bandfold/internal/demo"
+	"bandfold/cmd/bandfold/internal/fold"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/scenario"
+	"bandfold/cmd/bandfold/internal/timeline"
 )
 
 // BasisTable prints a basis's variance table to w: every component with
 // all, else the kept ones and a few more.
-func BasisTable(w io.Writer, s job.BasisSummary, path string, all bool) {
+func BasisTable(w io.Writer, s learn.BasisSummary, path string, all bool) {
 	{
 		if path != "" {
 			fmt.Fprintf(w, "basis %s: %d bands, %d pixels, %s mode\n", path, s.Bands, s.Pixels, s.Mode)
@@ -59,7 +64,7 @@ func BasisTable(w io.Writer, s job.BasisSummary, path string, all bool) {
 // RateTable prints the first rows of a basis's rate–distortion table: per
 // k, the truncation RMSE and its PSNR, and at the matching step the
 // predicted RMSE, the estimated bits per pixel and size ratio.
-func RateTable(w io.Writer, s job.BasisSummary, rows int) {
+func RateTable(w io.Writer, s learn.BasisSummary, rows int) {
 	fmt.Fprintln(w, "rate and distortion (PSNR peak: the largest band range in the basis; step: the coarsest that keeps k components):")
 	fmt.Fprintf(w, "%4s | %14s | %9s | %12s | %12s | %10s | %10s\n", "k", "trunc_rmse", "psnr_db", "step", "rmse", "bits/px", "size_ratio")
 	for _, r := range s.Rate[:min(rows, len(s.Rate))] {
@@ -68,7 +73,7 @@ func RateTable(w io.Writer, s job.BasisSummary, rows int) {
 }
 
 // UnfoldText prints what unfold wrote and, with a comparison, the loss.
-func UnfoldText(w io.Writer, r *job.UnfoldResult) {
+func UnfoldText(w io.Writer, r *fold.UnfoldResult) {
 	fmt.Fprintf(w, "%s: %d bands rebuilt from %d components, %d valid pixels, %s\n", r.Output, r.Bands, r.Components, r.Pixels, r.Type)
 	if r.LossReport == nil {
 		return
@@ -88,7 +93,7 @@ func UnfoldText(w io.Writer, r *job.UnfoldResult) {
 }
 
 // DemoText prints the closing report of the demo.
-func DemoText(w io.Writer, o job.DemoOptions, r *job.DemoResult) {
+func DemoText(w io.Writer, o demo.DemoOptions, r *demo.DemoResult) {
 	c := r.Scenario
 	fmt.Fprintf(w, "%s (invented): %dx%d pixels at 10 m, dates %s and %s\n", scenario.Name, o.Size, o.Size, c.Dates()[0], c.Dates()[1])
 	for _, e := range c.Events() {
@@ -128,8 +133,8 @@ func DemoText(w io.Writer, o job.DemoOptions, r *job.DemoResult) {
 	if tl := r.Timeline; tl != nil {
 		demoTimelineText(w, tl)
 	}
-	fmt.Fprintf(w, "  %s\n", job.InventedNote)
-	fmt.Fprintf(w, "  %s\n", job.Caution)
+	fmt.Fprintf(w, "  %s\n", demo.InventedNote)
+	fmt.Fprintf(w, "  %s\n", jobkit.Caution)
 	fmt.Fprintf(w, "\noutputs in %s:\n", o.Dir)
 	for _, p := range r.Outputs {
 		fmt.Fprintf(w, "  %s\n", p)
@@ -138,7 +143,7 @@ func DemoText(w io.Writer, o job.DemoOptions, r *job.DemoResult) {
 
 // demoTimelineText prints, for each event of the demo's series, its true
 // date and the date the timeline found.
-func demoTimelineText(w io.Writer, tl *job.DemoTimeline) {
+func demoTimelineText(w io.Writer, tl *demo.DemoTimeline) {
 	res := tl.Timeline
 	n := len(res.Scenes)
 	fmt.Fprintf(w, "timeline of the %d-date series (%dx%d pixels, %s to %s; --normalize %s, --confirm %s):\n",
@@ -171,7 +176,7 @@ func Rate(v *float64, decimals int) string {
 }
 
 // FoldText prints what fold did with one scene.
-func FoldText(w io.Writer, r job.FoldScene) {
+func FoldText(w io.Writer, r fold.FoldScene) {
 	switch r.Status {
 	case "skipped":
 		fmt.Fprintf(w, "%s: complete, skipped\n", r.Output)
@@ -213,7 +218,7 @@ func FoldText(w io.Writer, r job.FoldScene) {
 }
 
 // TimelineText prints a timeline run: a line per step and the outputs.
-func TimelineText(w io.Writer, r *job.TimelineResult) {
+func TimelineText(w io.Writer, r *timeline.TimelineResult) {
 	n := len(r.Scenes)
 	fmt.Fprintf(w, "timeline %s to %s: %d dates, %d components, threshold %s, confirmation %s\n", r.Scenes[0].Date, r.Scenes[n-1].Date, n, r.Components, r.Threshold, r.Confirm)
 	for _, s := range r.Steps {
@@ -225,31 +230,31 @@ func TimelineText(w io.Writer, r *job.TimelineResult) {
 		if !s.Confirmable {
 			note = "; last step: cannot be confirmed"
 		}
-		fmt.Fprintf(w, "  %s to %s: Z > %.4g, %s flagged, %s confirmed%s%s\n", s.From, s.To, s.Threshold.Z, job.Count(s.FlaggedPixels), job.Count(s.ConfirmedPixels), area, note)
+		fmt.Fprintf(w, "  %s to %s: Z > %.4g, %s flagged, %s confirmed%s%s\n", s.From, s.To, s.Threshold.Z, jobkit.Count(s.FlaggedPixels), jobkit.Count(s.ConfirmedPixels), area, note)
 	}
-	fmt.Fprintf(w, "  %s of %s valid pixels changed at least once (confirmed)\n", job.Count(r.ChangedPixels), job.Count(r.ValidPixels))
+	fmt.Fprintf(w, "  %s of %s valid pixels changed at least once (confirmed)\n", jobkit.Count(r.ChangedPixels), jobkit.Count(r.ValidPixels))
 	for _, p := range r.Outputs {
 		fmt.Fprintf(w, "  wrote %s\n", p)
 	}
-	fmt.Fprintf(w, "note: %s\n", job.Caution)
+	fmt.Fprintf(w, "note: %s\n", jobkit.Caution)
 }
 
 // ChangeText prints a change summary: its lines, the outputs and the
 // caution.
-func ChangeText(w io.Writer, s *job.ChangeResult) {
+func ChangeText(w io.Writer, s *changefolder.ChangeResult) {
 	for _, line := range s.Lines() {
 		fmt.Fprintln(w, line)
 	}
 	for _, p := range s.Outputs {
 		fmt.Fprintf(w, "  wrote %s\n", p)
 	}
-	fmt.Fprintf(w, "note: %s\n", job.Caution)
+	fmt.Fprintf(w, "note: %s\n", jobkit.Caution)
 }
 
 // LoadingsTable prints the loadings of the kept components on stderr: one
 // row per band (by name), one column per component, 4 decimals, numbers
 // right-aligned under a header.
-func LoadingsTable(w io.Writer, s job.BasisSummary) {
+func LoadingsTable(w io.Writer, s learn.BasisSummary) {
 	if len(s.Loadings) == 0 {
 		return
 	}
@@ -286,8 +291,8 @@ func LoadingsTable(w io.Writer, s job.BasisSummary) {
 
 // SuggestText lists the bands whose estimated signal-to-noise ratio is
 // under job.SuggestSNR.
-func SuggestText(w io.Writer, list []job.BandSNR) {
-	fmt.Fprintf(w, "%d bands with estimated signal-to-noise ratio below %g (consider --exclude):\n", len(list), job.SuggestSNR)
+func SuggestText(w io.Writer, list []learn.BandSNR) {
+	fmt.Fprintf(w, "%d bands with estimated signal-to-noise ratio below %g (consider --exclude):\n", len(list), learn.SuggestSNR)
 	for _, b := range list {
 		fmt.Fprintf(w, "  band %d (%s, %g nm): snr %.3g\n", b.Band, b.Name, b.WavelengthNM, b.SNR)
 	}
@@ -303,7 +308,7 @@ func ParseAccuracy(s string) (map[string]float64, error) {
 		k, v, ok := strings.Cut(part, "=")
 		u, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
 		if !ok || err != nil || u <= 0 || u > 1 {
-			return nil, job.Usagef("--expected-accuracy %q: want class=U with 0 < U <= 1, such as change=0.7,no change=0.95", part)
+			return nil, jobkit.Usagef("--expected-accuracy %q: want class=U with 0 < U <= 1, such as change=0.7,no change=0.95", part)
 		}
 		out[strings.TrimSpace(k)] = u
 	}

@@ -1,0 +1,59 @@
+package jobkit
+
+import (
+	"bandfold/bands"
+	"bandfold/raster/output"
+	"bandfold/transform"
+	"errors"
+	"fmt"
+)
+
+// FitBasis checks the accumulated statistics and decomposes them. what
+// names the inputs for error messages.
+func FitBasis(env Env, acc *bands.Accumulator, mode transform.Mode, info []transform.Band, what string) (*transform.Basis, error) {
+	p := acc.Bands()
+	n := acc.Count()
+	switch {
+	case n == 0:
+		return nil, fmt.Errorf("no valid pixels in %s after nodata and mask", what)
+	case n < float64(p+1):
+		return nil, fmt.Errorf("only %.0f valid pixels in %s for %d bands: need at least bands + 1", n, what, p)
+	}
+	if mode == transform.Correlation {
+		if _, err := acc.Correlation(nil); err != nil {
+			var zv *bands.ZeroVarianceError
+			if errors.As(err, &zv) {
+				return nil, fmt.Errorf("band %q of %s is constant over the valid pixels, so correlation mode cannot standardise it; leave it out with --bands", info[zv.Band].Name, what)
+			}
+			return nil, err
+		}
+	}
+	mins, maxs := acc.Min(nil), acc.Max(nil)
+	for i := range info {
+		info[i].Min, info[i].Max = mins[i], maxs[i]
+	}
+	b, err := transform.NewBasis(mode, info, int64(n), acc.Mean(nil), acc.Covariance(nil))
+	if err != nil {
+		return nil, fmt.Errorf("fit basis on %s: %w", what, err)
+	}
+	b.Tool = env.Version
+	return b, nil
+}
+
+// WriteBasis writes a basis file through the output lifecycle.
+func WriteBasis(b *transform.Basis, path string, overwrite bool) error {
+	data, err := b.Marshal()
+	if err != nil {
+		return fmt.Errorf("write basis %s: %w", path, err)
+	}
+	return output.WriteFile(path, data, overwrite)
+}
+
+// Choose sets the number of kept components: k when given, else the fewest
+// whose cumulative share of variance reaches fraction.
+func Choose(b *transform.Basis, k int, fraction float64) {
+	if k == 0 {
+		k = transform.ComponentsFor(b.Eigenvalues, fraction)
+	}
+	b.Components = k
+}

@@ -1,0 +1,223 @@
+package jobkit
+
+import (
+	"context"
+	"fmt"
+	"strings"
+	"sync"
+
+	"bandfold/bands"
+	"bandfold/raster"
+	"bandfold/tiles"
+)
+
+// Scan is a pass over the tiles of one or more scenes that share a band
+// count: item k of the pass is items[k].
+type Scan struct {
+	Scenes []*raster.Stack
+	Items  []scanItem
+	stride int
+}
+
+type scanItem struct {
+	Scene int
+	Tile  tiles.Tile // within its scene
+}
+
+// NewScan lays a tile grid over every scene (gridOf) and numbers the tiles of
+// all scenes in order. With shard i of n, only tiles whose number mod n is i
+// are kept; with stride > 1 only every stride-th row and column is valid.
+func NewScan(scenes []*raster.Stack, gridOf func(*raster.Stack) tiles.Grid, stride int, sh Shard) *Scan {
+	sh = sh.OrWhole()
+	sc := &Scan{Scenes: scenes, stride: max(stride, 1)}
+	k := 0
+	for si, s := range scenes {
+		for t := range gridOf(s).Tiles() {
+			if k%sh.N == sh.I {
+				sc.Items = append(sc.Items, scanItem{Scene: si, Tile: t})
+			}
+			k++
+		}
+	}
+	return sc
+}
+
+// TileGrid returns gridOf for NewScan with square tiles of side tile, or
+// block-aligned tiles.
+func TileGrid(tile int) func(*raster.Stack) tiles.Grid {
+	return func(s *raster.Stack) tiles.Grid { return GridFor(s, tile) }
+}
+
+// Pixels returns the number of pixels the scan reads.
+func (sc *Scan) Pixels() int64 {
+	var n int64
+	for _, it := range sc.Items {
+		n += int64(it.Tile.Pixels())
+	}
+	return n
+}
+
+// RunTiles numbers the items as tiles for tiles.Run.
+func (sc *Scan) RunTiles() []tiles.Tile {
+	out := make([]tiles.Tile, len(sc.Items))
+	for i, it := range sc.Items {
+		out[i] = it.Tile
+		out[i].Index = i
+	}
+	return out
+}
+
+// Reader reads the scan's tiles through its own raster readers, one per
+// scene, opened on first use: one GDAL handle per worker.
+type Reader struct {
+	Sc      *Scan
+	readers []*raster.Reader
+	buf     []float64
+	valid   []bool
+}
+
+func (sc *Scan) NewReader() *Reader {
+	return &Reader{Sc: sc, readers: make([]*raster.Reader, len(sc.Scenes))}
+}
+
+// Read reads item k; it returns the pixel values, the validity flags (pixels
+// off the stride grid are invalid) and the number of valid pixels.
+func (w *Reader) Read(k int) ([]float64, []bool, int, error) {
+	it := w.Sc.Items[k]
+	s := w.Sc.Scenes[it.Scene]
+	if w.readers[it.Scene] == nil {
+		r, err := s.NewReader()
+		if err != nil {
+			return nil, nil, 0, err
+		}
+		w.readers[it.Scene] = r
+	}
+	n, p := it.Tile.Pixels(), s.Len()
+	w.buf = Grow(w.buf, n*p)
+	w.valid = Grow(w.valid, n)
+	buf, valid := w.buf, w.valid
+	count, err := w.readers[it.Scene].Read(it.Tile, buf, valid)
+	if err != nil {
+		return nil, nil, 0, err
+	}
+	if st := w.Sc.stride; st > 1 {
+		t := it.Tile
+		count = 0
+		for r := range t.H {
+			for c := range t.W {
+				i := r*t.W + c
+				valid[i] = valid[i] && (t.Y+r)%st == 0 && (t.X+c)%st == 0
+				if valid[i] {
+					count++
+				}
+			}
+		}
+	}
+	return buf, valid, count, nil
+}
+
+func (w *Reader) Close() error {
+	var first error
+	for _, r := range w.readers {
+		if r != nil {
+			if err := r.Close(); err != nil && first == nil {
+				first = err
+			}
+		}
+	}
+	return first
+}
+
+// Grow returns s resized to n, reallocated only when too small.
+func Grow[T any](s []T, n int) []T {
+	if cap(s) < n {
+		return make([]T, n)
+	}
+	return s[:n]
+}
+
+// momentWorker accumulates the co-moments of one tile at a time.
+type momentWorker struct {
+	*Reader
+	pool *sync.Pool
+}
+
+func (w *momentWorker) Do(_ context.Context, t tiles.Tile) (*bands.Accumulator, error) {
+	buf, valid, _, err := w.Read(t.Index)
+	if err != nil {
+		return nil, err
+	}
+	acc := w.pool.Get().(*bands.Accumulator)
+	acc.Reset()
+	acc.AddPixels(buf, valid)
+	return acc, nil
+}
+
+// Moments accumulates band co-moments over the scan, tile by tile in
+// parallel, merged in tile order so the result is the same for any number
+// of workers. The accumulators are exact (bands.NewExactAccumulator): for
+// integer pixels, as digital numbers are, the result is also the same for
+// any tile size and shard split.
+func (sc *Scan) Moments(ctx context.Context, env Env) (*bands.Accumulator, error) {
+	p := sc.Scenes[0].Len()
+	pool := &sync.Pool{New: func() any { return bands.NewExactAccumulator(p) }}
+	total := bands.NewExactAccumulator(p)
+	err := tiles.Run(ctx, sc.RunTiles(), tiles.Options{Workers: env.WorkerCount(), Progress: env.ProgressFor("co-moments", sc.Pixels())},
+		func(int) (tiles.Worker[*bands.Accumulator], error) {
+			return &momentWorker{Reader: sc.NewReader(), pool: pool}, nil
+		},
+		func(_ tiles.Tile, acc *bands.Accumulator) error {
+			total.Merge(acc)
+			pool.Put(acc)
+			return nil
+		})
+	if err != nil {
+		return nil, err
+	}
+	return total, nil
+}
+
+// countValid counts the valid pixels of a stack in one pass.
+func countValid(ctx context.Context, env Env, s *raster.Stack, tile int) (int64, error) {
+	sc := NewScan([]*raster.Stack{s}, TileGrid(tile), 1, Shard{})
+	var total int64
+	err := tiles.Run(ctx, sc.RunTiles(), tiles.Options{Workers: env.WorkerCount()},
+		func(int) (tiles.Worker[int], error) { return &countWorker{sc.NewReader()}, nil },
+		func(_ tiles.Tile, n int) error { total += int64(n); return nil })
+	return total, err
+}
+
+type countWorker struct{ *Reader }
+
+func (w *countWorker) Do(_ context.Context, t tiles.Tile) (int, error) {
+	_, _, n, err := w.Read(t.Index)
+	return n, err
+}
+
+// NoValidPixels explains why a stack has no valid pixel: it names the bands
+// that are invalid everywhere (all nodata or NaN), or says that no pixel is
+// valid in all bands at once. It reads each band once, so it runs only on
+// this error path.
+func NoValidPixels(ctx context.Context, env Env, s *raster.Stack, tile int) error {
+	var empty []string
+	for j, b := range s.Bands {
+		sub, err := s.Subset([]int{j})
+		if err != nil {
+			return err
+		}
+		n, err := countValid(ctx, env, sub, tile)
+		if err != nil {
+			return err
+		}
+		if n == 0 {
+			empty = append(empty, fmt.Sprintf("%d (%s)", j+1, b.Name))
+		}
+	}
+	switch {
+	case len(empty) == 1:
+		return fmt.Errorf("no valid pixels in %s: band %s is nodata or NaN everywhere (leave it out with --bands)", Describe(s), empty[0])
+	case len(empty) > 1:
+		return fmt.Errorf("no valid pixels in %s: bands %s are nodata or NaN everywhere (leave them out with --bands)", Describe(s), strings.Join(empty, ", "))
+	}
+	return fmt.Errorf("no valid pixels in %s after nodata and mask: no pixel is valid in every selected band at once", Describe(s))
+}

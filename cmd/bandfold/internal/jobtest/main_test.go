@@ -1,0 +1,7 @@
+package jobtest
+
+import (
+	"testing"
+)
+
+func TestMain(m *testing.M) { Main(m) }

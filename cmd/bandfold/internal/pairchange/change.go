@@ -1,0 +1,235 @@
+package pairchange
+
+import (
+	"context"
+	"path/filepath"
+
+	"bandfold/cmd/bandfold/internal/changefolder"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/report"
+	"bandfold/cmd/bandfold/internal/series"
+	"bandfold/raster"
+	"bandfold/raster/output"
+	"bandfold/transform/change"
+)
+
+// ChangeOptions are the options of Change.
+type ChangeOptions struct {
+	Before, After string
+	Input         jobkit.Input
+	// MaskBefore and MaskAfter are quality masks of one date only, on
+	// BEFORE's grid.
+	MaskBefore, MaskAfter []raster.MaskRule
+	// BandsBefore and BandsAfter select different bands of each date (for
+	// a change of sensor); nil takes Input.Bands.
+	BandsBefore, BandsAfter []int
+	// Out is the output folder.
+	Out string
+	// Align warps AFTER onto BEFORE's grid with Resampling when the grids
+	// differ.
+	Align      bool
+	Resampling string
+	// Basis, when set, is used instead of fitting one on both dates.
+	Basis      string
+	Components int
+	Threshold  change.Threshold
+	MinArea    jobkit.MinArea
+	// Differences also writes differences.tif.
+	Differences bool
+	// PValues also writes pvalue.tif.
+	PValues bool
+	// Reference is reference change data: a raster on the same grid
+	// (non-zero = changed) or a vector file of changed polygons.
+	Reference string
+	// PreviewBands are three 1-based bands of AFTER for preview.png.
+	PreviewBands []int
+	Sample       int
+	Overwrite    bool
+	// Normalize is NormalizeStable (the default) or NormalizeNone.
+	Normalize string
+	// IgnoreBandNames compares the dates band for band even where their
+	// wavelengths differ.
+	IgnoreBandNames bool
+}
+
+// Change maps land-cover change between two dates: it fits (or reads) a
+// basis, the robust no-change model of the score differences, maps every
+// pixel's change statistic, applies the minimum mapping unit, polygonizes
+// the patches and writes everything into the output folder at once.
+func Change(ctx context.Context, env jobkit.Env, o ChangeOptions) (_ *changefolder.ChangeResult, err error) {
+	defer func() { err = jobkit.Classify(err) }()
+	r := &changeRun{Run: &series.Run{Env: env}, o: &o}
+	defer r.close()
+	steps := []jobkit.JobStep{
+		jobkit.Step("open", r.open), jobkit.Step("scan", r.Sample), jobkit.Step("normalize", r.Normalize), jobkit.Step("basis", r.FitBasis), jobkit.Step("model", r.fitModel),
+		jobkit.Step("map", r.mapPixels), jobkit.Step("sieve", r.sieve), jobkit.Step("change map", r.changeMap), jobkit.Step("patches", r.patches),
+		jobkit.Step("preview", r.preview), jobkit.Step("diagnostics", r.diagnostics), jobkit.Step("report", r.report), jobkit.Step("summary", r.summary),
+	}
+	if err := jobkit.RunSteps(ctx, env, "change", steps); err != nil {
+		return nil, r.Dir.FinalNames(err)
+	}
+	return r.sum, nil
+}
+
+// check refuses option values that cannot be right.
+func (o *ChangeOptions) check() error {
+	sh := series.SharedOptions{Input: o.Input, Out: o.Out, Align: o.Align, Resampling: o.Resampling, Sample: o.Sample,
+		Components: o.Components, Threshold: o.Threshold, Normalize: o.Normalize}
+	if err := sh.Check(); err != nil {
+		return err
+	}
+	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = sh.Input, sh.Resampling, sh.Sample, sh.Threshold, sh.Normalize
+	return nil
+}
+
+// dateInput is Input with one date's own band selection, if any.
+func (o *ChangeOptions) dateInput(bands []int) jobkit.Input {
+	in := o.Input
+	if bands != nil {
+		in.Bands = bands
+	}
+	return in
+}
+
+// changeRun is one run of Change: the series engine on two dates (BEFORE
+// the reference), and the change folder's own outputs.
+type changeRun struct {
+	*series.Run
+	o *ChangeOptions
+
+	before, after *raster.Stack
+	ref           *raster.Reference
+	rgb           [3]int
+	rgbNote       bool // the preview bands are the first three, not known colours
+
+	fit       *series.PairFit
+	model     *change.Model
+	zs        []float64 // the sample's Z values
+	eta       *float64  // Otsu separability, for otsu
+	identical bool
+	zcut      float64
+	mask      *raster.ChangeMask
+	grid      *report.PreviewGrid
+	outputs   []string
+	sum       *changefolder.ChangeResult
+}
+
+func (r *changeRun) close() {
+	if r.mask != nil {
+		r.mask.Close()
+	}
+	if r.ref != nil {
+		r.ref.Close()
+	}
+	r.Run.Close()
+}
+
+// open checks the options and hands BEFORE and AFTER to the engine (which
+// opens them, warping AFTER with Align, and matches their bands), then
+// opens the reference.
+func (r *changeRun) open(ctx context.Context) error {
+	o := r.o
+	if err := o.check(); err != nil {
+		return err
+	}
+	c := &series.Config{Args: []string{o.Before, o.After}, Roles: []string{"BEFORE", "AFTER"},
+		Inputs:          []jobkit.Input{o.dateInput(o.BandsBefore).WithMasks(o.MaskBefore), o.dateInput(o.BandsAfter).WithMasks(o.MaskAfter)},
+		BandsChosen:     o.Input.Bands != nil || o.BandsBefore != nil || o.BandsAfter != nil,
+		IgnoreBandNames: o.IgnoreBandNames, Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components,
+		Threshold: o.Threshold, MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile,
+		Pairs: func(int) [][2]int { return [][2]int{{0, 1}} }, Out: o.Out, Overwrite: o.Overwrite}
+	for _, extra := range []output.Path{{Role: "basis", Path: o.Basis}, {Role: "reference", Path: o.Reference}} {
+		if extra.Path != "" {
+			c.Extra = append(c.Extra, extra)
+		}
+	}
+	r.C = c
+	if err := r.Run.Open(ctx); err != nil {
+		return err
+	}
+	r.before, r.after = r.Scenes[0], r.Scenes[1]
+	var err error
+	if r.rgb, err = report.PreviewBands(o.PreviewBands, r.after.Len()); err != nil {
+		return err
+	}
+	if len(o.PreviewBands) == 0 {
+		r.naturalColour()
+	}
+	if o.Reference != "" {
+		if r.ref, err = raster.OpenReference(o.Reference, r.before.Grid); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// fitModel fits the robust no-change model on the sample's score
+// differences d = W_k^T (x_after - x_before) / s and resolves the threshold.
+func (r *changeRun) fitModel(ctx context.Context) error {
+	if err := r.FitModels(ctx); err != nil {
+		return err
+	}
+	f := r.Fits[0]
+	r.fit, r.zs, r.eta, r.identical = f, f.Zs, f.Eta, f.Identical
+	if f.Identical {
+		r.zcut = 0
+		return nil
+	}
+	r.model, r.zcut = f.Model, f.Zcut
+	r.Env.Logger().Debug("no-change model", "iterations", f.Model.Iterations, "sample", f.Model.Sample, "z", f.Zcut)
+	return nil
+}
+
+// sieve applies the minimum mapping unit to the raw flags. The tile buffers
+// are garbage by now: their pages go back before the sieve and the polygons
+// take their share.
+func (r *changeRun) sieve(ctx context.Context) error {
+	if err := r.Run.Sieve(ctx, []*raster.ChangeMask{r.mask}, func(int) string { return "" }); err != nil {
+		return err
+	}
+	o := r.o
+	norm := r.NormSums[1]
+	r.sum = &changefolder.ChangeResult{Before: o.Before, After: o.After, BeforeLabel: jobkit.Describe(r.before), AfterLabel: jobkit.Describe(r.after), Threshold: r.thresholdSummary(),
+		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisName, Aligned: r.Aligned,
+		Identical: r.identical, Caution: jobkit.Caution, Location: []float64{}, Covariance: [][]float64{},
+		Normalization: norm, Warnings: r.Warnings, Scenario: r.before.Metadata["SCENARIO"],
+		BeforeDate: r.Dates[0].Label, AfterDate: r.Dates[1].Label, DateSource: []string{r.Dates[0].Source, r.Dates[1].Source}, BandMatch: r.Matched,
+		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}
+	if r.identical {
+		r.sum.Converged = true
+		return nil
+	}
+	m := r.model
+	r.sum.Location, r.sum.Iterations, r.sum.Converged, r.sum.SamplePixels = m.Location, m.Iterations, m.Converged, m.Sample
+	k := r.Proj.Components()
+	for i := range k {
+		row := make([]float64, k)
+		for j := range k {
+			row[j] = m.Covariance.At(i, j)
+		}
+		r.sum.Covariance = append(r.sum.Covariance, row)
+	}
+	return nil
+}
+
+// patches polygonizes the change patches into changes.gpkg.
+func (r *changeRun) patches(context.Context) error {
+	md := r.metadata()
+	ps, err := r.mask.Patches(r.Dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.Dir.Path("magnitude.tif"), Metadata: md,
+		Dates: r.Name(0) + " to " + r.Name(1)})
+	if err != nil {
+		return err
+	}
+	r.sum.Patches = ps.Count
+	r.outputs = append(r.outputs, "changes.gpkg")
+	return nil
+}
+
+// summary writes summary.json and moves the folder into place.
+func (r *changeRun) summary(context.Context) error {
+	r.outputs = append(r.outputs, "summary.json")
+	for _, name := range r.outputs {
+		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.Dir.Final(), name))
+	}
+	return jobkit.CommitSummary(r.Env, r.Dir, "summary.json", r.sum, r.Warnings)
+}

@@ -1,0 +1,90 @@
+package pairchange
+
+import (
+	"context"
+
+	"bandfold/cmd/bandfold/internal/changefolder"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/raster"
+	"bandfold/transform/change"
+)
+
+// changeColors is change.tif's colour table: no change, change, nodata.
+var changeColors = func() [][4]int16 {
+	ct := make([][4]int16, 256)
+	ct[0] = [4]int16{236, 236, 228, 255}
+	ct[1] = [4]int16{214, 40, 120, 255}
+	ct[255] = [4]int16{0, 0, 0, 0}
+	return ct
+}()
+
+// changeMap writes change.tif from the sieved mask and counts the mapped
+// change, its ground area and, with a reference, the agreement.
+func (r *changeRun) changeMap(ctx context.Context) error {
+	nd := 255.0
+	md := r.metadata()
+	out, err := raster.Create(r.Dir.Path("change.tif"), raster.Spec{Grid: r.before.Grid, Bands: 1, DataType: "Byte", NoData: &nd,
+		ColorTable: changeColors, Descriptions: []string{"change (1), no change (0), nodata (255)"}, Metadata: md})
+	if err != nil {
+		return err
+	}
+	defer out.Abort()
+	var conf change.Confusion
+	sum := r.sum
+	area, validArea := 0.0, 0.0
+	var flags, refBuf []uint8
+	var vals []float64
+	for t := range jobkit.GridFor(r.before, r.o.Input.Tile).Tiles() {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		n := t.Pixels()
+		flags, refBuf, vals = jobkit.Grow(flags, n), jobkit.Grow(refBuf, n), jobkit.Grow(vals, n)
+		if err := r.mask.Read(t.X, t.Y, t.W, t.H, flags); err != nil {
+			return err
+		}
+		if r.ref != nil {
+			if err := r.ref.Read(t.X, t.Y, t.W, t.H, refBuf); err != nil {
+				return err
+			}
+		}
+		for i, f := range flags {
+			vals[i] = float64(f)
+			if f == 255 {
+				continue
+			}
+			sum.ValidPixels++
+			cell := 0.0
+			if r.Areas != nil {
+				cell = r.Areas.At(t.X+i%t.W, t.Y+i/t.W)
+				validArea += cell
+			}
+			if f == 1 {
+				sum.ChangedPixels++
+				area += cell
+			}
+			if r.ref != nil && refBuf[i] != 255 {
+				conf.Add(f == 1, refBuf[i] == 1)
+			}
+		}
+		if err := out.Write(t, vals); err != nil {
+			return err
+		}
+	}
+	if err := out.Commit(); err != nil {
+		return err
+	}
+	if sum.ValidPixels > 0 {
+		sum.ChangedFrac = float64(sum.ChangedPixels) / float64(sum.ValidPixels)
+	}
+	if r.Areas != nil {
+		ha := area / 1e4
+		sum.ChangedAreaM2, sum.ChangedAreaHa = &area, &ha
+		vha := validArea / 1e4
+		sum.ValidAreaM2, sum.ValidAreaHa = &validArea, &vha
+	}
+	if r.ref != nil {
+		sum.Reference = &changefolder.ChangeAccuracy{File: r.o.Reference, Confusion: conf, Rates: conf.Rates()}
+	}
+	return nil
+}

@@ -1,0 +1,9 @@
+package pairchange_test
+
+import (
+	"testing"
+
+	"bandfold/cmd/bandfold/internal/jobtest"
+)
+
+func TestMain(m *testing.M) { jobtest.Main(m) }

@@ -1,0 +1,244 @@
+package series
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+	"sync/atomic"
+
+	"bandfold/bands"
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/raster"
+	"bandfold/tiles"
+	"bandfold/transform/change"
+)
+
+// seriesReader reads the same tile of every date (each on the first date's
+// tile grid) into a ring of buffers: O(ring x tile) values at most. It
+// opens one reader per date, for one worker.
+type seriesReader struct {
+	scenes []*raster.Stack
+	tiles  []tiles.Tile
+	rs     []*raster.Reader
+	x      [][]float64
+	valid  [][]bool
+}
+
+func newSeriesReader(scenes []*raster.Stack, ts []tiles.Tile, ring int) *seriesReader {
+	return &seriesReader{scenes: scenes, tiles: ts, rs: make([]*raster.Reader, len(scenes)), x: make([][]float64, ring), valid: make([][]bool, ring)}
+}
+
+// readDate reads tile k of date d into buffer b.
+func (sr *seriesReader) readDate(k, d, b int) error {
+	if sr.rs[d] == nil {
+		rd, err := sr.scenes[d].NewReader()
+		if err != nil {
+			return err
+		}
+		sr.rs[d] = rd
+	}
+	t := sr.tiles[k]
+	sr.x[b], sr.valid[b] = jobkit.Grow(sr.x[b], t.Pixels()*sr.scenes[d].Len()), jobkit.Grow(sr.valid[b], t.Pixels())
+	_, err := sr.rs[d].Read(t, sr.x[b], sr.valid[b])
+	return err
+}
+
+func (sr *seriesReader) Close() error {
+	var errs []error
+	for _, rd := range sr.rs {
+		if rd != nil {
+			errs = append(errs, rd.Close())
+		}
+	}
+	return errors.Join(errs...)
+}
+
+func numbered(g tiles.Grid) []tiles.Tile {
+	var out []tiles.Tile
+	for t := range g.Tiles() {
+		t.Index = len(out)
+		out = append(out, t)
+	}
+	return out
+}
+
+// sampleTiles are the tiles of the sample pass: those of the map pass, or
+// smaller ones where a share of the pixels above a quarter can be sampled
+// (an image of a few times --sample pixels), so that a tile's candidates,
+// each held with its values on every date, take about a quarter of
+// tiles.DefaultBudget. Smaller tiles change nothing sampled; the dates'
+// co-moments merge in another order (exactly the same sums for integer
+// pixels).
+func (r *Run) sampleTiles(hint uint64) []tiles.Tile {
+	share := math.Ldexp(float64(hint), -64)
+	first := r.Scenes[0]
+	if share <= 0.25 || r.C.Tile > 0 {
+		return r.tiles
+	}
+	values := int(math.Ceil(4 * share * float64(len(r.Scenes)*first.Len())))
+	w, h := tiles.SizeFor(first.Width, first.Height, first.BlockW, first.BlockH, values, tiles.DefaultBudget)
+	return numbered(tiles.NewGrid(first.Width, first.Height, w, h))
+}
+
+// seriesStats is what the sample pass gathers: each date's co-moments and
+// every sampled pair's sample.
+type seriesStats struct {
+	// acc holds, per date, the co-moments of its pixels valid on it and on
+	// the reference date (the reference's: valid on it and on some other
+	// date). For two dates: each date over the pixels valid on both.
+	acc    []*bands.Accumulator
+	sample *change.PairSample
+}
+
+type sampleWorker struct {
+	*seriesReader
+	ref    int
+	pairs  [][2]int
+	p      int
+	width  int64
+	keyer  *change.Sampler // its Key only
+	bound  *atomic.Uint64
+	pos    []int    // the tile's pixels below the bound
+	dvalid [][]bool // per date
+	mask   []bool
+	other  []bool // valid on some date other than the reference
+}
+
+// sampled is one tile's share of the sample pass.
+type sampled struct {
+	acc []*bands.Accumulator
+	ts  *change.TileSample
+}
+
+func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
+	n, D, p := t.Pixels(), len(w.scenes), w.p
+	// The pixels whose key can enter some pair's sample; Add drops those
+	// valid on no pair.
+	bound := w.bound.Load()
+	ts := &change.TileSample{Both: make([]int64, len(w.pairs))}
+	w.pos = w.pos[:0]
+	for i := range n {
+		index := int64(t.Y+i/t.W)*w.width + int64(t.X+i%t.W)
+		if key := w.keyer.Key(index); key < bound {
+			w.pos, ts.Cands = append(w.pos, i), append(ts.Cands, change.Candidate{Key: key, Index: index})
+		}
+	}
+	ts.Vals, ts.Valid = make([]float64, len(w.pos)*D*p), make([]bool, len(w.pos)*D)
+	w.dvalid = Grows(w.dvalid, D, n)
+	w.mask, w.other = jobkit.Grow(w.mask, n), jobkit.Grow(w.other, n)
+	clear(w.other)
+	res := sampled{acc: make([]*bands.Accumulator, D)}
+	// The reference first, into buffer 0, kept while the others pass
+	// through buffer 1.
+	for k := range D {
+		d, b := k, 1
+		switch {
+		case k == 0:
+			d, b = w.ref, 0
+		case k <= w.ref:
+			d = k - 1
+		}
+		if err := w.readDate(t.Index, d, b); err != nil {
+			return sampled{}, err
+		}
+		x, valid := w.x[b], w.valid[b]
+		copy(w.dvalid[d], valid)
+		for c, i := range w.pos {
+			copy(ts.Vals[(c*D+d)*p:(c*D+d+1)*p], x[i*p:i*p+p])
+			ts.Valid[c*D+d] = valid[i]
+		}
+		if d == w.ref {
+			continue
+		}
+		ref := w.dvalid[w.ref]
+		for i := range n {
+			w.mask[i] = valid[i] && ref[i]
+			w.other[i] = w.other[i] || valid[i]
+		}
+		res.acc[d] = bands.NewExactAccumulator(p)
+		res.acc[d].AddPixels(x, w.mask)
+	}
+	ref := w.dvalid[w.ref]
+	for i := range n {
+		w.mask[i] = ref[i] && w.other[i]
+	}
+	res.acc[w.ref] = bands.NewExactAccumulator(p)
+	res.acc[w.ref].AddPixels(w.x[0], w.mask)
+	for i := range n {
+		for q, pr := range w.pairs {
+			if w.dvalid[pr[0]][i] && w.dvalid[pr[1]][i] {
+				ts.Both[q]++
+			}
+		}
+	}
+	res.ts = ts
+	return res, nil
+}
+
+// samplePairs are the pairs sampled: the scored pairs, then each date with
+// the reference date where that pair is not scored (for the
+// normalisation).
+func (r *Run) samplePairs() [][2]int {
+	out := slices.Clone(r.pairs)
+	for d := range r.Scenes {
+		if d == r.Ref {
+			continue
+		}
+		pr := [2]int{min(r.Ref, d), max(r.Ref, d)}
+		if !slices.Contains(out, pr) {
+			out = append(out, pr)
+		}
+	}
+	return out
+}
+
+// Sample reads every date once: the co-moments of each date and the
+// sample of each pair, the same for any number of workers. Should the
+// hint have cut a pair's sample short (most of its pixels nodata), the
+// pass runs again with a hint for the pixels valid, then without.
+func (r *Run) Sample(ctx context.Context) error {
+	p := r.Scenes[0].Len()
+	r.sampled = r.samplePairs()
+	g := r.Scenes[0].Grid
+	pixels := int64(g.Width) * int64(g.Height)
+	hint := change.SampleHint(r.C.Sample, pixels)
+	for {
+		total := seriesStats{sample: change.NewPairSample(r.C.Sample, p, len(r.Scenes), r.sampled, hint, pixels)}
+		for range r.Scenes {
+			total.acc = append(total.acc, bands.NewExactAccumulator(p))
+		}
+		var bound atomic.Uint64
+		bound.Store(total.sample.Bound())
+		keys := change.NewSampler(r.C.Sample, 1, 1)
+		ts := r.sampleTiles(hint)
+		err := tiles.Run(ctx, ts, tiles.Options{Workers: r.Env.WorkerCount(), Progress: r.Env.ProgressFor("statistics", pixels)},
+			func(int) (tiles.Worker[sampled], error) {
+				return &sampleWorker{seriesReader: newSeriesReader(r.Scenes, ts, 2), ref: r.Ref, pairs: r.sampled, p: p, width: int64(g.Width), keyer: keys, bound: &bound}, nil
+			},
+			func(_ tiles.Tile, res sampled) error {
+				for i, a := range res.acc {
+					total.acc[i].Merge(a)
+				}
+				total.sample.Add(res.ts)
+				bound.Store(total.sample.Bound())
+				return nil
+			})
+		if err != nil {
+			return err
+		}
+		if !total.sample.Complete() {
+			hint = total.sample.RetryHint()
+			continue
+		}
+		for q, pr := range r.sampled {
+			if total.sample.Both(q) == 0 {
+				return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", r.Args[pr[0]], r.Args[pr[1]])
+			}
+		}
+		total.sample.Finish()
+		r.stats = total
+		return nil
+	}
+}

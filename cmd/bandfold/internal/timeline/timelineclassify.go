@@ -1,0 +1,222 @@
+package timeline
+
+import (
+	"context"
+	"fmt"
+
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/report"
+	"bandfold/raster"
+)
+
+// stepCount is a step's mapped pixels and ground areas.
+type stepCount struct {
+	flagged, confirmed         int64
+	flaggedArea, confirmedArea float64
+	patches                    int
+}
+
+// confirmFlags keeps in each step's mask only its confirmed flags and
+// applies the minimum mapping unit to them again, so that no confirmed
+// patch is smaller than --min-area; each step's bits then hold its flags
+// before confirmation (after the first sieve).
+func (r *timelineRun) confirmFlags(ctx context.Context) error {
+	g := r.Scenes[0].Grid
+	var flags []uint8
+	for q, m := range r.masks {
+		for t := range jobkit.GridFor(r.Scenes[0], r.C.Tile).Tiles() {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+			flags = jobkit.Grow(flags, t.Pixels())
+			if err := m.Read(t.X, t.Y, t.W, t.H, flags); err != nil {
+				return err
+			}
+			for i, f := range flags {
+				bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
+				word, mask := &r.confirm[q][bit/64], uint64(1)<<(bit%64)
+				confirmed := *word&mask != 0
+				if f == 1 {
+					*word |= mask
+				} else {
+					*word &^= mask
+				}
+				if f == 1 && !confirmed {
+					flags[i] = 0
+				}
+			}
+			if err := m.SetMapped(t.X, t.Y, t.W, t.H, flags); err != nil {
+				return err
+			}
+		}
+		if err := m.SieveAgain(ctx, r.MinPixels); err != nil {
+			return fmt.Errorf("sieve of the confirmed changes of %s to %s: %w", r.label(q), r.label(q+1), err)
+		}
+	}
+	return nil
+}
+
+// classify reads the maps tile by tile and writes steps.tif,
+// first-change.tif, last-change.tif and change-count.tif, and counts the
+// mapped pixels and areas.
+func (r *timelineRun) classify(ctx context.Context) error {
+	if err := r.confirmFlags(ctx); err != nil {
+		return err
+	}
+	S, g := r.steps(), r.Scenes[0].Grid
+	md := r.metadata()
+	nd8, nd0, ndc := float64(StepNoData), 0.0, -1.0
+	descs := make([]string, S)
+	for q := range descs {
+		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged not confirmed, 2 confirmed, 255 nodata", r.label(q), r.label(q+1))
+	}
+	// GeoTIFF keeps a colour table (on band 1) only in files of one or two
+	// bands: a longer series' steps.tif goes without, its values told by
+	// the band descriptions.
+	colors := stepColors
+	if S > 2 {
+		colors = nil
+	}
+	specs := []struct {
+		name string
+		spec raster.Spec
+	}{
+		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, ColorTable: colors, Descriptions: descs, Metadata: md}},
+		{"first-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the first confirmed change (YYYYMMDD); nodata where none"}}},
+		{"last-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the last confirmed change (YYYYMMDD); nodata where none"}}},
+		{"change-count.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"confirmed changes per pixel; nodata where no step is valid"}}},
+	}
+	outs := make([]*raster.Output, len(specs))
+	for i, s := range specs {
+		o, err := raster.Create(r.Dir.Path(s.name), s.spec)
+		if err != nil {
+			return err
+		}
+		defer o.Abort()
+		outs[i] = o
+	}
+	r.counts = make([]stepCount, S)
+	r.pw, r.ph = report.PreviewSize(g.Width, g.Height)
+	r.firstPrev = make([]uint8, r.pw*r.ph)
+	flags := make([][]uint8, S)
+	var vals, first, last, count []float64
+	for t := range jobkit.GridFor(r.Scenes[0], r.C.Tile).Tiles() {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		n := t.Pixels()
+		vals, first, last, count = jobkit.Grow(vals, n*S), jobkit.Grow(first, n), jobkit.Grow(last, n), jobkit.Grow(count, n)
+		for q := range S {
+			flags[q] = jobkit.Grow(flags[q], n)
+			if err := r.masks[q].Read(t.X, t.Y, t.W, t.H, flags[q]); err != nil {
+				return err
+			}
+		}
+		for i := range n {
+			x, y := t.X+i%t.W, t.Y+i/t.W
+			bit := y*g.Width + x
+			cell := 0.0
+			if r.Areas != nil {
+				cell = r.Areas.At(x, y)
+			}
+			first[i], last[i], count[i] = 0, 0, -1
+			for q := range S {
+				f := flags[q][i]
+				v := float64(StepNoData)
+				// The mask holds the confirmed flags, sieved again; the bits
+				// the flags before confirmation (confirmFlags).
+				switch {
+				case f == 255:
+				case f == 1:
+					v = StepConfirmed
+					c := &r.counts[q]
+					c.flagged, c.confirmed, c.flaggedArea, c.confirmedArea = c.flagged+1, c.confirmed+1, c.flaggedArea+cell, c.confirmedArea+cell
+				case r.confirm[q][bit/64]&(1<<(bit%64)) != 0:
+					v = StepUnconfirmed
+					c := &r.counts[q]
+					c.flagged, c.flaggedArea = c.flagged+1, c.flaggedArea+cell
+				default:
+					v = stepNone
+				}
+				vals[i*S+q] = v
+				if v != StepNoData {
+					count[i] = max(count[i], 0)
+				}
+				if v == StepConfirmed {
+					date := float64(r.Dates[q+1].YYYYMMDD())
+					if first[i] == 0 {
+						first[i] = date
+						r.markPreview(x, y, q+1)
+					}
+					last[i] = date
+					count[i]++
+				}
+			}
+		}
+		for i := range n {
+			if count[i] >= 0 {
+				r.totalValid++
+			}
+			if count[i] > 0 {
+				r.totalChanged++
+				if r.Areas != nil {
+					r.changedArea += r.Areas.At(t.X+i%t.W, t.Y+i/t.W)
+				}
+			}
+		}
+		for i, buf := range [][]float64{vals, first, last, count} {
+			if err := outs[i].Write(t, buf); err != nil {
+				return err
+			}
+		}
+	}
+	for i, o := range outs {
+		if err := o.Commit(); err != nil {
+			return err
+		}
+		r.outputs = append(r.outputs, specs[i].name)
+	}
+	return nil
+}
+
+// markPreview records, for first-change.png, the step of a pixel's first
+// confirmed change at its preview pixel (the earliest wins).
+func (r *timelineRun) markPreview(x, y, step int) {
+	g := r.Scenes[0].Grid
+	span := func(v, full, prev int) (int, int) {
+		lo := v * prev / full
+		return lo, max(lo+1, min(prev, ((v+1)*prev+full-1)/full))
+	}
+	x0, x1 := span(x, g.Width, r.pw)
+	y0, y1 := span(y, g.Height, r.ph)
+	for py := y0; py < y1; py++ {
+		for px := x0; px < x1; px++ {
+			if v := &r.firstPrev[py*r.pw+px]; *v == 0 || int(*v) > step {
+				*v = uint8(min(step, 255))
+			}
+		}
+	}
+}
+
+// patches polygonizes each step's confirmed patches into changes.gpkg.
+func (r *timelineRun) patches(context.Context) error {
+	var steps []raster.PatchStep
+	for q, m := range r.masks {
+		steps = append(steps, raster.PatchStep{Mask: m, Band: q + 1, Date: r.label(q + 1)})
+	}
+	sums, err := raster.WriteStepPatches(r.Dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.scratch, Metadata: r.metadata()}, steps)
+	if err != nil {
+		return err
+	}
+	for q, s := range sums {
+		r.counts[q].patches = s.Count
+	}
+	r.outputs = append(r.outputs, "changes.gpkg")
+	for q, m := range r.masks {
+		if err := m.Close(); err != nil {
+			return fmt.Errorf("write %s: step map: %w", r.o.Out, err)
+		}
+		r.masks[q] = nil
+	}
+	return r.removeScratch()
+}

@@ -1,0 +1,213 @@
+package timeline
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"os"
+	"strconv"
+
+	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/series"
+	"bandfold/raster"
+	"bandfold/tiles"
+)
+
+// Values of steps.tif.
+const (
+	stepNone        = 0
+	StepUnconfirmed = 1
+	StepConfirmed   = 2
+	StepNoData      = 255
+)
+
+// stepColors is steps.tif's colour table: none, flagged but not confirmed,
+// confirmed, nodata.
+var stepColors = func() [][4]int16 {
+	ct := make([][4]int16, 256)
+	ct[stepNone] = [4]int16{236, 236, 228, 255}
+	ct[StepUnconfirmed] = [4]int16{244, 180, 120, 255}
+	ct[StepConfirmed] = [4]int16{180, 30, 60, 255}
+	ct[StepNoData] = [4]int16{0, 0, 0, 0}
+	return ct
+}()
+
+// stepTile is a timeline tile's own results: each step's Z as float32,
+// the largest Z and its step.
+type stepTile struct {
+	z            [][]float32 // per step
+	zmax, argmax []float32
+}
+
+// timelineHook is a worker's share of timeline's map outputs.
+type timelineHook struct {
+	steps   int
+	zmax    []float64
+	argmaxi []int
+}
+
+func (h *timelineHook) Begin(t tiles.Tile, pt *series.PairTile) {
+	if pt.Extra == nil {
+		pt.Extra = &stepTile{}
+	}
+	st, n := pt.Extra.(*stepTile), t.Pixels()
+	st.z = series.Grows(st.z, h.steps, n)
+	st.zmax, st.argmax = jobkit.Grow(st.zmax, n), jobkit.Grow(st.argmax, n)
+	h.zmax, h.argmaxi = jobkit.Grow(h.zmax, n), jobkit.Grow(h.argmaxi, n)
+	for i := range n {
+		h.zmax[i], h.argmaxi[i] = math.NaN(), 0
+	}
+}
+
+// Pair keeps a step's Z and the largest Z so far; a skip's flags are all
+// the engine's own.
+func (h *timelineHook) Pair(q int, _ tiles.Tile, lo, hi int, _ [2][]float64, _ []bool, _ *series.PairScorer, pt *series.PairTile) {
+	if q >= h.steps {
+		return
+	}
+	st := pt.Extra.(*stepTile)
+	out := st.z[q][lo:hi]
+	for i, v := range pt.Z[q][lo:hi] {
+		out[i] = float32(v)
+		if v == v && !(v <= h.zmax[lo+i]) {
+			h.zmax[lo+i], h.argmaxi[lo+i] = v, q+1
+		}
+	}
+}
+
+func (h *timelineHook) Done(t tiles.Tile, pt *series.PairTile) {
+	st := pt.Extra.(*stepTile)
+	for i := range t.Pixels() {
+		st.zmax[i], st.argmax[i] = float32(h.zmax[i]), float32(math.NaN())
+		if h.argmaxi[i] > 0 {
+			st.argmax[i] = float32(h.argmaxi[i])
+		}
+	}
+}
+
+// mapPixels computes every pair's change statistic in one pass over the
+// tiles: each step's raw flags and top components into its mask, its Z
+// into a scratch raster for the patches, the largest Z into
+// max-magnitude.tif, and the skips' verdicts into the confirmation bits.
+func (r *timelineRun) mapPixels(ctx context.Context) error {
+	S, g := r.steps(), r.Scenes[0].Grid
+	for q := range S {
+		// On disk: the maps of every step stay out of memory.
+		m, err := raster.NewMaskFile(g, r.Dir.Path(fmt.Sprintf("step-%d-map.tif", q+1)))
+		if err != nil {
+			return err
+		}
+		r.masks = append(r.masks, m)
+		r.confirm = append(r.confirm, make([]uint64, (g.Width*g.Height+63)/64))
+	}
+	r.valid = make([]int64, S)
+	md := r.metadata()
+	zdesc := make([]string, S)
+	for q := range zdesc {
+		zdesc[q] = fmt.Sprintf("change statistic Z, %s to %s", r.label(q), r.label(q+1))
+	}
+	r.scratch = r.Dir.Path("step-z.tif")
+	// Scratch, read once for the patches: not worth compressing.
+	zs, err := raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &series.Nan, Descriptions: zdesc, Metadata: md,
+		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1"}})
+	if err != nil {
+		return err
+	}
+	defer zs.Abort()
+	mag, err := raster.Create(r.Dir.Path("max-magnitude.tif"), raster.Spec{Grid: g, Bands: 2, DataType: "Float32", NoData: &series.Nan, Metadata: md,
+		Descriptions: []string{fmt.Sprintf("largest change statistic Z over the steps (chi-square, k = %d)", r.Proj.Components()), "step of the largest Z (1 = first pair of dates)"}})
+	if err != nil {
+		return err
+	}
+	defer mag.Abort()
+	var zbuf, mbuf []float64
+	err = r.MapPairs(ctx, series.MapHooks{
+		NewWorker: func() series.TileHook { return &timelineHook{steps: S} },
+		Deliver: func(t tiles.Tile, pt *series.PairTile) error {
+			st := pt.Extra.(*stepTile)
+			n := t.Pixels()
+			zbuf, mbuf = jobkit.Grow(zbuf, n*S), jobkit.Grow(mbuf, 2*n)
+			for q := range S {
+				if err := r.masks[q].Write(t.X, t.Y, t.W, t.H, pt.Flags[q], pt.Top[q]); err != nil {
+					return err
+				}
+				for i := range n {
+					zbuf[i*S+q] = float64(st.z[q][i])
+					if pt.Flags[q][i] != 255 {
+						r.valid[q]++
+					}
+					if r.confirmed(pt, q, i) {
+						bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
+						r.confirm[q][bit/64] |= 1 << (bit % 64)
+					}
+				}
+			}
+			for i := range n {
+				mbuf[2*i], mbuf[2*i+1] = float64(st.zmax[i]), float64(st.argmax[i])
+			}
+			if err := zs.Write(t, zbuf); err != nil {
+				return err
+			}
+			return mag.Write(t, mbuf)
+		}})
+	if err != nil {
+		return err
+	}
+	if err := zs.Commit(); err != nil {
+		return err
+	}
+	r.outputs = append(r.outputs, "max-magnitude.tif")
+	return mag.Commit()
+}
+
+// confirmed reports whether the skips confirm a flag of step q (dates q and
+// q+1) at pixel i: date q+2 still differs from date q (skip q) and, where
+// date q-1 exists, date q+1 differs from date q-1 (skip q-1). The last step
+// has no date after it and is never confirmed; with --confirm none every
+// pixel is.
+func (r *timelineRun) confirmed(pt *series.PairTile, q, i int) bool {
+	if r.o.Confirm == ConfirmNone {
+		return true
+	}
+	S := r.steps()
+	if q == S-1 || pt.Flags[S+q][i] != 1 {
+		return false
+	}
+	return q == 0 || pt.Flags[S+q-1][i] == 1
+}
+
+// sieve applies the minimum mapping unit to each step's flags.
+func (r *timelineRun) sieve(ctx context.Context) error {
+	return r.Run.Sieve(ctx, r.masks, func(q int) string { return fmt.Sprintf(" of %s to %s", r.label(q), r.label(q+1)) })
+}
+
+// metadata is what every output of a timeline folder records.
+func (r *timelineRun) metadata() map[string]string {
+	md := map[string]string{"BANDFOLD_VERSION": r.Env.Version, "BANDFOLD_CAUTION": jobkit.Caution,
+		"BANDFOLD_THRESHOLD":       r.o.Threshold.String(),
+		"BANDFOLD_MIN_AREA_PIXELS": strconv.Itoa(r.MinPixels),
+		"BANDFOLD_NORMALIZATION":   r.o.Normalize,
+		"BANDFOLD_CONFIRM":         r.o.Confirm,
+	}
+	for i := range r.Scenes {
+		md[fmt.Sprintf("BANDFOLD_DATE_%d", i+1)] = r.Name(i)
+		md[fmt.Sprintf("BANDFOLD_NORMALIZATION_%d", i+1)] = r.NormDescription(i)
+	}
+	if r.Proj != nil {
+		md["BANDFOLD_COMPONENTS"] = strconv.Itoa(r.Proj.Components())
+	}
+	for _, key := range []string{"SCENARIO", "SCENARIO_LOCATION"} {
+		if v, ok := r.Scenes[0].Metadata[key]; ok {
+			md[key] = v
+		}
+	}
+	return md
+}
+
+// removeScratch removes the steps' Z once the patches are written.
+func (r *timelineRun) removeScratch() error {
+	if err := os.Remove(r.scratch); err != nil {
+		return fmt.Errorf("write %s: %w", r.o.Out, err)
+	}
+	return nil
+}
