@@ -15,23 +15,24 @@ import (
 )
 
 type learnFlags struct {
-	input      inputFlags
-	out        string
-	partial    string
-	mode       string
-	components int
-	variance   float64
-	stride     int
-	shard      string
-	shardCount int
-	overwrite  bool
-	method     string
-	noise      string
-	minSNR     float64
-	suggest    bool
-	wavelength string
-	exclude    string
-	excludeNM  string
+	input       inputFlags
+	out         string
+	partial     string
+	mode        string
+	components  int
+	variance    float64
+	stride      int
+	shard       string
+	shardCount  int
+	overwrite   bool
+	ignoreNames bool
+	method      string
+	noise       string
+	minSNR      float64
+	suggest     bool
+	wavelength  string
+	exclude     string
+	excludeNM   string
 }
 
 func newLearnCommand(g *globals) *cobra.Command { return learnCommand(g, &learnFlags{}) }
@@ -77,6 +78,7 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 	f.StringVar(&fl.shard, "shard", "", `process only shard I of N ("I/N", or "auto" from a Slurm array or Kubernetes Indexed Job)`)
 	f.IntVar(&fl.shardCount, "shard-count", 0, "number of shards for --shard auto in a Kubernetes Indexed Job")
 	f.BoolVar(&fl.overwrite, "overwrite", false, "replace an existing output")
+	f.BoolVar(&fl.ignoreNames, "ignore-band-names", false, "pool scenes whose bands are named differently if they have as many bands, taken in order")
 	f.StringVar(&fl.method, "method", "pca", "pca (order by variance) or mnf (minimum noise fraction: order by signal-to-noise ratio)")
 	f.StringVar(&fl.noise, "noise", "horizontal", "pixel pairs of the noise estimate: horizontal, vertical or both")
 	f.Float64Var(&fl.minSNR, "min-snr", 0, "with --method mnf, keep the components whose signal-to-noise ratio is at least this")
@@ -110,7 +112,7 @@ func (fl *learnFlags) options(scenes []string, getenv func(string) string) (lear
 	}
 	o := learn.LearnOptions{Scenes: fl.input.scenes(scenes), Input: in, Out: fl.out, Partial: fl.partial, Mode: mode,
 		Components: fl.components, Variance: fl.variance, Stride: fl.stride, Shard: sh, Overwrite: fl.overwrite,
-		MinSNR: fl.minSNR, SuggestExclude: fl.suggest, Spectral: jobkit.Spectral{WavelengthsFile: fl.wavelength}}
+		MinSNR: fl.minSNR, SuggestExclude: fl.suggest, IgnoreBandNames: fl.ignoreNames, Spectral: jobkit.Spectral{WavelengthsFile: fl.wavelength}}
 	if o.Method, err = transform.ParseMethod(fl.method); err != nil {
 		return o, usagef("--method %q: want pca or mnf", fl.method)
 	}

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"os"
 	"path/filepath"
 	"testing"
 
@@ -72,6 +73,7 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"timeline grids differ", tl(a, b, other), 1, []string{other, "--align"}},
 		{"timeline confirm", tl(a, b, c, "--confirm", "maybe"), 2, []string{`--confirm "maybe"`}},
 		{"timeline normalize", tl(a, b, c, "--normalize", "histogram"), 2, []string{`--normalize "histogram"`}},
+		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	before := snapshotTree(t, dir)
 	for _, tc := range tests {
@@ -80,5 +82,11 @@ func TestTimelineBadInputs(t *testing.T) {
 			checkFailure(t, tc, code, stdout, stderr)
 			restoreTree(t, dir, before)
 		})
+	}
+	// The flag the refusal advises is accepted and pools the scenes.
+	basis := p("basis.json")
+	mustRun(t, "learn", n1, n3, "--ignore-band-names", "--out", basis, "--quiet")
+	if _, err := os.Stat(basis); err != nil {
+		t.Errorf("learn --ignore-band-names wrote no basis: %v", err)
 	}
 }

@@ -226,8 +226,9 @@ func DescribeAll(scenes []*raster.Stack) string {
 
 // CheckPooled requires every scene to have the bands of the first, by
 // count and, where named, by name in order; several one-band images are
-// most likely one stack given without --stack.
-func CheckPooled(scenes []*raster.Stack) error {
+// most likely one stack given without --stack. ignoreNames skips the
+// names (--ignore-band-names).
+func CheckPooled(scenes []*raster.Stack, ignoreNames bool) error {
 	if len(scenes) > 1 {
 		single := true
 		for _, s := range scenes {
@@ -241,6 +242,9 @@ func CheckPooled(scenes []*raster.Stack) error {
 		if s.Len() != scenes[0].Len() {
 			return fmt.Errorf("%s has %d bands but %s has %d: pooled scenes need the same bands",
 				Describe(s), s.Len(), Describe(scenes[0]), scenes[0].Len())
+		}
+		if ignoreNames {
+			continue
 		}
 		if err := sameBandNames(Describe(s), BasisBands(s), Describe(scenes[0]), BasisBands(scenes[0])); err != nil {
 			return err

@@ -42,6 +42,9 @@ type LearnOptions struct {
 	// SuggestExclude lists the bands whose estimated SNR is below
 	// SuggestSNR instead of fitting; nothing is written.
 	SuggestExclude bool
+	// IgnoreBandNames pools scenes whose bands are named differently when
+	// they have as many bands (taken in order).
+	IgnoreBandNames bool
 }
 
 // LearnResult is what Learn wrote.
@@ -128,7 +131,7 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err := jobkit.DistinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil && target != "" {
 		return nil, err
 	}
-	if err := jobkit.CheckPooled(scenes); err != nil {
+	if err := jobkit.CheckPooled(scenes, o.IgnoreBandNames); err != nil {
 		return nil, err
 	}
 	sel, err := o.Spectral.SelectBands(scenes)
