@@ -204,3 +204,111 @@ func mkdir(t *testing.T, parts ...string) string {
 	}
 	return p
 }
+
+// TestTimelinePartialReturnLeavesNoPatchUnderTheUnit: three dates of the
+// real Landsat 7 subset, each with its own noise (NoisyCopy). Date 2 brightens
+// two blocks; date 3 keeps block B brightened but returns block A to its
+// first state except for an L of 3 pixels. Confirmation of step 1 by the
+// skip (1, 3) therefore cuts block A down to 3 pixels after the sieve ran,
+// and those must go: no confirmed 8-connected patch of any step in
+// steps.tif may be smaller than the 4-pixel unit, and block B (64 pixels)
+// stays confirmed (all known by construction).
+func TestTimelinePartialReturnLeavesNoPatchUnderTheUnit(t *testing.T) {
+	NeedLandsat(t)
+	dir := t.TempDir()
+	type block struct{ x, y, w, h int }
+	blockA, blockB := block{100, 100, 10, 10}, block{50, 200, 8, 8}
+	lShape := [][2]int{{100, 100}, {101, 100}, {100, 101}}
+	date := func(name string, seed uint64, brighten func(x, y int) bool) string {
+		path, noisy := filepath.Join(dir, name), filepath.Join(dir, "noisy-"+name)
+		NoisyCopy(t, noisy, seed, 0)
+		s, buf, _ := ReadImage(t, noisy, tiles.Tile{})
+		p := s.Len()
+		for y := range s.Height {
+			for x := range s.Width {
+				if brighten(x, y) {
+					for b := range p {
+						buf[(y*s.Width+x)*p+b] += 40
+					}
+				}
+			}
+		}
+		WriteRasterFile(t, path, raster.Spec{Grid: s.Grid, Bands: p, DataType: "Float32"}, buf)
+		return path
+	}
+	in := func(b block, x, y int) bool { return x >= b.x && x < b.x+b.w && y >= b.y && y < b.y+b.h }
+	d1 := date("site-2001.tif", 1, func(int, int) bool { return false })
+	d2 := date("site-2002.tif", 2, func(x, y int) bool { return in(blockA, x, y) || in(blockB, x, y) })
+	d3 := date("site-2003.tif", 3, func(x, y int) bool {
+		return in(blockB, x, y) || slices.Contains(lShape, [2]int{x, y})
+	})
+	out := filepath.Join(dir, "tl")
+	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{d1, d2, d3}, Out: out,
+		MinArea: jobkit.MinArea{Px: 4}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	s, buf, valid := ReadImage(t, filepath.Join(out, "steps.tif"), tiles.Tile{})
+	for q := range s.Len() {
+		confirmed := make([]bool, s.Width*s.Height)
+		for i := range confirmed {
+			confirmed[i] = valid[i] && buf[i*s.Len()+q] == timeline.StepConfirmed
+		}
+		sizes := patchSizes(confirmed, s.Width, s.Height)
+		for _, n := range sizes {
+			if n < 4 {
+				t.Errorf("step %d: a confirmed patch of %d pixels, under the 4-pixel unit (patches %v)", q+1, n, sizes)
+			}
+		}
+		if q > 0 {
+			continue
+		}
+		var inA, inB int
+		for i, c := range confirmed {
+			x, y := i%s.Width, i/s.Width
+			if c && in(blockA, x, y) {
+				inA++
+			}
+			if c && in(blockB, x, y) {
+				inB++
+			}
+		}
+		if inA != 0 || inB < 60 {
+			t.Errorf("step 1 confirms %d pixels of block A (want 0: 3 pixels last) and %d of block B (want about 64)", inA, inB)
+		}
+	}
+	t.Logf("confirmed pixels %d, patches %d", res.ChangedPixels, res.Patches)
+}
+
+// patchSizes are the sizes of the 8-connected patches of set pixels.
+func patchSizes(set []bool, w, h int) []int {
+	seen := make([]bool, len(set))
+	var sizes []int
+	for start := range set {
+		if !set[start] || seen[start] {
+			continue
+		}
+		n, stack := 0, []int{start}
+		seen[start] = true
+		for len(stack) > 0 {
+			i := stack[len(stack)-1]
+			stack = stack[:len(stack)-1]
+			n++
+			x, y := i%w, i/w
+			for dy := -1; dy <= 1; dy++ {
+				for dx := -1; dx <= 1; dx++ {
+					nx, ny := x+dx, y+dy
+					if nx < 0 || ny < 0 || nx >= w || ny >= h {
+						continue
+					}
+					if j := ny*w + nx; set[j] && !seen[j] {
+						seen[j] = true
+						stack = append(stack, j)
+					}
+				}
+			}
+		}
+		sizes = append(sizes, n)
+	}
+	return sizes
+}
