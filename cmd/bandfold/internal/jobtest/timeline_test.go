@@ -128,6 +128,15 @@ func TestTimelineRefusals(t *testing.T) {
 	CopyFile(t, third, same)
 	other := filepath.Join(dir, "other-2026-01-01.tif")
 	Synth(t, other, 3, 64, 64, 1)
+	// A date whose every pixel is nodata: it covers none of the reference
+	// date's valid pixels.
+	empty := filepath.Join(dir, "empty-2025-06-19.tif")
+	s, buf, _ := ReadImage(t, third, tiles.Tile{})
+	nd := -9999.0
+	for i := range buf {
+		buf[i] = nd
+	}
+	WriteRasterFile(t, empty, raster.Spec{Grid: s.Grid, Bands: s.Len(), DataType: "Float32", NoData: &nd}, buf)
 	out := filepath.Join(dir, "tl")
 	tests := []struct {
 		name   string
@@ -142,6 +151,7 @@ func TestTimelineRefusals(t *testing.T) {
 		{"same date", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, same}}, true, []string{same, f.After, "same date 2024-06-19"}},
 		{"grid differs", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, other}}, false, []string{other, "pass --align"}},
 		{"confirm", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third}, Confirm: "maybe"}, true, []string{`--confirm "maybe"`}},
+		{"no overlap", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, empty}}, false, []string{empty, "no pixel is valid on both dates"}},
 	}
 	for _, tc := range tests {
 		tc.o.Out = out
