@@ -64,7 +64,7 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.BoolVar(&fl.o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
 	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
 	f.BoolVar(&o.Align, "align", false, "warp AFTER onto BEFORE's grid with GDAL when the grids differ")
-	f.StringVar(&o.Resampling, "resampling", "bilinear", "resampling for --align: bilinear, nearest (categorical data), cubic, cubicspline, lanczos, average, mode")
+	f.StringVar(&o.Resampling, "resampling", "", "resampling for --align: bilinear (the default), nearest (categorical data), cubic, cubicspline, lanczos, average, mode")
 	f.StringVarP(&o.Basis, "basis", "b", "", "basis to use instead of fitting one on both dates")
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
 	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")

@@ -160,7 +160,7 @@ func TestChangeFlagsToOptions(t *testing.T) {
 		t.Fatal(err)
 	}
 	tests := []optionCase[pairchange.ChangeOptions]{
-		{[]string{"a.tif", "b.tif", "--out", "d"}, pairchange.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d", Resampling: "bilinear",
+		{[]string{"a.tif", "b.tif", "--out", "d"}, pairchange.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d",
 			Threshold: def, MinArea: jobkit.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: series.NormalizeStable}, ""},
 		{[]string{"a.tif", "b.tif", "-o", "d", "--mask-before", "ma.tif", "--mask-after", "mb.tif:bits=15", "--bands-before", "1-5,7", "--bands-after", "2-7", "--align", "--resampling", "average",
 			"-b", "p.json", "-k", "2", "--threshold", "sigma:4", "--min-area", "0.5ha", "--differences", "--pvalues", "--reference", "r.gpkg",
@@ -187,7 +187,7 @@ func TestTimelineFlagsToOptions(t *testing.T) {
 		t.Fatal(err)
 	}
 	tests := []optionCase[timeline.TimelineOptions]{
-		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d"}, timeline.TimelineOptions{Scenes: []string{"a.tif", "b.tif", "c.tif"}, Out: "d", Resampling: "bilinear",
+		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d"}, timeline.TimelineOptions{Scenes: []string{"a.tif", "b.tif", "c.tif"}, Out: "d",
 			Threshold: def, MinArea: jobkit.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: series.NormalizeStable, Confirm: timeline.ConfirmLasting}, ""},
 		{[]string{"a.tif", "b.tif", "c.tif", "-o", "d", "--dates", "2016-07-01,2017,20180703", "--basis", "p.json", "-k", "2", "--normalize", "none",
 			"--confirm", "none", "--align", "--resampling", "nearest", "--min-area", "0.5ha", "--sample", "5000", "--overwrite"},

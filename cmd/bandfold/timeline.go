@@ -55,7 +55,7 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
 	f.StringSliceVar(&fl.dates, "dates", nil, "the scenes' dates in the order given (YYYY-MM-DD, YYYYMMDD or YYYY); default: metadata, else the file names")
 	f.BoolVar(&o.Align, "align", false, "warp every scene onto the first's grid with GDAL when the grids differ")
-	f.StringVar(&o.Resampling, "resampling", "bilinear", "resampling for --align")
+	f.StringVar(&o.Resampling, "resampling", "", "resampling for --align (default bilinear)")
 	f.StringVarP(&o.Basis, "basis", "b", "", "basis to use instead of fitting one on all dates")
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
 	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")

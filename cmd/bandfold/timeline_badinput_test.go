@@ -73,16 +73,12 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"timeline grids differ", tl(a, b, other), 1, []string{other, "--align"}},
 		{"timeline confirm", tl(a, b, c, "--confirm", "maybe"), 2, []string{`--confirm "maybe"`}},
 		{"timeline normalize", tl(a, b, c, "--normalize", "histogram"), 2, []string{`--normalize "histogram"`}},
+		{"timeline resampling without align", tl(a, b, c, "--resampling", "cubic"), 2, []string{"--resampling cubic applies only with --align"}},
+		{"change resampling without align", []string{"change", a, b, "--out", out, "--resampling", "cubic"}, 2, []string{"--resampling cubic applies only with --align"}},
+		{"learn resampling without align", []string{"learn", a, "--out", p("basis.json"), "--resampling", "average"}, 2, []string{"--resampling average applies only with --align"}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
-	before := snapshotTree(t, dir)
-	for _, tc := range tests {
-		t.Run(tc.name, func(t *testing.T) {
-			code, stdout, stderr := bandfold(t, tc.argv...)
-			checkFailure(t, tc, code, stdout, stderr)
-			restoreTree(t, dir, before)
-		})
-	}
+	checkBadCases(t, dir, tests)
 	// The flag the refusal advises is accepted and pools the scenes.
 	basis := p("basis.json")
 	mustRun(t, "learn", n1, n3, "--ignore-band-names", "--out", basis, "--quiet")

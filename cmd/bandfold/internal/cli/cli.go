@@ -82,7 +82,7 @@ func (f *InputFlags) Register(fs *pflag.FlagSet, align bool) {
 	fs.StringVar(&f.calibrate, "calibrate", "", `scale (the bands' scale/offset metadata) or toa (Landsat Level-1 digital numbers to top-of-atmosphere reflectance from the *_MTL.txt beside the bands); default scale, or the basis's`)
 	if align {
 		fs.BoolVar(&f.align, "align", false, "warp every file of a stack onto its first file's grid with GDAL (for bands at other resolutions)")
-		fs.StringVar(&f.resampling, "resampling", "bilinear", "resampling for --align: nearest, bilinear, cubic, cubicspline, lanczos, average, mode")
+		fs.StringVar(&f.resampling, "resampling", "", "resampling for --align: nearest, bilinear, cubic, cubicspline, lanczos, average, mode (default bilinear)")
 		fs.BoolVar(&f.stack, "stack", false, "read the IMAGE arguments as one stack of bands, in the order given (for one file per band)")
 	}
 }
@@ -102,9 +102,12 @@ func (f *InputFlags) Input() (jobkit.Input, error) {
 		return jobkit.Input{}, err
 	}
 	in := jobkit.Input{Bands: sel, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
-	if f.align {
+	if f.resampling != "" {
 		if in.Resampling, err = raster.ParseResampling(f.resampling); err != nil {
 			return jobkit.Input{}, jobkit.Usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
+		}
+		if !f.align {
+			return jobkit.Input{}, jobkit.Usagef("--resampling %s applies only with --align: add --align, or leave --resampling out", f.resampling)
 		}
 	}
 	if f.calibrate != "" {

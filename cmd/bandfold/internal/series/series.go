@@ -75,11 +75,15 @@ type SharedOptions struct {
 
 // Check refuses option values that cannot be right and fills defaults.
 func (o *SharedOptions) Check() error {
-	if o.Resampling == "" {
+	given := o.Resampling != ""
+	if !given {
 		o.Resampling = "bilinear"
 	}
 	if !jobkit.Contains(jobkit.Resamplings, o.Resampling) {
 		return jobkit.Usagef("--resampling %q: want %s", o.Resampling, strings.Join(jobkit.Resamplings, ", "))
+	}
+	if given && !o.Align {
+		return jobkit.Usagef("--resampling %s applies only with --align: add --align, or leave --resampling out", o.Resampling)
 	}
 	if o.Sample == 0 {
 		o.Sample = change.DefaultSampleSize
