@@ -29,7 +29,9 @@ type Reference struct {
 // format: GPKG, GeoJSON, Shapefile ...; every layer is used), rasterised with
 // GDAL onto g in memory: a pixel is changed when its centre lies in a
 // polygon (all-touched off). Polygons in another CRS are reprojected by
-// GDAL; a layer without a CRS is taken to be in g's. A raster on another
+// GDAL; a layer without a CRS is taken to be in g's. A raster of several
+// bands, or a layer of points or lines, is refused: it is not clear what it
+// says of change. A raster on another
 // grid is an error naming the file and wrapping ErrGridMismatch. A file that
 // is both (a GeoPackage with tiles and features) is read as a raster.
 func OpenReference(path string, g Grid) (*Reference, error) {
@@ -39,6 +41,10 @@ func OpenReference(path string, g Grid) (*Reference, error) {
 		if err := g.Compare(gridOf(ds)); err != nil {
 			ds.Close(errLogger)
 			return nil, fmt.Errorf("reference %s is not on the grid of the images: %w", path, err)
+		}
+		if n := len(ds.Bands()); n != 1 {
+			ds.Close(errLogger)
+			return nil, fmt.Errorf("reference %s has %d bands: give one band of reference change (non-zero = changed), for example gdal_translate -b 1", path, n)
 		}
 		r := &Reference{path: path, grid: g, ds: ds}
 		r.nodata, r.hasND = ds.Bands()[0].NoData()
@@ -110,6 +116,9 @@ func rasterizeVector(path string, g Grid) ([]uint8, error) {
 	}
 	sw := []string{"-burn", "1"}
 	for _, l := range vds.Layers() {
+		if kind := nonAreal(l.Type()); kind != "" {
+			return nil, fmt.Errorf("reference %s: layer %s holds %s, not polygons of changed areas", path, l.Name(), kind)
+		}
 		sw = append(sw, "-l", l.Name())
 	}
 	if len(sw) == 2 {
@@ -128,4 +137,18 @@ func rasterizeVector(path string, g Grid) ([]uint8, error) {
 		return nil, fmt.Errorf("reference %s: rasterise: %w", path, err)
 	}
 	return pixels, nil
+}
+
+// nonAreal names the geometries of a layer type that cover no area ("" for
+// polygons and for types that may hold them).
+func nonAreal(t godal.GeometryType) string {
+	switch t {
+	case godal.GTPoint, godal.GTPoint25D, godal.GTMultiPoint, godal.GTMultiPoint25D:
+		return "points"
+	case godal.GTLineString, godal.GTLineString25D, godal.GTMultiLineString, godal.GTMultiLineString25D, godal.GTLinearRing:
+		return "lines"
+	case godal.GTNone:
+		return "no geometry"
+	}
+	return ""
 }

@@ -71,22 +71,33 @@ func TestReferenceErrors(t *testing.T) {
 	otherPath := other.write(t, filepath.Join(dir, "other.tif"))
 	text := filepath.Join(dir, "notes.txt")
 	os.WriteFile(text, []byte("not data\n"), 0o644)
+	threeBands := defaultRaster().write(t, filepath.Join(dir, "three.tif"))
+	points := filepath.Join(dir, "points.geojson")
+	os.WriteFile(points, []byte(`{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},"geometry":{"type":"Point","coordinates":[500100,4599900]}}]}`), 0o644)
+	lines := filepath.Join(dir, "lines.geojson")
+	os.WriteFile(lines, []byte(`{"type":"FeatureCollection","features":[{"type":"Feature","properties":{},"geometry":{"type":"LineString","coordinates":[[500100,4599900],[500200,4599800]]}}]}`), 0o644)
 	g := testGrid(t, utm33, defaultRaster().w, defaultRaster().h, defaultRaster().gt)
 	tests := []struct {
 		name, path string
-		is         error
+		is         error  // nil: any error
+		says       string // part of the message
 	}{
-		{"raster on another grid", otherPath, ErrGridMismatch},
-		{"missing", filepath.Join(dir, "missing.gpkg"), ErrNotFound},
-		{"neither raster nor vector", text, ErrNotRaster},
+		{"raster on another grid", otherPath, ErrGridMismatch, "not on the grid"},
+		{"missing", filepath.Join(dir, "missing.gpkg"), ErrNotFound, ""},
+		{"neither raster nor vector", text, ErrNotRaster, ""},
+		{"three bands", threeBands, nil, "has 3 bands"},
+		{"points", points, nil, "holds points, not polygons"},
+		{"lines", lines, nil, "holds lines, not polygons"},
 	}
 	for _, tc := range tests {
 		_, err := OpenReference(tc.path, g)
-		if !errors.Is(err, tc.is) || !strings.Contains(err.Error(), tc.path) || strings.Contains(err.Error(), "\n") {
-			t.Errorf("%s: got %v, want one line wrapping %v naming %s", tc.name, err, tc.is, tc.path)
+		if err == nil || (tc.is != nil && !errors.Is(err, tc.is)) || !strings.Contains(err.Error(), tc.path) ||
+			!strings.Contains(err.Error(), tc.says) || strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s: got %v, want one line wrapping %v naming %s and saying %q", tc.name, err, tc.is, tc.path, tc.says)
 		}
 	}
 	r := defaultRaster()
+	r.bands = 1
 	path := r.write(t, filepath.Join(dir, "ref.tif"))
 	ref, err := OpenReference(path, g)
 	if err != nil {

@@ -76,6 +76,7 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"timeline resampling without align", tl(a, b, c, "--resampling", "cubic"), 2, []string{"--resampling cubic applies only with --align"}},
 		{"change resampling without align", []string{"change", a, b, "--out", out, "--resampling", "cubic"}, 2, []string{"--resampling cubic applies only with --align"}},
 		{"learn resampling without align", []string{"learn", a, "--out", p("basis.json"), "--resampling", "average"}, 2, []string{"--resampling average applies only with --align"}},
+		{"change reference of several bands", []string{"change", a, b, "--out", out, "--reference", c}, 1, []string{c, "has 6 bands"}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	checkBadCases(t, dir, tests)
