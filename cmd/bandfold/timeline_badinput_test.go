@@ -55,6 +55,10 @@ func TestTimelineBadInputs(t *testing.T) {
 		return path
 	}
 	n1, n2, n3 := named("named-2019.tif", names), named("named-2020.tif", names), named("named-2021.tif", swapped)
+	for i := range img.values {
+		img.values[i] = 7
+	}
+	flat := named("flat.tif", names)
 	out := p("out/timeline")
 	tl := func(extra ...string) []string { return append([]string{"timeline", "--out", out}, extra...) }
 
@@ -77,6 +81,7 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"change resampling without align", []string{"change", a, b, "--out", out, "--resampling", "cubic"}, 2, []string{"--resampling cubic applies only with --align"}},
 		{"learn resampling without align", []string{"learn", a, "--out", p("basis.json"), "--resampling", "average"}, 2, []string{"--resampling average applies only with --align"}},
 		{"change reference of several bands", []string{"change", a, b, "--out", out, "--reference", c}, 1, []string{c, "has 6 bands"}},
+		{"learn constant image", []string{"learn", flat, "--out", p("basis.json")}, 1, []string{flat, "every band", "constant"}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	checkBadCases(t, dir, tests)

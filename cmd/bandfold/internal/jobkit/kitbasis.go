@@ -29,8 +29,13 @@ func FitBasis(env Env, acc *bands.Accumulator, mode transform.Mode, info []trans
 		}
 	}
 	mins, maxs := acc.Min(nil), acc.Max(nil)
+	constant := true
 	for i := range info {
 		info[i].Min, info[i].Max = mins[i], maxs[i]
+		constant = constant && mins[i] == maxs[i]
+	}
+	if constant {
+		return nil, fmt.Errorf("every band of %s is constant over the valid pixels: there is no variance to fit components to", what)
 	}
 	b, err := transform.NewBasis(mode, info, int64(n), acc.Mean(nil), acc.Covariance(nil))
 	if err != nil {
