@@ -548,6 +548,32 @@ func (s *Stack) addBand(b Band, f int) {
 	}
 }
 
+// WithMasks returns a stack of the same files and bands that applies only
+// the masks at the given 0-based positions of s.MaskRules (none for an
+// empty list): to tell which mask leaves no pixel valid. It shares s's
+// warped VRTs: close s, not the copy.
+func (s *Stack) WithMasks(positions []int) (*Stack, error) {
+	all := make([]int, len(s.Bands))
+	for i := range all {
+		all[i] = i
+	}
+	sub, err := s.Subset(all)
+	if err != nil {
+		return nil, err
+	}
+	sub.MaskRules, sub.Masks, sub.maskSources, sub.maskTests = nil, nil, nil, nil
+	for _, m := range positions {
+		if m < 0 || m >= len(s.MaskRules) {
+			return nil, specErr(ErrBandRange, "%s: mask %d selected but the stack has %d masks", strings.Join(s.Paths, ", "), m+1, len(s.MaskRules))
+		}
+		sub.MaskRules = append(sub.MaskRules, s.MaskRules[m])
+		sub.Masks = append(sub.Masks, s.Masks[m])
+		sub.maskSources = append(sub.maskSources, s.maskSources[m])
+		sub.maskTests = append(sub.maskTests, s.maskTests[m])
+	}
+	return sub, nil
+}
+
 // Subset returns a stack of the same files and masks holding only the bands
 // at the given 0-based positions of s.Bands, in that order. It shares s's
 // warped VRTs: close s, not the subset, when both are done.

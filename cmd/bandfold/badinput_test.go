@@ -162,7 +162,7 @@ func TestBadInputs(t *testing.T) {
 		{"unfold corrupted basis", []string{"unfold", comps, "--basis", f.corrupt, "--out", newTif}, 1, []string{f.corrupt, "malformed"}},
 		{"change missing after", []string{"change", a, f.missing, "--out", newChange}, 2, []string{f.missing, "no such file"}},
 		{"change empty before", []string{"change", f.empty, b, "--out", newChange}, 1, []string{f.empty, "empty"}},
-		{"change all-NaN band", []string{"change", a, f.allNaN, "--out", newChange}, 1, []string{f.allNaN, "no pixel is valid"}},
+		{"change all-NaN band", []string{"change", a, f.allNaN, "--out", newChange}, 1, []string{f.allNaN, "band 3", "nodata or NaN everywhere"}},
 
 		// Outputs: refused before any work, nothing left behind.
 		{"learn out is the input", []string{"learn", a, "--out", a}, 1, []string{a, "same file"}},

@@ -59,6 +59,17 @@ func TestTimelineBadInputs(t *testing.T) {
 		img.values[i] = 7
 	}
 	flat := named("flat.tif", names)
+	zeroMask := p("zero-mask.tif")
+	o, err := raster.Create(zeroMask, raster.Spec{Grid: img.Grid, Bands: 1, DataType: "Byte"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := o.Write(tiles.Tile{W: img.Width, H: img.Height}, make([]float64, img.Width*img.Height)); err != nil {
+		t.Fatal(err)
+	}
+	if err := o.Commit(); err != nil {
+		t.Fatal(err)
+	}
 	out := p("out/timeline")
 	tl := func(extra ...string) []string { return append([]string{"timeline", "--out", out}, extra...) }
 
@@ -82,6 +93,8 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"learn resampling without align", []string{"learn", a, "--out", p("basis.json"), "--resampling", "average"}, 2, []string{"--resampling average applies only with --align"}},
 		{"change reference of several bands", []string{"change", a, b, "--out", out, "--reference", c}, 1, []string{c, "has 6 bands"}},
 		{"learn constant image", []string{"learn", flat, "--out", p("basis.json")}, 1, []string{flat, "every band", "constant"}},
+		{"learn mask of zeros", []string{"learn", a, "--mask", zeroMask, "--out", p("basis.json")}, 1, []string{a, "mask " + zeroMask + " marks every pixel invalid"}},
+		{"change mask of zeros", []string{"change", a, b, "--out", out, "--mask-after", zeroMask}, 1, []string{b, "mask " + zeroMask + " marks every pixel invalid"}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	checkBadCases(t, dir, tests)

@@ -177,8 +177,8 @@ func (sc *Scan) Moments(ctx context.Context, env Env) (*bands.Accumulator, error
 	return total, nil
 }
 
-// countValid counts the valid pixels of a stack in one pass.
-func countValid(ctx context.Context, env Env, s *raster.Stack, tile int) (int64, error) {
+// CountValid counts the valid pixels of a stack in one pass.
+func CountValid(ctx context.Context, env Env, s *raster.Stack, tile int) (int64, error) {
 	sc := NewScan([]*raster.Stack{s}, TileGrid(tile), 1, Shard{})
 	var total int64
 	err := tiles.Run(ctx, sc.RunTiles(), tiles.Options{Workers: env.WorkerCount()},
@@ -194,18 +194,33 @@ func (w *countWorker) Do(_ context.Context, t tiles.Tile) (int, error) {
 	return n, err
 }
 
-// NoValidPixels explains why a stack has no valid pixel: it names the bands
-// that are invalid everywhere (all nodata or NaN), or says that no pixel is
-// valid in all bands at once. It reads each band once, so it runs only on
+// NoValidPixels explains why a stack has no valid pixel: it names the mask
+// that leaves no pixel valid, or the bands that are invalid everywhere (all
+// nodata or NaN), or says that no pixel is valid in all bands at once. It
+// reads the stack again for each mask and each band, so it runs only on
 // this error path.
 func NoValidPixels(ctx context.Context, env Env, s *raster.Stack, tile int) error {
+	if len(s.MaskRules) > 0 {
+		bare, err := s.WithMasks(nil)
+		if err != nil {
+			return err
+		}
+		n, err := CountValid(ctx, env, bare, tile)
+		if err != nil {
+			return err
+		}
+		if n > 0 {
+			return maskCulprit(ctx, env, s, tile)
+		}
+		s = bare
+	}
 	var empty []string
 	for j, b := range s.Bands {
 		sub, err := s.Subset([]int{j})
 		if err != nil {
 			return err
 		}
-		n, err := countValid(ctx, env, sub, tile)
+		n, err := CountValid(ctx, env, sub, tile)
 		if err != nil {
 			return err
 		}
@@ -219,5 +234,24 @@ func NoValidPixels(ctx context.Context, env Env, s *raster.Stack, tile int) erro
 	case len(empty) > 1:
 		return fmt.Errorf("no valid pixels in %s: bands %s are nodata or NaN everywhere (leave them out with --bands)", Describe(s), strings.Join(empty, ", "))
 	}
-	return fmt.Errorf("no valid pixels in %s after nodata and mask: no pixel is valid in every selected band at once", Describe(s))
+	return fmt.Errorf("no valid pixels in %s after nodata: no pixel is valid in every selected band at once", Describe(s))
+}
+
+// maskCulprit names the mask that alone leaves no pixel of s valid, or says
+// that the masks do so together; the bands have valid pixels.
+func maskCulprit(ctx context.Context, env Env, s *raster.Stack, tile int) error {
+	for m, rule := range s.MaskRules {
+		one, err := s.WithMasks([]int{m})
+		if err != nil {
+			return err
+		}
+		n, err := CountValid(ctx, env, one, tile)
+		if err != nil {
+			return err
+		}
+		if n == 0 {
+			return fmt.Errorf("no valid pixels in %s: mask %s marks every pixel invalid", Describe(s), rule)
+		}
+	}
+	return fmt.Errorf("no valid pixels in %s: the masks %s together leave no pixel valid", Describe(s), strings.Join(s.Masks, ", "))
 }

@@ -4,6 +4,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -137,6 +138,21 @@ func TestTimelineRefusals(t *testing.T) {
 		buf[i] = nd
 	}
 	WriteRasterFile(t, empty, raster.Spec{Grid: s.Grid, Bands: s.Len(), DataType: "Float32", NoData: &nd}, buf)
+	// A date valid exactly where the reference date (the first) is not.
+	apart := filepath.Join(dir, "apart-2025-06-19.tif")
+	_, ref, refValid := ReadImage(t, f.Before, tiles.Tile{})
+	if !slices.Contains(refValid, false) {
+		t.Fatalf("%s has no nodata pixel: the case needs some", f.Before)
+	}
+	for i, ok := range refValid {
+		for b := range s.Len() {
+			buf[i*s.Len()+b] = nd
+			if !ok {
+				buf[i*s.Len()+b] = ref[i*s.Len()+b] + 1
+			}
+		}
+	}
+	WriteRasterFile(t, apart, raster.Spec{Grid: s.Grid, Bands: s.Len(), DataType: "Float32", NoData: &nd}, buf)
 	out := filepath.Join(dir, "tl")
 	tests := []struct {
 		name   string
@@ -151,7 +167,8 @@ func TestTimelineRefusals(t *testing.T) {
 		{"same date", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, same}}, true, []string{same, f.After, "same date 2024-06-19"}},
 		{"grid differs", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, other}}, false, []string{other, "pass --align"}},
 		{"confirm", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third}, Confirm: "maybe"}, true, []string{`--confirm "maybe"`}},
-		{"no overlap", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, empty}}, false, []string{empty, "no pixel is valid on both dates"}},
+		{"no valid pixel", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, empty}}, false, []string{empty, "are nodata or NaN everywhere"}},
+		{"no overlap", timeline.TimelineOptions{Scenes: []string{f.Before, f.After, apart}}, false, []string{apart, "no pixel is valid on both dates"}},
 	}
 	for _, tc := range tests {
 		tc.o.Out = out

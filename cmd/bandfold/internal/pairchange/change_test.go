@@ -280,7 +280,7 @@ func TestChangeNoValidPixels(t *testing.T) {
 	if res != nil {
 		t.Errorf("a result without valid pixels: %+v", res)
 	}
-	jobtest.WantError(t, "no valid pixels", err, false, "no pixel is valid on both dates", "a.tif")
+	jobtest.WantError(t, "no valid pixels", err, false, "mask "+zero+" marks every pixel invalid", "a.tif")
 	jobtest.MustNotExist(t, "no valid pixels", out)
 	jobtest.NoTemporaries(t, dir)
 }

@@ -234,11 +234,28 @@ func (r *Run) Sample(ctx context.Context) error {
 		}
 		for q, pr := range r.sampled {
 			if total.sample.Both(q) == 0 {
-				return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", r.Args[pr[0]], r.Args[pr[1]])
+				return r.noOverlap(ctx, pr)
 			}
 		}
 		total.sample.Finish()
 		r.stats = total
 		return nil
 	}
+}
+
+// noOverlap explains why a pair of dates shares no valid pixel: a date with
+// no valid pixel of its own is named with its culprit (a mask, or bands
+// that are nodata everywhere); otherwise the dates' valid pixels do not
+// meet.
+func (r *Run) noOverlap(ctx context.Context, pr [2]int) error {
+	for _, d := range pr {
+		n, err := jobkit.CountValid(ctx, r.Env, r.Scenes[d], r.C.Tile)
+		if err != nil {
+			return err
+		}
+		if n == 0 {
+			return jobkit.NoValidPixels(ctx, r.Env, r.Scenes[d], r.C.Tile)
+		}
+	}
+	return fmt.Errorf("no pixel is valid on both dates in %s and %s after nodata and masks", r.Args[pr[0]], r.Args[pr[1]])
 }
