@@ -95,6 +95,7 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"learn constant image", []string{"learn", flat, "--out", p("basis.json")}, 1, []string{flat, "every band", "constant"}},
 		{"learn mask of zeros", []string{"learn", a, "--mask", zeroMask, "--out", p("basis.json")}, 1, []string{a, "mask " + zeroMask + " marks every pixel invalid"}},
 		{"change mask of zeros", []string{"change", a, b, "--out", out, "--mask-after", zeroMask}, 1, []string{b, "mask " + zeroMask + " marks every pixel invalid"}},
+		{"mask bit not a number", []string{"learn", a, "--mask", a + ":bits=x", "--out", p("basis.json")}, 2, []string{`--mask "` + a + `:bits=x": "x" is not a bit number`}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	checkBadCases(t, dir, tests)

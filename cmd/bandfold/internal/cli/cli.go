@@ -132,7 +132,7 @@ func ParseMasks(flag string, specs []string) ([]raster.MaskRule, error) {
 	for _, spec := range specs {
 		r, err := raster.ParseMask(spec)
 		if err != nil {
-			return nil, jobkit.Usagef("%s %q: %v", flag, spec, err)
+			return nil, jobkit.Usagef("%s %q: %s", flag, spec, strings.TrimPrefix(err.Error(), fmt.Sprintf("mask %q: ", spec)))
 		}
 		out = append(out, r)
 	}
