@@ -173,14 +173,16 @@ func tidy(err error) error {
 // tidyRead is tidy for a failed read of a file's data: GDAL's read of a
 // damaged or truncated file can fail without a message, which godal then
 // reports as "unknown cpl error 3" (or "unknown error"); that is said in
-// the user's words.
+// the user's words, as are the codec's own complaints about a block it
+// could not read or decode (libtiff's "TIFFReadEncodedTile() failed", a
+// driver's "IReadBlock failed", a decompressor's error).
 func tidyRead(err error) error {
 	if err == nil {
 		return nil
 	}
 	var keep []string
 	for _, l := range strings.Split(tidy(err).Error(), "; ") {
-		if strings.HasPrefix(l, "unknown cpl error ") || l == "unknown error" {
+		if strings.HasPrefix(l, "unknown cpl error ") || l == "unknown error" || blockFailure(l) {
 			l = "cannot read the data (the file is damaged or truncated)"
 		}
 		if !slices.Contains(keep, l) {
@@ -188,4 +190,15 @@ func tidyRead(err error) error {
 		}
 	}
 	return &tidyError{strings.Join(keep, "; "), err}
+}
+
+// blockFailure reports whether a GDAL message says that a block of a file
+// could not be read or decoded.
+func blockFailure(msg string) bool {
+	for _, sign := range []string{"IReadBlock failed", "TIFFRead", "TIFFFill", "Read error at", "Decode:", "Decoding error", "decompress"} {
+		if strings.Contains(msg, sign) {
+			return true
+		}
+	}
+	return false
 }
