@@ -195,7 +195,7 @@ func tidyRead(err error) error {
 // blockFailure reports whether a GDAL message says that a block of a file
 // could not be read or decoded.
 func blockFailure(msg string) bool {
-	for _, sign := range []string{"IReadBlock failed", "TIFFRead", "TIFFFill", "Read error at", "Decode:", "Decoding error", "decompress"} {
+	for _, sign := range []string{"IReadBlock failed", "TIFFRead", "TIFFFill", "Read error at", "bytes, expected", "Decode:", "Decoding error", "decompress"} {
 		if strings.Contains(msg, sign) {
 			return true
 		}
