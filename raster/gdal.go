@@ -22,6 +22,7 @@ package raster
 import "C"
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"log/slog"
@@ -156,8 +157,13 @@ func tidy(err error) error {
 	seen := map[string]bool{}
 	for _, l := range lines {
 		l = strings.TrimSpace(l)
-		if strings.Contains(l, "No space left on device") {
+		if strings.Contains(l, "No space left on device") || strings.Contains(l, "database or disk is full") {
 			return &tidyError{"no space left on device", err}
+		}
+		if _, sqlite, ok := strings.Cut(l, "sqlite3_exec("); ok {
+			// SQLite's statement is GeoPackage plumbing; its reason is not.
+			_, reason, _ := strings.Cut(sqlite, ") failed: ")
+			l = "the GeoPackage could not be written: " + cmp.Or(reason, "SQLite failed")
 		}
 		if l != "" && !seen[l] {
 			seen[l] = true
