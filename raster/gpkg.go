@@ -35,7 +35,7 @@ func newPatchFile(path, crs string, o PatchOptions, field string, withDates bool
 	p := &patchFile{file: f, field: field}
 	if p.ds, err = godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger); err != nil {
 		f.Abort()
-		return nil, fmt.Errorf("create %s: %w", path, err)
+		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	var sr *godal.SpatialRef
 	if crs != "" {
@@ -70,7 +70,7 @@ func newPatchFile(path, crs string, o PatchOptions, field string, withDates bool
 	}
 	if err != nil {
 		p.discard()
-		return nil, fmt.Errorf("create %s: %w", path, err)
+		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	return p, nil
 }
@@ -137,7 +137,7 @@ func (p *patchFile) commit() error {
 	p.ds = nil
 	if err != nil {
 		p.discard()
-		return fmt.Errorf("write %s: %w", p.file.Path(), err)
+		return fmt.Errorf("write %s: %w", p.file.Path(), tidy(err))
 	}
 	return p.file.Commit()
 }
