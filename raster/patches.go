@@ -345,7 +345,7 @@ func writePatches(path string, o PatchOptions, field string, steps []PatchStep) 
 	sums := make([]PatchSummary, len(steps))
 	for i, st := range steps {
 		if sums[i], err = out.addMap(st, mag, ea); err != nil {
-			return nil, fmt.Errorf("write %s: %w", path, err)
+			return nil, fmt.Errorf("write %s: %w", path, tidy(err))
 		}
 	}
 	if err := out.commit(); err != nil {
