@@ -40,12 +40,25 @@ type DateSource struct {
 // DateMetadata returns the metadata of the raster at path that may date
 // it, in order of preference: the acquisition date of the product (the
 // DATE_ACQUIRED of a Landsat *_MTL.txt beside it that lists the file,
-// ACQUISITIONDATETIME of the IMAGERY domain, ACQUISITION_DATE as bandfold's
+// DATATAKE_SENSING_START of a Sentinel-2 Level-2A product's MTD_MSIL2A.xml
+// above it, or of the product folder path names, ACQUISITIONDATETIME of the
+// IMAGERY domain, ACQUISITION_DATE as bandfold's
 // demo writes), then the TIFF DateTime tag, which TIFF 6.0 defines as the
 // file's creation time and so comes last (after the file name, see
 // SceneDate). Only the sources present are returned; a missing MTL file is
 // not an error.
 func DateMetadata(path string) ([]DateSource, error) {
+	if IsS2Product(path) {
+		mtd := path
+		if !strings.EqualFold(filepath.Base(path), S2MetadataName) {
+			mtd = filepath.Join(path, S2MetadataName)
+		}
+		m, err := ReadS2Metadata(mtd)
+		if err != nil {
+			return nil, err
+		}
+		return []DateSource{{Key: "MTD_MSIL2A:DATATAKE_SENSING_START", Value: m.SensingStart}}, nil
+	}
 	ds, err := openDataset(path)
 	if err != nil {
 		return nil, err
@@ -59,6 +72,9 @@ func DateMetadata(path string) ([]DateSource, error) {
 	}
 	if m, err := findMTL(path, ReadMTL); err == nil {
 		add("MTL:DATE_ACQUIRED", m.DateAcquired)
+	}
+	if m, ok, err := FindS2Metadata(path, ReadS2Metadata); err == nil && ok {
+		add("MTD_MSIL2A:DATATAKE_SENSING_START", m.SensingStart)
 	}
 	add("IMAGERY:ACQUISITIONDATETIME", ds.Metadata("ACQUISITIONDATETIME", godal.Domain("IMAGERY")))
 	add("ACQUISITION_DATE", ds.Metadata("ACQUISITION_DATE"))
@@ -93,7 +109,7 @@ func SceneDate(path string) (d Date, disagree []string, err error) {
 		found = append(found[:at], append([]Date{v}, found[at:]...)...)
 	}
 	if len(found) == 0 {
-		return Date{}, nil, fmt.Errorf("%s: %w in its metadata (a Landsat MTL's DATE_ACQUIRED, ACQUISITIONDATETIME, ACQUISITION_DATE, TIFFTAG_DATETIME) or its name (YYYY-MM-DD, YYYYMMDD, YYYY)", path, ErrNoDate)
+		return Date{}, nil, fmt.Errorf("%s: %w in its metadata (a Landsat MTL's DATE_ACQUIRED, a Sentinel-2 MTD_MSIL2A.xml's DATATAKE_SENSING_START, ACQUISITIONDATETIME, ACQUISITION_DATE, TIFFTAG_DATETIME) or its name (YYYY-MM-DD, YYYYMMDD, YYYY)", path, ErrNoDate)
 	}
 	d = found[0]
 	for _, o := range found[1:] {

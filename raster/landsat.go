@@ -92,11 +92,14 @@ func (m *MTL) Sensor() string {
 // product's *_MTL.txt beside it, from the sensor's band table. Files with
 // no MTL are left as they are; an MTL that cannot be read only leaves the
 // band without a range.
-func (s *Stack) spectral(read func(string) (*MTL, error)) {
+func (s *Stack) spectral(read func(string) (*MTL, error), readS2 func(string) (*S2Metadata, error)) {
 	for i := range s.Bands {
 		b := &s.Bands[i]
 		if b.WavelengthNM > 0 {
 			b.Range = SpectralRange{LoNM: b.WavelengthNM - b.FWHMNM/2, HiNM: b.WavelengthNM + b.FWHMNM/2}
+			continue
+		}
+		if s.s2Spectral(b, readS2) {
 			continue
 		}
 		if b.Index != 1 || !landsatBandName.MatchString(filepath.Base(b.Path)) {

@@ -34,24 +34,36 @@ const maxMaskBit = 63
 
 // ParseMask parses a mask argument: "FILE" (non-zero = valid),
 // "FILE:bits=0-4,9" (invalid where any listed bit is set; bits from 0, the
-// least significant, to 63) or "FILE:values=0,3,8-10" (invalid where the
-// value is listed; ranges are inclusive). Only the last ":bits=" or
-// ":values=" splits the argument, so paths holding ':' (GDAL's /vsi paths,
-// drive letters) keep working. Errors wrap ErrBadSpec.
+// least significant, to 63), "FILE:values=0,3,8-10" (invalid where the
+// value is listed; ranges are inclusive), or a product's quality names:
+// "FILE:qa_pixel=fill,cloud,cloud_shadow" for a Landsat Collection 2
+// QA_PIXEL band, "FILE:scl=cloud_shadows,cloud_high_probability" for a
+// Sentinel-2 Level-2A SCL layer (see qualitynames.go), which stand for the
+// bits= and values= rules of the product guides. Only the last ":KEY="
+// splits the argument, so paths holding ':' (GDAL's /vsi paths, drive
+// letters) keep working. Errors wrap ErrBadSpec.
 func ParseMask(spec string) (MaskRule, error) {
 	spec = strings.TrimSpace(spec)
-	bi, vi := strings.LastIndex(spec, ":bits="), strings.LastIndex(spec, ":values=")
+	at, key := -1, ""
+	for _, k := range []string{"bits", "values", "qa_pixel", "scl"} {
+		if i := strings.LastIndex(spec, ":"+k+"="); i > at {
+			at, key = i, k
+		}
+	}
 	var r MaskRule
 	var err error
-	switch {
-	case bi < 0 && vi < 0:
-		r.Path = spec
-	case bi > vi:
-		r.Path = spec[:bi]
-		r.Bits, err = parseBits(spec[bi+len(":bits="):])
-	default:
-		r.Path = spec[:vi]
-		r.Values, err = parseValues(spec[vi+len(":values="):])
+	r.Path = spec
+	if at >= 0 {
+		r.Path = spec[:at]
+		list := spec[at+len(key)+2:]
+		switch key {
+		case "bits":
+			r.Bits, err = parseBits(list)
+		case "values":
+			r.Values, err = parseValues(list)
+		default:
+			r.Bits, r.Values, err = namedRule(key, list)
+		}
 	}
 	if err != nil {
 		return MaskRule{}, fmt.Errorf("mask %q: %w", spec, err)

@@ -302,3 +302,39 @@ func TestMaskAligned(t *testing.T) {
 		}
 	}
 }
+
+// TestNamedQualityRules: each product quality name stands for the bits or
+// values of its product guide (USGS Landsat 8-9 Collection 2 Level 2
+// Science Product Guide, QA_PIXEL bit index; ESA Sentinel-2 Level-2A scene
+// classification values), so the named rule equals its bits= or values=
+// spelling.
+func TestNamedQualityRules(t *testing.T) {
+	tests := []struct{ named, plain string }{
+		{"qa.tif:qa_pixel=fill,cloud,cloud_shadow", "qa.tif:bits=0,3,4"},
+		{"qa.tif:qa_pixel=Dilated-Cloud,cirrus,snow,water", "qa.tif:bits=1,2,5,7"},
+		{"qa.tif:qa_pixel=clouds", "qa.tif:bits=1-4"},
+		{"scl.jp2:scl=no_data,saturated_or_defective,cloud_shadows", "scl.jp2:values=0,1,3"},
+		{"scl.jp2:scl=cloud_high_probability,cloud_medium_probability,thin_cirrus,snow", "scl.jp2:values=8,9,10,11"},
+		{"scl.jp2:scl=clouds", "scl.jp2:values=3,8,9,10"},
+		{"scl.jp2:scl=cast_shadows,dark_area_pixels", "scl.jp2:values=2"},
+		{"/vsizip/a.zip/x:y.tif:scl=water", "/vsizip/a.zip/x:y.tif:values=6"},
+	}
+	for _, tc := range tests {
+		named, err := ParseMask(tc.named)
+		if err != nil {
+			t.Fatalf("%s: %v", tc.named, err)
+		}
+		plain, err := ParseMask(tc.plain)
+		if err != nil {
+			t.Fatalf("%s: %v", tc.plain, err)
+		}
+		if !reflect.DeepEqual(named, plain) {
+			t.Errorf("%s = %+v, want %+v (%s)", tc.named, named, plain, tc.plain)
+		}
+	}
+	for _, bad := range []string{"qa.tif:qa_pixel=clear", "qa.tif:qa_pixel=", "scl.jp2:scl=cloudy", "qa.tif:scl=cloud"} {
+		if _, err := ParseMask(bad); !errors.Is(err, ErrBadSpec) || !strings.Contains(err.Error(), "name") {
+			t.Errorf("%s: %v, want a bad-spec error about the name", bad, err)
+		}
+	}
+}

@@ -42,6 +42,10 @@ type MTL struct {
 	// (RADIOMETRIC_RESCALING in Collection 1, LEVEL1_RADIOMETRIC_RESCALING
 	// in Collection 2). Thermal bands have none.
 	ReflMult, ReflAdd map[string]float64
+	// SRMult and SRAdd are the same keys of a Collection 2 Level-2
+	// product's LEVEL2_SURFACE_REFLECTANCE_PARAMETERS group: they turn its
+	// surface reflectance band files into surface reflectance.
+	SRMult, SRAdd map[string]float64
 }
 
 // maxMTLSize bounds the bytes read from a metadata file; real ones are a
@@ -67,7 +71,7 @@ func parseMTL(path string, data []byte) (*MTL, error) {
 	// entries holds the first value of each name; rescale the first of
 	// each name in the Level-1 rescaling group, whose coefficients alone
 	// apply to Level-1 digital numbers (a Level-2 file has others).
-	entries, rescale := map[string]string{}, map[string]string{}
+	entries, rescale, surface := map[string]string{}, map[string]string{}, map[string]string{}
 	var groups []string
 	for n, line := range bytes.Split(data, []byte("\n")) {
 		l := strings.TrimSpace(string(line))
@@ -94,9 +98,11 @@ func parseMTL(path string, data []byte) (*MTL, error) {
 			if _, seen := entries[key]; !seen {
 				entries[key] = value
 			}
-			if len(groups) > 0 && isRescalingGroup(groups[len(groups)-1]) {
-				if _, seen := rescale[key]; !seen {
-					rescale[key] = value
+			if len(groups) > 0 {
+				into := map[string]map[string]string{"RADIOMETRIC_RESCALING": rescale, "LEVEL1_RADIOMETRIC_RESCALING": rescale,
+					"LEVEL2_SURFACE_REFLECTANCE_PARAMETERS": surface}[groups[len(groups)-1]]
+				if _, seen := into[key]; into != nil && !seen {
+					into[key] = value
 				}
 			}
 		}
@@ -105,7 +111,8 @@ func parseMTL(path string, data []byte) (*MTL, error) {
 		return nil, fmt.Errorf("%s: GROUP = %s is not closed", path, shorten(groups[len(groups)-1]))
 	}
 
-	m := &MTL{Path: path, BandFiles: map[string]string{}, ReflMult: map[string]float64{}, ReflAdd: map[string]float64{}}
+	m := &MTL{Path: path, BandFiles: map[string]string{}, ReflMult: map[string]float64{}, ReflAdd: map[string]float64{},
+		SRMult: map[string]float64{}, SRAdd: map[string]float64{}}
 	need := func(key string) (string, error) {
 		if v := entries[key]; v != "" {
 			return v, nil
@@ -136,22 +143,30 @@ func parseMTL(path string, data []byte) (*MTL, error) {
 	if len(m.BandFiles) == 0 {
 		return nil, fmt.Errorf("%s: no FILE_NAME_BAND_n", path)
 	}
-	for _, key := range slices.Sorted(maps.Keys(rescale)) {
-		for prefix, dst := range map[string]map[string]float64{"REFLECTANCE_MULT_BAND_": m.ReflMult, "REFLECTANCE_ADD_BAND_": m.ReflAdd} {
-			if band, ok := strings.CutPrefix(key, prefix); ok && band != "" {
-				if dst[band], err = mtlNumber(path, key, rescale[key]); err != nil {
-					return nil, err
-				}
-			}
-		}
+	if err := coefficients(path, rescale, m.ReflMult, m.ReflAdd); err != nil {
+		return nil, err
+	}
+	if err := coefficients(path, surface, m.SRMult, m.SRAdd); err != nil {
+		return nil, err
 	}
 	return m, nil
 }
 
-// isRescalingGroup reports whether an ODL group holds the Level-1
-// radiometric rescaling coefficients.
-func isRescalingGroup(g string) bool {
-	return g == "RADIOMETRIC_RESCALING" || g == "LEVEL1_RADIOMETRIC_RESCALING"
+// coefficients reads the REFLECTANCE_MULT_BAND_n and REFLECTANCE_ADD_BAND_n
+// entries of one group into mult and add by band.
+func coefficients(path string, group map[string]string, mult, add map[string]float64) error {
+	for _, key := range slices.Sorted(maps.Keys(group)) {
+		for prefix, dst := range map[string]map[string]float64{"REFLECTANCE_MULT_BAND_": mult, "REFLECTANCE_ADD_BAND_": add} {
+			if band, ok := strings.CutPrefix(key, prefix); ok && band != "" {
+				v, err := mtlNumber(path, key, group[key])
+				if err != nil {
+					return err
+				}
+				dst[band] = v
+			}
+		}
+	}
+	return nil
 }
 
 func mtlNumber(path, key, value string) (float64, error) {
@@ -198,17 +213,28 @@ func (m *MTL) BandOf(file string) (band string, ok bool) {
 // band n. A band with neither (a thermal band) gives an error wrapping
 // errNoReflectance; one with only one of them names the missing key.
 func (m *MTL) Reflectance(band string) (mult, add float64, err error) {
-	mult, okM := m.ReflMult[band]
-	add, okA := m.ReflAdd[band]
+	return pairOf(m.Path, band, m.ReflMult, m.ReflAdd)
+}
+
+// pairOf returns band's entries of one group's coefficients.
+func pairOf(path, band string, mults, adds map[string]float64) (mult, add float64, err error) {
+	mult, okM := mults[band]
+	add, okA := adds[band]
 	switch {
 	case !okM && !okA:
-		return 0, 0, fmt.Errorf("%s: band %s: %w", m.Path, band, errNoReflectance)
+		return 0, 0, fmt.Errorf("%s: band %s: %w", path, band, errNoReflectance)
 	case !okM:
-		return 0, 0, fmt.Errorf("%s: no REFLECTANCE_MULT_BAND_%s", m.Path, band)
+		return 0, 0, fmt.Errorf("%s: no REFLECTANCE_MULT_BAND_%s", path, band)
 	case !okA:
-		return 0, 0, fmt.Errorf("%s: no REFLECTANCE_ADD_BAND_%s", m.Path, band)
+		return 0, 0, fmt.Errorf("%s: no REFLECTANCE_ADD_BAND_%s", path, band)
 	}
 	return mult, add, nil
+}
+
+// SurfaceReflectance returns the Level-2 REFLECTANCE_MULT_BAND_n and
+// REFLECTANCE_ADD_BAND_n of band n, as Reflectance does for Level 1.
+func (m *MTL) SurfaceReflectance(band string) (mult, add float64, err error) {
+	return pairOf(m.Path, band, m.SRMult, m.SRAdd)
 }
 
 // FindMTL returns the *_MTL.txt file in bandPath's folder whose

@@ -124,16 +124,21 @@ func ParseResampling(s string) (string, error) {
 
 // Calibrations of Calibrate.
 const (
-	CalibrateScale = "scale"
-	CalibrateTOA   = "toa"
+	CalibrateScale       = "scale"
+	CalibrateTOA         = "toa"
+	CalibrateReflectance = "reflectance"
 )
 
-// ParseCalibration checks a calibration mode for Calibrate: "scale" or
-// "toa" (any case). It returns the name in lower case.
+// Calibrations lists the calibration modes, in the order help texts give
+// them.
+var Calibrations = []string{CalibrateScale, CalibrateTOA, CalibrateReflectance}
+
+// ParseCalibration checks a calibration mode for Calibrate: "scale", "toa"
+// or "reflectance" (any case). It returns the name in lower case.
 func ParseCalibration(s string) (string, error) {
 	name := strings.ToLower(strings.TrimSpace(s))
-	if name != CalibrateScale && name != CalibrateTOA {
-		return "", specErr(ErrBadSpec, "calibration %q: want %s or %s", s, CalibrateScale, CalibrateTOA)
+	if !slices.Contains(Calibrations, name) {
+		return "", specErr(ErrBadSpec, "calibration %q: want %s", s, strings.Join(Calibrations, ", "))
 	}
 	return name, nil
 }

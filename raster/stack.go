@@ -145,6 +145,7 @@ type run struct {
 
 type openOptions struct {
 	bands     []int
+	bandNames []string
 	nodata    []float64
 	masks     []MaskRule
 	align     string
@@ -158,6 +159,13 @@ type Option func(*openOptions)
 // SelectBands keeps the given 1-based bands of the stacked image, in that
 // order. Nil or empty keeps every band.
 func SelectBands(bands []int) Option { return func(o *openOptions) { o.bands = bands } }
+
+// SelectBandNames keeps the bands of the given names (any case), in that
+// order: the names bandfold gives the bands (a band file's distinguishing
+// part, "B4"; a description), or a product's band names ("B02", "B8A" for
+// a Sentinel-2 product folder, whose files it picks). It replaces
+// SelectBands.
+func SelectBandNames(names []string) Option { return func(o *openOptions) { o.bandNames = names } }
 
 // NoData overrides the files' nodata: one value for all selected bands, or
 // one per selected band. NaN is allowed.
@@ -262,12 +270,26 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 		return nil, err
 	}
 
+	ref := 0 // the file whose grid the stack takes
+	var product string
+	if len(paths) == 1 && IsS2Product(paths[0]) {
+		product = paths[0]
+		if paths, ref, err = S2ProductFiles(paths[0], o.bandNames); err != nil {
+			return nil, err
+		}
+		o.bandNames = nil
+		o.align = cmp.Or(o.align, "bilinear")
+		o.maskAlign = cmp.Or(o.maskAlign, "nearest")
+	}
 	s := &Stack{Paths: paths}
 	defer func() {
 		if err != nil {
 			s.Close()
 		}
 	}()
+	if err := s.takeGrid(paths[ref]); err != nil {
+		return nil, err
+	}
 	var all []Band
 	var fileOf, counts []int
 	offGrids := map[int]bool{} // files to warp
@@ -276,16 +298,10 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 		if err != nil {
 			return nil, err
 		}
-		g := gridOf(ds)
-		if i == 0 {
-			s.Grid = g
-			st := ds.Structure()
-			s.BlockW, s.BlockH = st.BlockSizeX, st.BlockSizeY
-			s.Metadata = ds.Metadatas()
-		} else if err := s.Grid.Compare(g); err != nil {
+		if g := gridOf(ds); i != ref && s.Grid.Compare(g) != nil {
 			if o.align == "" {
 				ds.Close(errLogger)
-				return nil, offGrid("", p, g, paths[0], s.Grid, err)
+				return nil, offGrid("", p, g, paths[ref], s.Grid, s.Grid.Compare(g))
 			}
 			offGrids[i] = true
 		}
@@ -299,8 +315,15 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 		}
 	}
 	s.nameBands(all, counts)
+	read, readS2 := mtlCache(), s2Cache()
+	s.nameProductBands(all, readS2)
 
 	sel := o.bands
+	if len(o.bandNames) > 0 {
+		if sel, err = selectByName(all, o.bandNames, paths); err != nil {
+			return nil, err
+		}
+	}
 	if len(sel) == 0 {
 		sel = make([]int, len(all))
 		for i := range sel {
@@ -336,6 +359,9 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	default:
 		return nil, specErr(ErrBadSpec, "nodata: %d values given for %d bands (give one, or one per band)", len(o.nodata), len(s.Bands))
 	}
+	if len(o.nodata) == 0 {
+		s.productNoData(overrides, fileOf, sel, readS2)
+	}
 
 	s.sources = slices.Clone(paths)
 	for i, p := range paths {
@@ -345,16 +371,70 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 			}
 		}
 	}
-	read := mtlCache()
-	if err := s.calibrate(o.calibrate, read); err != nil {
+	if err := s.calibrate(o.calibrate, read, readS2); err != nil {
 		return nil, err
 	}
-	s.spectral(read)
+	s.spectral(read, readS2)
 	if err := s.openMasks(o.masks, o.maskAlign); err != nil {
 		return nil, err
 	}
 	s.setLabel()
+	if product != "" {
+		s.Label = productLabel(product) + " [" + strings.Join(bandNames(s.Bands), ",") + "]"
+	}
 	return s, nil
+}
+
+// takeGrid gives the stack the grid, block size and metadata of the file at
+// path.
+func (s *Stack) takeGrid(path string) error {
+	ds, err := openDataset(path)
+	if err != nil {
+		return err
+	}
+	defer ds.Close(errLogger)
+	s.Grid = gridOf(ds)
+	st := ds.Structure()
+	s.BlockW, s.BlockH = st.BlockSizeX, st.BlockSizeY
+	s.Metadata = ds.Metadatas()
+	return nil
+}
+
+// selectByName returns the 1-based positions of the bands named (any case)
+// among all.
+func selectByName(all []Band, names []string, paths []string) ([]int, error) {
+	var sel []int
+	for _, want := range names {
+		found := 0
+		for i, b := range all {
+			if strings.EqualFold(b.Name, want) || (S2BandName(want) != "" && strings.EqualFold(b.Name, S2BandName(want))) {
+				found = i + 1
+				break
+			}
+		}
+		if found == 0 {
+			return nil, specErr(ErrBandRange, "%s: no band named %s (the bands: %s)", strings.Join(paths, ", "), want, strings.Join(bandNames(all), ", "))
+		}
+		sel = append(sel, found)
+	}
+	return sel, nil
+}
+
+func bandNames(bands []Band) []string {
+	out := make([]string, len(bands))
+	for i, b := range bands {
+		out[i] = b.Name
+	}
+	return out
+}
+
+// productLabel names a product folder (or its metadata file's folder) by
+// its folder name without ".SAFE".
+func productLabel(path string) string {
+	if strings.EqualFold(filepath.Base(path), S2MetadataName) {
+		path = filepath.Dir(path)
+	}
+	return strings.TrimSuffix(filepath.Base(filepath.Clean(path)), ".SAFE")
 }
 
 // align warps file i of the stack onto its grid and takes the types and

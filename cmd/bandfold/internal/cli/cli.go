@@ -76,10 +76,10 @@ type InputFlags struct {
 func (f *InputFlags) Register(fs *pflag.FlagSet, align bool) {
 	fs.StringVar(&f.bands, "bands", "", `bands to use, 1-based lists and ranges such as "1-5,7" (default all)`)
 	fs.StringVar(&f.nodata, "nodata", "", `nodata value overriding the files': one for all bands, or a comma list with one per band ("nan" for NaN)`)
-	fs.StringArrayVar(&f.masks, "mask", nil, `quality mask (repeatable; a pixel must pass all): FILE (non-zero = valid), FILE:bits=0-4,9 (invalid where a listed bit is set) or FILE:values=0,3,8-10 (invalid at those values)`)
+	fs.StringArrayVar(&f.masks, "mask", nil, `quality mask (repeatable; a pixel must pass all): FILE (non-zero = valid), FILE:bits=0-4,9 (invalid where a listed bit is set), FILE:values=0,3,8-10 (invalid at those values), or by a product's names: QA_PIXEL.TIF:qa_pixel=fill,cloud,cloud_shadow (Landsat Collection 2), SCL.jp2:scl=no_data,clouds (Sentinel-2 Level-2A)`)
 	MarkInputs(fs, InputMask, "mask")
 	fs.IntVar(&f.tile, "tile", 0, "tile size N for N x N pixel tiles (default: aligned to the file's blocks, about 16 MiB of float64 per tile)")
-	fs.StringVar(&f.calibrate, "calibrate", "", `scale (the bands' scale/offset metadata) or toa (Landsat Level-1 digital numbers to top-of-atmosphere reflectance from the *_MTL.txt beside the bands); default scale, or the basis's`)
+	fs.StringVar(&f.calibrate, "calibrate", "", `scale (the bands' scale/offset metadata), toa (Landsat Level-1 digital numbers to top-of-atmosphere reflectance from the *_MTL.txt beside the bands) or reflectance (as the product defines it: TOA for Landsat Level-1, surface reflectance for Landsat Collection 2 Level-2, bottom-of-atmosphere for Sentinel-2 Level-2A); default scale, or the basis's`)
 	if align {
 		fs.BoolVar(&f.align, "align", false, "warp every file of a stack onto its first file's grid with GDAL (for bands at other resolutions)")
 		fs.StringVar(&f.resampling, "resampling", "", "resampling for --align: nearest, bilinear, cubic, cubicspline, lanczos, average, mode (default bilinear)")
@@ -112,7 +112,7 @@ func (f *InputFlags) Input() (jobkit.Input, error) {
 	}
 	if f.calibrate != "" {
 		if in.Calibrate, err = raster.ParseCalibration(f.calibrate); err != nil {
-			return jobkit.Input{}, jobkit.Usagef("--calibrate %q: want scale or toa", f.calibrate)
+			return jobkit.Input{}, jobkit.Usagef("--calibrate %q: want %s", f.calibrate, strings.Join(raster.Calibrations, ", "))
 		}
 	}
 	return in, nil

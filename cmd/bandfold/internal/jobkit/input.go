@@ -47,8 +47,8 @@ func (in Input) Check() error {
 	if in.Resampling != "" && !Contains(Resamplings, in.Resampling) {
 		return Usagef("--resampling %q: want %s", in.Resampling, strings.Join(Resamplings, ", "))
 	}
-	if in.Calibrate != "" && in.Calibrate != raster.CalibrateScale && in.Calibrate != raster.CalibrateTOA {
-		return Usagef("--calibrate %q: want scale or toa", in.Calibrate)
+	if in.Calibrate != "" && !slices.Contains(raster.Calibrations, in.Calibrate) {
+		return Usagef("--calibrate %q: want %s", in.Calibrate, strings.Join(raster.Calibrations, ", "))
 	}
 	return nil
 }
@@ -173,7 +173,7 @@ func BasisBands(s *raster.Stack) []transform.Band {
 	for i, b := range s.Bands {
 		out[i] = transform.Band{Name: b.Name, Source: b.Path, Index: b.Index, DataType: b.DataType,
 			NoData: b.NoData, Scale: b.Scale, Offset: b.Offset}
-		if b.Calibration == raster.CalibrateTOA {
+		if b.Calibration != raster.CalibrateScale {
 			out[i].Calibration = b.Calibration
 		}
 	}
