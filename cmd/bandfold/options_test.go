@@ -81,7 +81,7 @@ func TestLearnFlagsToOptions(t *testing.T) {
 				Shard: jobkit.Shard{I: 0, N: 1}, Input: jobkit.Input{Masks: []raster.MaskRule{{Path: "QA.TIF", Bits: []int{0, 1, 2, 3, 4, 9}},
 					{Path: "m.tif", Values: []raster.ValueRange{{Lo: 0, Hi: 0}, {Lo: 3, Hi: 5}}}}, Align: true, Resampling: "average", Calibrate: "toa"}}, ""},
 		{[]string{"a.tif", "--out", "b.json", "--mask", "QA.TIF:bits=64"}, learn.LearnOptions{}, `--mask "QA.TIF:bits=64"`},
-		{[]string{"a.tif", "--out", "b.json", "--calibrate", "dn"}, learn.LearnOptions{}, `--calibrate "dn": want scale or toa`},
+		{[]string{"a.tif", "--out", "b.json", "--calibrate", "dn"}, learn.LearnOptions{}, `--calibrate "dn": want scale, toa, reflectance`},
 		{[]string{"a.tif", "--out", "b.json", "--align", "--resampling", "sinc"}, learn.LearnOptions{}, `--resampling "sinc"`},
 		{[]string{"a.tif", "--out", "b.json", "--mode", "spectral"}, learn.LearnOptions{}, `--mode "spectral"`},
 		{[]string{"a.tif", "--out", "b.json", "--bands", "3-1"}, learn.LearnOptions{}, `--bands "3-1": range 3-1 runs backwards`},
