@@ -60,3 +60,5 @@ fetch_dir() { # package, folder inside the package, destination, checksum file
 	rm -rf "$dest/$name" && mv "$dest/$name.tmp" "$dest/$name"
 }
 fetch_dir r-cran-satellite satellite/extdata landsat testdata/landsat-satellite.sha256
+# The product fixtures built from the Landsat files above (scripts/products.sh).
+bash scripts/products.sh

@@ -18,6 +18,9 @@ import (
 type Input struct {
 	// Bands are 1-based band numbers of the stack; nil means all.
 	Bands []int
+	// BandNames selects bands by name instead ("B4", or a product's "B02",
+	// "B8A"; see raster.SelectBandNames).
+	BandNames []string
 	// NoData overrides the files' nodata: one value for all bands, or one
 	// per selected band; nil keeps the files'.
 	NoData []float64
@@ -30,8 +33,9 @@ type Input struct {
 	Align      bool
 	Resampling string
 	// Calibrate is how stored values become the values used: "scale" (the
-	// bands' scale/offset metadata, the default) or "toa" (Landsat Level-1
-	// digital numbers to top-of-atmosphere reflectance from the MTL file).
+	// bands' scale/offset metadata, the default), "toa" (Landsat Level-1
+	// digital numbers to top-of-atmosphere reflectance from the MTL file)
+	// or "reflectance" (as the product defines it; raster.Calibrate).
 	// Empty means "scale", or the basis's calibration where a basis is read.
 	Calibrate string
 	// Tile is the side of square tiles; 0 aligns tiles to the file's
@@ -56,6 +60,9 @@ func (in Input) Check() error {
 // Options turns Input into raster options (a date's own masks are added with WithMasks).
 func (in Input) Options() []raster.Option {
 	opts := []raster.Option{raster.SelectBands(in.Bands), raster.NoData(in.NoData)}
+	if len(in.BandNames) > 0 {
+		opts = append(opts, raster.SelectBandNames(in.BandNames))
+	}
 	if len(in.Masks) > 0 {
 		opts = append(opts, raster.MaskRules(in.Masks...))
 	}
