@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"maps"
 	"math"
 	"os"
@@ -116,6 +117,9 @@ func mapOf(dir, mapFile string) string {
 // Fingerprint identifies a map file by the SHA-256 of its bytes.
 func Fingerprint(path string) (string, error) {
 	f, err := os.Open(path)
+	if pe := (*fs.PathError)(nil); errors.As(err, &pe) {
+		err = pe.Err // the path is in the message already
+	}
 	if err != nil {
 		return "", fmt.Errorf("map %s: %w", path, err)
 	}
