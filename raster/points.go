@@ -91,25 +91,41 @@ func PixelCentres(g Grid, pixels []int) (xs, ys, lons, lats []float64, err error
 
 // WritePoints writes the survey's point layer to a new GeoPackage at path
 // through output.File (temporary name, renamed into place by Commit).
-func WritePoints(path string, pts *Points, overwrite bool) (err error) {
-	f, err := output.Create(path, overwrite, ".gpkg")
+func WritePoints(path string, pts *Points, overwrite bool) error {
+	f, err := CreatePoints(path, pts, overwrite)
 	if err != nil {
 		return err
 	}
-	f.Sidecars("-journal", "-wal", "-shm")
 	defer f.Abort()
+	return f.Commit()
+}
+
+// CreatePoints writes the survey's point layer to the temporary file of a
+// new GeoPackage at path and returns it uncommitted: the caller commits it
+// when its other outputs are written too, or aborts it.
+func CreatePoints(path string, pts *Points, overwrite bool) (_ *output.File, err error) {
+	f, err := output.Create(path, overwrite, ".gpkg")
+	if err != nil {
+		return nil, err
+	}
+	f.Sidecars("-journal", "-wal", "-shm")
+	defer func() {
+		if err != nil {
+			f.Abort()
+		}
+	}()
 	ds, err := godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger)
 	if err != nil {
-		return fmt.Errorf("create %s: %w", path, err)
+		return nil, fmt.Errorf("create %s: %w", path, err)
 	}
 	if err := writeLayer(ds, pts); err != nil {
 		ds.Close(errLogger)
-		return fmt.Errorf("write %s: %w", path, err)
+		return nil, fmt.Errorf("write %s: %w", path, err)
 	}
 	if err := ds.Close(errLogger); err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
+		return nil, fmt.Errorf("write %s: %w", path, err)
 	}
-	return f.Commit()
+	return f, nil
 }
 
 func writeLayer(ds *godal.Dataset, pts *Points) error {

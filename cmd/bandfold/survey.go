@@ -59,7 +59,7 @@ func newSurveyCommand(g *globals) *cobra.Command {
 			if err != nil {
 				return err
 			}
-			g.info("%d labelled points, %d excluded (no label); %s", res.Labelled, res.Excluded, res.Estimator)
+			g.info("%d of %d points drawn labelled, %d excluded (no label), %d missing from the survey; %s", res.Labelled, res.Drawn, res.Excluded, res.Missing, res.Estimator)
 			for _, c := range res.Classes {
 				if c.AreaHa != nil {
 					g.info("  %-10s mapped %.2f ha, estimated %.2f ± %.2f ha (95%% interval %.2f to %.2f ha)", c.Class, *c.MappedAreaHa, *c.AreaHa, *c.AreaSEHa, c.AreaCI95Ha[0], c.AreaCI95Ha[1])

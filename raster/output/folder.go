@@ -227,19 +227,44 @@ func (d *Folder) swapAside() error {
 	return nil
 }
 
-// Replace writes data as the file name inside the committed output folder
-// dir (a previous bandfold output: its manifest present and nothing
-// unlisted), replacing the file if present: the data goes to a temporary
-// name inside dir, is flushed, the manifest gains name (rewritten the same
-// way) if it lacks it, and one rename puts the file in place, so a failure
-// leaves the old file or the new one whole and the folder recognisable as
-// bandfold's.
-func Replace(dir, name string, data []byte) error {
-	if err := CheckFolder(dir, true); err != nil {
+// CheckReplace refuses, before any work, what Replace would refuse: a dir
+// that is not a committed output folder (no bandfold manifest, wrapping
+// ErrForeignFolder), a name that is not a plain file name of it, and a file
+// of that name which the manifest does not list (someone else's). Other
+// files the manifest does not list are no obstacle: Replace leaves them
+// alone (a survey drawn into a change folder sits beside the report that
+// its estimate updates).
+func CheckReplace(dir, name string) error {
+	if err := checkName(dir); err != nil {
 		return err
 	}
-	if filepath.Base(name) != name || name == ManifestName {
+	if fi, err := os.Stat(dir); err != nil {
+		return fmt.Errorf("output %s: %w", dir, bare(err))
+	} else if !fi.IsDir() {
+		return fmt.Errorf("output %s is a file, not a folder", dir)
+	}
+	if filepath.Base(name) != name || name == ManifestName || name == "." || name == ".." {
 		return fmt.Errorf("output %s: %q is not a file name of the folder", dir, name)
+	}
+	m, why := readManifest(dir)
+	if why != "" {
+		return fmt.Errorf("output %s %w (%s)", dir, ErrForeignFolder, why)
+	}
+	if _, err := os.Lstat(filepath.Join(dir, name)); err == nil && !slices.Contains(m.Files, name) {
+		return fmt.Errorf("output %s: its %s is not listed in its %s, so it is not bandfold's to replace", dir, name, ManifestName)
+	}
+	return nil
+}
+
+// Replace writes data as the file name inside the committed output folder
+// dir (see CheckReplace), replacing the file if present: the data goes to
+// a temporary name inside dir, is flushed, the manifest gains name
+// (rewritten the same way) if it lacks it, and one rename puts the file in
+// place, so a failure leaves the old file or the new one whole and the
+// folder recognisable as bandfold's.
+func Replace(dir, name string, data []byte) error {
+	if err := CheckReplace(dir, name); err != nil {
+		return err
 	}
 	target := filepath.Join(dir, name)
 	if err := writeSynced(target, data); err != nil {

@@ -121,13 +121,9 @@ func CheckFolder(path string, overwrite bool) error {
 // foreign says why the folder dir with entries is not a previous bandfold
 // output, or returns "" when it is one.
 func foreign(dir string, entries []fs.DirEntry) string {
-	data, err := os.ReadFile(filepath.Join(dir, ManifestName))
-	if err != nil {
-		return "no " + ManifestName
-	}
-	var m manifest
-	if err := json.Unmarshal(data, &m); err != nil || m.Format != manifestFormat {
-		return ManifestName + " is not bandfold's"
+	m, why := readManifest(dir)
+	if why != "" {
+		return why
 	}
 	var extra []string
 	for _, e := range entries {
@@ -142,6 +138,27 @@ func foreign(dir string, entries []fs.DirEntry) string {
 		return fmt.Sprintf("%s is not listed in its %s", extra[0], ManifestName)
 	}
 	return fmt.Sprintf("%s and %d more are not listed in its %s", extra[0], len(extra)-1, ManifestName)
+}
+
+// readManifest reads the manifest of the output folder dir, or says why
+// dir holds none of bandfold's.
+func readManifest(dir string) (manifest, string) {
+	var m manifest
+	data, err := os.ReadFile(filepath.Join(dir, ManifestName))
+	if err != nil {
+		return m, "no " + ManifestName
+	}
+	if err := json.Unmarshal(data, &m); err != nil || m.Format != manifestFormat {
+		return m, ManifestName + " is not bandfold's"
+	}
+	return m, ""
+}
+
+// Listed returns the names the manifest of the committed output folder dir
+// lists, and false when dir holds no bandfold manifest.
+func Listed(dir string) ([]string, bool) {
+	m, why := readManifest(dir)
+	return m.Files, why == ""
 }
 
 // checkName refuses virtual paths, paths that name no file (".", "/"), and

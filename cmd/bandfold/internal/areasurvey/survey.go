@@ -8,9 +8,12 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
+	"maps"
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -114,6 +117,9 @@ func mapOf(dir, mapFile string) string {
 // Fingerprint identifies a map file by the SHA-256 of its bytes.
 func Fingerprint(path string) (string, error) {
 	f, err := os.Open(path)
+	if pe := (*fs.PathError)(nil); errors.As(err, &pe) {
+		err = pe.Err // the path is in the message already
+	}
 	if err != nil {
 		return "", fmt.Errorf("map %s: %w", path, err)
 	}
@@ -135,32 +141,15 @@ func csvBeside(gpkg string) string {
 // CSV file.
 func SurveyDraw(_ context.Context, _ jobkit.Env, o SurveyDrawOptions) (_ *SurveyDrawResult, err error) {
 	defer func() { err = jobkit.Classify(err) }()
-	buf, err := ParseBuffer(o.Buffer)
+	buf, err := checkDraw(&o)
 	if err != nil {
 		return nil, err
-	}
-	if o.Out == "" {
-		return nil, jobkit.Usagef("no output GeoPackage (--out)")
-	}
-	if o.MinPerStratum < 2 {
-		return nil, jobkit.Usagef("--min-per-stratum %d: need at least 2", o.MinPerStratum)
-	}
-	if o.TargetSE == 0 && o.Points < 2 {
-		return nil, jobkit.Usagef("--points %d: need at least 2 per stratum", o.Points)
-	}
-	if o.TargetSE < 0 || o.TargetSE >= 1 {
-		return nil, jobkit.Usagef("--target-se %g: want a standard error of a proportion, between 0 and 1", o.TargetSE)
 	}
 	mapPath := mapOf(o.Dir, o.Map)
 	csvPath := csvBeside(o.Out)
 	outs := []output.Path{{Role: "survey", Path: o.Out}, {Role: "survey CSV", Path: csvPath}}
-	if err := output.Distinct([]output.Path{{Role: "map", Path: mapPath}}, outs); err != nil {
+	if err := checkOutputs([]output.Path{{Role: "map", Path: mapPath}}, outs, o.Overwrite); err != nil {
 		return nil, err
-	}
-	for _, p := range outs {
-		if err := output.Check(p.Path, o.Overwrite); err != nil {
-			return nil, err
-		}
 	}
 	fp, err := Fingerprint(mapPath)
 	if err != nil {
@@ -182,22 +171,116 @@ func SurveyDraw(_ context.Context, _ jobkit.Env, o SurveyDrawOptions) (_ *Survey
 		return nil, err
 	}
 	res.Map, res.Fingerprint, res.Design, res.BufferPixels, res.Caution = mapPath, fp, design, st.BufferPixels, jobkit.Caution
-	strata, _ := json.Marshal(res.Strata)
+	strata, err := json.Marshal(res.Strata)
+	if err != nil {
+		return nil, fmt.Errorf("survey of %s: the strata's areas are not finite numbers", mapPath)
+	}
 	unit := "m2"
 	if !st.Ground {
 		unit = "px"
 	}
 	pts.Metadata = map[string]string{MdFingerprint: fp, mdMap: mapPath, mdDesign: design, mdStrata: string(strata), mdAreaUnit: unit, mdCaution: jobkit.Caution}
-	csvData := WriteSurveyCSV(pts)
-	if err := raster.WritePoints(o.Out, pts, o.Overwrite); err != nil {
-		return nil, err
-	}
-	if err := output.WriteFile(csvPath, csvData, o.Overwrite); err != nil {
-		os.Remove(o.Out)
+	if err := writeSurvey(o.Out, csvPath, pts, o.Overwrite); err != nil {
 		return nil, err
 	}
 	res.Outputs = []string{o.Out, csvPath}
 	return res, nil
+}
+
+// writeSurvey writes the GeoPackage and the CSV of a survey, both under
+// temporary names first, so that a failure leaves neither.
+func writeSurvey(gpkg, csvPath string, pts *raster.Points, overwrite bool) error {
+	g, err := raster.CreatePoints(gpkg, pts, overwrite)
+	if err != nil {
+		return err
+	}
+	defer g.Abort()
+	c, err := output.Create(csvPath, overwrite, "")
+	if err != nil {
+		return err
+	}
+	defer c.Abort()
+	if err := os.WriteFile(c.Temp(), WriteSurveyCSV(pts), 0o666); err != nil {
+		return fmt.Errorf("write %s: %w", csvPath, err)
+	}
+	if err := g.Commit(); err != nil {
+		return err
+	}
+	if err := c.Commit(); err != nil {
+		if !overwrite {
+			os.Remove(gpkg)
+		}
+		return err
+	}
+	return nil
+}
+
+// checkOutputs refuses, before any work, outputs that are an input or each
+// other (output.Distinct), files that cannot be written (output.Check), and
+// the files of a committed output folder, such as a change folder's
+// changes.gpkg, which a survey must never replace.
+func checkOutputs(inputs, outputs []output.Path, overwrite bool) error {
+	if err := output.Distinct(inputs, outputs); err != nil {
+		return err
+	}
+	for _, p := range outputs {
+		if err := output.Check(p.Path, overwrite); err != nil {
+			return err
+		}
+		dir, name := filepath.Split(p.Path)
+		if listed, ok := output.Listed(filepath.Clean(dir)); ok && slices.Contains(listed, name) {
+			return fmt.Errorf("%s %s is a file of the output folder %s (listed in its %s), which the survey must not replace: give another name", p.Role, p.Path, filepath.Clean(dir), output.ManifestName)
+		}
+	}
+	return nil
+}
+
+// checkDraw refuses option values that cannot be right (usage errors,
+// exit 2) and returns the buffer.
+func checkDraw(o *SurveyDrawOptions) (raster.Buffer, error) {
+	buf, err := ParseBuffer(o.Buffer)
+	if err != nil {
+		return buf, err
+	}
+	switch {
+	case o.Out == "":
+		return buf, jobkit.Usagef("no output GeoPackage (--out)")
+	case !strings.EqualFold(filepath.Ext(o.Out), ".gpkg"):
+		return buf, jobkit.Usagef("--out %s: the survey is a GeoPackage, so give a name ending in .gpkg (the CSV is written beside it as %s)", o.Out, filepath.Base(strings.TrimSuffix(o.Out, filepath.Ext(o.Out))+".csv"))
+	case o.MinPerStratum < 2:
+		return buf, jobkit.Usagef("--min-per-stratum %d: need at least 2", o.MinPerStratum)
+	case math.IsNaN(o.TargetSE) || o.TargetSE < 0 || o.TargetSE >= 1:
+		return buf, jobkit.Usagef("--target-se %g: want a standard error of a proportion, more than 0 and less than 1", o.TargetSE)
+	case o.TargetSE > 0 && o.Points != 0:
+		return buf, jobkit.Usagef("--points %d and --target-se %g both set the sample size: give one of them", o.Points, o.TargetSE)
+	case o.TargetSE == 0 && o.Points == 0:
+		return buf, jobkit.Usagef("no sample size: give --points N, or --target-se with --expected-accuracy")
+	case o.TargetSE == 0 && o.Points < 2:
+		return buf, jobkit.Usagef("--points %d: need at least 2 per stratum", o.Points)
+	case o.TargetSE == 0 && len(o.ExpectedAccuracy) > 0:
+		return buf, jobkit.Usagef("--expected-accuracy is used only with --target-se, which sizes the sample from it: give --target-se, or drop --expected-accuracy")
+	}
+	acc, err := checkAccuracy(o.ExpectedAccuracy)
+	o.ExpectedAccuracy = acc
+	return buf, err
+}
+
+// checkAccuracy refuses classes and strata a survey does not know, and
+// values that are not accuracies; it returns the values by their names
+// as stratumNames and stratumClass spell them.
+func checkAccuracy(in map[string]float64) (map[string]float64, error) {
+	out := map[string]float64{}
+	for _, k := range slices.Sorted(maps.Keys(in)) {
+		name := strings.Join(strings.FieldsFunc(strings.ToLower(k), func(r rune) bool { return r == ' ' || r == '_' || r == '-' }), " ")
+		if !slices.Contains(stratumNames, name) {
+			return nil, jobkit.Usagef("--expected-accuracy: unknown class %q: want change, no change or near change", k)
+		}
+		if u := in[k]; !(u > 0 && u <= 1) {
+			return nil, jobkit.Usagef("--expected-accuracy %s=%g: want a user's accuracy more than 0 and at most 1", k, u)
+		}
+		out[name] = in[k]
+	}
+	return out, nil
 }
 
 // allocate sizes the sample of each stratum that has pixels.
@@ -245,6 +328,9 @@ func allocate(st *raster.Strata, o SurveyDrawOptions) ([]int, string, error) {
 	}
 	got, err := survey.Allocate(a2, n2, n, o.MinPerStratum)
 	if err != nil {
+		if o.TargetSE > 0 {
+			return nil, "", jobkit.Usagef("--target-se %g with --expected-accuracy gives %d points: %v", o.TargetSE, n, err)
+		}
 		return nil, "", jobkit.Usagef("--points %d: %v", n, err)
 	}
 	sizes := make([]int, len(areas))

@@ -8,7 +8,6 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
-	"strings"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -47,12 +46,18 @@ type ClassEstimate struct {
 
 // SurveyEstimateResult is estimate.json.
 type SurveyEstimateResult struct {
-	Survey            string          `json:"survey"`
-	Map               string          `json:"map"`
-	Fingerprint       string          `json:"fingerprint"`
-	Estimator         string          `json:"estimator"`
+	Survey      string `json:"survey"`
+	Map         string `json:"map"`
+	Fingerprint string `json:"fingerprint"`
+	Estimator   string `json:"estimator"`
+	// Drawn is the number of points the survey drew; Labelled and
+	// Excluded (no label) count those in the file, Missing those absent
+	// from it (MissingIDs), which count as not interpreted.
+	Drawn             int             `json:"drawn"`
 	Labelled          int             `json:"labelled"`
 	Excluded          int             `json:"excluded"`
+	Missing           int             `json:"missing"`
+	MissingIDs        []int           `json:"missing_ids"`
 	OverallAccuracy   float64         `json:"overall_accuracy"`
 	OverallAccuracySE float64         `json:"overall_accuracy_se"`
 	MatrixClasses     []string        `json:"error_matrix_classes"`
@@ -65,23 +70,20 @@ type SurveyEstimateResult struct {
 // SurveyEstimate reads an interpreted survey and estimates the area of
 // change and no change and the map's accuracy, with standard errors and
 // 95% intervals; it writes estimate.json beside the survey and updates
-// report.html in the change folder.
-func SurveyEstimate(_ context.Context, _ jobkit.Env, o SurveyEstimateOptions) (_ *SurveyEstimateResult, err error) {
+// report.html in the change folder. The strata's areas and the points
+// drawn in each come from the survey's metadata, written by the draw from
+// the map (whose fingerprint the survey must match), never from the rows:
+// rows the draw cannot have written are refused, and drawn points missing
+// from the file are counted and named.
+func SurveyEstimate(_ context.Context, env jobkit.Env, o SurveyEstimateOptions) (_ *SurveyEstimateResult, err error) {
 	defer func() { err = jobkit.Classify(err) }()
 	mapPath := mapOf(o.Dir, "")
 	estPath := filepath.Join(filepath.Dir(o.Survey), "estimate.json")
-	if err := output.Distinct([]output.Path{{Role: "survey", Path: o.Survey}, {Role: "map", Path: mapPath}}, []output.Path{{Role: "estimate", Path: estPath}}); err != nil {
+	dir, folder := reportFolder(o.Dir, mapPath)
+	if err := checkEstimateOutputs(o, mapPath, estPath, dir, folder); err != nil {
 		return nil, err
 	}
-	if err := output.Check(estPath, o.Overwrite); err != nil {
-		return nil, err
-	}
-	var pts *raster.Points
-	if strings.EqualFold(filepath.Ext(o.Survey), ".csv") {
-		pts, err = readSurveyCSV(o.Survey)
-	} else {
-		pts, err = raster.ReadPoints(o.Survey)
-	}
+	s, err := readSurvey(o.Survey)
 	if err != nil {
 		return nil, err
 	}
@@ -89,18 +91,20 @@ func SurveyEstimate(_ context.Context, _ jobkit.Env, o SurveyEstimateOptions) (_
 	if err != nil {
 		return nil, err
 	}
-	if got := pts.Metadata[MdFingerprint]; got != fp {
+	if got := s.pts.Metadata[MdFingerprint]; got != fp {
 		return nil, fmt.Errorf("survey %s was drawn from another map than %s (fingerprint %q, the map's %s)", o.Survey, mapPath, got, fp)
 	}
-	res, err := estimate(o.Survey, pts)
+	res, err := estimate(s)
 	if err != nil {
 		return nil, err
+	}
+	if res.Missing > 0 {
+		env.Warn("survey %s lacks %d of the %d points drawn (%s): they count as not interpreted", o.Survey, res.Missing, res.Drawn, idList(res.MissingIDs))
 	}
 	res.Map, res.Fingerprint, res.Caution = mapPath, fp, jobkit.Caution
 	res.Outputs = []string{estPath}
 	var report []byte
-	dir := filepath.Dir(mapPath)
-	if _, err := os.Stat(filepath.Join(dir, "summary.json")); err == nil && mapOf(o.Dir, "") != o.Dir {
+	if folder {
 		section := estimateSection(res)
 		if report, err = changefolder.FolderReport(dir, res.validArea(), &section); err != nil {
 			return nil, err
@@ -109,95 +113,135 @@ func SurveyEstimate(_ context.Context, _ jobkit.Env, o SurveyEstimateOptions) (_
 	}
 	js, err := json.MarshalIndent(res, "", "  ")
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("estimate from %s: a figure is not a finite number, so estimate.json cannot hold it", o.Survey)
 	}
-	if err := output.WriteFile(estPath, append(js, '\n'), o.Overwrite); err != nil {
+	if err := writeEstimate(estPath, append(js, '\n'), o.Overwrite, dir, report); err != nil {
 		return nil, err
-	}
-	if report != nil {
-		if err := output.Replace(dir, "report.html", report); err != nil {
-			return nil, err
-		}
 	}
 	return res, nil
 }
 
+// reportFolder returns the change folder whose report an estimate updates:
+// DIR when it is a folder holding summary.json.
+func reportFolder(dir, mapPath string) (string, bool) {
+	folder := filepath.Dir(mapPath)
+	if _, err := os.Stat(filepath.Join(folder, "summary.json")); err == nil && mapPath != dir {
+		return folder, true
+	}
+	return folder, false
+}
+
+// checkEstimateOutputs refuses, before any work, an estimate.json or
+// report.html that is the survey, the map or the change summary the run
+// reads, an estimate.json that cannot be written and a report that is not
+// bandfold's to replace.
+func checkEstimateOutputs(o SurveyEstimateOptions, mapPath, estPath, dir string, folder bool) error {
+	ins := []output.Path{{Role: "survey", Path: o.Survey}, {Role: "map", Path: mapPath}}
+	outs := []output.Path{{Role: "estimate", Path: estPath}}
+	if folder {
+		ins = append(ins, output.Path{Role: "change summary", Path: filepath.Join(dir, "summary.json")})
+		outs = append(outs, output.Path{Role: "report", Path: filepath.Join(dir, "report.html")})
+	}
+	if err := output.Distinct(ins, outs); err != nil {
+		return err
+	}
+	if err := checkOutputs(nil, outs[:1], o.Overwrite); err != nil {
+		return err
+	}
+	if folder {
+		return output.CheckReplace(dir, "report.html")
+	}
+	return nil
+}
+
+// writeEstimate writes estimate.json and, when report is set, replaces
+// report.html in dir, so that a failure leaves neither changed: the
+// estimate is committed last, and the old report put back if it fails.
+func writeEstimate(estPath string, js []byte, overwrite bool, dir string, report []byte) error {
+	f, err := output.Create(estPath, overwrite, "")
+	if err != nil {
+		return err
+	}
+	defer f.Abort()
+	if err := os.WriteFile(f.Temp(), js, 0o666); err != nil {
+		return fmt.Errorf("write %s: %w", estPath, err)
+	}
+	var old []byte
+	if report != nil {
+		old, _ = os.ReadFile(filepath.Join(dir, "report.html"))
+		if err := output.Replace(dir, "report.html", report); err != nil {
+			return err
+		}
+	}
+	if err := f.Commit(); err != nil {
+		if old != nil {
+			output.Replace(dir, "report.html", old)
+		}
+		return err
+	}
+	return nil
+}
+
 // estimate applies the stratified estimator (Olofsson et al. 2014) when
 // the strata are the map classes and Stehman's (2014) when a near-change
-// stratum is present.
-func estimate(path string, pts *raster.Points) (*SurveyEstimateResult, error) {
-	res := &SurveyEstimateResult{Survey: path, MatrixClasses: surveyClasses}
-	area := make([]float64, len(stratumNames))
-	labelled := make([]int, len(stratumNames))
-	seen := make([]bool, len(stratumNames))
+// stratum is present. The strata's areas are those the survey records.
+func estimate(s *surveyFile) (*SurveyEstimateResult, error) {
+	missing, err := s.checkRows()
+	if err != nil {
+		return nil, err
+	}
+	res := &SurveyEstimateResult{Survey: s.path, MatrixClasses: surveyClasses, Drawn: s.drawn(), Missing: len(missing), MissingIDs: missing}
+	labelled := make([]int, len(s.strata))
 	var units []survey.Unit
-	for _, p := range pts.Points {
-		h := slices.Index(stratumNames, p.Stratum)
-		m := slices.Index(surveyClasses, p.MapClass)
-		if h < 0 || m < 0 || stratumClass[h] != p.MapClass {
-			return nil, fmt.Errorf("survey %s: point %d has stratum %q and map class %q, which no survey draws", path, p.ID, p.Stratum, p.MapClass)
-		}
+	for i, p := range s.pts.Points {
+		h := slices.IndexFunc(s.strata, func(st SurveyStratum) bool { return st.Name == p.Stratum })
 		ref, ok := jobkit.Label(p.Reference)
 		if !ok {
-			return nil, fmt.Errorf("survey %s: point %d has reference %q: want change or no change (or 1 or 0), or empty", path, p.ID, p.Reference)
+			return nil, fmt.Errorf("survey %s %s (point %d): reference %q: want change or no change (or 1 or 0), or empty", s.path, s.where[i], p.ID, p.Reference)
 		}
-		area[h] += p.Weight
-		seen[h] = true
 		if ref < 0 {
 			res.Excluded++
 			continue
 		}
 		labelled[h]++
-		units = append(units, survey.Unit{Stratum: h, Map: m, Ref: ref})
+		units = append(units, survey.Unit{Stratum: h, Map: slices.Index(surveyClasses, p.MapClass), Ref: ref})
 	}
 	res.Labelled = len(units)
-	var strata []float64
-	remap := make([]int, len(stratumNames))
-	for h := range stratumNames {
-		if !seen[h] {
-			continue
+	areas := make([]float64, len(s.strata))
+	mapped := make([]float64, len(surveyClasses))
+	near := false
+	for h, st := range s.strata {
+		switch labelled[h] {
+		case 0:
+			return nil, fmt.Errorf("survey %s: no point of stratum %q is labelled (fill in the reference field)", s.path, st.Name)
+		case 1:
+			return nil, fmt.Errorf("survey %s: stratum %q has 1 labelled point: need at least 2", s.path, st.Name)
 		}
-		if labelled[h] == 0 {
-			return nil, fmt.Errorf("survey %s: no point of stratum %q is labelled (fill in the reference field)", path, stratumNames[h])
-		}
-		if labelled[h] < 2 {
-			return nil, fmt.Errorf("survey %s: stratum %q has %d labelled point: need at least 2", path, stratumNames[h], labelled[h])
-		}
-		remap[h] = len(strata)
-		strata = append(strata, area[h])
-	}
-	for i := range units {
-		units[i].Stratum = remap[units[i].Stratum]
+		areas[h] = st.area()
+		mapped[slices.Index(surveyClasses, st.MapClass)] += areas[h]
+		near = near || st.Name == stratumNames[raster.StratumNearChange]
 	}
 	var e *survey.Estimate
-	var err error
-	if seen[raster.StratumNearChange] {
+	if near {
 		res.Estimator = "Stehman (2014), strata different from the map classes"
-		e, err = survey.Stehman(units, strata, len(surveyClasses))
+		e, err = survey.Stehman(units, areas, len(surveyClasses))
 	} else {
 		res.Estimator = "stratified estimator, strata = map classes (Olofsson et al. 2014)"
 		counts := [][]int{{0, 0}, {0, 0}}
-		mapped := make([]float64, 2)
 		for _, u := range units {
 			counts[u.Map][u.Ref]++
-		}
-		for h := range stratumNames {
-			if seen[h] {
-				mapped[slices.Index(surveyClasses, stratumClass[h])] += area[h]
-			}
 		}
 		e, err = survey.Olofsson(counts, mapped)
 	}
 	if err != nil {
-		return nil, fmt.Errorf("survey %s: %w", path, err)
+		return nil, fmt.Errorf("survey %s: %w", s.path, err)
 	}
-	ground := pts.Metadata[mdAreaUnit] != "px"
-	mapped := make([]float64, 2)
-	for h := range stratumNames {
-		if seen[h] {
-			mapped[slices.Index(surveyClasses, stratumClass[h])] += area[h]
-		}
-	}
+	res.fill(e, mapped, s.pts.Metadata[mdAreaUnit] != "px")
+	return res, nil
+}
+
+// fill sets the accuracies and, on the ground, the areas of each class.
+func (res *SurveyEstimateResult) fill(e *survey.Estimate, mapped []float64, ground bool) {
 	res.OverallAccuracy, res.OverallAccuracySE, res.ErrorMatrix = e.Overall, e.OverallSE, e.ErrorMatrix
 	for k, name := range surveyClasses {
 		c := ClassEstimate{Class: name, AreaFraction: e.Area[k], AreaFractionSE: e.AreaSE[k],
@@ -210,7 +254,6 @@ func estimate(path string, pts *raster.Points) (*SurveyEstimateResult, error) {
 		}
 		res.Classes = append(res.Classes, c)
 	}
-	return res, nil
 }
 
 func finite(v float64) *float64 {
@@ -241,7 +284,7 @@ func estimateSection(e *SurveyEstimateResult) report.ReportSection {
 		matrix.Rows = append(matrix.Rows, cells)
 	}
 	return report.ReportSection{Heading: "Estimated area from the reference survey", Notes: []string{
-		fmt.Sprintf("Survey %s: %d labelled points, %d without a label excluded. Estimator: %s.", e.Survey, e.Labelled, e.Excluded, e.Estimator),
+		fmt.Sprintf("Survey %s: %d points drawn, %d labelled, %d without a label and %d missing from the file excluded. Estimator: %s.", e.Survey, e.Drawn, e.Labelled, e.Excluded, e.Missing, e.Estimator),
 		fmt.Sprintf("Overall accuracy %.3f ± %.3f (standard error).", e.OverallAccuracy, e.OverallAccuracySE),
 	}, Tables: []report.ReportTable{areas, matrix}}
 }
