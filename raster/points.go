@@ -116,14 +116,14 @@ func CreatePoints(path string, pts *Points, overwrite bool) (_ *output.File, err
 	}()
 	ds, err := godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger)
 	if err != nil {
-		return nil, fmt.Errorf("create %s: %w", path, err)
+		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	if err := writeLayer(ds, pts); err != nil {
 		ds.Close(errLogger)
-		return nil, fmt.Errorf("write %s: %w", path, err)
+		return nil, fmt.Errorf("write %s: %w", path, tidy(err))
 	}
 	if err := ds.Close(errLogger); err != nil {
-		return nil, fmt.Errorf("write %s: %w", path, err)
+		return nil, fmt.Errorf("write %s: %w", path, tidy(err))
 	}
 	return f, nil
 }
