@@ -340,7 +340,7 @@ func (m *S2Metadata) bandFile(band string) (string, int, error) {
 	}
 	if best == "" {
 		known := slices.Sorted(maps.Keys(m.Bands))
-		return "", 0, fmt.Errorf("%s lists no band file of %s that exists (its bands: %s, and SCL)", m.Path, band, strings.Join(known, ", "))
+		return "", 0, specErr(ErrBandRange, "%s lists no band file of %s that exists (its bands: %s, and SCL)", m.Path, band, strings.Join(known, ", "))
 	}
 	return best, bestRes, nil
 }

@@ -96,6 +96,7 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"learn mask of zeros", []string{"learn", a, "--mask", zeroMask, "--out", p("basis.json")}, 1, []string{a, "mask " + zeroMask + " marks every pixel invalid"}},
 		{"change mask of zeros", []string{"change", a, b, "--out", out, "--mask-after", zeroMask}, 1, []string{b, "mask " + zeroMask + " marks every pixel invalid"}},
 		{"mask bit not a number", []string{"learn", a, "--mask", a + ":bits=x", "--out", p("basis.json")}, 2, []string{`--mask "` + a + `:bits=x": "x" is not a bit number`}},
+		{"bands by a name no band has", []string{"learn", a, "--bands", "B99", "--out", p("basis.json")}, 2, []string{a, "no band named B99"}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	checkBadCases(t, dir, tests)

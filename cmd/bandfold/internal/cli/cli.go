@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"log/slog"
+	"regexp"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -89,8 +90,9 @@ func (f *InputFlags) Register(fs *pflag.FlagSet, align bool) {
 
 // Input translates the flags.
 func (f *InputFlags) Input() (jobkit.Input, error) {
+	names := BandNames(f.bands)
 	sel, err := raster.ParseBands(f.bands)
-	if err != nil {
+	if err != nil && names == nil {
 		return jobkit.Input{}, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
 	}
 	nd, err := raster.ParseNoData(f.nodata)
@@ -101,7 +103,7 @@ func (f *InputFlags) Input() (jobkit.Input, error) {
 	if err != nil {
 		return jobkit.Input{}, err
 	}
-	in := jobkit.Input{Bands: sel, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
+	in := jobkit.Input{Bands: sel, BandNames: names, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
 	if f.resampling != "" {
 		if in.Resampling, err = raster.ParseResampling(f.resampling); err != nil {
 			return jobkit.Input{}, jobkit.Usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
@@ -117,6 +119,26 @@ func (f *InputFlags) Input() (jobkit.Input, error) {
 	}
 	return in, nil
 }
+
+// BandNames returns the names of a --bands value that names bands ("B02,
+// B03,B8A", "red,nir" ...: every item starts with a letter), nil for
+// numbers, ranges or a mix.
+func BandNames(spec string) []string {
+	if strings.TrimSpace(spec) == "" {
+		return nil
+	}
+	var out []string
+	for _, item := range strings.Split(spec, ",") {
+		item = strings.TrimSpace(item)
+		if !bandName.MatchString(item) {
+			return nil
+		}
+		out = append(out, item)
+	}
+	return out
+}
+
+var bandName = regexp.MustCompile(`^[A-Za-z][A-Za-z0-9_]*$`)
 
 // Scenes applies --stack: all arguments become one stack.
 func (f *InputFlags) Scenes(args []string) []string {
