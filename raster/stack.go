@@ -120,6 +120,9 @@ type Stack struct {
 	Aligned []string
 	// Metadata is the first file's dataset metadata (default domain).
 	Metadata map[string]string
+	// Notes say, for people, what Open did that was not asked for (a
+	// product's bands resampled onto its finest grid).
+	Notes []string
 	// runs group selected bands that can be read with one call: positions
 	// pos..pos+len(bands)-1 of the pixel vector come from the 0-based bands
 	// of one file.
@@ -381,8 +384,30 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	s.setLabel()
 	if product != "" {
 		s.Label = productLabel(product) + " [" + strings.Join(bandNames(s.Bands), ",") + "]"
+		s.noteResampled(paths[ref], o.align)
 	}
 	return s, nil
+}
+
+// noteResampled says which bands were warped onto the grid of the file at
+// ref, and how.
+func (s *Stack) noteResampled(ref, resampling string) {
+	var warped []string
+	for _, b := range s.Bands {
+		if slices.Contains(s.Aligned, b.Path) {
+			warped = append(warped, b.Name)
+		}
+	}
+	if len(warped) == 0 {
+		return
+	}
+	refName := filepath.Base(ref)
+	for _, b := range s.Bands {
+		if b.Path == ref {
+			refName = b.Name
+		}
+	}
+	s.Notes = append(s.Notes, fmt.Sprintf("%s: bands %s resampled (%s) onto the %g m grid of %s", s.Label, strings.Join(warped, ", "), resampling, math.Abs(s.Grid.GeoTransform[1]), refName))
 }
 
 // takeGrid gives the stack the grid, block size and metadata of the file at

@@ -104,8 +104,12 @@ func TestSentinel2ProductFolder(t *testing.T) {
 	dir := t.TempDir()
 	folder := product(t, s2a)
 	sel := []string{"B02", "B04", "B08", "B11"}
-	res := Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{folder}, Input: jobkit.Input{BandNames: sel, Calibrate: raster.CalibrateReflectance},
+	env, log := LoggingEnv()
+	res := Learn(t, env, learn.LearnOptions{Scenes: []string{folder}, Input: jobkit.Input{BandNames: sel, Calibrate: raster.CalibrateReflectance},
 		Out: filepath.Join(dir, "s2.json")})
+	if !strings.Contains(log.String(), "bands B11 resampled (bilinear) onto the 10 m grid of B02") {
+		t.Errorf("the resampling of the 20 m band is not stated: %q", log.String())
+	}
 	img := filepath.Join(folder, "GRANULE", "L2A_T32UMU_A000000_20230614T103021", "IMG_DATA")
 	for i, band := range sel {
 		file := filepath.Join(img, "R10m", "T32UMU_20230614T103021_"+band+"_10m.jp2")

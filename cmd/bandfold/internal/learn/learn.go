@@ -126,6 +126,9 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 		if err != nil {
 			return nil, err
 		}
+		for _, n := range s.Notes {
+			env.Warn("%s", n)
+		}
 		scenes = append(scenes, s)
 	}
 	if err := jobkit.DistinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil && target != "" {

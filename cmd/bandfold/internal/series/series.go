@@ -356,6 +356,13 @@ func (r *Run) openScenes() error {
 		r.Scenes = append(r.Scenes, s)
 		r.Aligned = r.Aligned || aligned
 	}
+	for _, s := range r.Scenes {
+		for _, n := range s.Notes {
+			if !slices.Contains(r.Warnings, n) {
+				r.warnf("%s", n)
+			}
+		}
+	}
 	return nil
 }
 
