@@ -12,6 +12,7 @@ import (
 	"os/signal"
 	"runtime"
 	"runtime/debug"
+	"strings"
 	"syscall"
 
 	"github.com/spf13/cobra"
@@ -50,6 +51,9 @@ type globals struct {
 	// started is set when a command's own code begins: any error before
 	// that comes from parsing the command line.
 	started bool
+	// command names the running command for progress lines ("learn",
+	// "survey draw").
+	command string
 }
 
 func run(args []string, stdout, stderr io.Writer) int {
@@ -131,6 +135,7 @@ func newRootCommand(g *globals) *cobra.Command {
 func (g *globals) runE(work func(ctx context.Context, env jobkit.Env, args []string) error) func(*cobra.Command, []string) error {
 	return func(cmd *cobra.Command, args []string) error {
 		g.started = true
+		g.command = strings.TrimPrefix(cmd.CommandPath(), cmd.Root().Name()+" ")
 		if g.workers < 1 {
 			return jobkit.Usagef("--workers %d: need at least 1", g.workers)
 		}
