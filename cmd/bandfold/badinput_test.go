@@ -311,8 +311,8 @@ func checkBadCases(t *testing.T, dir string, tests []badCase) {
 			dec := json.NewDecoder(strings.NewReader(jout))
 			if strings.Count(jout, "\n") != 1 || !strings.HasSuffix(jout, "\n") || dec.Decode(&obj) != nil || dec.More() {
 				t.Errorf("with --json: stdout %q, want one JSON object on one line", jout)
-			} else if len(obj) != 2 || obj["error"] != msg || obj["exit_code"] != float64(tc.code) {
-				t.Errorf("with --json: stdout %s, want {\"error\": %q, \"exit_code\": %d}", strings.TrimSpace(jout), msg, tc.code)
+			} else if len(obj) != 4 || obj["format"] != "bandfold-error" || obj["version"] != 1.0 || obj["error"] != msg || obj["exit_code"] != float64(tc.code) {
+				t.Errorf("with --json: stdout %s, want {\"format\": \"bandfold-error\", \"version\": 1, \"error\": %q, \"exit_code\": %d}", strings.TrimSpace(jout), msg, tc.code)
 			}
 			if jerr != stderr {
 				t.Errorf("with --json: stderr %q, want %q as without it", jerr, stderr)

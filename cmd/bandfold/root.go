@@ -87,7 +87,7 @@ func run(args []string, stdout, stderr io.Writer) int {
 		if msg == "" {
 			msg = err.Error()
 		}
-		b, _ := json.Marshal(map[string]any{"error": msg, "exit_code": code})
+		b, _ := headed("bandfold-error", map[string]any{"error": msg, "exit_code": code})
 		fmt.Fprintf(stdout, "%s\n", b)
 	}
 	return code
@@ -184,12 +184,35 @@ func (g *globals) emit(v any) error {
 	if !g.json {
 		return nil
 	}
-	b, err := json.Marshal(v)
+	b, err := headed("bandfold-"+strings.ReplaceAll(g.command, " ", "-")+"-result", v)
 	if err != nil {
 		return err
 	}
 	_, err = fmt.Fprintf(g.stdout, "%s\n", b)
 	return err
+}
+
+// headed marshals v, a JSON object, with "format" and "version" first
+// (jobkit.Document) unless it carries them already.
+func headed(format string, v any) ([]byte, error) {
+	b, err := json.Marshal(v)
+	if err != nil || len(b) < 2 || b[0] != '{' {
+		return b, err
+	}
+	var head struct {
+		Format *string `json:"format"`
+	}
+	if json.Unmarshal(b, &head) == nil && head.Format != nil {
+		return b, nil
+	}
+	h, err := json.Marshal(jobkit.Doc(format))
+	if err != nil {
+		return nil, err
+	}
+	if string(b) == "{}" {
+		return h, nil
+	}
+	return append(append(h[:len(h)-1:len(h)-1], ','), b[1:]...), nil
 }
 
 // args wraps a cobra argument check so that its error is a usage error.

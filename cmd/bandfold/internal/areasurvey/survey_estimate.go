@@ -46,6 +46,7 @@ type ClassEstimate struct {
 
 // SurveyEstimateResult is estimate.json.
 type SurveyEstimateResult struct {
+	jobkit.Document
 	Survey      string `json:"survey"`
 	Map         string `json:"map"`
 	Fingerprint string `json:"fingerprint"`
@@ -190,7 +191,7 @@ func estimate(s *surveyFile) (*SurveyEstimateResult, error) {
 	if err != nil {
 		return nil, err
 	}
-	res := &SurveyEstimateResult{Survey: s.path, MatrixClasses: surveyClasses, Drawn: s.drawn(), Missing: len(missing), MissingIDs: missing}
+	res := &SurveyEstimateResult{Document: jobkit.Doc("bandfold-survey-estimate"), Survey: s.path, MatrixClasses: surveyClasses, Drawn: s.drawn(), Missing: len(missing), MissingIDs: missing}
 	labelled := make([]int, len(s.strata))
 	var units []survey.Unit
 	for i, p := range s.pts.Points {

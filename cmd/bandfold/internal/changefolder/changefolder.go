@@ -12,8 +12,9 @@ import (
 	"strings"
 )
 
-// ChangeResult is summary.json.
+// ChangeResult is summary.json ("format": "bandfold-change-summary").
 type ChangeResult struct {
+	jobkit.Document
 	Before string `json:"before"`
 	After  string `json:"after"`
 	// BeforeLabel and AfterLabel name the dates' stacks for people.

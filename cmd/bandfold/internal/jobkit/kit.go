@@ -83,3 +83,23 @@ func CommitSummary(env Env, dir *output.Folder, name string, v any, warnings []s
 	}
 	return dir.Commit()
 }
+
+// Document is the head of every JSON document bandfold writes or prints:
+// what it is and the version of its layout, so that scripts can check
+// both. The documents' JSON Schemas are under docs/schemas/.
+type Document struct {
+	Format  string `json:"format"`
+	Version int    `json:"version"`
+}
+
+// Doc returns the head of a document of the given format, version 1.
+func Doc(format string) Document { return Document{Format: format, Version: 1} }
+
+// Strings returns s, or an empty list for nil: lists in JSON documents are
+// [] when empty, never null.
+func Strings(s []string) []string {
+	if s == nil {
+		return []string{}
+	}
+	return s
+}

@@ -189,10 +189,10 @@ func (r *changeRun) sieve(ctx context.Context) error {
 	}
 	o := r.o
 	norm := r.NormSums[1]
-	r.sum = &changefolder.ChangeResult{Before: o.Before, After: o.After, BeforeLabel: jobkit.Describe(r.before), AfterLabel: jobkit.Describe(r.after), Threshold: r.thresholdSummary(),
+	r.sum = &changefolder.ChangeResult{Document: jobkit.Doc("bandfold-change-summary"), Before: o.Before, After: o.After, BeforeLabel: jobkit.Describe(r.before), AfterLabel: jobkit.Describe(r.after), Threshold: r.thresholdSummary(),
 		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisName, Aligned: r.Aligned,
 		Identical: r.identical, Caution: jobkit.Caution, Location: []float64{}, Covariance: [][]float64{},
-		Normalization: norm, Warnings: r.Warnings, Scenario: r.before.Metadata["SCENARIO"],
+		Normalization: norm, Warnings: jobkit.Strings(r.Warnings), Scenario: r.before.Metadata["SCENARIO"],
 		BeforeDate: r.Dates[0].Label, AfterDate: r.Dates[1].Label, DateSource: []string{r.Dates[0].Source, r.Dates[1].Source}, BandMatch: r.Matched,
 		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}
 	if r.identical {

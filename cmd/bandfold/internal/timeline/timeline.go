@@ -52,6 +52,7 @@ type TimelineOptions struct {
 
 // TimelineResult is timeline.json.
 type TimelineResult struct {
+	jobkit.Document
 	Scenes []TimelineScene `json:"scenes"`
 	// ValidPixels are the pixels valid on at least one step.
 	ValidPixels int64 `json:"valid_pixels"`

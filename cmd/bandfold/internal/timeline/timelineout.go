@@ -75,9 +75,9 @@ func (r *timelineRun) figures(context.Context) error {
 
 // result fills timeline.json's content.
 func (r *timelineRun) result() {
-	s := &TimelineResult{Components: r.Proj.Components(), Basis: r.BasisName, Threshold: r.o.Threshold.String(),
+	s := &TimelineResult{Document: jobkit.Doc("bandfold-timeline-summary"), Components: r.Proj.Components(), Basis: r.BasisName, Threshold: r.o.Threshold.String(),
 		MinAreaPixels: r.MinPixels, Normalize: r.o.Normalize, Confirm: r.o.Confirm, Aligned: r.Aligned, ReferenceDate: r.Dates[r.Ref].Label, BandMatch: r.Matched,
-		Scenario: r.Scenes[0].Metadata["SCENARIO"], Warnings: r.Warnings, Caution: jobkit.Caution, Outputs: []string{},
+		Scenario: r.Scenes[0].Metadata["SCENARIO"], Warnings: jobkit.Strings(r.Warnings), Caution: jobkit.Caution, Outputs: []string{},
 		AreaNote: "mapped areas (pixels flagged after the minimum mapping unit), not estimates of the true area of change"}
 	if s.Warnings == nil {
 		s.Warnings = []string{}
