@@ -57,7 +57,8 @@
 //
 // # Integer kernel
 //
-// AddInt16Tile and AddInt16Window take integer pixels band-sequentially
+// AddInt16Tile and AddInt16Window (and AddInt16Pairs, the shift
+// differences across the edge of two tiles) take integer pixels band-sequentially
 // (each band's values of a tile consecutive, as int16 plus a per-band
 // shift: 8-bit data as they are, unsigned 16-bit data less 32768) and form
 // the same exact sums in integer arithmetic. Each band of the tile is
