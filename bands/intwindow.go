@@ -45,32 +45,36 @@ func AddInt16Window(mom, noise *Accumulator, win Int16Window, s Shift) {
 	}
 	ks := intSpare.get(win.P)
 	defer intSpare.put(ks)
-	w, n := win.W, win.W*win.H
-	owned := func(i int) bool { return i%w < win.OwnW && i/w < win.OwnH }
-	ks.own = grow(ks.own, n)
-	for i := range ks.own {
-		ks.own[i] = win.Valid[i] && owned(i)
-	}
+	n := win.W * win.H
+	ks.own = win.ownedPairs(grow(ks.own, n), 0, win.OwnW)
 	mom.addInt(ks, intTile{x: win.X, ld: n, p: win.P, n: n, valid: ks.own}, win.Shift)
-	// A pair (i, i+off) counts when both are valid, i is owned and i+off
-	// is in the window: the next column or the next row.
-	pairs := func(off int, inWindow func(i int) bool) {
-		m := n - off
-		if m <= 0 {
-			return
+	// The horizontal pairs of the columns with a next one, the vertical
+	// pairs of the rows with a next one (ownedPairs stops before the last).
+	for _, pr := range []struct {
+		on        bool
+		off, cols int
+	}{{s&Horizontal != 0, 1, min(win.OwnW, win.W-1)}, {s&Vertical != 0, win.W, win.OwnW}} {
+		if !pr.on || pr.off >= n {
+			continue
 		}
-		ks.pairs = grow(ks.pairs, m)
-		for i := range ks.pairs {
-			ks.pairs[i] = win.Valid[i] && win.Valid[i+off] && owned(i) && inWindow(i)
+		ks.pairs = win.ownedPairs(grow(ks.pairs, n-pr.off), pr.off, pr.cols)
+		noise.addInt(ks, intTile{x: win.X, ld: n, p: win.P, n: n - pr.off, off: pr.off, valid: ks.pairs}, nil)
+	}
+}
+
+// ownedPairs sets flags[i] to whether pixel i is owned and valid, lies in
+// the first cols columns, and its partner i + off (itself for off 0) is
+// valid and in the window; it returns flags, of n − off values. It works a
+// row at a time: no division per pixel.
+func (win Int16Window) ownedPairs(flags []bool, off, cols int) []bool {
+	clear(flags)
+	for i := 0; i < win.OwnH*win.W && i+cols+off <= len(win.Valid); i += win.W {
+		a, b, f := win.Valid[i:i+cols], win.Valid[i+off:i+off+cols], flags[i:i+cols]
+		for c := range f {
+			f[c] = a[c] && b[c]
 		}
-		noise.addInt(ks, intTile{x: win.X, ld: n, p: win.P, n: m, off: off, valid: ks.pairs}, nil)
 	}
-	if s&Horizontal != 0 {
-		pairs(1, func(i int) bool { return i%w+1 < w })
-	}
-	if s&Vertical != 0 {
-		pairs(w, func(i int) bool { return i/w+1 < win.H })
-	}
+	return flags
 }
 
 // Int16Column is one column of the rows an Int16Window owns, stored
