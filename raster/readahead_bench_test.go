@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"path/filepath"
+	"sync"
 	"testing"
 
 	"github.com/airbusgeo/godal"
@@ -68,8 +69,9 @@ func (c benchCube) write(b *testing.B, dir string) string {
 // integer kernel alone on the same tiles in memory ("kernel",
 // AddInt16Tile), one after the other ("read+kernel"), and with the reads
 // of the next tiles overlapping the kernel ("readahead+kernel", an
-// Int16Reader of depth 2); against today's float64 path ("float64",
-// Read and AddPixels). The file is in the page cache (just written), so
+// Int16Reader of depth 2); the same through tiles.Run as a job would
+// run it, with 1 or 2 workers, without and with tiles read ahead ("run");
+// against today's float64 path ("float64", Read and AddPixels). The file is in the page cache (just written), so
 // "read" is GDAL's copy out of it. Per tile figures are ms/tile:
 //
 //	go test -tags openblas -run XXX -bench Int16Read -benchtime 5x ./raster
@@ -94,6 +96,7 @@ func BenchmarkInt16Read(b *testing.B) {
 // its tiles, readers, buffers, and the tiles read beforehand.
 type benchRun struct {
 	b      *testing.B
+	s      *Stack
 	name   string
 	grid   []tiles.Tile
 	r      *Reader
@@ -107,7 +110,7 @@ type benchRun struct {
 
 func newBenchRun(b *testing.B, s *Stack, name string) *benchRun {
 	tw, th := tiles.SizeFor(s.Width, s.Height, s.BlockW, s.BlockH, s.Len(), tiles.DefaultBudget)
-	br := &benchRun{b: b, grid: tiles.NewGrid(s.Width, s.Height, tw, th).All()}
+	br := &benchRun{b: b, s: s, grid: tiles.NewGrid(s.Width, s.Height, tw, th).All()}
 	br.name = fmt.Sprintf("%s/tiles %dx%d/", name, tw, th)
 	var err1, err2 error
 	br.r, err1 = s.NewReader()
@@ -164,6 +167,10 @@ func (br *benchRun) passes() []struct {
 				acc.AddInt16Tile(it.X, it.Valid, it.Shift)
 			}
 		}},
+		{"run 1 worker", br.run(1, 0)},
+		{"run 1 worker ahead 2", br.run(1, 2)},
+		{"run 2 workers", br.run(2, 0)},
+		{"run 2 workers ahead 2", br.run(2, 2)},
 		{"float64", each(func(t tiles.Tile, acc *bands.Accumulator) {
 			if _, err := br.r.Read(t, br.wide, br.valid); err != nil {
 				br.b.Fatal(err)
@@ -173,6 +180,54 @@ func (br *benchRun) passes() []struct {
 		})},
 	}
 }
+
+// run returns a pass through tiles.Run as a job makes it: workers
+// (kernelWorker) that each read through their own Int16Reader, told of
+// their next tiles ahead (0: none, each read when Do asks for it), their
+// tiles' sums merged in tile order.
+func (br *benchRun) run(workers, ahead int) func(acc *bands.Accumulator) {
+	return func(acc *bands.Accumulator) {
+		p := len(br.shift)
+		pool := sync.Pool{New: func() any { return bands.NewExactAccumulator(p) }}
+		err := tiles.Run(context.Background(), br.grid, tiles.Options{Workers: workers, Ahead: ahead},
+			func(int) (tiles.Worker[*bands.Accumulator], error) {
+				ir, err := br.s.NewInt16Reader(ahead)
+				return &kernelWorker{ir: ir, pool: &pool}, err
+			},
+			func(_ tiles.Tile, a *bands.Accumulator) error {
+				acc.Merge(a)
+				pool.Put(a)
+				return nil
+			})
+		if err != nil {
+			br.b.Fatal(err)
+		}
+	}
+}
+
+// kernelWorker is a worker of tiles.Run that reads its tiles through an
+// Int16Reader, told of them ahead (tiles.Lookahead), and sums each with
+// the integer kernel.
+type kernelWorker struct {
+	ir   *Int16Reader
+	pool *sync.Pool
+}
+
+func (w *kernelWorker) Ahead(t tiles.Tile) { w.ir.Ahead(t) }
+
+func (w *kernelWorker) Do(ctx context.Context, t tiles.Tile) (*bands.Accumulator, error) {
+	it, err := w.ir.Read(ctx, t)
+	if err != nil {
+		return nil, err
+	}
+	defer w.ir.Release(it)
+	acc := w.pool.Get().(*bands.Accumulator)
+	acc.Reset()
+	acc.AddInt16Tile(it.X, it.Valid, it.Shift)
+	return acc, nil
+}
+
+func (w *kernelWorker) Close() error { return w.ir.Close() }
 
 // readAhead returns copies of the tiles of grid read through ir.
 func readAhead(b *testing.B, ir *Int16Reader, grid []tiles.Tile) []*Int16Tile {
