@@ -72,7 +72,15 @@ func Run[R any](ctx context.Context, tiles []Tile, opts Options, open func(worke
 	for range cap(tickets) {
 		tickets <- struct{}{}
 	}
-	next := make(chan int)
+	// With look-ahead the positions wait in a buffer (as many as there
+	// are tickets), so that a worker finds its next ones ready without
+	// waiting: handed over one at a time, a position was rarely ready
+	// when a worker looked, just after taking the one before.
+	buffered := 0
+	if opts.Ahead > 0 {
+		buffered = cap(tickets)
+	}
+	next := make(chan int, buffered)
 	results := make(chan result, 2*workers)
 
 	var (
@@ -108,7 +116,7 @@ func Run[R any](ctx context.Context, tiles []Tile, opts Options, open func(worke
 			}()
 			q := queue{next: next, ahead: opts.Ahead}
 			q.la, _ = wk.(Lookahead)
-			for pos, ok := q.take(tiles); ok; pos, ok = q.take(tiles) {
+			for pos, ok := q.take(tiles); ok && ctx.Err() == nil; pos, ok = q.take(tiles) {
 				val, err := wk.Do(ctx, tiles[pos])
 				if err != nil {
 					fail(err)
