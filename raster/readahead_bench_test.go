@@ -170,6 +170,7 @@ func (br *benchRun) passes() []struct {
 		{"run 1 worker", br.run(1, 0)},
 		{"run 1 worker ahead 2", br.run(1, 2)},
 		{"run 2 workers", br.run(2, 0)},
+		{"run 2 workers ahead 1", br.run(2, 1)},
 		{"run 2 workers ahead 2", br.run(2, 2)},
 		{"float64", each(func(t tiles.Tile, acc *bands.Accumulator) {
 			if _, err := br.r.Read(t, br.wide, br.valid); err != nil {
