@@ -57,10 +57,11 @@
 //
 // # Integer kernel
 //
-// AddInt16Tile and AddInt16Window take integer pixels band-sequentially
-// (each band's values of a tile consecutive, as int16 plus a per-band
-// shift: 8-bit data as they are, unsigned 16-bit data less 32768) and form
-// the same exact sums in integer arithmetic. Each band of the tile is
+// AddInt16Tile and AddInt16Window (and AddInt16Pairs, the shift
+// differences across the edge of two tiles) take integer pixels
+// band-sequentially (each band's values of a tile consecutive, as int16
+// plus a per-band shift: 8-bit data as they are, unsigned 16-bit data less
+// 32768) and form the same exact sums in integer arithmetic. Each band of the tile is
 // centred on the middle of its range, c = ⌊(min+max)/2⌋, which brings it
 // within ±32767 when its values span at most 65534; chunks of about 512
 // KiB of the centred rows, with a row of validity flags (0 or 1, giving the

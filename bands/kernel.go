@@ -177,6 +177,7 @@ type intScratch struct {
 	lim                 []int32 // (qb/4)² step limits of blocks of band pairs
 	ones, own, pairs    []bool
 	wide                []float64
+	edge                []int16 // two columns a band (AddInt16Pairs)
 }
 
 func newIntScratch(p int) *intScratch {

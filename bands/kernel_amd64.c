@@ -11,6 +11,42 @@
 
 #include "kernel_amd64.h"
 
+// extremes16 sets *lo and *hi to the least and greatest of the n values x[k]
+// with valid[k], or to INT16_MAX and INT16_MIN when there is none: sixteen
+// int16 lanes a step, invalid values replaced by the identity of min and
+// max. Plain values need no wider lanes, unlike differences.
+__attribute__((target("avx2"))) static void extremes16(const int16_t *x, ptrdiff_t n, const uint8_t *valid,
+                                                       int32_t *lo, int32_t *hi) {
+	const __m256i top = _mm256_set1_epi16(INT16_MAX), bottom = _mm256_set1_epi16(INT16_MIN);
+	__m256i vl = top, vh = bottom;
+	ptrdiff_t k = 0;
+	for (; k + 16 <= n; k += 16) {
+		__m256i v = _mm256_loadu_si256((const __m256i *)(x + k));
+		__m256i ok = _mm256_cvtepu8_epi16(_mm_loadu_si128((const __m128i *)(valid + k)));
+		ok = _mm256_sub_epi16(_mm256_setzero_si256(), ok); // 0 or all ones
+		vl = _mm256_min_epi16(vl, _mm256_blendv_epi8(top, v, ok));
+		vh = _mm256_max_epi16(vh, _mm256_blendv_epi8(bottom, v, ok));
+	}
+	__m128i l = _mm_min_epi16(_mm256_castsi256_si128(vl), _mm256_extracti128_si256(vl, 1));
+	__m128i h = _mm_max_epi16(_mm256_castsi256_si128(vh), _mm256_extracti128_si256(vh, 1));
+	int16_t ls[8], hs[8];
+	_mm_storeu_si128((__m128i *)ls, l);
+	_mm_storeu_si128((__m128i *)hs, h);
+	int32_t a = INT16_MAX, b = INT16_MIN;
+	for (int i = 0; i < 8; i++) {
+		a = ls[i] < a ? ls[i] : a;
+		b = hs[i] > b ? hs[i] : b;
+	}
+	for (; k < n; k++) {
+		if (valid[k]) {
+			a = x[k] < a ? x[k] : a;
+			b = x[k] > b ? x[k] : b;
+		}
+	}
+	*lo = a;
+	*hi = b;
+}
+
 // bf_extremes sets lo[b] and hi[b] to the least and greatest value of band
 // b over the pixels k < n with valid[k]: x[b*ld+k], or with off > 0 the
 // difference x[b*ld+k+off] - x[b*ld+k]. lo > hi for a band when no pixel is
@@ -24,21 +60,16 @@ __attribute__((target("avx2"))) ptrdiff_t bf_extremes(const int16_t *x, ptrdiff_
 	}
 	for (int b = 0; b < p; b++) {
 		const int16_t *xb = x + b * ld;
-		int32_t l = INT32_MAX, h = INT32_MIN;
 		if (off == 0) {
-			for (ptrdiff_t k = 0; k < n; k++) {
-				int32_t m = -(int32_t)valid[k], v = xb[k];
-				int32_t vl = (v & m) | (INT32_MAX & ~m), vh = (v & m) | (INT32_MIN & ~m);
-				l = vl < l ? vl : l;
-				h = vh > h ? vh : h;
-			}
-		} else {
-			for (ptrdiff_t k = 0; k < n; k++) {
-				int32_t m = -(int32_t)valid[k], v = (int32_t)xb[k + off] - xb[k];
-				int32_t vl = (v & m) | (INT32_MAX & ~m), vh = (v & m) | (INT32_MIN & ~m);
-				l = vl < l ? vl : l;
-				h = vh > h ? vh : h;
-			}
+			extremes16(xb, n, valid, lo + b, hi + b);
+			continue;
+		}
+		int32_t l = INT32_MAX, h = INT32_MIN;
+		for (ptrdiff_t k = 0; k < n; k++) {
+			int32_t m = -(int32_t)valid[k], v = (int32_t)xb[k + off] - xb[k];
+			int32_t vl = (v & m) | (INT32_MAX & ~m), vh = (v & m) | (INT32_MIN & ~m);
+			l = vl < l ? vl : l;
+			h = vh > h ? vh : h;
 		}
 		lo[b] = l;
 		hi[b] = h;

@@ -62,3 +62,43 @@ func BenchmarkKernel(b *testing.B) {
 func reportPixels(b *testing.B, n int) {
 	b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "pixels/s")
 }
+
+// BenchmarkNoiseWindow times the co-moments and the shift differences of
+// one tile of the noise pass of learn --method mnf by band count (p = 3,
+// 7, 12, 64, 224 and 425): a window 256 pixels wide with a halo row below
+// (both pair sets; the horizontal pairs at the tile's right edge are
+// AddInt16Pairs', outside), of 12-bit values, on the integer kernel
+// (AddInt16Window) against today's float64 path (AddWindow, pixel-major).
+// pixels/s counts the pixels the window owns.
+//
+//	go test -tags openblas -run XXX -bench NoiseWindow ./bands
+func BenchmarkNoiseWindow(b *testing.B) {
+	for _, p := range []int{3, 7, 12, 64, 224, 425} {
+		w, h := 256, 1<<16/256
+		if p > 64 {
+			h = 1 << 14 / 256
+		}
+		rnd := rand.New(rand.NewPCG(11, uint64(p)))
+		d := tileOf(w*(h+1), p, nil, func(k, b int) int32 { return int32(b*7) + rnd.Int32N(4096) })
+		valid := randomMask(rnd, w*(h+1), 0.98)
+		iw := Int16Window{X: d.x, Valid: valid, P: p, W: w, H: h + 1, OwnW: w, OwnH: h}
+		fw := Window{X: d.pixels(), Valid: valid, P: p, W: w, H: h + 1, OwnW: w, OwnH: h, Bound: 1 << 15}
+		mom, noise := NewExactAccumulator(p), NewExactAccumulator(p)
+		for _, path := range []struct {
+			name string
+			add  func()
+		}{
+			{"int16", func() { AddInt16Window(mom, noise, iw, Both) }},
+			{"float64", func() { AddWindow(mom, noise, fw, Both) }},
+		} {
+			b.Run(fmt.Sprintf("p=%d/%s", p, path.name), func(b *testing.B) {
+				for b.Loop() {
+					mom.Reset()
+					noise.Reset()
+					path.add()
+				}
+				reportPixels(b, w*h)
+			})
+		}
+	}
+}

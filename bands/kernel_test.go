@@ -322,3 +322,35 @@ func TestAddInt16Window(t *testing.T) {
 		}
 	})
 }
+
+// TestExtremes: the SIMD extremes pass gives the Go reference's least and
+// greatest valid values (or lo > hi with no valid pixel) for pixel counts
+// around the 16-value steps, values and their differences at the int16
+// limits, the extreme in the tail, and masks full, random and empty.
+func TestExtremes(t *testing.T) {
+	if len(simdISAs()) == 0 {
+		t.Skip("no SIMD path on this CPU or build")
+	}
+	rnd := rand.New(rand.NewPCG(7, 7))
+	for _, n := range []int{1, 15, 16, 17, 31, 33, 100, 1027} {
+		for _, off := range []int{0, 1, 3} {
+			for _, frac := range []float64{1, 0.5, 0} {
+				p := 3
+				x := make([]int16, p*(n+off))
+				for i := range x {
+					x[i] = []int16{-32768, 32767, int16(rnd.Int32N(65536) - 32768)}[rnd.IntN(3)]
+				}
+				x[(n+off)-1] = -32768 // band 0's last value: the extreme in the tail
+				tl := intTile{x: x, ld: n + off, p: p, n: n, off: off, valid: randomMask(rnd, n, frac)}
+				lo, hi, glo, ghi := make([]int32, p), make([]int32, p), make([]int32, p), make([]int32, p)
+				k, gk := extremesSIMD(tl, lo, hi), extremesGo(tl, glo, ghi)
+				for b := range p {
+					if k != gk || (gk > 0 && (lo[b] != glo[b] || hi[b] != ghi[b])) || (gk == 0 && lo[b] <= hi[b]) {
+						t.Fatalf("n=%d off=%d valid %.1f band %d: %d valid in [%d, %d], Go %d in [%d, %d]",
+							n, off, frac, b, k, lo[b], hi[b], gk, glo[b], ghi[b])
+					}
+				}
+			}
+		}
+	}
+}

@@ -4,11 +4,14 @@
 // file's, applies quality masks and calibration (band scale and offset, or
 // Landsat top-of-atmosphere reflectance from the product's MTL file), reads
 // tile windows of all selected bands into float64 buffers with a validity
-// mask, and writes GeoTIFF, Cloud Optimized GeoTIFF and GeoPackage outputs
-// atomically.
+// mask (or, for 8- and 16-bit integer bands, band-sequentially into int16
+// without widening: ReadInt16, and Int16Reader, which reads the next
+// windows ahead while the caller works on the current one), and writes
+// GeoTIFF, Cloud Optimized GeoTIFF and GeoPackage outputs atomically.
 //
 // GDAL dataset handles are not safe to share across goroutines: a Stack holds
-// only descriptions, and every worker opens its own Reader.
+// only descriptions, and every worker opens its own Reader (an Int16Reader's
+// reads run on a goroutine of tiles.Prefetch, one at a time).
 package raster
 
 /*

@@ -69,13 +69,11 @@ func (r *Reader) ReadInt16(t tiles.Tile, dst []int16, valid []bool) (int, error)
 		return 0, err
 	}
 	for b := range p {
-		if !r.hasND[b] {
-			continue
-		}
-		nd := r.nodata[b]
-		for i, v := range dst[b*n : b*n+n] {
-			if float64(int32(v)+shift[b]) == nd {
-				valid[i] = false
+		if nd, ok := storedNoData(r.hasND[b], r.nodata[b], shift[b]); ok {
+			for i, v := range dst[b*n : b*n+n] {
+				if v == nd {
+					valid[i] = false
+				}
 			}
 		}
 	}
@@ -104,9 +102,7 @@ func (r *Reader) readRunInt16(rn run, t tiles.Tile, dst []int16) error {
 		var err error
 		if u16 {
 			err = r.ds[rn.file].Read(t.X, t.Y, unsafe.Slice((*uint16)(unsafe.Pointer(&part[0])), len(part)), t.W, t.H, opts...)
-			for i := range part {
-				part[i] ^= math.MinInt16 // v − 32768
-			}
+			flipSign(part)
 		} else {
 			err = r.ds[rn.file].Read(t.X, t.Y, part, t.W, t.H, opts...)
 		}
@@ -135,4 +131,36 @@ func (r *Reader) maskValid(t tiles.Tile, valid []bool) error {
 		}
 	}
 	return nil
+}
+
+// storedNoData returns the int16 that a band's nodata value nd is stored
+// as, less the band's shift, and false when the band has none or nd is
+// no such value (a fraction, or out of range), so that no pixel matches.
+func storedNoData(has bool, nd float64, shift int32) (int16, bool) {
+	v := nd - float64(shift)
+	if !has || v != math.Trunc(v) || v < math.MinInt16 || v > math.MaxInt16 {
+		return 0, false
+	}
+	return int16(v), true
+}
+
+// flipSign turns unsigned 16-bit values read into v into v − 32768 by
+// flipping each one's top bit, four at a time as a uint64 once v is
+// aligned to 8 bytes (a loop of one value at a time took a third of the
+// read of a 7-band UInt16 tile).
+func flipSign(v []int16) {
+	for len(v) > 0 && uintptr(unsafe.Pointer(&v[0]))%8 != 0 {
+		v[0] ^= math.MinInt16
+		v = v[1:]
+	}
+	if len(v) == 0 {
+		return
+	}
+	words := unsafe.Slice((*uint64)(unsafe.Pointer(&v[0])), len(v)/4)
+	for i := range words {
+		words[i] ^= 0x8000_8000_8000_8000
+	}
+	for i := 4 * len(words); i < len(v); i++ {
+		v[i] ^= math.MinInt16
+	}
 }

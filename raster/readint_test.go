@@ -178,3 +178,55 @@ func TestInt16Shifts(t *testing.T) {
 		}
 	}
 }
+
+// TestFlipSign: every value becomes v − 32768 (its top bit flipped), for
+// slices of any length starting at any alignment; known by construction.
+func TestFlipSign(t *testing.T) {
+	buf := make([]int16, 40)
+	for start := range 4 {
+		for n := range 20 {
+			for i := range buf {
+				buf[i] = int16(i*2731 - 30000)
+			}
+			flipSign(buf[start : start+n])
+			for i, v := range buf {
+				want := int16(i*2731 - 30000)
+				if i >= start && i < start+n {
+					want ^= -32768
+				}
+				if v != want {
+					t.Fatalf("start %d length %d: value %d is %d, want %d", start, n, i, v, want)
+				}
+			}
+		}
+	}
+}
+
+// TestReadInt16NoData: nodata values at a type's limits, and values no
+// pixel of the type can hold (negative, fractional, beyond the range),
+// mark the pixels Read marks.
+func TestReadInt16NoData(t *testing.T) {
+	dir := t.TempDir()
+	for _, c := range []struct {
+		dtype  godal.DataType
+		lo, hi float64
+		nodata []float64
+	}{
+		{godal.UInt16, 0, 65535, []float64{0, 65535, 32768, -1, 0.5, 70000}},
+		{godal.Int16, -32768, 32767, []float64{-32768, 32767, 0, 40000, -1.5}},
+		{godal.Byte, 0, 255, []float64{0, 255, 256, -1}},
+	} {
+		a := defaultRaster()
+		a.dtype = c.dtype
+		a.values = func(x, y, b int) float64 { return []float64{c.lo, c.hi, (c.lo + c.hi + 1) / 2, c.lo + 1}[(x+2*y+b)%4] }
+		path := a.write(t, filepath.Join(dir, c.dtype.String()+".tif"))
+		for _, nd := range c.nodata {
+			s, err := Open([]string{path}, NoData([]float64{nd}))
+			if err != nil {
+				t.Fatal(err)
+			}
+			checkReadInt16(t, s, tiles.Tile{W: s.Width, H: s.Height})
+			s.Close()
+		}
+	}
+}

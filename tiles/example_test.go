@@ -40,3 +40,29 @@ func ExampleRun() {
 	// Output:
 	// 700000 <nil>
 }
+
+func ExamplePrefetch() {
+	// fetch stands for a read into a buffer it reuses; it runs on the
+	// Prefetch's own goroutine, one tile at a time.
+	fetch := func(t tiles.Tile, buf []int) ([]int, error) {
+		buf = buf[:0]
+		for i := range t.Pixels() {
+			buf = append(buf, t.Index*100+i)
+		}
+		return buf, nil
+	}
+	pf := tiles.NewPrefetch(2, fetch)
+	defer pf.Close()
+	g := tiles.NewGrid(4, 2, 2, 2)
+	for t := range g.Tiles() {
+		pf.Ahead(t) // cheap: the reads start at most 2 ahead of Get
+	}
+	for t := range g.Tiles() {
+		buf, err := pf.Get(context.Background(), t)
+		fmt.Println(t.Index, buf, err) // the next tile is read meanwhile
+		pf.Release(buf)
+	}
+	// Output:
+	// 0 [0 1 2 3] <nil>
+	// 1 [100 101 102 103] <nil>
+}

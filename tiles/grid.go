@@ -6,7 +6,10 @@
 // per-worker state (for example one GDAL dataset handle per worker), the work
 // done on one tile, and what to do with each result; Run does the rest. Because
 // results are delivered strictly in tile order, anything merged from them is
-// the same for any number of workers.
+// the same for any number of workers. Prefetch reads tiles ahead of their
+// use on a goroutine of its own, so that a worker's next reads overlap its
+// arithmetic on the current tile; Run tells a worker that implements
+// Lookahead which tiles it will be given (Options.Ahead).
 package tiles
 
 import (

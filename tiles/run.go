@@ -23,12 +23,27 @@ type Options struct {
 	// with the number of tiles delivered so far and the total. It runs on
 	// the delivering goroutine.
 	Progress func(done, total int)
+	// Ahead is how many tiles beyond the one it works on a worker that
+	// implements Lookahead is given in advance (0: none).
+	Ahead int
+}
+
+// Lookahead is implemented by a Worker that can start on its next tiles
+// before Do is called for them, typically reading them (see Prefetch).
+// With Options.Ahead > 0, Run calls Ahead with each tile a worker will be
+// given, up to Options.Ahead of them before their Do, and calls Do for
+// them in that order. Ahead runs on the worker's goroutine and must not
+// block for long.
+type Lookahead interface {
+	Ahead(t Tile)
 }
 
 // Run processes tiles with opts.Workers workers made by open, and calls
 // deliver with each tile's result strictly in the order of tiles, so that
 // whatever deliver merges is independent of the worker count. At most
-// 2 x workers results wait for delivery at any time, which bounds memory.
+// (2 + opts.Ahead) x workers tiles are in a worker's hands (being worked on
+// or given in advance) or wait for delivery at any time, which bounds
+// memory.
 //
 // Run stops at the first error from open, Do, deliver or Close, or when ctx
 // is cancelled, and returns that error (ctx.Err() for cancellation) after
@@ -53,11 +68,19 @@ func Run[R any](ctx context.Context, tiles []Tile, opts Options, open func(worke
 	// Tickets bound the number of tiles in flight or waiting: a worker takes
 	// one before it starts a tile, the deliverer gives it back after
 	// delivering that tile.
-	tickets := make(chan struct{}, 2*workers)
+	tickets := make(chan struct{}, (2+max(opts.Ahead, 0))*workers)
 	for range cap(tickets) {
 		tickets <- struct{}{}
 	}
-	next := make(chan int)
+	// With look-ahead the positions wait in a buffer (as many as there
+	// are tickets), so that a worker finds its next ones ready without
+	// waiting: handed over one at a time, a position was rarely ready
+	// when a worker looked, just after taking the one before.
+	buffered := 0
+	if opts.Ahead > 0 {
+		buffered = cap(tickets)
+	}
+	next := make(chan int, buffered)
 	results := make(chan result, 2*workers)
 
 	var (
@@ -91,7 +114,9 @@ func Run[R any](ctx context.Context, tiles []Tile, opts Options, open func(worke
 					mu.Unlock()
 				}
 			}()
-			for pos := range next {
+			q := queue{next: next, ahead: opts.Ahead}
+			q.la, _ = wk.(Lookahead)
+			for pos, ok := q.take(tiles); ok && ctx.Err() == nil; pos, ok = q.take(tiles) {
 				val, err := wk.Do(ctx, tiles[pos])
 				if err != nil {
 					fail(err)
@@ -168,4 +193,59 @@ deliver:
 	default:
 		return errors.Join(closeErrs...)
 	}
+}
+
+// queue is a worker's share of the tile positions the producer hands out:
+// the one it works on next and, for a Lookahead worker, up to ahead more,
+// each announced to it as it is taken from next.
+type queue struct {
+	next  <-chan int
+	la    Lookahead
+	ahead int
+	pos   []int
+}
+
+// take returns the position to work on next, false when there is none
+// left. It waits for one when it holds none; then, for a Lookahead
+// worker, it takes further positions that are ready at once (without
+// waiting, so as not to hold up the work at hand) up to ahead beyond it.
+func (q *queue) take(tiles []Tile) (int, bool) {
+	if len(q.pos) == 0 {
+		pos, ok := <-q.next
+		if !ok {
+			return 0, false
+		}
+		q.push(pos, tiles)
+	}
+	for q.la != nil && len(q.pos) <= q.ahead {
+		pos, ok := q.poll()
+		if !ok {
+			break
+		}
+		q.push(pos, tiles)
+	}
+	return q.pop(), true
+}
+
+// poll returns a position if one is ready now.
+func (q *queue) poll() (int, bool) {
+	select {
+	case pos, ok := <-q.next:
+		return pos, ok
+	default:
+		return 0, false
+	}
+}
+
+func (q *queue) push(pos int, tiles []Tile) {
+	q.pos = append(q.pos, pos)
+	if q.la != nil && q.ahead > 0 {
+		q.la.Ahead(tiles[pos])
+	}
+}
+
+func (q *queue) pop() int {
+	pos := q.pos[0]
+	q.pos = q.pos[1:]
+	return pos
 }
