@@ -66,9 +66,9 @@ func BasisTable(w io.Writer, s learn.BasisSummary, path string, all bool) {
 // predicted RMSE, the estimated bits per pixel and size ratio.
 func RateTable(w io.Writer, s learn.BasisSummary, rows int) {
 	fmt.Fprintln(w, "rate and distortion (PSNR peak: the largest band range in the basis; step: the coarsest that keeps k components):")
-	fmt.Fprintf(w, "%4s | %14s | %9s | %12s | %12s | %10s | %10s\n", "k", "trunc_rmse", "psnr_db", "step", "rmse", "bits/px", "size_ratio")
+	fmt.Fprintf(w, "%4s | %15s | %9s | %12s | %12s | %14s | %10s\n", "k", "truncation_rmse", "psnr_db", "step", "rmse", "bits_per_pixel", "size_ratio")
 	for _, r := range s.Rate[:min(rows, len(s.Rate))] {
-		fmt.Fprintf(w, "%4d | %14.6g | %9s | %12.6g | %12.6g | %10.2f | %10s\n", r.K, r.TruncationRMSE, Rate(r.PSNR, 2), r.Step, r.RMSE, r.BitsPerPixel, Rate(r.SizeRatio, 2))
+		fmt.Fprintf(w, "%4d | %15.6g | %9s | %12.6g | %12.6g | %14.2f | %10s\n", r.K, r.TruncationRMSE, Rate(r.PSNR, 2), r.Step, r.RMSE, r.BitsPerPixel, Rate(r.SizeRatio, 2))
 	}
 }
 
