@@ -4,6 +4,7 @@ go 1.26.0
 
 require (
 	github.com/airbusgeo/godal v0.0.18
+	github.com/santhosh-tekuri/jsonschema/v6 v6.0.3
 	github.com/schollz/progressbar/v3 v3.19.1
 	github.com/spf13/cobra v1.10.2
 	github.com/spf13/pflag v1.0.9

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bandfold/cmd/bandfold/internal/jobtest"
 	"bytes"
 	"crypto/sha256"
 	"encoding/json"
@@ -314,6 +315,7 @@ func checkBadCases(t *testing.T, dir string, tests []badCase) {
 			} else if len(obj) != 4 || obj["format"] != "bandfold-error" || obj["version"] != 1.0 || obj["error"] != msg || obj["exit_code"] != float64(tc.code) {
 				t.Errorf("with --json: stdout %s, want {\"format\": \"bandfold-error\", \"version\": 1, \"error\": %q, \"exit_code\": %d}", strings.TrimSpace(jout), msg, tc.code)
 			}
+			jobtest.ValidJSONIn(t, "../../docs/schemas", "error", []byte(jout))
 			if jerr != stderr {
 				t.Errorf("with --json: stderr %q, want %q as without it", jerr, stderr)
 			}

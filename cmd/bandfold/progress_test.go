@@ -10,6 +10,7 @@ import (
 	"time"
 
 	"bandfold/cmd/bandfold/internal/cli"
+	"bandfold/cmd/bandfold/internal/jobtest"
 )
 
 // TestProgressOffTerminal: bars are drawn only on a terminal; a pipe, a
@@ -37,6 +38,7 @@ func TestProgressOffTerminal(t *testing.T) {
 	if code != 0 || strings.ContainsAny(out+errs, "\r\x1b") || strings.Count(strings.TrimSpace(out), "\n") != 0 || strings.Contains(errs, "%") {
 		t.Errorf("with --json: exit %d; stdout %q; stderr %q", code, out, errs)
 	}
+	jobtest.ValidJSONIn(t, "../../docs/schemas", "result", []byte(out))
 	code, _, errs = bandfold(t, "learn", a, "--out", filepath.Join(dir, "c.json"), "--tile", "16")
 	lines := regexp.MustCompile(`(?m)^learn: co-moments \d+% \([0-9,]+ of 247 tiles\), \d+ s elapsed`).FindAllString(errs, -1)
 	if code != 0 || len(lines) < 2 || strings.ContainsAny(errs, "\r\x1b") {

@@ -111,7 +111,7 @@ func (d *Folder) writeManifest() error {
 	if err != nil {
 		return err
 	}
-	m := manifest{Format: manifestFormat, Files: []string{ManifestName}}
+	m := manifest{Format: manifestFormat, Version: 1, Files: []string{ManifestName}}
 	for _, e := range entries {
 		if e.Name() != ManifestName {
 			m.Files = append(m.Files, e.Name())

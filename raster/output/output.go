@@ -50,8 +50,9 @@ const ManifestName = "bandfold-output.json"
 const manifestFormat = "bandfold-output"
 
 type manifest struct {
-	Format string   `json:"format"`
-	Files  []string `json:"files"`
+	Format  string   `json:"format"`
+	Version int      `json:"version"`
+	Files   []string `json:"files"`
 }
 
 // Check refuses, before any work, a target file that cannot be written: a
