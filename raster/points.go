@@ -63,28 +63,10 @@ func PixelCentres(g Grid, pixels []int) (xs, ys, lons, lats []float64, err error
 	if g.Projection == "" || n == 0 {
 		return xs, ys, lons, lats, nil
 	}
-	src, err := godal.NewSpatialRefFromWKT(g.Projection, errLogger)
-	if err != nil {
-		return nil, nil, nil, nil, fmt.Errorf("read CRS: %w", err)
-	}
-	defer src.Close()
-	// WGS 84 as a PROJ string: longitude first, whatever the authority's
-	// axis order.
-	dst, err := godal.NewSpatialRefFromProj4("+proj=longlat +datum=WGS84 +no_defs", errLogger)
-	if err != nil {
-		return nil, nil, nil, nil, err
-	}
-	defer dst.Close()
-	tr, err := godal.NewTransform(src, dst, errLogger)
-	if err != nil {
-		return nil, nil, nil, nil, fmt.Errorf("transform to WGS 84: %w", err)
-	}
-	defer tr.Close()
 	copy(lons, xs)
 	copy(lats, ys)
-	ok := make([]bool, n)
-	if err := tr.TransformEx(lons, lats, make([]float64, n), ok); err != nil {
-		return nil, nil, nil, nil, fmt.Errorf("transform to WGS 84: %w", err)
+	if _, err := toWGS84(g.Projection, lons, lats); err != nil {
+		return nil, nil, nil, nil, err
 	}
 	return xs, ys, lons, lats, nil
 }

@@ -1,7 +1,10 @@
 package jobtest
 
 import (
+	"encoding/json"
+	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -28,10 +31,60 @@ func TestDocumentsMatchTheirSchemas(t *testing.T) {
 		t.Fatal(err)
 	}
 	ValidJSONFile(t, "timeline-summary", filepath.Join(tl, "timeline.json"))
+	for _, folder := range []string{chg, tl} {
+		checkItem(t, folder)
+	}
 
 	basis := filepath.Join(dir, "basis.json")
 	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{f.Before}, Out: basis})
 	ValidJSONFile(t, "basis", basis)
 
 	ValidJSON(t, "result", MarshalOf(t, jobkit.Doc("bandfold-learn-result")))
+}
+
+// checkItem checks the STAC Item of an output folder: it follows the
+// Item's required fields (docs/schemas/stac-item.schema.json, from the STAC
+// 1.0.0 specification), every asset exists, every file of the folder is an
+// asset, and its description carries the caution.
+func checkItem(t *testing.T, folder string) {
+	t.Helper()
+	path := filepath.Join(folder, "item.json")
+	ValidJSONFile(t, "stac-item", path)
+	var item struct {
+		Properties struct {
+			Description string  `json:"description"`
+			Start       string  `json:"start_datetime"`
+			Datetime    *string `json:"datetime"`
+		} `json:"properties"`
+		BBox   []float64 `json:"bbox"`
+		Assets map[string]struct {
+			Href string `json:"href"`
+		} `json:"assets"`
+	}
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := json.Unmarshal(data, &item); err != nil {
+		t.Fatal(err)
+	}
+	hrefs := map[string]bool{}
+	for key, a := range item.Assets {
+		if _, err := os.Stat(filepath.Join(folder, a.Href)); err != nil {
+			t.Errorf("%s: asset %s: %v", path, key, err)
+		}
+		hrefs[filepath.Clean(a.Href)] = true
+	}
+	entries, err := os.ReadDir(folder)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range entries {
+		if !hrefs[e.Name()] && e.Name() != "bandfold-output.json" {
+			t.Errorf("%s: %s is not an asset", path, e.Name())
+		}
+	}
+	if !strings.Contains(item.Properties.Description, jobkit.Caution) || item.Properties.Datetime != nil || item.Properties.Start == "" || len(item.BBox) != 4 {
+		t.Errorf("%s: %+v", path, item)
+	}
 }

@@ -2,7 +2,9 @@ package pairchange
 
 import (
 	"context"
+	"fmt"
 	"path/filepath"
+	"slices"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -63,7 +65,7 @@ func Change(ctx context.Context, env jobkit.Env, o ChangeOptions) (_ *changefold
 	steps := []jobkit.JobStep{
 		jobkit.Step("open", r.open), jobkit.Step("scan", r.Sample), jobkit.Step("normalize", r.Normalize), jobkit.Step("basis", r.FitBasis), jobkit.Step("model", r.fitModel),
 		jobkit.Step("map", r.mapPixels), jobkit.Step("sieve", r.sieve), jobkit.Step("change map", r.changeMap), jobkit.Step("patches", r.patches),
-		jobkit.Step("preview", r.preview), jobkit.Step("diagnostics", r.diagnostics), jobkit.Step("report", r.report), jobkit.Step("summary", r.summary),
+		jobkit.Step("preview", r.preview), jobkit.Step("diagnostics", r.diagnostics), jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary),
 	}
 	if err := jobkit.RunSteps(ctx, env, "change", steps); err != nil {
 		return nil, r.Dir.FinalNames(err)
@@ -226,6 +228,18 @@ func (r *changeRun) patches(context.Context) error {
 }
 
 // summary writes summary.json and moves the folder into place.
+// item writes item.json, the folder's STAC Item: the two dates, the
+// footprint, every output with its bands, and the caution.
+func (r *changeRun) item(context.Context) error {
+	desc := fmt.Sprintf("bandfold change between %s and %s. %s", r.Name(0), r.Name(1), jobkit.Caution)
+	files := append(slices.Clone(r.outputs), "summary.json")
+	if err := jobkit.FolderItem(r.Dir, files, r.before.Grid, r.Dates[0].Time, r.Dates[1].Time, desc); err != nil {
+		return err
+	}
+	r.outputs = append(r.outputs, "item.json")
+	return nil
+}
+
 func (r *changeRun) summary(context.Context) error {
 	r.outputs = append(r.outputs, "summary.json")
 	for _, name := range r.outputs {

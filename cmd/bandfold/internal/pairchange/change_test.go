@@ -20,7 +20,7 @@ import (
 
 // changeOutputs are the files of a change folder without --differences
 // and --pvalues.
-var changeOutputs = []string{"change.tif", "magnitude.tif", "changes.gpkg", "preview.png", "diagnostics.png", "report.html", "summary.json"}
+var changeOutputs = []string{"change.tif", "magnitude.tif", "changes.gpkg", "preview.png", "diagnostics.png", "report.html", "item.json", "summary.json"}
 
 // TestChangeCalibrationOnUnchangedLandsat: the real Landsat 7 subset
 // (Debian's r-cran-stars) against itself, each date with its own noise that

@@ -135,7 +135,7 @@ func Timeline(ctx context.Context, env jobkit.Env, o TimelineOptions) (_ *Timeli
 	steps := []jobkit.JobStep{
 		jobkit.Step("open", r.open), jobkit.Step("sample", r.Sample), jobkit.Step("normalize", r.Normalize), jobkit.Step("basis", r.FitBasis), jobkit.Step("models", r.FitModels),
 		jobkit.Step("map", r.mapPixels), jobkit.Step("sieve", r.sieve), jobkit.Step("classify", r.classify), jobkit.Step("patches", r.patches), jobkit.Step("figures", r.figures),
-		jobkit.Step("report", r.report), jobkit.Step("summary", r.summary),
+		jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary),
 	}
 	if err := jobkit.RunSteps(ctx, env, "timeline", steps); err != nil {
 		return nil, r.Dir.FinalNames(err)

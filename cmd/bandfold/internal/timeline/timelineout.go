@@ -9,6 +9,7 @@ import (
 	"image/png"
 	"math"
 	"path/filepath"
+	"slices"
 
 	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -161,6 +162,19 @@ func timelineReport(s *TimelineResult, images []report.NamedImage) *report.Repor
 	}
 	rep.Sections = []report.ReportSection{settings, results}
 	return rep
+}
+
+// item writes item.json, the folder's STAC Item: the first and last dates,
+// the footprint, every output with its bands, and the caution.
+func (r *timelineRun) item(context.Context) error {
+	last := len(r.Dates) - 1
+	desc := fmt.Sprintf("bandfold timeline of %d dates, %s to %s. %s", len(r.Dates), r.Dates[0].Label, r.Dates[last].Label, jobkit.Caution)
+	files := append(slices.Clone(r.outputs), "timeline.json")
+	if err := jobkit.FolderItem(r.Dir, files, r.Scenes[0].Grid, r.Dates[0].Time, r.Dates[last].Time, desc); err != nil {
+		return err
+	}
+	r.outputs = append(r.outputs, "item.json")
+	return nil
 }
 
 // summary writes timeline.json and moves the folder into place.
