@@ -30,7 +30,7 @@ type document interface {
 	validate() error
 }
 
-// readFile reads, decodes and validates the version 1 file of the given
+// readFile reads, decodes and validates the file of the given
 // format at path; kind names the file in errors.
 func readFile[T any, PT interface {
 	*T
@@ -49,7 +49,8 @@ func readFile[T any, PT interface {
 	return v, nil
 }
 
-// parse decodes and validates a version 1 or 2 file of the given format.
+// parse decodes and validates a file of the given format and a version
+// this package reads.
 func parse[T any, PT interface {
 	*T
 	document
@@ -78,7 +79,8 @@ func marshal(kind string, v document) ([]byte, error) {
 	return append(flattenLeaves(data), '\n'), nil
 }
 
-// decodeVersioned decodes a version 1 or 2 file of the given format into v,
+// decodeVersioned decodes a file of the given format and a version this
+// package reads into v,
 // rejecting unknown members and trailing data.
 func decodeVersioned(data []byte, format string, v any) error {
 	var head struct {
@@ -91,8 +93,8 @@ func decodeVersioned(data []byte, format string, v any) error {
 	if head.Format != format {
 		return fmt.Errorf("%w: format %q, want %q", ErrMalformed, head.Format, format)
 	}
-	if head.Version != 1 && head.Version != 2 {
-		return fmt.Errorf("%w %d of %s (this program reads versions 1 and 2)", ErrUnknownVersion, head.Version, format)
+	if head.Version < oldestVersion || head.Version > LatestVersion {
+		return fmt.Errorf("%w %d of %s (this program reads versions %d to %d)", ErrUnknownVersion, head.Version, format, oldestVersion, LatestVersion)
 	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()

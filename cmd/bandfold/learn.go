@@ -84,7 +84,7 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 	f.Float64Var(&fl.minSNR, "min-snr", 0, "with --method mnf, keep the components whose signal-to-noise ratio is at least this")
 	f.BoolVar(&fl.suggest, "suggest-exclude", false, fmt.Sprintf("list the bands whose estimated signal-to-noise ratio is below %g, without fitting", learn.SuggestSNR))
 	f.StringVar(&fl.wavelength, "wavelengths", "", "file of band centre wavelengths (one per line or a CSV column; unit nm or um in the header or after each value)")
-	f.StringVar(&fl.exclude, "exclude", "", `band numbers to drop before fitting, e.g. "104-113,150-170"`)
+	f.StringVar(&fl.exclude, "exclude", "", `band numbers to drop before fitting, counted within --bands when given, e.g. "104-113,150-170"`)
 	f.StringVar(&fl.excludeNM, "exclude-nm", "", `wavelength ranges in nm to drop before fitting, e.g. "1340-1450,1790-1970"`)
 	cmd.MarkFlagsMutuallyExclusive("out", "partial", "suggest-exclude")
 	cmd.MarkFlagsOneRequired("out", "partial", "suggest-exclude")

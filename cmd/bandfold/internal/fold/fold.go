@@ -188,7 +188,7 @@ const completeKey = "BANDFOLD_COMPLETE"
 // its bytes: the basis, the inputs (path, size, time), the bands, nodata
 // and masks, the components, type, format and creation options, and the
 // tool version. A batch rerun skips an output only on an exact match.
-func (f *folding) record(s *raster.Stack) (string, error) {
+func (f *folding) record(s *raster.Stack, in jobkit.Input) (string, error) {
 	fps, err := jobkit.Fingerprints([]*raster.Stack{s})
 	if err != nil {
 		return "", err
@@ -197,7 +197,6 @@ func (f *folding) record(s *raster.Stack) (string, error) {
 	for _, fp := range fps {
 		fmt.Fprintf(h, "input %s|%d|%s\n", fp.Path, fp.Size, fp.ModTime.Format(time.RFC3339Nano))
 	}
-	in := f.o.Input
 	fmt.Fprintf(h, "bands %v\nnodata %v\nmasks %q\ntile %d\n", in.Bands, in.NoData, maskRules(in.Masks), in.Tile)
 	fmt.Fprintf(h, "align %v %s\ncalibrate %s\n", in.Align, in.Resampling, in.Calibrate)
 	fmt.Fprintf(h, "format %s\nco %q\nversion %s\nbudget %+v\n", f.format, f.o.CreationOptions, f.env.Version, f.o.Budget)
@@ -218,7 +217,11 @@ func maskRules(rules []raster.MaskRule) []string {
 func (f *folding) scene(ctx context.Context, input, out string, batch bool) (FoldScene, error) {
 	start := time.Now()
 	res := FoldScene{Input: input, Output: out, Components: f.k, Type: f.dtype}
-	s, err := jobkit.OpenImage(input, f.o.Input.Options())
+	in, err := f.o.Input.ForBasis(f.basis, f.o.Basis, input)
+	if err != nil {
+		return res, err
+	}
+	s, err := jobkit.OpenImage(input, in.Options())
 	if err != nil {
 		return res, err
 	}
@@ -236,7 +239,7 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 	if err := jobkit.CheckBands(f.basis, f.o.Basis, s, jobkit.BandCheck{Selected: f.o.Input.Bands != nil, IgnoreNames: f.o.IgnoreBandNames}); err != nil {
 		return res, err
 	}
-	record, err := f.record(s)
+	record, err := f.record(s, in)
 	if err != nil {
 		return res, err
 	}

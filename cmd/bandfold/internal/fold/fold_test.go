@@ -229,6 +229,8 @@ func TestFoldUnfoldRefusals(t *testing.T) {
 	}
 	other := filepath.Join(dir, "other.tif")
 	jobtest.Synth(t, other, 6, 40, 30, 1)
+	four := filepath.Join(dir, "four.tif")
+	jobtest.Synth(t, four, 4, 40, 30, 1)
 	named := filepath.Join(dir, "named.tif")
 	jobtest.WriteNamed(t, named, other, []string{"a", "b", "c", "d", "e", "f"})
 	namedBasis := filepath.Join(dir, "named.json")
@@ -245,8 +247,11 @@ func TestFoldUnfoldRefusals(t *testing.T) {
 		usage  bool
 		want   []string
 	}{
-		{"band count", &fold.FoldOptions{Scenes: []string{jobtest.Landsat}, Basis: basis5}, nil, false,
-			[]string{"has 6 bands but the basis", "b5.json", "has 5"}},
+		// A basis fitted on --bands 1-5 of the 6-band subset takes those
+		// bands of a 6-band image (TestFoldTakesTheBasisBands); an image of
+		// 4 bands is refused.
+		{"band count", &fold.FoldOptions{Scenes: []string{four}, Basis: basis5}, nil, false,
+			[]string{"four.tif has 4 bands", "b5.json was fitted on bands 1-5 of a 6-band stack"}},
 		{"band names", &fold.FoldOptions{Scenes: []string{renamed}, Basis: namedBasis}, nil, false,
 			[]string{"has bands [a, b, c, e, d, f]", "[a, b, c, d, e, f]", "--ignore-band-names"}},
 		{"too many components", &fold.FoldOptions{Scenes: []string{jobtest.Landsat}, Basis: basis, Components: 7}, nil, true,

@@ -50,6 +50,8 @@ type BasisSummary struct {
 	SNR           []float64            `json:"snr,omitempty"`
 	WavelengthsNM []float64            `json:"wavelengths_nm,omitempty"`
 	Excluded      []transform.Excluded `json:"excluded,omitempty"`
+	// SourceBands are the bands of its stack the basis was fitted on.
+	SourceBands *transform.SourceBands `json:"source_bands,omitempty"`
 	// Rate is the rate–distortion table (inspect): per number of kept
 	// components, the truncation RMSE, its PSNR and the estimated bits per
 	// pixel at the matching step.
@@ -69,7 +71,7 @@ func Summarize(b *transform.Basis, path string) BasisSummary {
 	for _, band := range b.Bands {
 		s.BandNames = append(s.BandNames, band.Name)
 	}
-	s.Method, s.WavelengthsNM, s.Excluded = string(cmp.Or(b.Method, transform.PCA)), b.WavelengthsNM, b.Excluded
+	s.Method, s.WavelengthsNM, s.Excluded, s.SourceBands = string(cmp.Or(b.Method, transform.PCA)), b.WavelengthsNM, b.Excluded, b.SourceBands
 	if b.Method == transform.MNF {
 		s.SNR = transform.SNR(b.Eigenvalues)
 	}

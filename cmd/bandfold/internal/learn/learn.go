@@ -154,6 +154,10 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err != nil {
 		return nil, err
 	}
+	source, err := jobkit.SourceOf(opened[0], o.Input.Bands, sel.Numbers)
+	if err != nil {
+		return nil, err
+	}
 	sh := o.Shard.OrWhole()
 	sc := jobkit.NewScan(scenes, jobkit.TileGrid(o.Input.Tile), o.Stride, sh)
 	env.Logger().Debug("learn", "scenes", len(scenes), "bands", p, "tiles", len(sc.Items), "shard", sh.String())
@@ -174,13 +178,12 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	}
 	if o.Partial != "" {
 		part := &transform.Partial{
-			Format: transform.PartialFormat, Version: 1, Created: time.Now().UTC(),
+			Format: transform.PartialFormat, Version: transform.LatestVersion, Created: time.Now().UTC(),
 			Shard: sh.I, Shards: sh.N, TileSize: o.Input.Tile, Stride: o.Stride,
 			Mode: o.Mode, Bands: jobkit.BasisBands(scenes[0]), Inputs: inputs,
 			State: acc.State(), Tool: env.Version,
-			Method: o.Method, WavelengthsNM: sel.Wavelengths, Excluded: sel.Excluded,
+			Method: o.Method, WavelengthsNM: sel.Wavelengths, Excluded: sel.Excluded, SourceBands: source,
 		}
-		part.Version = 2
 		if noise != nil {
 			st := noise.State()
 			part.Noise, part.NoiseState = o.Noise.String(), &st
@@ -201,7 +204,7 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	}
 	b.Stride = o.Stride
 	b.Inputs = inputs
-	b.WavelengthsNM, b.Excluded = sel.Wavelengths, sel.Excluded
+	b.WavelengthsNM, b.Excluded, b.SourceBands = sel.Wavelengths, sel.Excluded, source
 	chooseSNR(b, o.Components, o.Variance, o.MinSNR)
 	if err := jobkit.WriteBasis(b, o.Out, o.Overwrite); err != nil {
 		return nil, err
@@ -266,7 +269,7 @@ func Merge(_ context.Context, env jobkit.Env, o MergeOptions) (_ *LearnResult, e
 	}
 	b.Stride = first.Stride
 	b.Inputs = first.Inputs
-	b.WavelengthsNM, b.Excluded = first.WavelengthsNM, first.Excluded
+	b.WavelengthsNM, b.Excluded, b.SourceBands = first.WavelengthsNM, first.Excluded, first.SourceBands
 	chooseSNR(b, o.Components, o.Variance, o.MinSNR)
 	if err := jobkit.WriteBasis(b, o.Out, o.Overwrite); err != nil {
 		return nil, err

@@ -1,0 +1,19 @@
+package raster
+
+// BandCount returns the number of bands of the files of a stack together:
+// the bands --bands counts, before any selection. It opens each file alone,
+// so files on other grids, and bands Open would refuse, are counted too.
+func BandCount(paths []string) (int, error) {
+	n := 0
+	for _, p := range paths {
+		ds, err := openDataset(p)
+		if err != nil {
+			return 0, err
+		}
+		n += len(ds.Bands())
+		if err := ds.Close(errLogger); err != nil {
+			return 0, err
+		}
+	}
+	return n, nil
+}
