@@ -299,14 +299,7 @@ func TestFoldUnfoldRefusals(t *testing.T) {
 // replaced; shards split the list.
 func TestBatchFoldSkipsCompleteOutputsAndGoesOnAfterFailures(t *testing.T) {
 	dir := t.TempDir()
-	var scenes []string
-	for i := range 3 {
-		p := filepath.Join(dir, fmt.Sprintf("scene%d.tif", i))
-		jobtest.Synth(t, p, 5, 64, 48, uint64(i+1))
-		scenes = append(scenes, p)
-	}
-	basis := filepath.Join(dir, "b.json")
-	jobtest.Learn(t, jobtest.TestEnv, learn.LearnOptions{Scenes: scenes[:1], Out: basis})
+	scenes, basis := synthScenes(t, dir, 3, 64, 48)
 	outDir := filepath.Join(dir, "out")
 	missing := filepath.Join(dir, "missing.tif")
 	list := filepath.Join(dir, "list.txt")
