@@ -11,6 +11,7 @@ import (
 	"os"
 	"reflect"
 	"strings"
+	"time"
 )
 
 var (
@@ -136,7 +137,24 @@ func jsonErr(data []byte, err error) error {
 	if key, ok := strings.CutPrefix(err.Error(), "json: unknown field "); ok {
 		return &malformedError{"unknown key " + key}
 	}
+	if msg, ok := timeErr(err); ok {
+		return &malformedError{msg}
+	}
 	return fmt.Errorf("%w: %w", ErrMalformed, err)
+}
+
+// timeErr says what is wrong with a date (created, inputs.mod_time) that
+// time.Time refused; encoding/json does not say which member it was.
+func timeErr(err error) (string, bool) {
+	const want = "a date and time (created, inputs.mod_time) must be a string like \"2024-05-01T10:30:00Z\""
+	var pe *time.ParseError
+	switch {
+	case errors.As(err, &pe):
+		return fmt.Sprintf("%s, got %q", want, pe.Value), true
+	case strings.HasPrefix(err.Error(), "Time.UnmarshalJSON"):
+		return want + ", got another kind of value", true
+	}
+	return "", false
 }
 
 // jsonWant names what a value of Go type t is in a JSON file.

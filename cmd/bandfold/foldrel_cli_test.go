@@ -7,6 +7,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"bandfold/raster"
 )
 
 // TestBasisBandsCLI (issue 24, item 3): a basis fitted on --bands 2-6
@@ -73,4 +75,59 @@ func TestBatchResumeDamagedCLI(t *testing.T) {
 	if code, stdout, _ := bandfold(t, batch...); code != 0 || !strings.Contains(stdout, `"skipped":1`) {
 		t.Errorf("rerun after the repair: exit %d, stdout %q", code, stdout)
 	}
+}
+
+// TestInertAndLeakyLearnOptionsCLI (issue 24, items 10 and 11): options
+// that cannot be right or would change nothing, and data whose sums
+// overflow, are one line on stderr naming the flag or file and the
+// problem, with exit 2 for the command line and 1 for the data, and
+// nothing is written. huge.tif holds values of 1e300 (their squares pass
+// the float64 range: known by construction); the scene is invented (demo
+// synth).
+func TestInertAndLeakyLearnOptionsCLI(t *testing.T) {
+	dir := t.TempDir()
+	scene, huge, part := filepath.Join(dir, "s.tif"), filepath.Join(dir, "huge.tif"), filepath.Join(dir, "p.json")
+	mustRun(t, "demo", "synth", "--bands", "4", "--width", "30", "--height", "20", "--out", scene, "--quiet")
+	mustRun(t, "learn", scene, "--partial", part, "--quiet")
+	values := make([]float64, 20*10*3)
+	for i := range values {
+		values[i] = float64(i%7-3) * 1e300
+	}
+	writeScene(t, huge, raster.Grid{Width: 20, Height: 10}, 3, "Float64", nil, values)
+	out := filepath.Join(dir, "b.json")
+	learn := func(extra ...string) []string { return append([]string{"learn", scene, "--out", out}, extra...) }
+	checkBadInputs(t, []badInput{
+		{"min-snr nan", learn("--method", "mnf", "--min-snr", "nan"), 2, "--min-snr NaN: want a finite number, 0 or more"},
+		{"min-snr inf", learn("--method", "mnf", "--min-snr", "inf"), 2, "--min-snr +Inf: want a finite number, 0 or more"},
+		{"min-snr with -k", learn("--method", "mnf", "--min-snr", "2", "-k", "3"), 2, "--min-snr with --components 3: give one rule"},
+		{"min-snr with --variance", learn("--method", "mnf", "--min-snr", "2", "--variance", "0.9"), 2, "--min-snr with --variance: give one rule"},
+		{"noise with pca", learn("--noise", "vertical"), 2, "--noise vertical with --method pca: principal components use no noise estimate"},
+		{"merge min-snr on pca partials", []string{"merge", part, "--out", out, "--min-snr", "2"}, 2, "--min-snr needs partials of learn --method mnf: " + part},
+		{"merge min-snr with --variance", []string{"merge", part, "--out", out, "--min-snr", "2", "--variance", "0.9"}, 2, "--min-snr with --variance"},
+		{"values of 1e300", []string{"learn", huge, "--out", out}, 1, huge + ": the values are too large to sum"},
+		{"values of 1e300, partial", []string{"learn", huge, "--partial", out}, 1, huge + ": the values are too large to sum"},
+	}, out)
+}
+
+// TestListFilesCLI (issue 24, item 10): a --list saved with a byte-order
+// mark is read (its first image found), and a list with a line too long
+// to be paths is one line naming the list and the line, exit 1, nothing
+// written (before: "bufio.Scanner: token too long").
+func TestListFilesCLI(t *testing.T) {
+	dir := t.TempDir()
+	scene, basis := filepath.Join(dir, "s.tif"), filepath.Join(dir, "b.json")
+	mustRun(t, "demo", "synth", "--bands", "4", "--width", "30", "--height", "20", "--out", scene, "--quiet")
+	mustRun(t, "learn", scene, "--out", basis, "--quiet")
+	bom, long := filepath.Join(dir, "bom.txt"), filepath.Join(dir, "long.txt")
+	writeFile(t, bom, "\ufeffs.tif\n")
+	writeFile(t, long, "s.tif\n"+strings.Repeat("a", 100000)+"\n")
+	outDir := filepath.Join(dir, "out")
+	mustRun(t, "fold", "--list", bom, "--basis", basis, "--out-dir", outDir, "--quiet")
+	if _, err := os.Stat(filepath.Join(outDir, "s.components.tif")); err != nil {
+		t.Errorf("list with a byte-order mark: %v", err)
+	}
+	newDir := filepath.Join(dir, "new")
+	checkBadInputs(t, []badInput{
+		{"line too long", []string{"fold", "--list", long, "--basis", basis, "--out-dir", newDir}, 1, "list " + long + ": line 2 is longer than 64 KiB"},
+	}, newDir)
 }

@@ -53,7 +53,9 @@ a large drop means the basis no longer fits and should be refitted.
 Many scenes (arguments, --list, or a glob) go to --out-dir, named by --name.
 Outputs that already exist, are complete and were written from the same
 inputs and options are skipped, so a rerun after a crash finishes only what
-is missing; a failing scene is reported and the rest go on. --shard I/N (or
+is missing; each is read back to check its values against the checksum
+recorded when it was written, and one found damaged (cut short, or changed)
+is written again. A failing scene is reported and the rest go on. --shard I/N (or
 auto, from a Slurm array or Kubernetes Indexed Job) takes every N-th scene of
 the list.`
 	// InspectHelp is the help of the inspect command.

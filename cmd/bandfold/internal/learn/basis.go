@@ -2,6 +2,7 @@ package learn
 
 import (
 	"cmp"
+	"math"
 
 	"bandfold/bands"
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -111,6 +112,19 @@ func chooseSNR(b *transform.Basis, k int, fraction, minSNR float64) {
 	jobkit.Choose(b, k, fraction)
 }
 
+// checkSNR refuses a --min-snr that cannot be right: not a finite number of
+// 0 or more (0: not given), or given with --components, which it would
+// override without a word.
+func checkSNR(minSNR float64, components int) error {
+	switch {
+	case !(minSNR >= 0) || math.IsInf(minSNR, 0):
+		return jobkit.Usagef("--min-snr %v: want a finite number, 0 or more", minSNR)
+	case minSNR > 0 && components > 0:
+		return jobkit.Usagef("--min-snr with --components %d: give one rule for the number of components", components)
+	}
+	return nil
+}
+
 // checkMNF refuses option combinations MNF cannot serve.
 func (o *LearnOptions) checkMNF() error {
 	switch {
@@ -118,8 +132,8 @@ func (o *LearnOptions) checkMNF() error {
 		return jobkit.Usagef("--method %q: want pca or mnf", o.Method)
 	case o.Noise != bands.Horizontal && o.Noise != bands.Vertical && o.Noise != bands.Both:
 		return jobkit.Usagef("--noise %v: want horizontal, vertical or both", o.Noise)
-	case o.MinSNR < 0:
-		return jobkit.Usagef("--min-snr %v: must not be negative", o.MinSNR)
+	case checkSNR(o.MinSNR, o.Components) != nil:
+		return checkSNR(o.MinSNR, o.Components)
 	case o.MinSNR > 0 && o.Method != transform.MNF:
 		return jobkit.Usagef("--min-snr needs --method mnf: principal components have no signal-to-noise ratio")
 	}

@@ -170,6 +170,9 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err != nil {
 		return nil, err
 	}
+	if err := sumsFinite(jobkit.DescribeAll(scenes), acc, noise); err != nil {
+		return nil, err
+	}
 	if o.SuggestExclude {
 		return suggest(acc, noise, scenes[0], sel.Numbers), nil
 	}
@@ -228,6 +231,9 @@ func Merge(_ context.Context, env jobkit.Env, o MergeOptions) (_ *LearnResult, e
 	if err := checkChoice(o.Components, o.Variance); err != nil {
 		return nil, err
 	}
+	if err := checkSNR(o.MinSNR, o.Components); err != nil {
+		return nil, err
+	}
 	if len(o.Parts) == 0 {
 		return nil, jobkit.Usagef("no partial file")
 	}
@@ -254,6 +260,9 @@ func Merge(_ context.Context, env jobkit.Env, o MergeOptions) (_ *LearnResult, e
 		return nil, fmt.Errorf("partials %s: %w", strings.Join(o.Parts, ", "), err)
 	}
 	first := parts[0]
+	if o.MinSNR > 0 && first.Method != transform.MNF {
+		return nil, jobkit.Usagef("--min-snr needs partials of learn --method mnf: %s holds principal component statistics, which have no signal-to-noise ratio", o.Parts[0])
+	}
 	if o.Components > len(first.Bands) {
 		return nil, jobkit.Usagef("--components %d: the partials have only %d bands", o.Components, len(first.Bands))
 	}
