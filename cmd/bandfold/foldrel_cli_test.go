@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 
@@ -130,4 +131,42 @@ func TestListFilesCLI(t *testing.T) {
 	checkBadInputs(t, []badInput{
 		{"line too long", []string{"fold", "--list", long, "--basis", basis, "--out-dir", newDir}, 1, "list " + long + ": line 2 is longer than 64 KiB"},
 	}, newDir)
+}
+
+// TestBadBasisFileCLI (issue 24, item 10): a basis file edited by hand is
+// refused in one line naming the file, the key and what is wrong with it,
+// exit 1, nothing written: a fraction where a count belongs (reported as
+// "json: cannot unmarshal number 2.5 into Go struct field
+// Basis.components" in the issue) and dates that are not dates (before:
+// Go's "Time.UnmarshalJSON" and its layout "2006-01-02T15:04:05Z07:00").
+// The basis is learnt from an invented scene (demo synth) and edited.
+func TestBadBasisFileCLI(t *testing.T) {
+	dir := t.TempDir()
+	scene, basis := filepath.Join(dir, "s.tif"), filepath.Join(dir, "b.json")
+	mustRun(t, "demo", "synth", "--bands", "4", "--width", "30", "--height", "20", "--out", scene, "--quiet")
+	mustRun(t, "learn", scene, "--out", basis, "--quiet")
+	data, err := os.ReadFile(basis)
+	if err != nil {
+		t.Fatal(err)
+	}
+	// edited writes the basis with the first match of pattern replaced.
+	edited := func(name, pattern, with string) string {
+		re := regexp.MustCompile(pattern)
+		if !re.Match(data) {
+			t.Fatalf("%s: no %s in %s", name, pattern, basis)
+		}
+		path := filepath.Join(dir, name+".json")
+		writeFile(t, path, re.ReplaceAllString(string(data), with))
+		return path
+	}
+	fraction := edited("fraction", `"components": \d+`, `"components": 2.5`)
+	yesterday := edited("yesterday", `"created": "[^"]*"`, `"created": "yesterday"`)
+	number := edited("number", `"mod_time": "[^"]*"`, `"mod_time": 5`)
+	out := filepath.Join(dir, "c.tif")
+	fold := func(b string) []string { return []string{"fold", scene, "--basis", b, "--out", out} }
+	checkBadInputs(t, []badInput{
+		{"components 2.5", fold(fraction), 1, "basis " + fraction + ": components must be a whole number, got 2.5"},
+		{"created in words", fold(yesterday), 1, "basis " + yesterday + `: a date and time (created, inputs.mod_time) must be a string like "2024-05-01T10:30:00Z", got "yesterday"`},
+		{"mod_time a number", fold(number), 1, "basis " + number + ": a date and time (created, inputs.mod_time) must be a string"},
+	}, out)
 }
