@@ -22,17 +22,24 @@ const (
 type SourceBands struct {
 	// Count is the number of bands of that stack: every band of its files,
 	// in order, as --bands counts them.
-	Count int `json:"count"`
+	Count int `json:"count,omitempty"`
 	// Numbers are the 1-based numbers there of the basis's bands, in the
 	// basis's order: what --bands selected less what --exclude dropped.
-	Numbers []int `json:"numbers"`
+	Numbers []int `json:"numbers,omitempty"`
+	// Names, instead of Count and Numbers, are the names --bands chose the
+	// basis's bands by ("B02", "B8A"), in the basis's order, less what
+	// --exclude dropped.
+	Names []string `json:"names,omitempty"`
 }
 
 // String describes s for people: "bands 2,4-6 of 6" (nil: "bands not
 // recorded"; a Count of 0: "of a stack of unknown size").
 func (s *SourceBands) String() string {
-	if s == nil {
+	switch {
+	case s == nil:
 		return "bands not recorded"
+	case s.Names != nil:
+		return "bands named " + strings.Join(s.Names, ",")
 	}
 	of := fmt.Sprintf("of %d", s.Count)
 	if s.Count == 0 {
@@ -62,6 +69,12 @@ func FormatBandRanges(ns []int) string {
 
 // check checks s against the p bands of its basis or partial.
 func (s *SourceBands) check(p int) error {
+	if s.Names != nil {
+		if len(s.Names) != p || s.Count != 0 || s.Numbers != nil || slices.Contains(s.Names, "") {
+			return fmt.Errorf("source_bands: names must be %d band names, without count or numbers", p)
+		}
+		return nil
+	}
 	if len(s.Numbers) != p {
 		return fmt.Errorf("source_bands has %d numbers for %d bands", len(s.Numbers), p)
 	}
@@ -80,6 +93,9 @@ func (s *SourceBands) check(p int) error {
 
 // all reports whether s takes every band of its stack in order.
 func (s *SourceBands) all() bool {
+	if s.Names != nil {
+		return false
+	}
 	for i, n := range s.Numbers {
 		if n != i+1 {
 			return false
@@ -99,7 +115,7 @@ func (b *Basis) Selection() (sel SourceBands, ok bool) {
 	if b.SourceBands != nil {
 		return *b.SourceBands, !b.SourceBands.all()
 	}
-	if len(b.Excluded) == 0 {
+	if len(b.Excluded) == 0 || b.Version >= 3 {
 		return SourceBands{}, false
 	}
 	oneFile := !slices.ContainsFunc(b.Bands, func(bd Band) bool { return bd.Source != b.Bands[0].Source })

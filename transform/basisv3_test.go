@@ -40,6 +40,9 @@ func TestSourceBandsRoundTrip(t *testing.T) {
 		{"number 0", func(b *Basis) { b.SourceBands.Numbers = []int{0, 4} }, "band number 0 is not one of 1..5 once"},
 		{"number beyond count", func(b *Basis) { b.SourceBands.Numbers = []int{2, 6} }, "band number 6 is not one of 1..5 once"},
 		{"number twice", func(b *Basis) { b.SourceBands.Numbers = []int{4, 4} }, "band number 4 is not one of 1..5 once"},
+		{"names", func(b *Basis) { b.SourceBands = &SourceBands{Names: []string{"B02", "B8A"}} }, ""},
+		{"names and numbers", func(b *Basis) { b.SourceBands.Names = []string{"B02", "B8A"} }, "names must be 2 band names, without count or numbers"},
+		{"one name for two bands", func(b *Basis) { b.SourceBands = &SourceBands{Names: []string{"B02"}} }, "names must be 2 band names"},
 	} {
 		b := v3Basis()
 		tc.edit(b)
@@ -74,12 +77,14 @@ func TestSelection(t *testing.T) {
 		{"version 3, some bands", Basis{SourceBands: &SourceBands{Count: 6, Numbers: []int{2, 4}}}, SourceBands{Count: 6, Numbers: []int{2, 4}}, true},
 		{"version 3, every band", Basis{SourceBands: &SourceBands{Count: 2, Numbers: []int{1, 2}}}, SourceBands{Count: 2, Numbers: []int{1, 2}}, false},
 		{"version 3, reordered", Basis{SourceBands: &SourceBands{Count: 2, Numbers: []int{2, 1}}}, SourceBands{Count: 2, Numbers: []int{2, 1}}, true},
+		{"version 3, by name", Basis{SourceBands: &SourceBands{Names: []string{"B02", "B8A"}}}, SourceBands{Names: []string{"B02", "B8A"}}, true},
+		{"version 3 without source bands", Basis{Version: 3, Bands: two("a.tif", "a.tif", 3, 5), Excluded: excl}, SourceBands{}, false},
 		{"version 2, one file", Basis{Bands: two("a.tif", "a.tif", 3, 5), Excluded: excl}, SourceBands{Numbers: []int{3, 5}}, true},
 		{"version 2, two files", Basis{Bands: two("a.tif", "b.tif", 1, 1), Excluded: excl}, SourceBands{Count: 3, Numbers: []int{1, 3}}, true},
 		{"version 2, nothing excluded", Basis{Bands: two("a.tif", "a.tif", 3, 5)}, SourceBands{}, false},
 	} {
 		got, ok := tc.b.Selection()
-		if ok != tc.ok || got.Count != tc.want.Count || !slices.Equal(got.Numbers, tc.want.Numbers) {
+		if ok != tc.ok || got.Count != tc.want.Count || !slices.Equal(got.Numbers, tc.want.Numbers) || !slices.Equal(got.Names, tc.want.Names) {
 			t.Errorf("%s: %+v %v, want %+v %v", tc.name, got, ok, tc.want, tc.ok)
 		}
 	}

@@ -10,7 +10,8 @@ import (
 
 // ForBasis is in with the basis's calibration (WithBasis) and, when the
 // user chose no bands, the bands of the image arg that the basis, read from
-// path, was fitted on (transform.Basis.Selection):
+// path, was fitted on (transform.Basis.Selection): those of the names it
+// was chosen by, or by number:
 //
 //   - an image with as many bands as the stack the basis was fitted on (or,
 //     for an older basis that does not say how many, with bands up to the
@@ -24,11 +25,15 @@ import (
 // as before.
 func (in Input) ForBasis(b *transform.Basis, path, arg string) (Input, error) {
 	in, err := in.WithBasis(b, path)
-	if err != nil || in.Bands != nil {
+	if err != nil || in.Bands != nil || in.BandNames != nil {
 		return in, err
 	}
 	sel, ok := b.Selection()
 	if !ok {
+		return in, nil
+	}
+	if sel.Names != nil {
+		in.BandNames = sel.Names
 		return in, nil
 	}
 	n, err := raster.BandCount(SplitStack(arg))
@@ -121,16 +126,28 @@ func cutBandMatch(have raster.Band, want transform.Band, wantNM float64) int {
 
 // SourceOf records which bands of its stack a basis fitted on s keeps:
 // numbers are the 1-based positions of the kept bands in s (what --exclude
-// left), selected the --bands selection s was opened with (nil: all).
-func SourceOf(s *raster.Stack, selected, numbers []int) (*transform.SourceBands, error) {
+// left), and in says how s was opened: by the band names or numbers of
+// --bands, or whole.
+func SourceOf(s *raster.Stack, in Input, numbers []int) (*transform.SourceBands, error) {
+	if in.BandNames != nil {
+		src := &transform.SourceBands{}
+		for _, n := range numbers {
+			name := s.Bands[n-1].Name
+			if len(in.BandNames) == s.Len() {
+				name = in.BandNames[n-1] // as typed, which selects it again
+			}
+			src.Names = append(src.Names, name)
+		}
+		return src, nil
+	}
 	count, err := raster.BandCount(s.Paths)
 	if err != nil {
 		return nil, err
 	}
 	src := &transform.SourceBands{Count: count}
 	for _, n := range numbers {
-		if selected != nil {
-			n = selected[n-1]
+		if in.Bands != nil {
+			n = in.Bands[n-1]
 		}
 		src.Numbers = append(src.Numbers, n)
 	}

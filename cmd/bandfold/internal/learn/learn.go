@@ -154,7 +154,7 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err != nil {
 		return nil, err
 	}
-	source, err := jobkit.SourceOf(opened[0], o.Input.Bands, sel.Numbers)
+	source, err := jobkit.SourceOf(opened[0], o.Input, sel.Numbers)
 	if err != nil {
 		return nil, err
 	}
