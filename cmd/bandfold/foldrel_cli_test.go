@@ -6,6 +6,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -46,9 +47,8 @@ func TestBasisBandsCLI(t *testing.T) {
 // synth); the counts are known by construction.
 func TestBatchResumeDamagedCLI(t *testing.T) {
 	dir := t.TempDir()
-	scene, basis, list := filepath.Join(dir, "s.tif"), filepath.Join(dir, "b.json"), filepath.Join(dir, "list.txt")
-	mustRun(t, "demo", "synth", "--bands", "5", "--width", "64", "--height", "48", "--out", scene, "--quiet")
-	mustRun(t, "learn", scene, "--out", basis, "--quiet")
+	_, basis := synthScene(t, dir, 5, 64, 48)
+	list := filepath.Join(dir, "list.txt")
 	if err := os.WriteFile(list, []byte("s.tif\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
@@ -87,15 +87,15 @@ func TestBatchResumeDamagedCLI(t *testing.T) {
 // synth).
 func TestInertAndLeakyLearnOptionsCLI(t *testing.T) {
 	dir := t.TempDir()
-	scene, huge, part := filepath.Join(dir, "s.tif"), filepath.Join(dir, "huge.tif"), filepath.Join(dir, "p.json")
-	mustRun(t, "demo", "synth", "--bands", "4", "--width", "30", "--height", "20", "--out", scene, "--quiet")
+	scene, _ := synthScene(t, dir, 4, 30, 20)
+	huge, part := filepath.Join(dir, "huge.tif"), filepath.Join(dir, "p.json")
 	mustRun(t, "learn", scene, "--partial", part, "--quiet")
 	values := make([]float64, 20*10*3)
 	for i := range values {
 		values[i] = float64(i%7-3) * 1e300
 	}
 	writeScene(t, huge, raster.Grid{Width: 20, Height: 10}, 3, "Float64", nil, values)
-	out := filepath.Join(dir, "b.json")
+	out := filepath.Join(dir, "new.json")
 	learn := func(extra ...string) []string { return append([]string{"learn", scene, "--out", out}, extra...) }
 	checkBadInputs(t, []badInput{
 		{"min-snr nan", learn("--method", "mnf", "--min-snr", "nan"), 2, "--min-snr NaN: want a finite number, 0 or more"},
@@ -116,9 +116,7 @@ func TestInertAndLeakyLearnOptionsCLI(t *testing.T) {
 // written (before: "bufio.Scanner: token too long").
 func TestListFilesCLI(t *testing.T) {
 	dir := t.TempDir()
-	scene, basis := filepath.Join(dir, "s.tif"), filepath.Join(dir, "b.json")
-	mustRun(t, "demo", "synth", "--bands", "4", "--width", "30", "--height", "20", "--out", scene, "--quiet")
-	mustRun(t, "learn", scene, "--out", basis, "--quiet")
+	_, basis := synthScene(t, dir, 4, 30, 20)
 	bom, long := filepath.Join(dir, "bom.txt"), filepath.Join(dir, "long.txt")
 	writeFile(t, bom, "\ufeffs.tif\n")
 	writeFile(t, long, "s.tif\n"+strings.Repeat("a", 100000)+"\n")
@@ -142,9 +140,7 @@ func TestListFilesCLI(t *testing.T) {
 // The basis is learnt from an invented scene (demo synth) and edited.
 func TestBadBasisFileCLI(t *testing.T) {
 	dir := t.TempDir()
-	scene, basis := filepath.Join(dir, "s.tif"), filepath.Join(dir, "b.json")
-	mustRun(t, "demo", "synth", "--bands", "4", "--width", "30", "--height", "20", "--out", scene, "--quiet")
-	mustRun(t, "learn", scene, "--out", basis, "--quiet")
+	scene, basis := synthScene(t, dir, 4, 30, 20)
 	data, err := os.ReadFile(basis)
 	if err != nil {
 		t.Fatal(err)
@@ -169,4 +165,15 @@ func TestBadBasisFileCLI(t *testing.T) {
 		{"created in words", fold(yesterday), 1, "basis " + yesterday + `: a date and time (created, inputs.mod_time) must be a string like "2024-05-01T10:30:00Z", got "yesterday"`},
 		{"mod_time a number", fold(number), 1, "basis " + number + ": a date and time (created, inputs.mod_time) must be a string"},
 	}, out)
+}
+
+// synthScene writes an invented scene of the given bands and size with
+// demo synth into dir as s.tif and learns its basis into b.json, both
+// returned.
+func synthScene(t *testing.T, dir string, bands, width, height int) (scene, basis string) {
+	t.Helper()
+	scene, basis = filepath.Join(dir, "s.tif"), filepath.Join(dir, "b.json")
+	mustRun(t, "demo", "synth", "--bands", strconv.Itoa(bands), "--width", strconv.Itoa(width), "--height", strconv.Itoa(height), "--out", scene, "--quiet")
+	mustRun(t, "learn", scene, "--out", basis, "--quiet")
+	return scene, basis
 }
