@@ -99,13 +99,13 @@ func (f Fingerprint) String() string {
 }
 
 // Basis is a fitted principal component (or minimum noise fraction) basis,
-// stored as a JSON basis file ("format": "bandfold-basis", "version": 1 or
-// 2; version 2 adds the method, the noise covariance, wavelengths and the
-// excluded bands). Vectors and matrices are indexed
+// stored as a JSON basis file ("format": "bandfold-basis", "version": 1 to
+// 3; version 2 adds the method, the noise covariance, wavelengths and the
+// excluded bands, version 3 the source bands). Vectors and matrices are indexed
 // by band in the order of Bands; p = len(Bands).
 type Basis struct {
-	// Format is always BasisFormat; Version is 2 for bases written now, 1
-	// for older files.
+	// Format is always BasisFormat; Version is LatestVersion for bases
+	// written now, 1 or 2 for older files.
 	Format  string `json:"format"`
 	Version int    `json:"version"`
 	// Tool is the version of the program that wrote the basis.
@@ -149,6 +149,10 @@ type Basis struct {
 	NoisePairs      int64       `json:"noise_pairs,omitempty"`
 	WavelengthsNM   []float64   `json:"wavelengths_nm,omitempty"`
 	Excluded        []Excluded  `json:"excluded,omitempty"`
+
+	// SourceBands, version 3, records which bands of the stack it was
+	// fitted on the basis kept (see basisv3.go); absent from older files.
+	SourceBands *SourceBands `json:"source_bands,omitempty"`
 }
 
 // NewBasis fits a basis to band statistics: count valid pixels with band
@@ -181,7 +185,7 @@ func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetr
 	}
 	b := &Basis{
 		Format:     BasisFormat,
-		Version:    2,
+		Version:    LatestVersion,
 		Method:     PCA,
 		Created:    time.Now().UTC(),
 		Mode:       mode,
@@ -256,7 +260,8 @@ func (b *Basis) setDecomposition(d Decomposition, matrix, value string) error {
 
 // ReadBasis reads and checks the basis file at path. Errors name the file and
 // wrap ErrMalformed for a file that is not a well-formed, self-consistent
-// version 1 basis, or ErrUnknownVersion for another version.
+// basis of version 1 to LatestVersion, or ErrUnknownVersion for another
+// version.
 func ReadBasis(path string) (*Basis, error) {
 	return readFile[Basis]("basis", BasisFormat, path)
 }

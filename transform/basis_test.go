@@ -187,7 +187,7 @@ func TestReadBasisRejects(t *testing.T) {
 		data []byte
 		want error
 	}{
-		{"version 3", editJSON(t, func(m map[string]any) { m["version"] = 3 }), ErrUnknownVersion},
+		{"version 4", editJSON(t, func(m map[string]any) { m["version"] = 4 }), ErrUnknownVersion},
 		{"no version", editJSON(t, func(m map[string]any) { delete(m, "version") }), ErrUnknownVersion},
 		{"format", editJSON(t, func(m map[string]any) { m["format"] = PartialFormat }), ErrMalformed},
 		{"not JSON", []byte("bandfold-basis v1"), ErrMalformed},

@@ -17,19 +17,29 @@ type Excluded struct {
 	Reason       string  `json:"reason"`
 }
 
-// checkVersion checks the version and the members only version 2 has:
-// version 1 files carry none of them; version 2 ones name their method, an
-// MNF basis carries a p×p noise covariance and its pair count, wavelengths
-// (when given) are one per band, finite, positive and increasing.
+// checkVersion checks the version and the members later versions add:
+// version 1 files carry none of them; version 2 and 3 ones name their
+// method, an MNF basis carries a p×p noise covariance and its pair count,
+// wavelengths (when given) are one per band, finite, positive and
+// increasing; only version 3 has source bands, one number per band.
 func (b *Basis) checkVersion() error {
 	p := len(b.Bands)
 	switch b.Version {
 	case 1:
-		if b.Method != "" || b.NoiseCovariance != nil || b.NoisePairs != 0 || b.WavelengthsNM != nil || b.Excluded != nil {
-			return fmt.Errorf("version 1 with version 2 members (method, noise_covariance, noise_pairs, wavelengths_nm, excluded)")
+		if b.Method != "" || b.NoiseCovariance != nil || b.NoisePairs != 0 || b.WavelengthsNM != nil || b.Excluded != nil || b.SourceBands != nil {
+			return fmt.Errorf("version 1 with members of later versions (method, noise_covariance, noise_pairs, wavelengths_nm, excluded, source_bands)")
 		}
 		return nil
 	case 2:
+		if b.SourceBands != nil {
+			return fmt.Errorf("version 2 with source_bands, a version 3 member")
+		}
+	case 3:
+		if b.SourceBands != nil {
+			if err := b.SourceBands.check(p); err != nil {
+				return err
+			}
+		}
 	default:
 		return fmt.Errorf("%w %d", ErrUnknownVersion, b.Version)
 	}

@@ -11,6 +11,7 @@ import (
 	"os"
 	"reflect"
 	"strings"
+	"time"
 )
 
 var (
@@ -30,7 +31,7 @@ type document interface {
 	validate() error
 }
 
-// readFile reads, decodes and validates the version 1 file of the given
+// readFile reads, decodes and validates the file of the given
 // format at path; kind names the file in errors.
 func readFile[T any, PT interface {
 	*T
@@ -49,7 +50,8 @@ func readFile[T any, PT interface {
 	return v, nil
 }
 
-// parse decodes and validates a version 1 or 2 file of the given format.
+// parse decodes and validates a file of the given format and a version
+// this package reads.
 func parse[T any, PT interface {
 	*T
 	document
@@ -78,7 +80,8 @@ func marshal(kind string, v document) ([]byte, error) {
 	return append(flattenLeaves(data), '\n'), nil
 }
 
-// decodeVersioned decodes a version 1 or 2 file of the given format into v,
+// decodeVersioned decodes a file of the given format and a version this
+// package reads into v,
 // rejecting unknown members and trailing data.
 func decodeVersioned(data []byte, format string, v any) error {
 	var head struct {
@@ -91,8 +94,8 @@ func decodeVersioned(data []byte, format string, v any) error {
 	if head.Format != format {
 		return fmt.Errorf("%w: format %q, want %q", ErrMalformed, head.Format, format)
 	}
-	if head.Version != 1 && head.Version != 2 {
-		return fmt.Errorf("%w %d of %s (this program reads versions 1 and 2)", ErrUnknownVersion, head.Version, format)
+	if head.Version < oldestVersion || head.Version > LatestVersion {
+		return fmt.Errorf("%w %d of %s (this program reads versions %d to %d)", ErrUnknownVersion, head.Version, format, oldestVersion, LatestVersion)
 	}
 	dec := json.NewDecoder(bytes.NewReader(data))
 	dec.DisallowUnknownFields()
@@ -134,7 +137,24 @@ func jsonErr(data []byte, err error) error {
 	if key, ok := strings.CutPrefix(err.Error(), "json: unknown field "); ok {
 		return &malformedError{"unknown key " + key}
 	}
+	if msg, ok := timeErr(err); ok {
+		return &malformedError{msg}
+	}
 	return fmt.Errorf("%w: %w", ErrMalformed, err)
+}
+
+// timeErr says what is wrong with a date (created, inputs.mod_time) that
+// time.Time refused; encoding/json does not say which member it was.
+func timeErr(err error) (string, bool) {
+	const want = "a date and time (created, inputs.mod_time) must be a string like \"2024-05-01T10:30:00Z\""
+	var pe *time.ParseError
+	switch {
+	case errors.As(err, &pe):
+		return fmt.Sprintf("%s, got %q", want, pe.Value), true
+	case strings.HasPrefix(err.Error(), "Time.UnmarshalJSON"):
+		return want + ", got another kind of value", true
+	}
+	return "", false
 }
 
 // jsonWant names what a value of Go type t is in a JSON file.

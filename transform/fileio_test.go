@@ -96,13 +96,20 @@ func TestReadFileInUserWords(t *testing.T) {
 		{"unknown key", editJSON(t, func(m map[string]any) { m["eigenvalue"] = 1 }), `unknown key "eigenvalue"`},
 		{"not JSON", []byte("{\n  \"format\": x\n}"), "not JSON at line 2, column 13"},
 		{"truncated", good[:len(good)/2], "truncated"},
+		// Issue 24, item 10: time.Time's own errors ("Time.UnmarshalJSON:
+		// input is not a JSON string", "parsing time ... as
+		// \"2006-01-02T15:04:05Z07:00\"") named no key and Go's layout.
+		{"date not a string", editJSON(t, func(m map[string]any) { m["created"] = 5 }), `a date and time (created, inputs.mod_time) must be a string like "2024-05-01T10:30:00Z", got another kind of value`},
+		{"date in words", editJSON(t, func(m map[string]any) { m["created"] = "yesterday" }), `must be a string like "2024-05-01T10:30:00Z", got "yesterday"`},
+		{"input date", editJSON(t, func(m map[string]any) { m["inputs"].([]any)[0].(map[string]any)["mod_time"] = "2024-13-01" }), `got "2024-13-01"`},
 	} {
 		path := filepath.Join(dir, "x.json")
 		if err := os.WriteFile(path, tc.data, 0o644); err != nil {
 			t.Fatal(err)
 		}
 		_, err := ReadBasis(path)
-		if !errors.Is(err, ErrMalformed) || !strings.Contains(err.Error(), tc.want) || strings.Contains(err.Error(), "unmarshal") || strings.Contains(err.Error(), "Go struct") {
+		if !errors.Is(err, ErrMalformed) || !strings.Contains(err.Error(), tc.want) || strings.Contains(err.Error(), "unmarshal") || strings.Contains(err.Error(), "Go struct") ||
+			strings.Contains(err.Error(), "UnmarshalJSON") || strings.Contains(err.Error(), "2006") {
 			t.Errorf("%s: %v; want ErrMalformed saying %q", tc.name, err, tc.want)
 		}
 	}

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"reflect"
 	"slices"
 	"time"
 
@@ -19,8 +20,8 @@ const PartialFormat = "bandfold-partial"
 // cover their own tiles of the same inputs; CheckSet verifies that a set of
 // partials is one whole job and Combine merges their statistics.
 type Partial struct {
-	// Format is always PartialFormat; Version is 2 for partials written
-	// now, 1 for older files.
+	// Format is always PartialFormat; Version is LatestVersion for
+	// partials written now, 1 or 2 for older files.
 	Format  string `json:"format"`
 	Version int    `json:"version"`
 	// Tool is the version of the program that wrote the partial.
@@ -55,6 +56,9 @@ type Partial struct {
 	NoiseState    *bands.State `json:"noise_state,omitempty"`
 	WavelengthsNM []float64    `json:"wavelengths_nm,omitempty"`
 	Excluded      []Excluded   `json:"excluded,omitempty"`
+
+	// SourceBands, version 3, is as in Basis.
+	SourceBands *SourceBands `json:"source_bands,omitempty"`
 }
 
 // ReadPartial reads and checks the partial file at path. Errors name the file
@@ -73,10 +77,12 @@ func (pt *Partial) validate() error {
 	switch {
 	case pt.Format != PartialFormat:
 		return fmt.Errorf("format %q, want %q", pt.Format, PartialFormat)
-	case pt.Version != 1 && pt.Version != 2:
+	case pt.Version < oldestVersion || pt.Version > LatestVersion:
 		return fmt.Errorf("%w %d", ErrUnknownVersion, pt.Version)
 	case pt.Version == 1 && (pt.Method != "" || pt.Noise != "" || pt.NoiseState != nil || pt.WavelengthsNM != nil || pt.Excluded != nil):
 		return errors.New("version 1 with version 2 members")
+	case pt.Version < 3 && pt.SourceBands != nil:
+		return fmt.Errorf("version %d with source_bands, a version 3 member", pt.Version)
 	case (pt.Noise == "") != (pt.NoiseState == nil):
 		return errors.New("noise and noise_state must be given together")
 	case pt.Method == MNF && pt.NoiseState == nil:
@@ -96,6 +102,11 @@ func (pt *Partial) validate() error {
 	}
 	if err := checkBands(pt.Bands); err != nil {
 		return err
+	}
+	if pt.SourceBands != nil {
+		if err := pt.SourceBands.check(len(pt.Bands)); err != nil {
+			return err
+		}
 	}
 	if pt.NoiseState != nil {
 		if _, err := bands.ParseShift(pt.Noise); err != nil {
@@ -168,6 +179,8 @@ func foreign(ref, pt *Partial) string {
 		return describeDiff("band", pt.Bands, ref.Bands, sameBand, Band.String)
 	case !slices.EqualFunc(pt.Inputs, ref.Inputs, sameInput):
 		return describeDiff("input", pt.Inputs, ref.Inputs, sameInput, Fingerprint.String)
+	case !reflect.DeepEqual(pt.SourceBands, ref.SourceBands):
+		return "source " + pt.SourceBands.String()
 	}
 	return ""
 }

@@ -77,7 +77,7 @@ func TestReadPartialRejects(t *testing.T) {
 		edit func(*Partial)
 		want error
 	}{
-		{"version", func(p *Partial) { p.Version = 3 }, ErrUnknownVersion},
+		{"version", func(p *Partial) { p.Version = 4 }, ErrUnknownVersion},
 		{"format", func(p *Partial) { p.Format = BasisFormat }, ErrMalformed},
 		{"shard out of range", func(p *Partial) { p.Shard = 3 }, ErrMalformed},
 		{"negative shard", func(p *Partial) { p.Shard = -1 }, ErrMalformed},
@@ -87,6 +87,12 @@ func TestReadPartialRejects(t *testing.T) {
 		{"state bands", func(p *Partial) { p.State.Mean = []float64{1, 2, 3} }, ErrMalformed},
 		{"state asymmetric", func(p *Partial) { p.State.CoMoment[0][1] = 8 }, bands.ErrInvalidState},
 		{"state count", func(p *Partial) { p.State.Count = -1 }, bands.ErrInvalidState},
+		{"source bands in version 2", func(p *Partial) {
+			p.Version, p.SourceBands = 2, &SourceBands{Count: 3, Numbers: []int{1, 3}}
+		}, ErrMalformed},
+		{"source bands not one per band", func(p *Partial) {
+			p.Version, p.SourceBands = 3, &SourceBands{Count: 3, Numbers: []int{3}}
+		}, ErrMalformed},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			pt := goldenPartial()
@@ -152,6 +158,10 @@ func TestCheckSet(t *testing.T) {
 			})
 			return ps
 		}(), paths, []string{"shard-2.json: shard 2 is foreign: band 1 = \"B1\" (scene.tif band 1, Float64, nodata 0"}},
+		{"foreign source bands", func() []*Partial {
+			ps, _ := with(1, func(p *Partial) { p.Version, p.SourceBands = 3, &SourceBands{Count: 4, Numbers: []int{1, 2, 4}} })
+			return ps
+		}(), paths, []string{"shard-1.json: shard 1 is foreign: source bands 1-2,4 of 4 (shard-0.json has source bands not recorded)"}},
 		{"fewer bands", func() []*Partial { ps, _ := with(1, func(p *Partial) { p.Bands = p.Bands[:2] }); return ps }(), paths,
 			[]string{"shard 1 is foreign: 2 bands (shard-0.json has 3 bands)"}},
 	} {

@@ -10,8 +10,9 @@ import (
 // one line on stderr, exit 2 (a usage error), and nothing is written: a
 // budget below what integer codes can reach (on the Landsat subset, 1e-9
 // counts, which needs a step below Int32's reach), a non-positive budget,
-// --max-rmse noise with a PCA basis (no noise estimate), and a budget with
-// --components or --type.
+// --max-rmse noise with a PCA basis (no noise estimate), a budget with
+// --components or --type, and a budget with lossy creation options (issue
+// 24, item 2).
 func TestBudgetBadInputs(t *testing.T) {
 	needLandsat(t)
 	dir := t.TempDir()
@@ -29,6 +30,11 @@ func TestBudgetBadInputs(t *testing.T) {
 		{"noise without estimate", fold("--max-rmse", "noise"), 2, "has no noise estimate"},
 		{"budget with components", fold("--max-rmse", "3", "-k", "2"), 2, "with --type or --components"},
 		{"budget with type", fold("--max-rmse", "3", "--type", "int16"), 2, "with --type or --components"},
+		// Issue 24, item 2: creation options that store other values than
+		// the codes whose error the budget proves.
+		{"lerc max z error", fold("--max-rmse", "50", "--co", "COMPRESS=LERC", "--co", "MAX_Z_ERROR=40"), 2, "--max-rmse 50 with --co: MAX_Z_ERROR=40 makes COMPRESS=LERC lossy"},
+		{"jpeg", fold("--max-rmse", "50", "--co", "COMPRESS=JPEG"), 2, "COMPRESS=JPEG is lossy"},
+		{"psnr with webp", fold("--min-psnr", "30", "--co", "COMPRESS=WEBP"), 2, "COMPRESS=WEBP is lossy unless WEBP_LOSSLESS=YES"},
 	}, out)
 }
 

@@ -6,6 +6,7 @@ import (
 	"os"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"bandfold/bands"
 	"bandfold/cmd/bandfold/internal/cli"
@@ -33,6 +34,7 @@ type learnFlags struct {
 	wavelength  string
 	exclude     string
 	excludeNM   string
+	set         *pflag.FlagSet
 }
 
 func newLearnCommand(g *globals) *cobra.Command { return learnCommand(g, &learnFlags{}) }
@@ -68,6 +70,7 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 		}),
 	}
 	f := cmd.Flags()
+	fl.set = f
 	fl.input.register(f, true)
 	f.StringVarP(&fl.out, "out", "o", "", "basis file to write (JSON)")
 	f.StringVar(&fl.partial, "partial", "", "write the shard's un-decomposed statistics to this file instead of a basis")
@@ -84,7 +87,7 @@ func learnCommand(g *globals, fl *learnFlags) *cobra.Command {
 	f.Float64Var(&fl.minSNR, "min-snr", 0, "with --method mnf, keep the components whose signal-to-noise ratio is at least this")
 	f.BoolVar(&fl.suggest, "suggest-exclude", false, fmt.Sprintf("list the bands whose estimated signal-to-noise ratio is below %g, without fitting", learn.SuggestSNR))
 	f.StringVar(&fl.wavelength, "wavelengths", "", "file of band centre wavelengths (one per line or a CSV column; unit nm or um in the header or after each value)")
-	f.StringVar(&fl.exclude, "exclude", "", `band numbers to drop before fitting, e.g. "104-113,150-170"`)
+	f.StringVar(&fl.exclude, "exclude", "", `band numbers to drop before fitting, counted within --bands when given, e.g. "104-113,150-170"`)
 	f.StringVar(&fl.excludeNM, "exclude-nm", "", `wavelength ranges in nm to drop before fitting, e.g. "1340-1450,1790-1970"`)
 	cmd.MarkFlagsMutuallyExclusive("out", "partial", "suggest-exclude")
 	cmd.MarkFlagsOneRequired("out", "partial", "suggest-exclude")
@@ -119,6 +122,9 @@ func (fl *learnFlags) options(scenes []string, getenv func(string) string) (lear
 	if o.Noise, err = bands.ParseShift(fl.noise); err != nil {
 		return o, usagef("--noise %q: want horizontal, vertical or both", fl.noise)
 	}
+	if err := fl.inert(o.Method); err != nil {
+		return o, err
+	}
 	if fl.exclude != "" {
 		if o.Spectral.Exclude, err = transform.ParseBandRanges(fl.exclude); err != nil {
 			return o, usagef("--exclude %s", err)
@@ -130,6 +136,25 @@ func (fl *learnFlags) options(scenes []string, getenv func(string) string) (lear
 		}
 	}
 	return o, nil
+}
+
+// inert refuses flags given that would change nothing: --noise with
+// principal components (they use no noise estimate, unless
+// --suggest-exclude asks for one), and --min-snr with --variance.
+func (fl *learnFlags) inert(method transform.Method) error {
+	if fl.set.Changed("noise") && method != transform.MNF && !fl.suggest {
+		return usagef("--noise %s with --method pca: principal components use no noise estimate (--noise serves --method mnf and --suggest-exclude)", fl.noise)
+	}
+	return snrWithVariance(fl.set)
+}
+
+// snrWithVariance refuses --min-snr given with --variance, which it would
+// override without a word (learn and merge).
+func snrWithVariance(set *pflag.FlagSet) error {
+	if set.Changed("min-snr") && set.Changed("variance") {
+		return usagef("--min-snr with --variance: give one rule for the number of components")
+	}
+	return nil
 }
 
 // reportBasis prints the variance table on stderr and the summary as JSON

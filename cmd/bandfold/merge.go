@@ -4,6 +4,7 @@ import (
 	"context"
 
 	"github.com/spf13/cobra"
+	"github.com/spf13/pflag"
 
 	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -12,6 +13,7 @@ import (
 
 func newMergeCommand(g *globals) *cobra.Command {
 	o := learn.MergeOptions{}
+	var set *pflag.FlagSet
 	cmd := &cobra.Command{
 		Use:     "merge PART... --out BASIS.json",
 		Short:   "Combine the partial statistics of all shards into a basis",
@@ -20,6 +22,9 @@ func newMergeCommand(g *globals) *cobra.Command {
 		Args:    args(cobra.MinimumNArgs(1)),
 		RunE: g.runE(func(ctx context.Context, env jobkit.Env, a []string) error {
 			o.Parts = a
+			if err := snrWithVariance(set); err != nil {
+				return err
+			}
 			res, err := learn.Merge(ctx, env, o)
 			if err != nil {
 				return err
@@ -28,6 +33,7 @@ func newMergeCommand(g *globals) *cobra.Command {
 		}),
 	}
 	f := cmd.Flags()
+	set = f
 	f.StringVarP(&o.Out, "out", "o", "", "basis file to write (JSON)")
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components to keep (overrides --variance)")
 	f.Float64Var(&o.Variance, "variance", 0.99, "keep the fewest components whose cumulative share of variance reaches this fraction")

@@ -33,11 +33,18 @@ date beside the date timeline found, and lists where every output lies.`
 	DenoiseHelp = `denoise projects every pixel onto the k leading components of the basis and
 back, without writing the components. With an MNF basis (learn --method mnf)
 this is minimum noise fraction noise removal, x = mean + S_N A_k A_k^T (x - mean).
-Bands the basis excluded are dropped from IMAGE by number.`
+` + BasisBandsHelp
+	// BasisBandsHelp says how commands that read a basis choose the bands.
+	BasisBandsHelp = `Without --bands, the bands the basis was fitted on (learn --bands and
+--exclude) are taken from IMAGE by their numbers in the stack the basis was
+fitted on; an IMAGE holding just those bands, with the same band names or
+wavelengths, is taken whole.`
 	// FoldHelp is the help of the fold command.
 	FoldHelp = `fold projects every valid pixel onto the leading components of a basis,
 y = W_k^T ((x - mean) / s), tile by tile in parallel, and writes the scores as
 a georeferenced raster. Invalid pixels become nodata.
+
+` + BasisBandsHelp + `
 
 With a basis fitted on another scene, fold reports the share of this scene's
 variance the kept components explain next to the share on the fitting scene;
@@ -46,7 +53,9 @@ a large drop means the basis no longer fits and should be refitted.
 Many scenes (arguments, --list, or a glob) go to --out-dir, named by --name.
 Outputs that already exist, are complete and were written from the same
 inputs and options are skipped, so a rerun after a crash finishes only what
-is missing; a failing scene is reported and the rest go on. --shard I/N (or
+is missing; each is read back to check its values against the checksum
+recorded when it was written, and one found damaged (cut short, or changed)
+is written again. A failing scene is reported and the rest go on. --shard I/N (or
 auto, from a Slurm array or Kubernetes Indexed Job) takes every N-th scene of
 the list.`
 	// InspectHelp is the help of the inspect command.

@@ -3,6 +3,7 @@ package fold
 import (
 	"bufio"
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -153,6 +154,22 @@ func CollectInputs(args []string, list string) ([]string, error) {
 	if list == "" {
 		return out, nil
 	}
+	listed, err := readList(list)
+	if err != nil {
+		return nil, err
+	}
+	return append(out, listed...), nil
+}
+
+// maxListLine is the longest line readList accepts: 16 paths of the
+// longest Linux allows (PATH_MAX, 4096 bytes) joined with commas.
+const maxListLine = 64 << 10
+
+// readList reads a --list file: one IMAGE per line (files of a stack
+// joined with commas), relative paths relative to the list's folder; blank
+// lines and lines starting with # are skipped, and a byte-order mark at the
+// start (as some editors write) is dropped.
+func readList(list string) ([]string, error) {
 	f, err := os.Open(list)
 	if err != nil {
 		return nil, fmt.Errorf("list %s: %w", list, jobkit.UnwrapPath(err))
@@ -160,9 +177,16 @@ func CollectInputs(args []string, list string) ([]string, error) {
 	defer f.Close()
 	base := filepath.Dir(list)
 	sc := bufio.NewScanner(f)
+	sc.Buffer(make([]byte, 0, 4<<10), maxListLine)
+	var out []string
+	n := 0
 	for sc.Scan() {
-		line := strings.TrimSpace(sc.Text())
-		if line == "" || strings.HasPrefix(line, "#") {
+		n++
+		line := sc.Text()
+		if n == 1 {
+			line = strings.TrimPrefix(line, "\ufeff")
+		}
+		if line = strings.TrimSpace(line); line == "" || strings.HasPrefix(line, "#") {
 			continue
 		}
 		var parts []string
@@ -174,8 +198,11 @@ func CollectInputs(args []string, list string) ([]string, error) {
 		}
 		out = append(out, strings.Join(parts, ","))
 	}
-	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("list %s: %w", list, err)
+	switch err := sc.Err(); {
+	case errors.Is(err, bufio.ErrTooLong):
+		return nil, fmt.Errorf("list %s: line %d is longer than %d KiB: a list holds one image path per line (or the files of a stack joined with commas)", list, n+1, maxListLine>>10)
+	case err != nil:
+		return nil, fmt.Errorf("list %s: %w", list, jobkit.UnwrapPath(err))
 	}
 	return out, nil
 }

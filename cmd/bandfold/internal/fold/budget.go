@@ -114,6 +114,9 @@ func prepareBudget(env jobkit.Env, o *FoldOptions) (*folding, error) {
 	case o.Type != "":
 		return nil, jobkit.Usagef("%s with --type: the budget chooses the integer type of the codes", bg)
 	}
+	if why := lossyCreation(o.Format, o.CreationOptions); why != "" {
+		return nil, jobkit.Usagef("%s with --co: %s, so the file would not hold the codes whose error the budget proves; a budget takes lossless compression only (for example COMPRESS=ZSTD, or LERC with MAX_Z_ERROR=0)", bg, why)
+	}
 	b, err := o.readBasis()
 	if err != nil {
 		return nil, err

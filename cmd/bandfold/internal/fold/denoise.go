@@ -128,10 +128,11 @@ func (d *denoising) open() error {
 	if d.proj, err = transform.NewProjector(b, k); err != nil {
 		return fmt.Errorf("basis %s: %w", o.Basis, err)
 	}
-	if o.Input, err = o.Input.WithBasis(b, o.Basis); err != nil {
+	in, err := o.Input.ForBasis(b, o.Basis, o.Image)
+	if err != nil {
 		return err
 	}
-	if d.img, err = jobkit.OpenImage(o.Image, o.Input.Options()); err != nil {
+	if d.img, err = jobkit.OpenImage(o.Image, in.Options()); err != nil {
 		return err
 	}
 	if err := jobkit.DistinctFromStacks([]*raster.Stack{d.img}, output.Path{Role: "output", Path: o.Out}); err != nil {

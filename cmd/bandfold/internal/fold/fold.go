@@ -59,8 +59,11 @@ type FoldOptions struct {
 type FoldScene struct {
 	Input  string `json:"input"`
 	Output string `json:"output"`
-	// Status is written, skipped (complete already) or failed.
+	// Status is written, skipped (complete already) or failed; Damaged
+	// says why an output a batch rerun found complete was written again
+	// (cut short, or values other than those written).
 	Status     string `json:"status"`
+	Damaged    string `json:"damaged,omitempty"`
 	Error      string `json:"error,omitempty"`
 	Pixels     int64  `json:"pixels,omitempty"`
 	Components int    `json:"components,omitempty"`
@@ -187,8 +190,11 @@ const completeKey = "BANDFOLD_COMPLETE"
 // record identifies a finished component image by everything that shapes
 // its bytes: the basis, the inputs (path, size, time), the bands, nodata
 // and masks, the components, type, format and creation options, and the
-// tool version. A batch rerun skips an output only on an exact match.
-func (f *folding) record(s *raster.Stack) (string, error) {
+// tool version. The completion record written is it followed by the
+// checksum of the values written (valueSum); a batch rerun skips an output
+// only on an exact match of both, the checksum read back from the file
+// (checkComplete), which costs a read of the output.
+func (f *folding) record(s *raster.Stack, in jobkit.Input) (string, error) {
 	fps, err := jobkit.Fingerprints([]*raster.Stack{s})
 	if err != nil {
 		return "", err
@@ -197,7 +203,6 @@ func (f *folding) record(s *raster.Stack) (string, error) {
 	for _, fp := range fps {
 		fmt.Fprintf(h, "input %s|%d|%s\n", fp.Path, fp.Size, fp.ModTime.Format(time.RFC3339Nano))
 	}
-	in := f.o.Input
 	fmt.Fprintf(h, "bands %v\nnodata %v\nmasks %q\ntile %d\n", in.Bands, in.NoData, maskRules(in.Masks), in.Tile)
 	fmt.Fprintf(h, "align %v %s\ncalibrate %s\n", in.Align, in.Resampling, in.Calibrate)
 	fmt.Fprintf(h, "format %s\nco %q\nversion %s\nbudget %+v\n", f.format, f.o.CreationOptions, f.env.Version, f.o.Budget)
@@ -218,37 +223,22 @@ func maskRules(rules []raster.MaskRule) []string {
 func (f *folding) scene(ctx context.Context, input, out string, batch bool) (FoldScene, error) {
 	start := time.Now()
 	res := FoldScene{Input: input, Output: out, Components: f.k, Type: f.dtype}
-	s, err := jobkit.OpenImage(input, f.o.Input.Options())
+	s, record, err := f.open(input, out)
 	if err != nil {
 		return res, err
 	}
 	defer s.Close()
-	outs := []output.Path{{Role: "output", Path: out}}
-	if f.o.Preview != "" {
-		outs = append(outs, output.Path{Role: "preview", Path: f.o.Preview})
-	}
-	if err := jobkit.DistinctFromStacks([]*raster.Stack{s}, outs...); err != nil {
-		return res, err
-	}
-	if err := output.Distinct([]output.Path{{Role: "basis", Path: f.o.Basis}}, outs); err != nil {
-		return res, err
-	}
-	if err := jobkit.CheckBands(f.basis, f.o.Basis, s, jobkit.BandCheck{Selected: f.o.Input.Bands != nil, IgnoreNames: f.o.IgnoreBandNames}); err != nil {
-		return res, err
-	}
-	record, err := f.record(s)
-	if err != nil {
-		return res, err
-	}
 	overwrite := f.o.Overwrite
 	if batch && !overwrite {
-		if md, err := raster.ReadMetadata(out); err == nil {
-			if md[completeKey] == record {
-				res.Status = "skipped"
-				return res, nil
-			}
-			return res, fmt.Errorf("output %s exists but was written with other inputs or options (use --overwrite to replace it)", out)
+		skip, damaged, err := f.resume(ctx, out, record)
+		switch {
+		case err != nil:
+			return res, err
+		case skip:
+			res.Status = "skipped"
+			return res, nil
 		}
+		res.Damaged, overwrite = damaged, damaged != ""
 	}
 	dst, stats, err := f.write(ctx, s, out, overwrite)
 	if dst != nil {
@@ -266,7 +256,7 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 		res.ExplainedScene = &e
 	}
 	res.Saturated = float64(stats.saturated) / float64(int64(f.k)*res.Pixels)
-	if err := dst.SetMetadata(completeKey, record); err != nil {
+	if err := dst.SetMetadata(completeKey, record+valuesKey+f.checksum(stats.sum)); err != nil {
 		return res, err
 	}
 	if err := dst.Finish(); err != nil {
@@ -298,6 +288,57 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 	res.Seconds = time.Since(start).Seconds()
 	f.warnings(&res)
 	return res, nil
+}
+
+// open opens one scene with the bands of the basis, checks it against the
+// basis and the outputs, and returns it with its completion record
+// (without the checksum).
+func (f *folding) open(input, out string) (*raster.Stack, string, error) {
+	in, err := f.o.Input.ForBasis(f.basis, f.o.Basis, input)
+	if err != nil {
+		return nil, "", err
+	}
+	s, err := jobkit.OpenImage(input, in.Options())
+	if err != nil {
+		return nil, "", err
+	}
+	outs := []output.Path{{Role: "output", Path: out}}
+	if f.o.Preview != "" {
+		outs = append(outs, output.Path{Role: "preview", Path: f.o.Preview})
+	}
+	err = jobkit.DistinctFromStacks([]*raster.Stack{s}, outs...)
+	if err == nil {
+		err = output.Distinct([]output.Path{{Role: "basis", Path: f.o.Basis}}, outs)
+	}
+	if err == nil {
+		err = jobkit.CheckBands(f.basis, f.o.Basis, s, jobkit.BandCheck{Selected: f.o.Input.Bands != nil, IgnoreNames: f.o.IgnoreBandNames})
+	}
+	var record string
+	if err == nil {
+		record, err = f.record(s, in)
+	}
+	if err != nil {
+		s.Close()
+		return nil, "", err
+	}
+	return s, record, nil
+}
+
+// resume decides what a batch rerun does with out when it exists already
+// (checkComplete): skip it, or write it again because it is damaged (said
+// in damaged, and as a warning). A file that does not exist, or whose
+// metadata cannot be read, is left to the write, which refuses to replace
+// it without --overwrite.
+func (f *folding) resume(ctx context.Context, out, record string) (skip bool, damaged string, err error) {
+	md, err := raster.ReadMetadata(out)
+	if err != nil {
+		return false, "", nil
+	}
+	skip, damaged, err = checkComplete(ctx, out, md, record)
+	if damaged != "" {
+		f.env.Warn("%s was complete but %s: writing it again", out, damaged)
+	}
+	return skip, damaged, err
 }
 
 // writePreview draws the quicklook of the component image at components
@@ -373,6 +414,8 @@ type foldStats struct {
 	// (a budgeted fold), summed over valid pixels and bands in tile order.
 	sse  transform.Sum
 	plan *budgetPlan
+	// sum is the checksum of the values written.
+	sum valueSum
 }
 
 // project folds every tile of s into dst.
@@ -408,6 +451,7 @@ func (f *folding) project(ctx context.Context, s *raster.Stack, dst *raster.Outp
 			st.y.Merge(ft.y)
 			st.saturated += ft.saturated
 			st.sse.Add(ft.sse)
+			st.sum += ft.sum
 			pool.Put(ft)
 			return err
 		})
@@ -426,6 +470,8 @@ type foldTile struct {
 	// squared distance of each pixel from the mean (a budgeted fold).
 	sse float64
 	sq  []float64
+	// sum is the checksum of the values to write.
+	sum valueSum
 }
 
 type foldWorker struct {
@@ -476,6 +522,8 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 	ft.y.AddPixels(ft.out, valid)
 	if w.plan != nil {
 		w.encode(ft, x, valid)
+		ft.sum = 0
+		addTile(&ft.sum, t, w.spec.Width, k, ft.out[:n*k])
 		return ft, nil
 	}
 	for i := range n {
@@ -496,11 +544,15 @@ func (w *foldWorker) Do(_ context.Context, t tiles.Tile) (*foldTile, error) {
 			}
 		}
 	}
+	ft.sum = 0
 	if w.spec.DataType == "Float32" {
 		ft.out32 = jobkit.Grow(ft.out32, len(ft.out))
 		for i, v := range ft.out {
 			ft.out32[i] = float32(v)
 		}
+		addTile(&ft.sum, t, w.spec.Width, k, ft.out32[:n*k])
+	} else {
+		addTile(&ft.sum, t, w.spec.Width, k, ft.out[:n*k])
 	}
 	return ft, nil
 }

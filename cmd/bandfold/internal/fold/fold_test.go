@@ -229,6 +229,8 @@ func TestFoldUnfoldRefusals(t *testing.T) {
 	}
 	other := filepath.Join(dir, "other.tif")
 	jobtest.Synth(t, other, 6, 40, 30, 1)
+	four := filepath.Join(dir, "four.tif")
+	jobtest.Synth(t, four, 4, 40, 30, 1)
 	named := filepath.Join(dir, "named.tif")
 	jobtest.WriteNamed(t, named, other, []string{"a", "b", "c", "d", "e", "f"})
 	namedBasis := filepath.Join(dir, "named.json")
@@ -245,8 +247,11 @@ func TestFoldUnfoldRefusals(t *testing.T) {
 		usage  bool
 		want   []string
 	}{
-		{"band count", &fold.FoldOptions{Scenes: []string{jobtest.Landsat}, Basis: basis5}, nil, false,
-			[]string{"has 6 bands but the basis", "b5.json", "has 5"}},
+		// A basis fitted on --bands 1-5 of the 6-band subset takes those
+		// bands of a 6-band image (TestFoldTakesTheBasisBands); an image of
+		// 4 bands is refused.
+		{"band count", &fold.FoldOptions{Scenes: []string{four}, Basis: basis5}, nil, false,
+			[]string{"four.tif has 4 bands", "b5.json was fitted on bands 1-5 of a 6-band stack"}},
 		{"band names", &fold.FoldOptions{Scenes: []string{renamed}, Basis: namedBasis}, nil, false,
 			[]string{"has bands [a, b, c, e, d, f]", "[a, b, c, d, e, f]", "--ignore-band-names"}},
 		{"too many components", &fold.FoldOptions{Scenes: []string{jobtest.Landsat}, Basis: basis, Components: 7}, nil, true,
@@ -294,14 +299,7 @@ func TestFoldUnfoldRefusals(t *testing.T) {
 // replaced; shards split the list.
 func TestBatchFoldSkipsCompleteOutputsAndGoesOnAfterFailures(t *testing.T) {
 	dir := t.TempDir()
-	var scenes []string
-	for i := range 3 {
-		p := filepath.Join(dir, fmt.Sprintf("scene%d.tif", i))
-		jobtest.Synth(t, p, 5, 64, 48, uint64(i+1))
-		scenes = append(scenes, p)
-	}
-	basis := filepath.Join(dir, "b.json")
-	jobtest.Learn(t, jobtest.TestEnv, learn.LearnOptions{Scenes: scenes[:1], Out: basis})
+	scenes, basis := synthScenes(t, dir, 3, 64, 48)
 	outDir := filepath.Join(dir, "out")
 	missing := filepath.Join(dir, "missing.tif")
 	list := filepath.Join(dir, "list.txt")

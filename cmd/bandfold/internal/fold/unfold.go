@@ -187,10 +187,11 @@ func (u *unfolding) open() error {
 	if o.Compare == "" {
 		return nil
 	}
-	if o.Input, err = o.Input.WithBasis(b, o.Basis); err != nil {
+	in, err := o.Input.ForBasis(b, o.Basis, o.Compare)
+	if err != nil {
 		return err
 	}
-	if u.orig, err = jobkit.OpenImage(o.Compare, o.Input.Options()); err != nil {
+	if u.orig, err = jobkit.OpenImage(o.Compare, in.Options()); err != nil {
 		return err
 	}
 	if err := jobkit.CheckBands(b, o.Basis, u.orig, jobkit.BandCheck{Selected: o.Input.Bands != nil}); err != nil {

@@ -82,7 +82,8 @@ func (in Input) WithMasks(rules []raster.MaskRule) Input {
 }
 
 // WithBasis is in with the basis's calibration when none was asked for; a
-// different one is an error, since the scores would be meaningless.
+// different one is an error, since the scores would be meaningless. The
+// bands the basis was fitted on are chosen per image by ForBasis.
 func (in Input) WithBasis(b *transform.Basis, path string) (Input, error) {
 	want := b.Calibration()
 	switch {
@@ -91,25 +92,19 @@ func (in Input) WithBasis(b *transform.Basis, path string) (Input, error) {
 	case in.Calibrate != want:
 		return in, Usagef("--calibrate %s: the basis %s was fitted on %s values", in.Calibrate, path, want)
 	}
-	if len(b.Excluded) > 0 && in.Bands == nil {
-		in.Bands = KeptBands(b)
-	}
 	return in, nil
 }
 
 // KeptBands are the 1-based numbers, in the stack the basis was fitted on,
-// of the bands a basis with excluded bands kept: the numbers 1..p+excluded
-// that were not excluded.
+// of the bands it kept (transform.Basis.Selection), 1..p when it kept them
+// all or does not say.
 func KeptBands(b *transform.Basis) []int {
-	dropped := map[int]bool{}
-	for _, e := range b.Excluded {
-		dropped[e.Band] = true
+	if sel, ok := b.Selection(); ok {
+		return sel.Numbers
 	}
-	var keep []int
-	for n := 1; len(keep) < len(b.Bands); n++ {
-		if !dropped[n] {
-			keep = append(keep, n)
-		}
+	keep := make([]int, len(b.Bands))
+	for i := range keep {
+		keep[i] = i + 1
 	}
 	return keep
 }

@@ -2,6 +2,7 @@ package learn
 
 import (
 	"cmp"
+	"math"
 
 	"bandfold/bands"
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -50,6 +51,8 @@ type BasisSummary struct {
 	SNR           []float64            `json:"snr,omitempty"`
 	WavelengthsNM []float64            `json:"wavelengths_nm,omitempty"`
 	Excluded      []transform.Excluded `json:"excluded,omitempty"`
+	// SourceBands are the bands of its stack the basis was fitted on.
+	SourceBands *transform.SourceBands `json:"source_bands,omitempty"`
 	// Rate is the rate–distortion table (inspect): per number of kept
 	// components, the truncation RMSE, its PSNR and the estimated bits per
 	// pixel at the matching step.
@@ -69,7 +72,7 @@ func Summarize(b *transform.Basis, path string) BasisSummary {
 	for _, band := range b.Bands {
 		s.BandNames = append(s.BandNames, band.Name)
 	}
-	s.Method, s.WavelengthsNM, s.Excluded = string(cmp.Or(b.Method, transform.PCA)), b.WavelengthsNM, b.Excluded
+	s.Method, s.WavelengthsNM, s.Excluded, s.SourceBands = string(cmp.Or(b.Method, transform.PCA)), b.WavelengthsNM, b.Excluded, b.SourceBands
 	if b.Method == transform.MNF {
 		s.SNR = transform.SNR(b.Eigenvalues)
 	}
@@ -109,6 +112,19 @@ func chooseSNR(b *transform.Basis, k int, fraction, minSNR float64) {
 	jobkit.Choose(b, k, fraction)
 }
 
+// checkSNR refuses a --min-snr that cannot be right: not a finite number of
+// 0 or more (0: not given), or given with --components, which it would
+// override without a word.
+func checkSNR(minSNR float64, components int) error {
+	switch {
+	case !(minSNR >= 0) || math.IsInf(minSNR, 0):
+		return jobkit.Usagef("--min-snr %v: want a finite number, 0 or more", minSNR)
+	case minSNR > 0 && components > 0:
+		return jobkit.Usagef("--min-snr with --components %d: give one rule for the number of components", components)
+	}
+	return nil
+}
+
 // checkMNF refuses option combinations MNF cannot serve.
 func (o *LearnOptions) checkMNF() error {
 	switch {
@@ -116,8 +132,8 @@ func (o *LearnOptions) checkMNF() error {
 		return jobkit.Usagef("--method %q: want pca or mnf", o.Method)
 	case o.Noise != bands.Horizontal && o.Noise != bands.Vertical && o.Noise != bands.Both:
 		return jobkit.Usagef("--noise %v: want horizontal, vertical or both", o.Noise)
-	case o.MinSNR < 0:
-		return jobkit.Usagef("--min-snr %v: must not be negative", o.MinSNR)
+	case checkSNR(o.MinSNR, o.Components) != nil:
+		return checkSNR(o.MinSNR, o.Components)
 	case o.MinSNR > 0 && o.Method != transform.MNF:
 		return jobkit.Usagef("--min-snr needs --method mnf: principal components have no signal-to-noise ratio")
 	}

@@ -154,6 +154,10 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err != nil {
 		return nil, err
 	}
+	source, err := jobkit.SourceOf(opened[0], o.Input, sel.Numbers)
+	if err != nil {
+		return nil, err
+	}
 	sh := o.Shard.OrWhole()
 	sc := jobkit.NewScan(scenes, jobkit.TileGrid(o.Input.Tile), o.Stride, sh)
 	env.Logger().Debug("learn", "scenes", len(scenes), "bands", p, "tiles", len(sc.Items), "shard", sh.String())
@@ -166,6 +170,9 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err != nil {
 		return nil, err
 	}
+	if err := sumsFinite(jobkit.DescribeAll(scenes), acc, noise); err != nil {
+		return nil, err
+	}
 	if o.SuggestExclude {
 		return suggest(acc, noise, scenes[0], sel.Numbers), nil
 	}
@@ -174,13 +181,12 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	}
 	if o.Partial != "" {
 		part := &transform.Partial{
-			Format: transform.PartialFormat, Version: 1, Created: time.Now().UTC(),
+			Format: transform.PartialFormat, Version: transform.LatestVersion, Created: time.Now().UTC(),
 			Shard: sh.I, Shards: sh.N, TileSize: o.Input.Tile, Stride: o.Stride,
 			Mode: o.Mode, Bands: jobkit.BasisBands(scenes[0]), Inputs: inputs,
 			State: acc.State(), Tool: env.Version,
-			Method: o.Method, WavelengthsNM: sel.Wavelengths, Excluded: sel.Excluded,
+			Method: o.Method, WavelengthsNM: sel.Wavelengths, Excluded: sel.Excluded, SourceBands: source,
 		}
-		part.Version = 2
 		if noise != nil {
 			st := noise.State()
 			part.Noise, part.NoiseState = o.Noise.String(), &st
@@ -201,7 +207,7 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	}
 	b.Stride = o.Stride
 	b.Inputs = inputs
-	b.WavelengthsNM, b.Excluded = sel.Wavelengths, sel.Excluded
+	b.WavelengthsNM, b.Excluded, b.SourceBands = sel.Wavelengths, sel.Excluded, source
 	chooseSNR(b, o.Components, o.Variance, o.MinSNR)
 	if err := jobkit.WriteBasis(b, o.Out, o.Overwrite); err != nil {
 		return nil, err
@@ -223,6 +229,9 @@ type MergeOptions struct {
 func Merge(_ context.Context, env jobkit.Env, o MergeOptions) (_ *LearnResult, err error) {
 	defer func() { err = jobkit.Classify(err) }()
 	if err := checkChoice(o.Components, o.Variance); err != nil {
+		return nil, err
+	}
+	if err := checkSNR(o.MinSNR, o.Components); err != nil {
 		return nil, err
 	}
 	if len(o.Parts) == 0 {
@@ -251,6 +260,9 @@ func Merge(_ context.Context, env jobkit.Env, o MergeOptions) (_ *LearnResult, e
 		return nil, fmt.Errorf("partials %s: %w", strings.Join(o.Parts, ", "), err)
 	}
 	first := parts[0]
+	if o.MinSNR > 0 && first.Method != transform.MNF {
+		return nil, jobkit.Usagef("--min-snr needs partials of learn --method mnf: %s holds principal component statistics, which have no signal-to-noise ratio", o.Parts[0])
+	}
 	if o.Components > len(first.Bands) {
 		return nil, jobkit.Usagef("--components %d: the partials have only %d bands", o.Components, len(first.Bands))
 	}
@@ -266,7 +278,7 @@ func Merge(_ context.Context, env jobkit.Env, o MergeOptions) (_ *LearnResult, e
 	}
 	b.Stride = first.Stride
 	b.Inputs = first.Inputs
-	b.WavelengthsNM, b.Excluded = first.WavelengthsNM, first.Excluded
+	b.WavelengthsNM, b.Excluded, b.SourceBands = first.WavelengthsNM, first.Excluded, first.SourceBands
 	chooseSNR(b, o.Components, o.Variance, o.MinSNR)
 	if err := jobkit.WriteBasis(b, o.Out, o.Overwrite); err != nil {
 		return nil, err

@@ -147,6 +147,12 @@ func TestMNFBadInput(t *testing.T) {
 		{"exclude-nm without wavelengths", learn.LearnOptions{Scenes: []string{wide}, Spectral: jobkit.Spectral{ExcludeNM: []transform.NMRange{{Lo: 1, Hi: 2}}}}, true, "no band wavelengths"},
 		{"correlation", learn.LearnOptions{Scenes: []string{wide}, Method: transform.MNF, Mode: transform.Correlation}, true, "--mode correlation"},
 		{"min-snr for pca", learn.LearnOptions{Scenes: []string{wide}, MinSNR: 1}, true, "--min-snr needs --method mnf"},
+		// Issue 24, item 11: a --min-snr that cannot be right, or that
+		// --components would override, is refused.
+		{"min-snr nan", learn.LearnOptions{Scenes: []string{wide}, Method: transform.MNF, MinSNR: math.NaN()}, true, "--min-snr NaN: want a finite number, 0 or more"},
+		{"min-snr inf", learn.LearnOptions{Scenes: []string{wide}, Method: transform.MNF, MinSNR: math.Inf(1)}, true, "--min-snr +Inf: want a finite number, 0 or more"},
+		{"min-snr with components", learn.LearnOptions{Scenes: []string{wide}, Method: transform.MNF, MinSNR: 2, Components: 2}, true,
+			"--min-snr with --components 2: give one rule for the number of components"},
 	} {
 		out := filepath.Join(dir, tc.name+".json")
 		tc.o.Out = out

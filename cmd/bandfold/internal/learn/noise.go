@@ -159,7 +159,7 @@ func momentsAndNoise(ctx context.Context, sc *jobkit.Scan, env jobkit.Env, shift
 // shift differences noise; what names the inputs, shift the pairs used.
 func fitMNF(env jobkit.Env, acc, noise *bands.Accumulator, info []transform.Band, what string, shift bands.Shift) (*transform.Basis, error) {
 	if noise.Count() < 2 {
-		return nil, fmt.Errorf("%s has %.0f %s pairs of adjacent valid pixels: the noise estimate of --method mnf needs at least 2 (an image one pixel wide has none; try --noise both or vertical)", what, noise.Count(), shift)
+		return nil, fmt.Errorf("%s has %.0f %s pairs of adjacent valid pixels: the noise estimate of --method mnf needs at least 2%s", what, noise.Count(), shift, otherPairs(shift))
 	}
 	if _, err := jobkit.FitBasis(env, acc, transform.Covariance, info, what); err != nil {
 		return nil, err
@@ -178,6 +178,33 @@ func fitMNF(env jobkit.Env, acc, noise *bands.Accumulator, info []transform.Band
 	}
 	b.Tool = env.Version
 	return b, nil
+}
+
+// otherPairs suggests the pixel pairs not yet tried when those of shift
+// were too few: none when both directions were used.
+func otherPairs(shift bands.Shift) string {
+	switch shift {
+	case bands.Horizontal:
+		return " (an image one pixel wide has none; try --noise vertical or both)"
+	case bands.Vertical:
+		return " (an image one pixel high has none; try --noise horizontal or both)"
+	}
+	return " (valid pixels must have a valid neighbour in their row or column)"
+}
+
+// sumsFinite refuses statistics whose sums overflowed (bands.ErrTooLarge:
+// values of about 1e154 or more), naming the images they came from; noise
+// may be nil.
+func sumsFinite(what string, mom, noise *bands.Accumulator) error {
+	for _, acc := range []*bands.Accumulator{mom, noise} {
+		if acc == nil {
+			continue
+		}
+		if err := acc.Err(); err != nil {
+			return fmt.Errorf("%s: %w; rescale them first (for example with a scale in the file's metadata)", what, err)
+		}
+	}
+	return nil
 }
 
 // BandSNR is a band's estimated signal-to-noise ratio,

@@ -200,7 +200,7 @@ func (r *Run) Open(context.Context) error {
 			return err
 		}
 		for i := range r.inputs {
-			if r.inputs[i], err = r.inputs[i].WithBasis(r.given, c.Basis); err != nil {
+			if r.inputs[i], err = r.inputs[i].ForBasis(r.given, c.Basis, r.Args[i]); err != nil {
 				return err
 			}
 		}
