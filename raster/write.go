@@ -31,6 +31,7 @@ static int bandfoldValidateOption(const char *driver, const char *kv, char **msg
 import "C"
 
 import (
+	"cmp"
 	"fmt"
 	"os"
 	"strings"
@@ -82,8 +83,11 @@ type Spec struct {
 	ColorTable [][4]int16
 	Format     Format
 	// Compress, when set, is the GeoTIFF compression (see BestCompression)
-	// in place of DEFLATE, with the same predictor.
+	// in place of DEFLATE, with the same predictor (in COG output too).
 	Compress string
+	// Classes marks a raster of class codes: a COG's overviews take the
+	// nearest value, not the average.
+	Classes bool
 	// CreationOptions are KEY=VALUE options that override bandfold's
 	// defaults (--co).
 	CreationOptions []string
@@ -136,9 +140,42 @@ func creationOptions(dt godal.DataType, user []string) []string {
 	return mergeOptions(opts, user)
 }
 
-// cogOptions merges bandfold's COG defaults with the user's.
-func cogOptions(user []string) []string {
-	return mergeOptions([]string{"COMPRESS=DEFLATE", "BIGTIFF=IF_SAFER"}, user)
+// cogOptions merges bandfold's COG defaults with the user's: the
+// compression and predictor of the GeoTIFF path (the COG driver's
+// PREDICTOR=YES is the horizontal predictor, FLOATING_POINT the
+// floating-point one), overviews averaged for continuous values and
+// nearest for class codes.
+func cogOptions(spec Spec, dt godal.DataType) []string {
+	predictor, resampling := "YES", "AVERAGE"
+	if dt == godal.Float32 || dt == godal.Float64 {
+		predictor = "FLOATING_POINT"
+	}
+	if spec.Classes {
+		resampling = "NEAREST"
+	}
+	base := []string{"COMPRESS=" + cmp.Or(spec.Compress, "DEFLATE"), "PREDICTOR=" + predictor, "BIGTIFF=IF_SAFER",
+		"OVERVIEW_RESAMPLING=" + resampling, "NUM_THREADS=ALL_CPUS"}
+	return mergeOptions(base, COGSpelling(spec.CreationOptions))
+}
+
+// COGSpelling rewrites GeoTIFF options in the COG driver's words: its
+// compression level is LEVEL (GTiff: ZLEVEL, ZSTD_LEVEL), its predictor NO,
+// YES or FLOATING_POINT (GTiff: 1, 2, 3). Others pass as they are.
+func COGSpelling(opts []string) []string {
+	out := make([]string, len(opts))
+	for i, kv := range opts {
+		k, v, _ := strings.Cut(kv, "=")
+		switch strings.ToUpper(k) {
+		case "ZLEVEL", "ZSTD_LEVEL":
+			kv = "LEVEL=" + v
+		case "PREDICTOR":
+			if p, ok := map[string]string{"1": "NO", "2": "YES", "3": "FLOATING_POINT"}[v]; ok {
+				kv = "PREDICTOR=" + p
+			}
+		}
+		out[i] = kv
+	}
+	return out
 }
 
 // mergeOptions returns base with each KEY=VALUE of over replacing the same key.
@@ -186,7 +223,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	if spec.Format == COG {
 		// The COG driver copies a finished dataset; write a plain tiled
 		// GeoTIFF first without the user's options, which are COG options.
-		opts, driver, user = creationOptions(dt, base), "COG", cogOptions(spec.CreationOptions)
+		opts, driver, user = creationOptions(dt, base), "COG", cogOptions(spec, dt)
 	}
 	if err := validateOptions(driver, user); err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
@@ -209,6 +246,22 @@ func Create(path string, spec Spec) (*Output, error) {
 		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	return o, nil
+}
+
+// CheckCreationOptions refuses, before any work, creation options that
+// the format's GDAL driver (GTiff, or COG) does not know or whose value it
+// does not accept, and options that are not KEY=VALUE.
+func CheckCreationOptions(format Format, opts []string) error {
+	for _, kv := range opts {
+		if !strings.Contains(kv, "=") {
+			return specErr(ErrBadSpec, "creation option %q is not KEY=VALUE", kv)
+		}
+	}
+	driver := "GTiff"
+	if format == COG {
+		driver = "COG"
+	}
+	return validateOptions(driver, opts)
 }
 
 // BestCompression returns the lossless GeoTIFF compression for integer
@@ -415,7 +468,11 @@ func (o *Output) toCOG() error {
 	defer src.Close(errLogger)
 	cog := tmp + ".cog.tif"
 	var sw []string
-	for _, kv := range cogOptions(o.spec.CreationOptions) {
+	dt, err := dataType(o.spec.DataType)
+	if err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), err)
+	}
+	for _, kv := range cogOptions(o.spec, dt) {
 		sw = append(sw, "-co", kv)
 	}
 	out, err := src.Translate(cog, append([]string{"-of", "COG"}, sw...), errLogger)

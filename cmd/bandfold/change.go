@@ -25,6 +25,7 @@ type changeFlags struct {
 	maskAfter    []string
 	bandsBefore  string
 	bandsAfter   string
+	format       string
 	o            pairchange.ChangeOptions
 }
 
@@ -75,6 +76,8 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.StringVar(&fl.previewBands, "preview-bands", "", "three 1-based bands of AFTER for preview.png (default: the first three)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled to estimate the no-change distribution")
 	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous change output folder")
+	f.StringVar(&fl.format, "format", "gtiff", "raster format of the outputs: gtiff or cog (Cloud Optimized GeoTIFF, with overviews)")
+	f.StringArrayVar(&o.Output.CreationOptions, "co", nil, "GDAL creation option KEY=VALUE for the rasters written (repeatable)")
 	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
 	cmd.MarkFlagRequired("out")
 	cli.MarkArgs(cmd, cli.InputImage)
@@ -96,6 +99,9 @@ func (fl *changeFlags) options(before, after string) (pairchange.ChangeOptions, 
 	}
 	if o.Normalize, err = series.ParseNormalize(o.Normalize); err != nil {
 		return o, err
+	}
+	if o.Output.Format, err = raster.ParseFormat(fl.format); err != nil {
+		return o, usagef("--format %q: want gtiff or cog", fl.format)
 	}
 	if o.PreviewBands, err = raster.ParseBands(fl.previewBands); err != nil || (fl.previewBands != "" && len(o.PreviewBands) != 3) {
 		return o, usagef("--preview-bands %q: want three band numbers such as 3,2,1", fl.previewBands)

@@ -161,13 +161,15 @@ func TestChangeFlagsToOptions(t *testing.T) {
 	}
 	tests := []optionCase[pairchange.ChangeOptions]{
 		{[]string{"a.tif", "b.tif", "--out", "d"}, pairchange.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d",
-			Threshold: def, MinArea: jobkit.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: series.NormalizeStable}, ""},
+			Threshold: def, MinArea: jobkit.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: series.NormalizeStable, Output: jobkit.OutputFormat{Format: raster.GTiff}}, ""},
 		{[]string{"a.tif", "b.tif", "-o", "d", "--mask-before", "ma.tif", "--mask-after", "mb.tif:bits=15", "--bands-before", "1-5,7", "--bands-after", "2-7", "--align", "--resampling", "average",
 			"-b", "p.json", "-k", "2", "--threshold", "sigma:4", "--min-area", "0.5ha", "--differences", "--pvalues", "--reference", "r.gpkg",
-			"--preview-bands", "3,2,1", "--sample", "5000", "--overwrite", "--normalize", "none"},
+			"--preview-bands", "3,2,1", "--sample", "5000", "--overwrite", "--normalize", "none", "--format", "cog", "--co", "LEVEL=9"},
 			pairchange.ChangeOptions{Before: "a.tif", After: "b.tif", Out: "d", MaskBefore: []raster.MaskRule{{Path: "ma.tif"}}, MaskAfter: []raster.MaskRule{{Path: "mb.tif", Bits: []int{15}}}, Align: true, Resampling: "average",
 				Basis: "p.json", Components: 2, Threshold: sigma, MinArea: jobkit.MinArea{M2: 5000}, Differences: true, PValues: true, Reference: "r.gpkg",
-				PreviewBands: []int{3, 2, 1}, Sample: 5000, Overwrite: true, Normalize: series.NormalizeNone, BandsBefore: []int{1, 2, 3, 4, 5, 7}, BandsAfter: []int{2, 3, 4, 5, 6, 7}}, ""},
+				PreviewBands: []int{3, 2, 1}, Sample: 5000, Overwrite: true, Normalize: series.NormalizeNone, BandsBefore: []int{1, 2, 3, 4, 5, 7}, BandsAfter: []int{2, 3, 4, 5, 6, 7},
+				Output: jobkit.OutputFormat{Format: raster.COG, CreationOptions: []string{"LEVEL=9"}}}, ""},
+		{[]string{"a.tif", "b.tif", "--out", "d", "--format", "png"}, pairchange.ChangeOptions{}, `--format "png": want gtiff or cog`},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--bands-after", "2-x"}, pairchange.ChangeOptions{}, `--bands-after "2-x"`},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--threshold", "magic"}, pairchange.ChangeOptions{}, `--threshold "magic"`},
 		{[]string{"a.tif", "b.tif", "--out", "d", "--min-area", "5 acres"}, pairchange.ChangeOptions{}, `--min-area "5 acres"`},
@@ -188,12 +190,12 @@ func TestTimelineFlagsToOptions(t *testing.T) {
 	}
 	tests := []optionCase[timeline.TimelineOptions]{
 		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d"}, timeline.TimelineOptions{Scenes: []string{"a.tif", "b.tif", "c.tif"}, Out: "d",
-			Threshold: def, MinArea: jobkit.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: series.NormalizeStable, Confirm: timeline.ConfirmLasting}, ""},
+			Threshold: def, MinArea: jobkit.MinArea{Px: 4}, Sample: change.DefaultSampleSize, Normalize: series.NormalizeStable, Confirm: timeline.ConfirmLasting, Output: jobkit.OutputFormat{Format: raster.GTiff}}, ""},
 		{[]string{"a.tif", "b.tif", "c.tif", "-o", "d", "--dates", "2016-07-01,2017,20180703", "--basis", "p.json", "-k", "2", "--normalize", "none",
 			"--confirm", "none", "--align", "--resampling", "nearest", "--min-area", "0.5ha", "--sample", "5000", "--overwrite"},
 			timeline.TimelineOptions{Scenes: []string{"a.tif", "b.tif", "c.tif"}, Out: "d", Dates: []string{"2016-07-01", "2017", "20180703"}, Basis: "p.json",
 				Components: 2, Normalize: series.NormalizeNone, Confirm: timeline.ConfirmNone, Align: true, Resampling: "nearest", Threshold: def,
-				MinArea: jobkit.MinArea{M2: 5000}, Sample: 5000, Overwrite: true}, ""},
+				MinArea: jobkit.MinArea{M2: 5000}, Sample: 5000, Overwrite: true, Output: jobkit.OutputFormat{Format: raster.GTiff}}, ""},
 		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d", "--threshold", "magic"}, timeline.TimelineOptions{}, `--threshold "magic"`},
 		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d", "--normalize", "histogram"}, timeline.TimelineOptions{}, `--normalize "histogram": want stable or none`},
 		{[]string{"a.tif", "b.tif", "c.tif", "--out", "d", "--min-area", "5 acres"}, timeline.TimelineOptions{}, `--min-area "5 acres"`},

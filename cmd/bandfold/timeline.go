@@ -20,6 +20,7 @@ type timelineFlags struct {
 	minArea    string
 	dates      []string
 	sceneBands []string
+	format     string
 	o          timeline.TimelineOptions
 }
 
@@ -60,6 +61,8 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
 	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
 	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
+	f.StringVar(&fl.format, "format", "gtiff", "raster format of the outputs: gtiff or cog (Cloud Optimized GeoTIFF, with overviews)")
+	f.StringArrayVar(&o.Output.CreationOptions, "co", nil, "GDAL creation option KEY=VALUE for the rasters written (repeatable)")
 	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of every date onto the reference date: stable or none")
 	f.StringVar(&o.Confirm, "confirm", timeline.ConfirmLasting, "lasting (a flag must last and not be a return) or none (keep every flag)")
 	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled per pair to estimate its no-change distribution")
@@ -86,6 +89,9 @@ func (fl *timelineFlags) options(scenes []string) (timeline.TimelineOptions, err
 	}
 	if o.Normalize, err = series.ParseNormalize(o.Normalize); err != nil {
 		return o, err
+	}
+	if o.Output.Format, err = raster.ParseFormat(fl.format); err != nil {
+		return o, usagef("--format %q: want gtiff or cog", fl.format)
 	}
 	if o.Input, err = fl.input.input(); err != nil {
 		return o, err

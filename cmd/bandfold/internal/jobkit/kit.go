@@ -1,11 +1,13 @@
 package jobkit
 
 import (
+	"bandfold/raster"
 	"bandfold/raster/output"
 	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 )
@@ -101,5 +103,37 @@ func Strings(s []string) []string {
 	if s == nil {
 		return []string{}
 	}
+	return s
+}
+
+// OutputFormat is how a job writes its rasters: GeoTIFF or COG
+// (--format), and GDAL creation options over bandfold's defaults (--co).
+type OutputFormat struct {
+	Format          raster.Format
+	CreationOptions []string
+}
+
+// Check refuses a format or creation options GDAL's driver would not take,
+// before any work, and defaults the format to GeoTIFF.
+func (f *OutputFormat) Check() error {
+	if f.Format == "" {
+		f.Format = raster.GTiff
+	}
+	opts := f.CreationOptions
+	if f.Format == raster.COG {
+		opts = raster.COGSpelling(opts)
+	}
+	if err := raster.CheckCreationOptions(f.Format, opts); err != nil {
+		return Usagef("--co: %v", err)
+	}
+	return nil
+}
+
+// Spec is s written in this format, the user's creation options after the
+// job's own; classes marks a raster of class codes (its COG overviews take
+// the nearest value).
+func (f OutputFormat) Spec(s raster.Spec, classes bool) raster.Spec {
+	s.Format, s.Classes = f.Format, classes
+	s.CreationOptions = append(slices.Clone(s.CreationOptions), f.CreationOptions...)
 	return s
 }

@@ -52,6 +52,8 @@ type ChangeOptions struct {
 	// IgnoreBandNames compares the dates band for band even where their
 	// wavelengths differ.
 	IgnoreBandNames bool
+	// Output is the format and creation options of the rasters written.
+	Output jobkit.OutputFormat
 }
 
 // Change maps land-cover change between two dates: it fits (or reads) a
@@ -78,6 +80,9 @@ func (o *ChangeOptions) check() error {
 	sh := series.SharedOptions{Input: o.Input, Out: o.Out, Align: o.Align, Resampling: o.Resampling, Sample: o.Sample,
 		Components: o.Components, Threshold: o.Threshold, Normalize: o.Normalize}
 	if err := sh.Check(); err != nil {
+		return err
+	}
+	if err := o.Output.Check(); err != nil {
 		return err
 	}
 	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = sh.Input, sh.Resampling, sh.Sample, sh.Threshold, sh.Normalize

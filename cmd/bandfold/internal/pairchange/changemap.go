@@ -23,8 +23,8 @@ var changeColors = func() [][4]int16 {
 func (r *changeRun) changeMap(ctx context.Context) error {
 	nd := 255.0
 	md := r.metadata()
-	out, err := raster.Create(r.Dir.Path("change.tif"), raster.Spec{Grid: r.before.Grid, Bands: 1, DataType: "Byte", NoData: &nd,
-		ColorTable: changeColors, Descriptions: []string{"change (1), no change (0), nodata (255)"}, Metadata: md})
+	out, err := raster.Create(r.Dir.Path("change.tif"), r.o.Output.Spec(raster.Spec{Grid: r.before.Grid, Bands: 1, DataType: "Byte", NoData: &nd,
+		ColorTable: changeColors, Descriptions: []string{"change (1), no change (0), nodata (255)"}, Metadata: md}, true))
 	if err != nil {
 		return err
 	}

@@ -120,7 +120,7 @@ func (m *mapOutputs) create(r *changeRun) error {
 		if c := raster.BestCompression(); c == "ZSTD" {
 			s.Compress, s.CreationOptions = c, []string{"ZSTD_LEVEL=1"}
 		}
-		return s
+		return r.o.Output.Spec(s, false)
 	}
 	dof := fmt.Sprintf("chi-square, k = %d degrees of freedom", k)
 	var err error

@@ -48,6 +48,8 @@ type TimelineOptions struct {
 	// first).
 	ReferenceDate   string
 	IgnoreBandNames bool
+	// Output is the format and creation options of the rasters written.
+	Output jobkit.OutputFormat
 }
 
 // TimelineResult is timeline.json.
@@ -165,6 +167,9 @@ func (o *TimelineOptions) check() error {
 	co := series.SharedOptions{Input: o.Input, Out: o.Out, Resampling: o.Resampling, Sample: o.Sample, Components: o.Components,
 		Threshold: o.Threshold, Normalize: o.Normalize, Align: o.Align}
 	if err := co.Check(); err != nil {
+		return err
+	}
+	if err := o.Output.Check(); err != nil {
 		return err
 	}
 	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = co.Input, co.Resampling, co.Sample, co.Threshold, co.Normalize

@@ -88,7 +88,7 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	}
 	outs := make([]*raster.Output, len(specs))
 	for i, s := range specs {
-		o, err := raster.Create(r.Dir.Path(s.name), s.spec)
+		o, err := raster.Create(r.Dir.Path(s.name), r.o.Output.Spec(s.spec, true))
 		if err != nil {
 			return err
 		}

@@ -114,8 +114,9 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 		return err
 	}
 	defer zs.Abort()
-	mag, err := raster.Create(r.Dir.Path("max-magnitude.tif"), raster.Spec{Grid: g, Bands: 2, DataType: "Float32", NoData: &series.Nan, Metadata: md,
-		Descriptions: []string{fmt.Sprintf("largest change statistic Z over the steps (chi-square, k = %d)", r.Proj.Components()), "step of the largest Z (1 = first pair of dates)"}})
+	// Nearest overviews: the second band is a step number.
+	mag, err := raster.Create(r.Dir.Path("max-magnitude.tif"), r.o.Output.Spec(raster.Spec{Grid: g, Bands: 2, DataType: "Float32", NoData: &series.Nan, Metadata: md,
+		Descriptions: []string{fmt.Sprintf("largest change statistic Z over the steps (chi-square, k = %d)", r.Proj.Components()), "step of the largest Z (1 = first pair of dates)"}}, true))
 	if err != nil {
 		return err
 	}
