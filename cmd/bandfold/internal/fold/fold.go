@@ -1,6 +1,7 @@
 package fold
 
 import (
+	"cmp"
 	"context"
 	"crypto/sha256"
 	"encoding/hex"
@@ -75,7 +76,9 @@ type FoldScene struct {
 	// Saturated is the share of valid scores clamped by --type int16.
 	Saturated float64 `json:"saturated_fraction"`
 	Preview   string  `json:"preview,omitempty"`
-	Seconds   float64 `json:"seconds"`
+	// Item is the STAC Item written beside the output.
+	Item    string  `json:"item,omitempty"`
+	Seconds float64 `json:"seconds"`
 	// BudgetReport holds the predicted and achieved error of a budgeted
 	// fold.
 	*BudgetReport
@@ -160,7 +163,7 @@ func Fold(ctx context.Context, env jobkit.Env, o FoldOptions) (_ *FoldScene, err
 	if err != nil {
 		return nil, err
 	}
-	outs := []output.Path{{Role: "output", Path: o.Out}}
+	outs := []output.Path{{Role: "output", Path: o.Out}, {Role: "STAC item", Path: jobkit.ItemPath(o.Out)}}
 	if o.Preview != "" {
 		outs = append(outs, output.Path{Role: "preview", Path: o.Preview})
 	}
@@ -168,11 +171,8 @@ func Fold(ctx context.Context, env jobkit.Env, o FoldOptions) (_ *FoldScene, err
 	if err := output.Distinct(ins, outs); err != nil {
 		return nil, err
 	}
-	if err := output.Check(o.Out, o.Overwrite); err != nil {
-		return nil, err
-	}
-	if o.Preview != "" {
-		if err := output.Check(o.Preview, o.Overwrite); err != nil {
+	for _, out := range outs {
+		if err := output.Check(out.Path, o.Overwrite); err != nil {
 			return nil, err
 		}
 	}
@@ -274,12 +274,24 @@ func (f *folding) scene(ctx context.Context, input, out string, batch bool) (Fol
 		}
 		defer preview.Abort()
 	}
+	item, err := jobkit.RasterItem(dst.Temp(), out, strings.Split(input, ",")[0], "bandfold components ("+string(cmp.Or(f.basis.Method, transform.PCA))+") of "+input,
+		f.format == raster.COG, overwrite)
+	if err != nil {
+		return res, err
+	}
+	defer item.Abort()
 	if err := dst.Commit(); err != nil {
 		return res, err
 	}
+	if err := item.Commit(); err != nil {
+		os.Remove(out)
+		return res, err
+	}
+	res.Item = item.Path()
 	if preview != nil {
 		if err := preview.Commit(); err != nil {
 			os.Remove(out)
+			os.Remove(item.Path())
 			return res, err
 		}
 		res.Preview = f.o.Preview
@@ -371,14 +383,32 @@ func (f *folding) warnings(res *FoldScene) {
 	}
 }
 
+// ComponentNames describe the first k components of a basis for band
+// descriptions: "PC1 (62.10% of variance)" for principal components,
+// "MNF1 (SNR 41.2)" for minimum noise fraction components, whose
+// eigenvalues are 1 + the signal-to-noise ratio.
+func ComponentNames(b *transform.Basis, k int) []string {
+	out := make([]string, k)
+	if b.Method == transform.MNF {
+		snr := transform.SNR(b.Eigenvalues)
+		for i := range out {
+			out[i] = fmt.Sprintf("MNF%d (SNR %.3g)", i+1, snr[i])
+		}
+		return out
+	}
+	explained := transform.Explained(b.Eigenvalues)
+	for i := range out {
+		out[i] = fmt.Sprintf("PC%d (%.2f%% of variance)", i+1, 100*explained[i])
+	}
+	return out
+}
+
 // spec describes the component image.
 func (f *folding) spec(s *raster.Stack) raster.Spec {
-	explained := transform.Explained(f.basis.Eigenvalues)
 	spec := raster.Spec{Grid: s.Grid, Bands: f.k, DataType: f.dtype, Format: f.format,
-		CreationOptions: f.o.CreationOptions}
+		CreationOptions: f.o.CreationOptions, Descriptions: ComponentNames(f.basis, f.k)}
 	var eig []string
 	for i := range f.k {
-		spec.Descriptions = append(spec.Descriptions, fmt.Sprintf("PC%d (%.2f%% of variance)", i+1, 100*explained[i]))
 		eig = append(eig, strconv.FormatFloat(f.basis.Eigenvalues[i], 'g', -1, 64))
 	}
 	nd := math.NaN()
@@ -395,6 +425,7 @@ func (f *folding) spec(s *raster.Stack) raster.Spec {
 		"BANDFOLD_BASIS":       f.basis.Fingerprint(),
 		"BANDFOLD_BASIS_FILE":  filepath.Base(f.o.Basis),
 		"BANDFOLD_MODE":        string(f.basis.Mode),
+		"BANDFOLD_METHOD":      string(cmp.Or(f.basis.Method, transform.PCA)),
 		"BANDFOLD_EIGENVALUES": strings.Join(eig, ","),
 		"BANDFOLD_COMPONENTS":  strconv.Itoa(f.k),
 		"BANDFOLD_VERSION":     f.env.Version,

@@ -3,6 +3,7 @@ package jobkit
 import (
 	"encoding/json"
 	"fmt"
+	"os"
 	"path/filepath"
 	"strings"
 	"time"
@@ -226,4 +227,52 @@ func FolderItem(dir *output.Folder, files []string, grid raster.Grid, start, end
 	spec := ItemSpec{ID: filepath.Base(dir.Final()), Grid: grid, Start: start, End: end, Created: time.Now(),
 		Description: description, Assets: assets}
 	return WriteItem(dir.Path("item.json"), spec, false)
+}
+
+// ItemPath is the STAC Item beside a raster output: "scene.components.tif"
+// gets "scene.components.item.json".
+func ItemPath(rasterPath string) string {
+	return strings.TrimSuffix(rasterPath, filepath.Ext(rasterPath)) + ".item.json"
+}
+
+// RasterItem writes, under a temporary name, the STAC Item of a raster
+// output being written: the raster (read at temp, named as final) as its
+// one data asset, dated by the scene it was made from (sceneFile; the time
+// of writing when it has no date). The caller commits the returned file
+// after the raster, or aborts it.
+func RasterItem(temp, final, sceneFile, description string, cog, overwrite bool) (*output.File, error) {
+	s, err := raster.Open([]string{temp})
+	if err != nil {
+		return nil, err
+	}
+	grid := s.Grid
+	s.Close()
+	bands, err := RasterBands(temp)
+	if err != nil {
+		return nil, err
+	}
+	spec := ItemSpec{ID: strings.TrimSuffix(filepath.Base(final), filepath.Ext(final)), Grid: grid, Created: time.Now(),
+		Description: description, COG: cog, Assets: []ItemAsset{{Key: "data", File: filepath.Base(final), Title: filepath.Base(final),
+			Roles: []string{"data"}, Bands: bands}}}
+	if d, _, err := raster.SceneDate(sceneFile); err == nil {
+		spec.Start, spec.End = d.Time, d.Time
+	}
+	item, err := stacItem(spec)
+	if err != nil {
+		return nil, err
+	}
+	data, err := json.MarshalIndent(item, "", "  ")
+	if err != nil {
+		return nil, err
+	}
+	path := ItemPath(final)
+	f, err := output.Create(path, overwrite, "")
+	if err != nil {
+		return nil, err
+	}
+	if err := os.WriteFile(f.Temp(), append(data, '\n'), 0o666); err != nil {
+		f.Abort()
+		return nil, fmt.Errorf("write %s: %w", path, err)
+	}
+	return f, nil
 }

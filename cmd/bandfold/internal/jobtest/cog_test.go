@@ -1,6 +1,7 @@
 package jobtest
 
 import (
+	"os"
 	"os/exec"
 	"path/filepath"
 	"strings"
@@ -41,6 +42,13 @@ func TestOutputsAreValidCOGs(t *testing.T) {
 	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{f.Before}, Out: basis, Components: 3})
 	folded := filepath.Join(dir, "components.tif")
 	Fold(t, TestEnv, fold.FoldOptions{Scenes: []string{f.Before}, Basis: basis, Out: folded, Format: raster.COG})
+	// fold's STAC Item beside its output: the Item's fields, and its asset
+	// is the output.
+	item := jobkit.ItemPath(folded)
+	ValidJSONFile(t, "stac-item", item)
+	if data, err := os.ReadFile(item); err != nil || !strings.Contains(string(data), `"href": "./components.tif"`) || !strings.Contains(string(data), "profile=cloud-optimized") {
+		t.Errorf("%s: %v\n%s", item, err, data)
+	}
 	files, _ := filepath.Glob(filepath.Join(chg, "*.tif"))
 	more, _ := filepath.Glob(filepath.Join(tl, "*.tif"))
 	files = append(append(files, more...), folded)
