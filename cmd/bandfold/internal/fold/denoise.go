@@ -4,6 +4,7 @@ import (
 	"cmp"
 	"context"
 	"fmt"
+	"strings"
 	"sync"
 
 	"bandfold/cmd/bandfold/internal/jobkit"
@@ -29,7 +30,9 @@ type DenoiseOptions struct {
 
 // DenoiseResult is what Denoise wrote.
 type DenoiseResult struct {
-	Output     string `json:"output"`
+	Output string `json:"output"`
+	// Item is the STAC Item written beside the output.
+	Item       string `json:"item"`
 	Method     string `json:"method"`
 	Components int    `json:"components"`
 	Bands      int    `json:"bands"`
@@ -79,10 +82,15 @@ func Denoise(ctx context.Context, env jobkit.Env, o DenoiseOptions) (_ *DenoiseR
 	if err := dst.Finish(); err != nil {
 		return nil, err
 	}
-	if err := dst.Commit(); err != nil {
+	item, err := jobkit.RasterItem(dst.Temp(), o.Out, strings.Split(o.Image, ",")[0], "bandfold "+string(d.basis.Method)+" denoising of "+o.Image, o.Format == raster.COG, o.Overwrite)
+	if err != nil {
 		return nil, err
 	}
-	return &DenoiseResult{Output: o.Out, Method: string(d.basis.Method), Components: d.proj.Components(), Bands: p, Type: d.st.DataType, Pixels: pixels}, nil
+	defer item.Abort()
+	if err := jobkit.CommitWithItem(dst, item); err != nil {
+		return nil, err
+	}
+	return &DenoiseResult{Output: o.Out, Item: item.Path(), Method: string(d.basis.Method), Components: d.proj.Components(), Bands: p, Type: d.st.DataType, Pixels: pixels}, nil
 }
 
 // open checks the options and opens the basis and the image.
@@ -101,11 +109,14 @@ func (d *denoising) open() error {
 		return err
 	}
 	ins := append(jobkit.ArgPaths("input", []string{o.Image}, o.Input.Masks), output.Path{Role: "basis", Path: o.Basis})
-	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}}); err != nil {
+	outs := []output.Path{{Role: "output", Path: o.Out}, {Role: "STAC item", Path: jobkit.ItemPath(o.Out)}}
+	if err := output.Distinct(ins, outs); err != nil {
 		return err
 	}
-	if err := output.Check(o.Out, o.Overwrite); err != nil {
-		return err
+	for _, out := range outs {
+		if err := output.Check(out.Path, o.Overwrite); err != nil {
+			return err
+		}
 	}
 	b, err := transform.ReadBasis(o.Basis)
 	if err != nil {

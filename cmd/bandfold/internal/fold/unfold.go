@@ -40,6 +40,8 @@ type UnfoldResult struct {
 	Bands      int    `json:"bands"`
 	Type       string `json:"type"`
 	Pixels     int64  `json:"pixels"`
+	// Item is the STAC Item written beside the output.
+	Item string `json:"item"`
 	*transform.LossReport
 	// OverallPSNR is the PSNR of the overall RMSE, 20 log10(peak / RMSE),
 	// with PSNRPeak the largest band range Max − Min recorded in the basis
@@ -101,9 +103,15 @@ func Unfold(ctx context.Context, env jobkit.Env, o UnfoldOptions) (_ *UnfoldResu
 			return nil, err
 		}
 	}
-	if err := dst.Commit(); err != nil {
+	item, err := jobkit.RasterItem(dst.Temp(), o.Out, o.Components, "bandfold bands restored from "+o.Components, o.Format == raster.COG, o.Overwrite)
+	if err != nil {
 		return nil, err
 	}
+	defer item.Abort()
+	if err := jobkit.CommitWithItem(dst, item); err != nil {
+		return nil, err
+	}
+	res.Item = item.Path()
 	return res, nil
 }
 
@@ -152,7 +160,10 @@ func (u *unfolding) open() error {
 	for _, m := range jobkit.MaskPaths(o.Input.Masks) {
 		ins = append(ins, output.Path{Role: "mask", Path: m})
 	}
-	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}}); err != nil {
+	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}, {Role: "STAC item", Path: jobkit.ItemPath(o.Out)}}); err != nil {
+		return err
+	}
+	if err := output.Check(jobkit.ItemPath(o.Out), o.Overwrite); err != nil {
 		return err
 	}
 	if err := output.Check(o.Out, o.Overwrite); err != nil {

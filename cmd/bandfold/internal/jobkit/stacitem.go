@@ -276,3 +276,16 @@ func RasterItem(temp, final, sceneFile, description string, cog, overwrite bool)
 	}
 	return f, nil
 }
+
+// CommitWithItem moves a finished raster and its STAC Item (RasterItem)
+// into place together: if the Item cannot be, the raster is removed again.
+func CommitWithItem(dst *raster.Output, item *output.File) error {
+	if err := dst.Commit(); err != nil {
+		return err
+	}
+	if err := item.Commit(); err != nil {
+		os.Remove(dst.Path())
+		return err
+	}
+	return nil
+}
