@@ -11,6 +11,7 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
 	"strings"
 	"testing"
 )
@@ -102,7 +103,26 @@ func renderInBrowser(t *testing.T, path string, want ...string) {
 		}
 	}
 	t.Logf("%s: %d of %d images loaded, %d colours sampled", filepath.Base(path), loaded, total, len(colours))
+	// Printed (A4 from Chromium), the report takes a sensible number of
+	// pages: its content, not a title page or tables split line by line.
+	pdf := filepath.Join(dir, "report.pdf")
+	if out, err := exec.Command(chromium, append(flags, "--no-pdf-header-footer", "--print-to-pdf="+pdf, "file://"+probe)...).CombinedOutput(); err != nil {
+		t.Fatalf("chromium --print-to-pdf: %v: %s", err, out)
+	}
+	raw, err := os.ReadFile(pdf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(raw, -1))
+	if pages < 1 || pages > maxPages {
+		t.Errorf("%s prints on %d pages, want 1 to %d", filepath.Base(path), pages, maxPages)
+	}
+	t.Logf("%s: %d pages printed", filepath.Base(path), pages)
 }
+
+// maxPages is the most pages a report may print on: about a page per
+// figure and table.
+const maxPages = 8
 
 // TestReportsInBrowser renders the change report (with a survey estimate)
 // and the inspect report in headless Chromium.

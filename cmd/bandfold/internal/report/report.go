@@ -18,8 +18,11 @@ import (
 type Report struct {
 	Title, Subtitle string
 	Caution         string
-	Created         string
-	Sections        []ReportSection
+	// Footnote is a note at the end (a basis report's reminder that maps
+	// made with it are screening results, where no map is shown).
+	Footnote string
+	Created  string
+	Sections []ReportSection
 }
 
 type ReportSection struct {
@@ -79,7 +82,7 @@ figcaption { color: #555; font-size: 0.9em; }
 <body>
 <h1>{{.Title}}</h1>
 <p class="sub">{{.Subtitle}}</p>
-<p class="caution" id="caution">{{.Caution}}</p>
+{{if .Caution}}<p class="caution" id="caution">{{.Caution}}</p>{{end}}
 {{range .Sections}}<section>
 <h2>{{.Heading}}</h2>
 {{range .Notes}}<p>{{.}}</p>
@@ -98,6 +101,7 @@ figcaption { color: #555; font-size: 0.9em; }
 <figcaption>{{.Caption}}</figcaption>
 </figure>
 {{end}}</section>
+{{end}}{{if .Footnote}}<p class="sub">{{.Footnote}}</p>
 {{end}}<p class="sub">Written by bandfold {{.Created}}.</p>
 </body>
 </html>
