@@ -81,7 +81,7 @@ func FoldBatch(ctx context.Context, env jobkit.Env, o FoldOptions) (_ *BatchResu
 	var ins, targets []output.Path
 	for _, in := range inputs {
 		for _, p := range jobkit.SplitStack(in) {
-			ins = append(ins, output.Path{Role: "input", Path: p})
+			ins = append(ins, output.Path{Role: "input", Path: raster.ItemFile(p)})
 		}
 	}
 	ins = append(ins, output.Path{Role: "basis", Path: o.Basis})
@@ -151,7 +151,7 @@ func CollectInputs(args []string, list string) ([]string, error) {
 		out = append(out, a)
 	}
 	if list == "" {
-		return out, nil
+		return jobkit.ExpandImages(out)
 	}
 	f, err := os.Open(list)
 	if err != nil {
@@ -167,7 +167,7 @@ func CollectInputs(args []string, list string) ([]string, error) {
 		}
 		var parts []string
 		for _, p := range jobkit.SplitStack(line) {
-			if !filepath.IsAbs(p) && !raster.IsVirtual(p) {
+			if !filepath.IsAbs(p) && !raster.IsVirtual(p) && !raster.IsURL(p) {
 				p = filepath.Join(base, p)
 			}
 			parts = append(parts, p)
@@ -177,7 +177,7 @@ func CollectInputs(args []string, list string) ([]string, error) {
 	if err := sc.Err(); err != nil {
 		return nil, fmt.Errorf("list %s: %w", list, err)
 	}
-	return out, nil
+	return jobkit.ExpandImages(out)
 }
 
 // outputName applies the name template to an input; a name that would
