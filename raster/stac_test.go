@@ -1,9 +1,11 @@
 package raster
 
 import (
+	"encoding/json"
 	"errors"
 	"os"
 	"path/filepath"
+	"reflect"
 	"slices"
 	"strings"
 	"testing"
@@ -270,6 +272,61 @@ func TestOpenSTACItem(t *testing.T) {
 	}
 	if _, err := Open([]string{mtl.Paths[0]}, SelectAssets([]string{"red"})); !errors.Is(err, ErrBadSpec) || !strings.Contains(err.Error(), "is not a STAC item") {
 		t.Errorf("--assets on a raster: %v", err)
+	}
+}
+
+// TestFixtureItemsFollowTheSpec: the fixture items of scripts/stac.sh carry
+// the fields the STAC 1.0.0 Item Specification requires (type "Feature",
+// stac_version, id, geometry, bbox of 4 numbers, properties.datetime,
+// links, assets with href), the schema URLs of the extensions they use, and
+// those extensions' fields as their specifications type them (eo v1.0.0
+// eo:bands with center_wavelength; projection v1.0.0 proj:shape of 2 and
+// proj:transform of 6 numbers; raster v1.1.0 raster:bands).
+func TestFixtureItemsFollowTheSpec(t *testing.T) {
+	coll := "../testdata/external/stac/landsat-items.json"
+	testenv.NeedFile(t, coll, "run bash scripts/testdata.sh")
+	var fc struct {
+		Type     string           `json:"type"`
+		Features []map[string]any `json:"features"`
+	}
+	data, err := os.ReadFile(coll)
+	if err != nil || json.Unmarshal(data, &fc) != nil || fc.Type != "FeatureCollection" || len(fc.Features) != 2 {
+		t.Fatalf("%s: %v, type %q, %d features", coll, err, fc.Type, len(fc.Features))
+	}
+	exts := []any{"https://stac-extensions.github.io/eo/v1.0.0/schema.json", "https://stac-extensions.github.io/projection/v1.0.0/schema.json",
+		"https://stac-extensions.github.io/raster/v1.1.0/schema.json"}
+	for _, it := range fc.Features {
+		id, _ := it["id"].(string)
+		props, _ := it["properties"].(map[string]any)
+		bbox, _ := it["bbox"].([]any)
+		_, links := it["links"].([]any)
+		_, geometry := it["geometry"].(map[string]any)
+		if it["type"] != "Feature" || it["stac_version"] != "1.0.0" || id == "" || !geometry || len(bbox) != 4 || !links ||
+			!reflect.DeepEqual(it["stac_extensions"], exts) || props["datetime"] == nil || props["proj:epsg"] != 32632.0 {
+			t.Errorf("item %q lacks a field the spec requires: %v", id, it)
+		}
+		assets, _ := it["assets"].(map[string]any)
+		for key, v := range assets {
+			a, _ := v.(map[string]any)
+			if href, _ := a["href"].(string); href == "" || !strings.HasPrefix(href, "./"+id+"/") {
+				t.Errorf("%s asset %s: href %v", id, key, a["href"])
+			}
+			if a["type"] == "text/plain" {
+				continue
+			}
+			shape, _ := a["proj:shape"].([]any)
+			transform, _ := a["proj:transform"].([]any)
+			rb, _ := a["raster:bands"].([]any)
+			if len(shape) != 2 || len(transform) != 6 || len(rb) != 1 {
+				t.Errorf("%s asset %s: proj:shape %v, proj:transform %v, raster:bands %v", id, key, shape, transform, rb)
+			}
+			if eo, ok := a["eo:bands"].([]any); ok {
+				b, _ := eo[0].(map[string]any)
+				if c, _ := b["center_wavelength"].(float64); len(eo) != 1 || !(c > 0.4 && c < 13) || b["common_name"] == nil {
+					t.Errorf("%s asset %s: eo:bands %v", id, key, eo)
+				}
+			}
+		}
 	}
 }
 

@@ -143,7 +143,8 @@ func mustAbs(t *testing.T, p string) string {
 // construction: the fixtures' datetimes come from the MTLs' DATE_ACQUIRED,
 // the third item's is the test's own, and its file name holds no date),
 // matching the Landsat 7 and 8 bands picked by common name; change on two
-// members of the collection does the same for a pair.
+// members of the collection does the same for a pair, and without --assets
+// matches the items' bands by their eo:bands wavelengths.
 func TestSTACSeries(t *testing.T) {
 	dir := t.TempDir()
 	third := mkdir(t, dir, "third")
@@ -183,6 +184,15 @@ func TestSTACSeries(t *testing.T) {
 		Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "change")})
 	if ch.BeforeDate != "2001-07-30" || ch.AfterDate != "2013-07-07" {
 		t.Errorf("change dates %s and %s, want 2001-07-30 and 2013-07-07 from the items", ch.BeforeDate, ch.AfterDate)
+	}
+	// Without --assets, every data asset: the bands are matched by their
+	// eo:bands wavelengths (Landsat 7 blue 450-515 nm with Landsat 8 blue
+	// 452-512 nm, not coastal 435-451 nm; the handbooks' band edges), the
+	// 15 m pan band warped onto 30 m.
+	all := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: stacItem(t, l7Product), After: stacItem(t, l8Product), Align: true, Out: filepath.Join(dir, "all")})
+	if !strings.Contains(all.BandMatch, "landsat-7 band B1 = landsat-8 band B2") || strings.Contains(all.BandMatch, "landsat-8 band B1;") ||
+		strings.Contains(all.BandMatch, "landsat-8 band B9") {
+		t.Errorf("band match %q: want blue with blue, and no coastal or cirrus band", all.BandMatch)
 	}
 }
 
