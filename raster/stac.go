@@ -293,12 +293,10 @@ func jsonKind(t reflect.Type) string {
 	switch t.Kind() {
 	case reflect.String:
 		return "a string"
-	case reflect.Float64, reflect.Int:
+	case reflect.Float64:
 		return "a number"
 	case reflect.Slice:
 		return "a list"
-	case reflect.Pointer:
-		return jsonKind(t.Elem()) + " or null"
 	}
 	return "an object"
 }
