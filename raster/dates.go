@@ -38,8 +38,9 @@ type DateSource struct {
 }
 
 // DateMetadata returns the metadata of the raster at path that may date
-// it, in order of preference: the acquisition date of the product (the
-// DATE_ACQUIRED of a Landsat *_MTL.txt beside it that lists the file,
+// it, in order of preference: the acquisition date of the product (a STAC
+// item's properties.datetime, the DATE_ACQUIRED of a Landsat *_MTL.txt
+// beside it that lists the file,
 // DATATAKE_SENSING_START of a Sentinel-2 Level-2A product's MTD_MSIL2A.xml
 // above it, or of the product folder path names, ACQUISITIONDATETIME of the
 // IMAGERY domain, ACQUISITION_DATE as bandfold's
@@ -48,6 +49,13 @@ type DateSource struct {
 // SceneDate). Only the sources present are returned; a missing MTL file is
 // not an error.
 func DateMetadata(path string) ([]DateSource, error) {
+	if IsSTAC(path) {
+		it, err := ReadSTACItem(path)
+		if err != nil || it.Datetime == "" {
+			return nil, err
+		}
+		return []DateSource{{Key: STACDateSource, Value: it.Datetime}}, nil
+	}
 	if IsS2Product(path) {
 		mtd := path
 		if !strings.EqualFold(filepath.Base(path), S2MetadataName) {
@@ -84,10 +92,16 @@ func DateMetadata(path string) ([]DateSource, error) {
 
 // SceneDate dates the scene whose first file is path: its acquisition
 // metadata, else a date in its file name, else its TIFF DateTime tag (see
-// DateMetadata). disagree lists, for people, every other source that gives
-// a different date ("TIFFTAG_DATETIME says 2019-01-10"). A scene no source
-// dates gives an error wrapping ErrNoDate.
+// DateMetadata). A STAC item is dated by its properties.datetime alone:
+// its file name or URL is a catalogue's, not a date. disagree lists, for
+// people, every other source that gives a different date
+// ("TIFFTAG_DATETIME says 2019-01-10"). A scene no source dates gives an
+// error wrapping ErrNoDate.
 func SceneDate(path string) (d Date, disagree []string, err error) {
+	if IsSTAC(path) {
+		d, err := itemDate(path)
+		return d, nil, err
+	}
 	srcs, err := DateMetadata(path)
 	if err != nil {
 		return Date{}, nil, err

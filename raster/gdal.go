@@ -74,9 +74,11 @@ func Init(cfg Config) error {
 			// straight into the caller's buffer.
 			"GTIFF_DIRECT_IO=YES",
 			// Reads of /vsicurl/ and /vsis3/ paths need no directory
-			// listing to find sidecar files.
+			// listing to find sidecar files. {noext} admits URLs whose
+			// last element has no extension, as STAC API items have
+			// (".../collections/C/items/ID").
 			"GDAL_DISABLE_READDIR_ON_OPEN=EMPTY_DIR",
-			"CPL_VSIL_CURL_ALLOWED_EXTENSIONS=.tif,.tiff,.vrt,.jp2,.img,.nc,.h5,.zip,.gpkg,.json",
+			"CPL_VSIL_CURL_ALLOWED_EXTENSIONS=.tif,.tiff,.vrt,.jp2,.img,.nc,.h5,.zip,.gpkg,.json,.geojson,{noext}",
 		}
 		for _, kv := range append(defaults, cfg.Options...) {
 			k, v, ok := strings.Cut(kv, "=")

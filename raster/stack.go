@@ -154,6 +154,10 @@ type openOptions struct {
 	align     string
 	maskAlign string
 	calibrate string
+	assets    []string
+	// onto is the grid every file is warped onto (OntoGrid), nil for the
+	// first file's.
+	onto *Grid
 }
 
 // Option configures Open.
@@ -169,6 +173,21 @@ func SelectBands(bands []int) Option { return func(o *openOptions) { o.bands = b
 // a Sentinel-2 product folder, whose files it picks). It replaces
 // SelectBands.
 func SelectBandNames(names []string) Option { return func(o *openOptions) { o.bandNames = names } }
+
+// SelectAssets picks the assets of a STAC item, in that order, by key or
+// by the eo:bands common name or name of a one-band asset ("red",
+// "nir08", "B4"); without it an item gives its data assets. Band
+// selections then apply to the bands of those assets. It is an error for
+// an image that is not a STAC item.
+func SelectAssets(names []string) Option { return func(o *openOptions) { o.assets = names } }
+
+// OntoGrid makes the stack take grid g instead of its first file's grid,
+// warping every file not on it with the given resampling, as AlignStack
+// does: to open one date of a series on the reference date's grid. Masks
+// must be on g or are warped with nearest neighbour.
+func OntoGrid(g Grid, resampling string) Option {
+	return func(o *openOptions) { o.onto, o.align = &g, cmp.Or(resampling, "bilinear") }
+}
 
 // NoData overrides the files' nodata: one value for all selected bands, or
 // one per selected band. NaN is allowed.
@@ -275,7 +294,16 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 
 	ref := 0 // the file whose grid the stack takes
 	var product string
-	if len(paths) == 1 && IsS2Product(paths[0]) {
+	var item *itemStack
+	if err := stacOnly(paths, &o); err != nil {
+		return nil, err
+	}
+	if slices.ContainsFunc(paths, IsSTAC) {
+		if item, err = openItem(paths, &o); err != nil {
+			return nil, err
+		}
+		paths = item.paths
+	} else if len(paths) == 1 && IsS2Product(paths[0]) {
 		product = paths[0]
 		if paths, ref, err = S2ProductFiles(paths[0], o.bandNames); err != nil {
 			return nil, err
@@ -292,6 +320,9 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	}()
 	if err := s.takeGrid(paths[ref]); err != nil {
 		return nil, err
+	}
+	if o.onto != nil {
+		s.Grid, ref = *o.onto, -1 // every file is compared with it
 	}
 	var all []Band
 	var fileOf, counts []int
@@ -320,6 +351,9 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 	s.nameBands(all, counts)
 	read, readS2 := mtlCache(), s2Cache()
 	s.nameProductBands(all, readS2)
+	if item != nil {
+		item.describe(s, all, counts, fileOf)
+	}
 
 	sel := o.bands
 	if len(o.bandNames) > 0 {
@@ -606,8 +640,12 @@ func (s *Stack) setLabel() {
 }
 
 // Stem is a file name without folders and extension ("a/b/scene.tif" ->
-// "scene"); for GDAL virtual paths the last element is used.
+// "scene"); for GDAL virtual paths the last element is used; for an item
+// of a STAC ItemCollection ("coll.json#ID"), its id.
 func Stem(path string) string {
+	if _, id := splitItemRef(path); id != "" && IsSTAC(path) {
+		return id
+	}
 	base := filepath.Base(path)
 	return strings.TrimSuffix(base, filepath.Ext(base))
 }

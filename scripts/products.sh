@@ -20,6 +20,8 @@
 # the Sentinel-2 dates and every coefficient not copied from the Landsat
 # MTLs are invented (see testdata/README.md). Nothing is downloaded.
 set -euo pipefail
+# STAC items for the Level-1 band files (testdata/external/stac/).
+bash scripts/stac.sh
 src=testdata/external/landsat
 dest=testdata/external/products
 stamp=$dest/.built-v1

@@ -63,6 +63,7 @@ func (h *LineHandler) WithGroup(string) slog.Handler { return h }
 // InputFlags are the flags that say how to read an input image.
 type InputFlags struct {
 	bands      string
+	assets     string
 	nodata     string
 	masks      []string
 	tile       int
@@ -76,6 +77,7 @@ type InputFlags struct {
 // does not define --align itself (change warps AFTER onto BEFORE with it).
 func (f *InputFlags) Register(fs *pflag.FlagSet, align bool) {
 	fs.StringVar(&f.bands, "bands", "", `bands to use, 1-based lists and ranges such as "1-5,7" (default all)`)
+	fs.StringVar(&f.assets, "assets", "", `STAC items: the assets to stack, in order, by key or eo:bands common name ("red,nir08,swir16"; default the item's data assets)`)
 	fs.StringVar(&f.nodata, "nodata", "", `nodata value overriding the files': one for all bands, or a comma list with one per band ("nan" for NaN)`)
 	fs.StringArrayVar(&f.masks, "mask", nil, `quality mask (repeatable; a pixel must pass all): FILE (non-zero = valid), FILE:bits=0-4,9 (invalid where a listed bit is set), FILE:values=0,3,8-10 (invalid at those values), or by a product's names: QA_PIXEL.TIF:qa_pixel=fill,cloud,cloud_shadow (Landsat Collection 2), SCL.jp2:scl=no_data,clouds (Sentinel-2 Level-2A)`)
 	MarkInputs(fs, InputMask, "mask")
@@ -104,6 +106,9 @@ func (f *InputFlags) Input() (jobkit.Input, error) {
 		return jobkit.Input{}, err
 	}
 	in := jobkit.Input{Bands: sel, BandNames: names, NoData: nd, Masks: masks, Tile: f.tile, Align: f.align}
+	if in.Assets, err = parseAssets(f.assets); err != nil {
+		return jobkit.Input{}, err
+	}
 	if f.resampling != "" {
 		if in.Resampling, err = raster.ParseResampling(f.resampling); err != nil {
 			return jobkit.Input{}, jobkit.Usagef("--resampling %q: want nearest, bilinear, cubic, cubicspline, lanczos, average or mode", f.resampling)
@@ -139,6 +144,22 @@ func BandNames(spec string) []string {
 }
 
 var bandName = regexp.MustCompile(`^[A-Za-z][A-Za-z0-9_]*$`)
+
+// parseAssets reads --assets: keys or band names joined with commas.
+func parseAssets(spec string) ([]string, error) {
+	if strings.TrimSpace(spec) == "" {
+		return nil, nil
+	}
+	var out []string
+	for _, a := range strings.Split(spec, ",") {
+		a = strings.TrimSpace(a)
+		if a == "" {
+			return nil, jobkit.Usagef("--assets %q: an empty item between commas", spec)
+		}
+		out = append(out, a)
+	}
+	return out, nil
+}
 
 // Scenes applies --stack: all arguments become one stack.
 func (f *InputFlags) Scenes(args []string) []string {

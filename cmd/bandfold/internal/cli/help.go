@@ -86,7 +86,9 @@ measured loss, and maps land-cover change between two dates.
 
 An IMAGE argument is one GDAL-readable raster, or several files on one grid
 joined with commas ("b2.tif,b3.tif,b4.tif"), stacked in that order as one
-image. A pixel counts only when it is valid in every selected band.`
+image, or a STAC item (its JSON file or http(s) URL; --assets picks and
+orders its assets). A pixel counts only when it is valid in every selected
+band.`
 	// SynthHelp is the help of the synth command.
 	SynthHelp = `synth writes an invented cube: a few latent spectra mixed with smooth
 abundance fields plus noise, so its principal components behave like those of

@@ -95,9 +95,10 @@ func checkInput(prefix, kind, value string) error {
 		paths = jobkit.SplitStack(value)
 	}
 	for _, p := range paths {
-		if p == "" || raster.IsVirtual(p) {
-			continue
+		if p == "" || raster.IsVirtual(p) || raster.IsURL(p) {
+			continue // GDAL's or a server's: read when the job opens it
 		}
+		p = raster.ItemFile(p)
 		if kind == InputImage && strings.ContainsAny(p, "*?[") {
 			if _, err := os.Stat(p); err != nil {
 				continue // a pattern: the job expands it

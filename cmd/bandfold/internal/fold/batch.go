@@ -82,7 +82,7 @@ func FoldBatch(ctx context.Context, env jobkit.Env, o FoldOptions) (_ *BatchResu
 	var ins, targets []output.Path
 	for _, in := range inputs {
 		for _, p := range jobkit.SplitStack(in) {
-			ins = append(ins, output.Path{Role: "input", Path: p})
+			ins = append(ins, output.Path{Role: "input", Path: raster.ItemFile(p)})
 		}
 	}
 	ins = append(ins, output.Path{Role: "basis", Path: o.Basis})
@@ -152,7 +152,7 @@ func CollectInputs(args []string, list string) ([]string, error) {
 		out = append(out, a)
 	}
 	if list == "" {
-		return out, nil
+		return jobkit.ExpandImages(out)
 	}
 	listed, err := readList(list)
 	if err != nil {
@@ -191,7 +191,7 @@ func readList(list string) ([]string, error) {
 		}
 		var parts []string
 		for _, p := range jobkit.SplitStack(line) {
-			if !filepath.IsAbs(p) && !raster.IsVirtual(p) {
+			if !filepath.IsAbs(p) && !raster.IsVirtual(p) && !raster.IsURL(p) {
 				p = filepath.Join(base, p)
 			}
 			parts = append(parts, p)
@@ -204,7 +204,7 @@ func readList(list string) ([]string, error) {
 	case err != nil:
 		return nil, fmt.Errorf("list %s: %w", list, jobkit.UnwrapPath(err))
 	}
-	return out, nil
+	return jobkit.ExpandImages(out)
 }
 
 // outputName applies the name template to an input; a name that would

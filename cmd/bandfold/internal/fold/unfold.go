@@ -267,7 +267,7 @@ func (u *unfolding) compare(res *UnfoldResult, loss, lossW *transform.Loss) erro
 		res.OverallPSNR = &ps
 	}
 	var deflate int64
-	for _, p := range jobkit.SplitStack(o.Compare) {
+	for _, p := range u.orig.Paths { // the files read: a STAC item's assets, not the item
 		n, err := raster.DeflateSize(p, filepath.Dir(o.Out))
 		if err != nil {
 			return err

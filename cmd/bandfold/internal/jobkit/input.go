@@ -21,6 +21,10 @@ type Input struct {
 	// BandNames selects bands by name instead ("B4", or a product's "B02",
 	// "B8A"; see raster.SelectBandNames).
 	BandNames []string
+	// Assets pick a STAC item's assets, in that order, by key or eo:bands
+	// common name ("red", "nir08"; see raster.SelectAssets); nil gives the
+	// item's data assets.
+	Assets []string
 	// NoData overrides the files' nodata: one value for all bands, or one
 	// per selected band; nil keeps the files'.
 	NoData []float64
@@ -62,6 +66,9 @@ func (in Input) Options() []raster.Option {
 	opts := []raster.Option{raster.SelectBands(in.Bands), raster.NoData(in.NoData)}
 	if len(in.BandNames) > 0 {
 		opts = append(opts, raster.SelectBandNames(in.BandNames))
+	}
+	if len(in.Assets) > 0 {
+		opts = append(opts, raster.SelectAssets(in.Assets))
 	}
 	if len(in.Masks) > 0 {
 		opts = append(opts, raster.MaskRules(in.Masks...))
@@ -129,6 +136,25 @@ func SplitStack(arg string) []string {
 		}
 	}
 	return out
+}
+
+// ExpandImages replaces, where several IMAGE arguments are taken, each STAC
+// ItemCollection (file or URL) and each folder of STAC item files by its
+// items, in order (raster.ItemsOf); other arguments stay as they are.
+func ExpandImages(args []string) ([]string, error) {
+	var out []string
+	for _, a := range args {
+		items, ok, err := raster.ItemsOf(a)
+		switch {
+		case err != nil:
+			return nil, err
+		case ok:
+			out = append(out, items...)
+		default:
+			out = append(out, a)
+		}
+	}
+	return out, nil
 }
 
 // OpenImage opens one IMAGE argument as a stack.
@@ -278,7 +304,7 @@ func ArgPaths(role string, args []string, masks []raster.MaskRule) []output.Path
 	var out []output.Path
 	for _, a := range args {
 		for _, p := range SplitStack(a) {
-			out = append(out, output.Path{Role: role, Path: p})
+			out = append(out, output.Path{Role: role, Path: raster.ItemFile(p)})
 		}
 	}
 	for _, m := range MaskPaths(masks) {

@@ -100,6 +100,9 @@ func (o *LearnOptions) check() error {
 // writes a basis (or a shard's partial statistics).
 func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult, err error) {
 	defer func() { err = jobkit.Classify(err) }()
+	if o.Scenes, err = jobkit.ExpandImages(o.Scenes); err != nil {
+		return nil, err
+	}
 	if err := o.check(); err != nil {
 		return nil, err
 	}

@@ -294,9 +294,12 @@ func (r *Run) date() error {
 			if errors.Is(err, raster.ErrNoDate) && !c.Chronological {
 				v, err = raster.Date{}, nil // an undated date of a pair is named by its stack alone
 			}
-			if errors.Is(err, raster.ErrNoDate) {
+			switch {
+			case errors.Is(err, raster.ErrNoDate) && raster.IsSTAC(arg): // the item and its datetime named
+				return fmt.Errorf("%w; give the dates with --dates", err)
+			case errors.Is(err, raster.ErrNoDate):
 				return fmt.Errorf("%s has no date: none in its metadata (a Landsat MTL's DATE_ACQUIRED, ACQUISITIONDATETIME, ACQUISITION_DATE, TIFFTAG_DATETIME) or its name (YYYY-MM-DD, YYYYMMDD, YYYY); give the dates with --dates", arg)
-			} else if err != nil {
+			case err != nil:
 				return err
 			}
 			if len(disagree) > 0 {
@@ -557,6 +560,9 @@ func (g onGrid) open(env jobkit.Env, arg string, opts []raster.Option, cleanups 
 	if len(paths) == 0 {
 		return nil, false, jobkit.Usagef("empty image argument %q", arg)
 	}
+	if raster.IsSTAC(arg) {
+		return g.openItem(env, arg, opts)
+	}
 	// Masks are on the reference grid, so open the files alone first.
 	probe, err := raster.Open(paths)
 	if err != nil {
@@ -569,7 +575,7 @@ func (g onGrid) open(env jobkit.Env, arg string, opts []raster.Option, cleanups 
 		return s, false, err
 	}
 	if !g.align {
-		return nil, false, fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", arg, jobkit.Describe(g.ref), gridErr)
+		return nil, false, g.offGrid(arg, gridErr)
 	}
 	var vrts []string
 	for _, p := range paths {
@@ -580,7 +586,42 @@ func (g onGrid) open(env jobkit.Env, arg string, opts []raster.Option, cleanups 
 		vrts = append(vrts, vrt)
 		*cleanups = append(*cleanups, cleanup)
 	}
-	env.Warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", arg, jobkit.Describe(g.ref), g.resampling)
+	g.warnWarped(env, arg)
 	s, err := jobkit.OpenStack(vrts, opts)
 	return s, err == nil, err
+}
+
+// openItem opens a STAC item, its assets warped onto the reference grid
+// when align is set and they are not on it (the item's assets may differ
+// in grid among themselves too).
+func (g onGrid) openItem(env jobkit.Env, arg string, opts []raster.Option) (*raster.Stack, bool, error) {
+	if g.align {
+		s, err := jobkit.OpenStack([]string{arg}, append(opts, raster.OntoGrid(g.ref.Grid, g.resampling)))
+		if err != nil {
+			return nil, false, err
+		}
+		if len(s.Aligned) > 0 {
+			g.warnWarped(env, arg)
+		}
+		return s, len(s.Aligned) > 0, nil
+	}
+	s, err := jobkit.OpenStack([]string{arg}, opts)
+	if err != nil {
+		return nil, false, err
+	}
+	if gridErr := g.ref.Grid.Compare(s.Grid); gridErr != nil {
+		s.Close()
+		return nil, false, g.offGrid(arg, gridErr)
+	}
+	return s, false, nil
+}
+
+// offGrid is the refusal of a date not on the reference grid without align.
+func (g onGrid) offGrid(arg string, err error) error {
+	return fmt.Errorf("%s is not on the grid of %s (%v); pass --align to warp it onto that grid", arg, jobkit.Describe(g.ref), err)
+}
+
+// warnWarped says that a date was warped onto the reference grid.
+func (g onGrid) warnWarped(env jobkit.Env, arg string) {
+	env.Warn("%s was warped onto the grid of %s (%s resampling): any misregistration between the dates shows up as change along edges", arg, jobkit.Describe(g.ref), g.resampling)
 }

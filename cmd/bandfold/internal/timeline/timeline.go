@@ -227,6 +227,10 @@ func timelinePairs(dates int) [][2]int {
 // onto it) with their bands matched, and the output folder.
 func (r *timelineRun) open(ctx context.Context) error {
 	o := r.o
+	var err error
+	if o.Scenes, err = jobkit.ExpandImages(o.Scenes); err != nil {
+		return err
+	}
 	if err := o.check(); err != nil {
 		return err
 	}
