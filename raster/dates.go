@@ -78,8 +78,12 @@ func DateMetadata(path string) ([]DateSource, error) {
 			out = append(out, DateSource{Key: key, Value: value})
 		}
 	}
-	if m, err := findMTL(path, ReadMTL); err == nil {
-		add("MTL:DATE_ACQUIRED", m.DateAcquired)
+	// Only a file named as a Landsat band file has an MTL looked for
+	// beside it: a folder listing costs a request on a remote path.
+	if landsatBandName.MatchString(filepath.Base(path)) {
+		if m, err := findMTL(path, ReadMTL); err == nil {
+			add("MTL:DATE_ACQUIRED", m.DateAcquired)
+		}
 	}
 	if m, ok, err := FindS2Metadata(path, ReadS2Metadata); err == nil && ok {
 		add("MTD_MSIL2A:DATATAKE_SENSING_START", m.SensingStart)
