@@ -70,6 +70,14 @@ func TestTimelineBadInputs(t *testing.T) {
 	if err := o.Commit(); err != nil {
 		t.Fatal(err)
 	}
+	// Side inputs a run reads: a wavelengths file, a batch's list named as
+	// its own output would be.
+	waves := p("waves.txt")
+	writeFile(t, waves, "wavelength_nm\n450\n550\n650\n850\n950\n1650\n")
+	basisA := p("a.basis.json")
+	mustRun(t, "learn", a, "--out", basisA, "--quiet")
+	list := p("site-2019.lst")
+	writeFile(t, list, a+"\n")
 	out := p("out/timeline")
 	tl := func(extra ...string) []string { return append([]string{"timeline", "--out", out}, extra...) }
 
@@ -97,6 +105,8 @@ func TestTimelineBadInputs(t *testing.T) {
 		{"change mask of zeros", []string{"change", a, b, "--out", out, "--mask-after", zeroMask}, 1, []string{b, "mask " + zeroMask + " marks every pixel invalid"}},
 		{"mask bit not a number", []string{"learn", a, "--mask", a + ":bits=x", "--out", p("basis.json")}, 2, []string{`--mask "` + a + `:bits=x": "x" is not a bit number`}},
 		{"bands by a name no band has", []string{"learn", a, "--bands", "B99", "--out", p("basis.json")}, 2, []string{a, "no band named B99"}},
+		{"learn over its wavelengths", []string{"learn", a, "--wavelengths", waves, "--out", waves, "--overwrite"}, 1, []string{"output " + waves + " is the same file as wavelengths"}},
+		{"batch over its list", []string{"fold", "--list", list, "--basis", basisA, "--out-dir", dir, "--name", "{stem}.lst", "--overwrite"}, 1, []string{"output " + list + " is the same file as list"}},
 		{"learn band names differ", []string{"learn", n1, n3, "--out", p("basis.json")}, 1, []string{n3, n1, "--ignore-band-names"}},
 	}
 	checkBadCases(t, dir, tests)

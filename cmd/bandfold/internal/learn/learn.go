@@ -137,6 +137,12 @@ func Learn(ctx context.Context, env jobkit.Env, o LearnOptions) (_ *LearnResult,
 	if err := jobkit.DistinctFromStacks(scenes, output.Path{Role: "output", Path: target}); err != nil && target != "" {
 		return nil, err
 	}
+	if w := o.Spectral.WavelengthsFile; w != "" && target != "" {
+		// The wavelengths file is read too: never written over.
+		if err := output.Distinct([]output.Path{{Role: "wavelengths", Path: w}}, []output.Path{{Role: "output", Path: target}}); err != nil {
+			return nil, err
+		}
+	}
 	if err := jobkit.CheckPooled(scenes, o.IgnoreBandNames); err != nil {
 		return nil, err
 	}
