@@ -324,6 +324,9 @@ func DistinctFromStacks(stacks []*raster.Stack, outs ...output.Path) error {
 		for _, m := range s.Masks {
 			ins = append(ins, output.Path{Role: "mask", Path: m})
 		}
+		for _, f := range s.SideFiles() {
+			ins = append(ins, output.Path{Role: "metadata file", Path: f})
+		}
 	}
 	return output.Distinct(ins, outs)
 }

@@ -7,7 +7,9 @@ import (
 	"strings"
 	"testing"
 
+	"bandfold/cmd/bandfold/internal/fold"
 	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
@@ -311,4 +313,28 @@ func patchSizes(set []bool, w, h int) []int {
 		sizes = append(sizes, n)
 	}
 	return sizes
+}
+
+// TestNoOutputOverTheMTL: learn and fold never write over the *_MTL.txt
+// their stack read (for calibration or wavelengths), even with
+// --overwrite: the MTL joins the same-file refusal (known by construction:
+// the output is named as the MTL).
+func TestNoOutputOverTheMTL(t *testing.T) {
+	dir := t.TempDir()
+	stack := productStack(t, dir, l8Product, "2", "3", "4")
+	mtl := filepath.Join(dir, l8Product+"_MTL.txt")
+	before, err := os.ReadFile(mtl)
+	if err != nil {
+		t.Fatal(err)
+	}
+	basis := filepath.Join(dir, "b.json")
+	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{stack}, Out: basis})
+	_, err = learn.Learn(t.Context(), TestEnv, learn.LearnOptions{Scenes: []string{stack}, Out: mtl, Overwrite: true, Variance: DefaultVariance,
+		Input: jobkit.Input{Calibrate: raster.CalibrateTOA}})
+	WantError(t, "learn over the MTL", err, false, "same file as metadata file")
+	_, err = fold.Fold(t.Context(), TestEnv, fold.FoldOptions{Scenes: []string{stack}, Basis: basis, Out: mtl, Overwrite: true})
+	WantError(t, "fold over the MTL", err, false, "same file as metadata file")
+	if after, err := os.ReadFile(mtl); err != nil || string(after) != string(before) {
+		t.Errorf("the MTL changed: %v", err)
+	}
 }
