@@ -1,4 +1,4 @@
-# bandfold: make demo | make test | make bench | make bench-large | make test-cluster
+# bandfold: make demo | make test | make docs | make bench | make bench-large | make test-cluster
 SHELL := /bin/bash
 GO ?= go
 BIN := bin/bandfold
@@ -6,7 +6,7 @@ DEBS := libgdal-dev gdal-bin python3-gdal libopenblas-dev pkg-config chromium
 VERSION := $(shell git describe --always --dirty 2>/dev/null || echo dev)
 export GOFLAGS := -buildvcs=false
 
-.PHONY: all deps build test unit fuzz testdata demo bench bench-large test-cluster clean
+.PHONY: all deps build test unit fuzz testdata demo docs bench bench-large test-cluster clean
 
 all: build
 
@@ -35,6 +35,11 @@ test-cluster: build testdata
 
 demo: build
 	$(BIN) demo --dir demo-out --overwrite
+
+# docs/commands/ (a page per command, from the cobra tree) and
+# docs/outputs.md, from the code; make test fails when they are stale.
+docs: deps
+	$(GO) test -count=1 ./cmd/bandfold -run 'TestDocsAreCurrent' -args -update-docs
 
 bench: build
 	@bash scripts/bench.sh

@@ -126,7 +126,19 @@ func newRootCommand(g *globals) *cobra.Command {
 		newSurveyCommand(g),
 	)
 	cli.StrictCommands(root)
+	addOutputsHelp(root)
 	return root
+}
+
+// addOutputsHelp ends every command's help with the files it writes
+// (cli.Outputs).
+func addOutputsHelp(c *cobra.Command) {
+	if help := cli.OutputsHelp(strings.TrimPrefix(c.CommandPath(), c.Root().Name()+" ")); help != "" {
+		c.Long += help
+	}
+	for _, sub := range c.Commands() {
+		addOutputsHelp(sub)
+	}
 }
 
 // runE wraps a command's work: it marks the command line as parsed, sets up
