@@ -3,9 +3,11 @@ package main
 import (
 	"flag"
 	"fmt"
+	"io/fs"
 	"maps"
 	"os"
 	"path/filepath"
+	"regexp"
 	"slices"
 	"strings"
 	"testing"
@@ -155,4 +157,69 @@ func TestOutputsTableMatchesRuns(t *testing.T) {
 			t.Errorf("%s wrote %v; cli.Outputs lists %v", r.command, slices.Sorted(maps.Keys(got)), slices.Sorted(maps.Keys(want)))
 		}
 	}
+}
+
+// TestDocLinks: every relative link of README.md, DEVELOPERS.md and docs/
+// resolves to a file, and every #anchor to a heading of its page (GitHub's
+// slugs: lower case, punctuation dropped, spaces as hyphens).
+func TestDocLinks(t *testing.T) {
+	pages := []string{"../../README.md", "../../DEVELOPERS.md", "../../examples/README.md"}
+	err := filepath.WalkDir(docsDir, func(p string, d fs.DirEntry, err error) error {
+		if err == nil && !d.IsDir() && strings.HasSuffix(p, ".md") {
+			pages = append(pages, p)
+		}
+		return err
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	link := regexp.MustCompile(`\]\(([^)\s]+)\)`)
+	for _, page := range pages {
+		data, err := os.ReadFile(page)
+		if err != nil {
+			t.Fatal(err)
+		}
+		text := stripCode(string(data))
+		for _, m := range link.FindAllStringSubmatch(text, -1) {
+			target := m[1]
+			if strings.Contains(target, "://") || strings.HasPrefix(target, "mailto:") {
+				continue
+			}
+			file, anchor, _ := strings.Cut(target, "#")
+			path := page
+			if file != "" {
+				path = filepath.Join(filepath.Dir(page), file)
+			}
+			if _, err := os.Stat(path); err != nil {
+				t.Errorf("%s: link %s: no such file", page, target)
+				continue
+			}
+			if anchor != "" && !slices.Contains(anchors(t, path), anchor) {
+				t.Errorf("%s: link %s: no heading with that anchor", page, target)
+			}
+		}
+	}
+}
+
+// stripCode removes fenced code blocks, whose brackets are not links.
+func stripCode(text string) string {
+	return regexp.MustCompile("(?s)```.*?```").ReplaceAllString(text, "")
+}
+
+// anchors are the GitHub anchors of a markdown file's headings.
+func anchors(t *testing.T, path string) []string {
+	t.Helper()
+	data, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out []string
+	drop := regexp.MustCompile(`[^\p{L}\p{N} _-]`)
+	for _, line := range strings.Split(stripCode(string(data)), "\n") {
+		if h, ok := strings.CutPrefix(line, "#"); ok {
+			h = strings.TrimSpace(strings.TrimLeft(h, "#"))
+			out = append(out, strings.ReplaceAll(drop.ReplaceAllString(strings.ToLower(h), ""), " ", "-"))
+		}
+	}
+	return out
 }
