@@ -39,7 +39,7 @@ demo: build
 # docs/commands/ (a page per command, from the cobra tree) and
 # docs/outputs.md, from the code; make test fails when they are stale.
 docs: deps
-	$(GO) test -count=1 ./cmd/bandfold -run 'TestDocsAreCurrent' -args -update-docs
+	$(GO) test -count=1 ./cmd/bandfold -run 'TestDocsAreCurrent|TestWalkthrough' -args -update-docs
 
 bench: build
 	@bash scripts/bench.sh
