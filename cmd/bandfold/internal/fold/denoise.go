@@ -69,6 +69,10 @@ func Denoise(ctx context.Context, env jobkit.Env, o DenoiseOptions) (_ *DenoiseR
 	}
 	p := len(d.basis.Bands)
 	spec := restoredSpec(d.img.Grid, d.basis, &d.st, d.proj.Components(), env.Version)
+	carryProvenance(spec.Metadata, d.img.Metadata)
+	if date, _, err := raster.SceneDate(d.img.Paths[0]); err == nil && spec.Metadata["ACQUISITION_DATE"] == "" {
+		spec.Metadata["ACQUISITION_DATE"] = date.Label
+	}
 	spec.Format, spec.CreationOptions, spec.Overwrite = o.Format, o.CreationOptions, o.Overwrite
 	dst, err := raster.Create(o.Out, spec)
 	if err != nil {

@@ -430,8 +430,9 @@ func (f *folding) spec(s *raster.Stack) raster.Spec {
 		"BANDFOLD_COMPONENTS":  strconv.Itoa(f.k),
 		"BANDFOLD_VERSION":     f.env.Version,
 	}
-	if v, ok := s.Metadata["SCENARIO"]; ok {
-		spec.Metadata["SCENARIO"] = v
+	carryProvenance(spec.Metadata, s.Metadata)
+	if date, _, err := raster.SceneDate(s.Paths[0]); err == nil && spec.Metadata["ACQUISITION_DATE"] == "" {
+		spec.Metadata["ACQUISITION_DATE"] = date.Label
 	}
 	return spec
 }

@@ -84,6 +84,7 @@ func Unfold(ctx context.Context, env jobkit.Env, o UnfoldOptions) (_ *UnfoldResu
 	p := len(u.basis.Bands)
 	k := u.comps.Len()
 	spec := restoredSpec(u.comps.Grid, u.basis, &u.st, k, env.Version)
+	carryProvenance(spec.Metadata, u.comps.Metadata)
 	spec.Format, spec.CreationOptions, spec.Overwrite = o.Format, o.CreationOptions, o.Overwrite
 	dst, err := raster.Create(o.Out, spec)
 	if err != nil {
@@ -353,4 +354,18 @@ func (w *unfoldWorker) Close() error {
 		}
 	}
 	return err
+}
+
+// provenanceKeys are the dataset metadata an output made band for band from
+// an input carries over: the invented scenario's name and the date.
+var provenanceKeys = []string{"SCENARIO", "ACQUISITION_DATE"}
+
+// carryProvenance copies the provenance keys of an input's metadata into
+// an output's.
+func carryProvenance(dst, src map[string]string) {
+	for _, k := range provenanceKeys {
+		if v, ok := src[k]; ok && v != "" {
+			dst[k] = v
+		}
+	}
 }
