@@ -90,7 +90,7 @@ func FoldBatch(ctx context.Context, env jobkit.Env, o FoldOptions) (_ *BatchResu
 		ins = append(ins, output.Path{Role: "list", Path: o.List})
 	}
 	for out := range outs {
-		targets = append(targets, output.Path{Role: "output", Path: out}, output.Path{Role: "STAC item", Path: jobkit.ItemPath(out)})
+		targets = append(targets, jobkit.RasterOutputs(out)...)
 	}
 	if err := output.Distinct(ins, targets); err != nil {
 		return nil, err

@@ -113,14 +113,8 @@ func (d *denoising) open() error {
 		return err
 	}
 	ins := append(jobkit.ArgPaths("input", []string{o.Image}, o.Input.Masks), output.Path{Role: "basis", Path: o.Basis})
-	outs := []output.Path{{Role: "output", Path: o.Out}, {Role: "STAC item", Path: jobkit.ItemPath(o.Out)}}
-	if err := output.Distinct(ins, outs); err != nil {
+	if err := jobkit.CheckOutputs(ins, jobkit.RasterOutputs(o.Out), o.Overwrite); err != nil {
 		return err
-	}
-	for _, out := range outs {
-		if err := output.Check(out.Path, o.Overwrite); err != nil {
-			return err
-		}
 	}
 	b, err := transform.ReadBasis(o.Basis)
 	if err != nil {

@@ -163,18 +163,13 @@ func Fold(ctx context.Context, env jobkit.Env, o FoldOptions) (_ *FoldScene, err
 	if err != nil {
 		return nil, err
 	}
-	outs := []output.Path{{Role: "output", Path: o.Out}, {Role: "STAC item", Path: jobkit.ItemPath(o.Out)}}
+	outs := jobkit.RasterOutputs(o.Out)
 	if o.Preview != "" {
 		outs = append(outs, output.Path{Role: "preview", Path: o.Preview})
 	}
 	ins := append(jobkit.ArgPaths("input", o.Scenes, o.Input.Masks), output.Path{Role: "basis", Path: o.Basis})
-	if err := output.Distinct(ins, outs); err != nil {
+	if err := jobkit.CheckOutputs(ins, outs, o.Overwrite); err != nil {
 		return nil, err
-	}
-	for _, out := range outs {
-		if err := output.Check(out.Path, o.Overwrite); err != nil {
-			return nil, err
-		}
 	}
 	res, err := f.scene(ctx, o.Scenes[0], o.Out, false)
 	if err != nil {

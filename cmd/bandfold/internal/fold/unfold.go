@@ -161,13 +161,7 @@ func (u *unfolding) open() error {
 	for _, m := range jobkit.MaskPaths(o.Input.Masks) {
 		ins = append(ins, output.Path{Role: "mask", Path: m})
 	}
-	if err := output.Distinct(ins, []output.Path{{Role: "output", Path: o.Out}, {Role: "STAC item", Path: jobkit.ItemPath(o.Out)}}); err != nil {
-		return err
-	}
-	if err := output.Check(jobkit.ItemPath(o.Out), o.Overwrite); err != nil {
-		return err
-	}
-	if err := output.Check(o.Out, o.Overwrite); err != nil {
+	if err := jobkit.CheckOutputs(ins, jobkit.RasterOutputs(o.Out), o.Overwrite); err != nil {
 		return err
 	}
 	b, err := transform.ReadBasis(o.Basis)

@@ -289,3 +289,23 @@ func CommitWithItem(dst *raster.Output, item *output.File) error {
 	}
 	return nil
 }
+
+// RasterOutputs are the files a raster output at path makes: the raster
+// and its STAC Item.
+func RasterOutputs(path string) []output.Path {
+	return []output.Path{{Role: "output", Path: path}, {Role: "STAC item", Path: ItemPath(path)}}
+}
+
+// CheckOutputs refuses, before any work, an output that is one of the
+// inputs (output.Distinct) or that exists without overwrite (output.Check).
+func CheckOutputs(ins, outs []output.Path, overwrite bool) error {
+	if err := output.Distinct(ins, outs); err != nil {
+		return err
+	}
+	for _, out := range outs {
+		if err := output.Check(out.Path, overwrite); err != nil {
+			return err
+		}
+	}
+	return nil
+}
