@@ -85,9 +85,9 @@ type Spec struct {
 	// Compress, when set, is the GeoTIFF compression (see BestCompression)
 	// in place of DEFLATE, with the same predictor (in COG output too).
 	Compress string
-	// Classes marks a raster of class codes: a COG's overviews take the
+	// Categorical marks a raster of class codes: a COG's overviews take the
 	// nearest value, not the average.
-	Classes bool
+	Categorical bool
 	// CreationOptions are KEY=VALUE options that override bandfold's
 	// defaults (--co).
 	CreationOptions []string
@@ -150,7 +150,7 @@ func cogOptions(spec Spec, dt godal.DataType) []string {
 	if dt == godal.Float32 || dt == godal.Float64 {
 		predictor = "FLOATING_POINT"
 	}
-	if spec.Classes {
+	if spec.Categorical {
 		resampling = "NEAREST"
 	}
 	base := []string{"COMPRESS=" + cmp.Or(spec.Compress, "DEFLATE"), "PREDICTOR=" + predictor, "BIGTIFF=IF_SAFER",

@@ -133,7 +133,7 @@ func (f *OutputFormat) Check() error {
 // job's own; classes marks a raster of class codes (its COG overviews take
 // the nearest value).
 func (f OutputFormat) Spec(s raster.Spec, classes bool) raster.Spec {
-	s.Format, s.Classes = f.Format, classes
+	s.Format, s.Categorical = f.Format, classes
 	s.CreationOptions = append(slices.Clone(s.CreationOptions), f.CreationOptions...)
 	return s
 }
