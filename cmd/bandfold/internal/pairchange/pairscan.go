@@ -205,6 +205,12 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
+	return r.commitMap(&outs)
+}
+
+// commitMap commits the map pass's rasters and lists them with change.tif,
+// which changeMap writes.
+func (r *changeRun) commitMap(outs *mapOutputs) error {
 	r.outputs = append(r.outputs, "change.tif")
 	for _, o := range outs.all() {
 		if err := o.Commit(); err != nil {
