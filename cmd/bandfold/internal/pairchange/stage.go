@@ -11,7 +11,6 @@ import (
 
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/series"
-	"bandfold/raster"
 	"bandfold/tiles"
 )
 
@@ -260,15 +259,9 @@ func (r *changeRun) joinPieces(ctx context.Context) error {
 			return fmt.Errorf("%s was mapped with another model than %s: run its map stage again", sr.Path, series.StagePath(r.o.Out, series.KindModel, jobkit.Shard{}))
 		}
 	}
-	if r.mask, err = raster.NewMask(r.before.Grid); err != nil {
-		return err
-	}
 	var outs mapOutputs
-	err = outs.create(r)
-	for _, o := range outs.all() {
-		defer o.Abort()
-	}
-	if err != nil {
+	defer outs.abort()
+	if err := r.startMap(&outs); err != nil {
 		return err
 	}
 	if err := r.joinTiles(ctx, rs, &outs); err != nil {

@@ -3,6 +3,7 @@ package pairchange_test
 import (
 	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -121,5 +122,110 @@ func TestStagedChangeEqualsSingleRun(t *testing.T) {
 				}
 			}
 		}
+	}
+}
+
+// TestStagedChangeRefusals: the stages refuse what cannot make one whole
+// run, in one line naming the file and the problem, writing nothing into
+// the output folder.
+func TestStagedChangeRefusals(t *testing.T) {
+	dir := t.TempDir()
+	demo := jobtest.ScenarioFiles(t, dir, 128, 3)
+	after := filepath.Join(dir, "after.tif")
+	jobtest.CopyFile(t, demo.After, after)
+	base := pairchange.ChangeOptions{Before: demo.Before, After: after, Input: jobkit.Input{Tile: 32}}
+	stage := func(o pairchange.ChangeOptions, st string, i, n int) error {
+		o.Stage, o.Shard = st, jobkit.Shard{I: i, N: n}
+		if st == pairchange.StageFit {
+			o.Shard = jobkit.Shard{}
+		}
+		if st == pairchange.StageFinish {
+			_, err := pairchange.Change(t.Context(), jobtest.TestEnv, o)
+			return err
+		}
+		_, err := pairchange.ChangeStage(t.Context(), jobtest.TestEnv, o)
+		return err
+	}
+	must := func(err error) {
+		t.Helper()
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+	tests := []struct {
+		name  string
+		run   func(o pairchange.ChangeOptions) error
+		usage bool
+		want  []string
+	}{
+		{"map before fit", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 1))
+			return stage(o, "map", 0, 1)
+		}, true, []string{"model.gob", "run --stage fit"}},
+		{"a missing scan shard", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 2))
+			return stage(o, "fit", 0, 0)
+		}, false, []string{"shard 1/2 is missing"}},
+		{"a mixed set", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 2))
+			must(stage(o, "scan", 1, 2))
+			must(stage(o, "scan", 0, 3))
+			return stage(o, "fit", 0, 0)
+		}, false, []string{"scan-0-of-3.gob is shard 0/3, of another split"}},
+		{"a shard run twice", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 1))
+			return stage(o, "scan", 0, 1)
+		}, false, []string{"scan-0-of-1.gob", "exists"}},
+		{"other options", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 1))
+			o.Sample = 500
+			return stage(o, "fit", 0, 0)
+		}, true, []string{"scan-0-of-1.gob", "other options", "Sample"}},
+		{"another scene", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 1))
+			appendByte(t, after) // another file now, of another size
+			defer jobtest.CopyFile(t, demo.After, after)
+			return stage(o, "fit", 0, 0)
+		}, false, []string{"scan-0-of-1.gob", "other inputs"}},
+		{"a missing map shard", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 1))
+			must(stage(o, "fit", 0, 0))
+			must(stage(o, "map", 1, 2))
+			return stage(o, "finish", 0, 0)
+		}, false, []string{"shard 0/2 is missing"}},
+		{"a piece of an earlier fit", func(o pairchange.ChangeOptions) error {
+			must(stage(o, "scan", 0, 1))
+			must(stage(o, "fit", 0, 0))
+			must(stage(o, "map", 0, 1))
+			appendByte(t, series.StagePath(o.Out, series.KindModel, jobkit.Shard{})) // as if fitted again on other partials
+			return stage(o, "finish", 0, 0)
+		}, false, []string{"map-0-of-1.gob", "another model"}},
+		{"a shard of fit", func(o pairchange.ChangeOptions) error {
+			o.Stage, o.Shard = "fit", jobkit.Shard{I: 1, N: 2}
+			_, err := pairchange.ChangeStage(t.Context(), jobtest.TestEnv, o)
+			return err
+		}, true, []string{"--shard 1/2 applies to --stage scan and map only"}},
+	}
+	for i, tc := range tests {
+		o := base
+		o.Out = filepath.Join(dir, fmt.Sprintf("out%d", i))
+		err := tc.run(o)
+		jobtest.WantError(t, tc.name, err, tc.usage, tc.want...)
+		if err != nil && strings.Contains(err.Error(), "\n") {
+			t.Errorf("%s: the error is not one line", tc.name)
+		}
+		jobtest.MustNotExist(t, tc.name, o.Out)
+	}
+}
+
+// appendByte makes path another file, still readable.
+func appendByte(t *testing.T, path string) {
+	f, err := os.OpenFile(path, os.O_APPEND|os.O_WRONLY, 0)
+	if err == nil {
+		_, err = f.Write([]byte{0})
+		err = errors.Join(err, f.Close())
+	}
+	if err != nil {
+		t.Fatal(err)
 	}
 }
