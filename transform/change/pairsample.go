@@ -238,3 +238,15 @@ func (h *keyHeap) offer(key uint64, n int) bool {
 // Both returns the number of pixels valid on both dates of pair q seen so
 // far.
 func (s *PairSample) Both(q int) int64 { return s.both[q] }
+
+// Export returns the candidates s keeps (every pixel some pair's sample may
+// still take) with their values, and each pair's count of pixels valid on
+// both dates, as one TileSample. The samples of disjoint parts of an image
+// (the shards of a job) merge exactly: adding their exports to a new
+// PairSample, in any order, keeps the same n smallest keys per pair as one
+// pass over the whole image (a key among the n smallest of the whole is
+// among the n smallest of its part), so Pair returns the same values.
+func (s *PairSample) Export() *TileSample {
+	s.prune()
+	return &TileSample{Cands: slices.Clone(s.cands), Valid: slices.Clone(s.valid), Vals: slices.Clone(s.vals), Both: slices.Clone(s.both)}
+}

@@ -1,6 +1,7 @@
 package jobkit
 
 import (
+	"errors"
 	"fmt"
 	"strconv"
 	"strings"
@@ -74,4 +75,43 @@ func shardFromEnv(count int, getenv func(string) string) (Shard, error) {
 		return Shard{i, count}, nil
 	}
 	return Shard{}, Usagef("--shard auto: no job array in the environment (neither SLURM_ARRAY_TASK_ID nor JOB_COMPLETION_INDEX is set)")
+}
+
+// Has reports whether item k of a job (its k-th tile) is the shard's: the
+// items whose number mod N is I, as NewScan deals them.
+func (s Shard) Has(k int) bool { s = s.OrWhole(); return k%s.N == s.I }
+
+// CheckShards verifies that shards, read from the files paths (for
+// messages), are one whole job: the same N as the first, each of 0..N-1
+// exactly once. Its error is one line naming every file of a foreign N,
+// every shard duplicated and every shard missing.
+func CheckShards(shards []Shard, paths []string) error {
+	if len(shards) != len(paths) {
+		panic("jobkit: CheckShards: len(shards) != len(paths)")
+	}
+	if len(shards) == 0 {
+		return errors.New("no shard files")
+	}
+	n := shards[0].N
+	var problems []string
+	seen := make(map[int]string)
+	for i, s := range shards {
+		switch first, dup := seen[s.I]; {
+		case s.N != n:
+			problems = append(problems, fmt.Sprintf("%s is shard %s, of another split than %s (of %d)", paths[i], s, paths[0], n))
+		case dup:
+			problems = append(problems, fmt.Sprintf("%s repeats shard %s of %s", paths[i], s, first))
+		default:
+			seen[s.I] = paths[i]
+		}
+	}
+	for i := range n {
+		if _, ok := seen[i]; !ok {
+			problems = append(problems, fmt.Sprintf("shard %d/%d is missing", i, n))
+		}
+	}
+	if len(problems) > 0 {
+		return errors.New(strings.Join(problems, "; "))
+	}
+	return nil
 }

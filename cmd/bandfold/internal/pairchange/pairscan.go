@@ -144,6 +144,22 @@ func (m *mapOutputs) create(r *changeRun) error {
 	return nil
 }
 
+// startMap starts the mask and the rasters of the map pass.
+func (r *changeRun) startMap(outs *mapOutputs) error {
+	var err error
+	if r.mask, err = raster.NewMask(r.before.Grid); err != nil {
+		return err
+	}
+	return outs.create(r)
+}
+
+// abort removes the rasters not committed.
+func (m *mapOutputs) abort() {
+	for _, o := range m.all() {
+		o.Abort()
+	}
+}
+
 func (m *mapOutputs) all() []*raster.Output {
 	var out []*raster.Output
 	for _, o := range []*raster.Output{m.mag, m.pv, m.diffs} {
@@ -175,20 +191,13 @@ func (m *mapOutputs) write(t tiles.Tile, mt *mapTile) error {
 // differences.tif) and fills the mask.
 func (r *changeRun) mapPixels(ctx context.Context) error {
 	k := r.Proj.Components()
-	var err error
 	r.grid = report.NewPreviewGrid(r.before.Width, r.before.Height, r.before.Len(), r.rgb)
-	if r.mask, err = raster.NewMask(r.before.Grid); err != nil {
-		return err
-	}
 	var outs mapOutputs
-	err = outs.create(r)
-	for _, o := range outs.all() {
-		defer o.Abort()
-	}
-	if err != nil {
+	defer outs.abort()
+	if err := r.startMap(&outs); err != nil {
 		return err
 	}
-	err = r.MapPairs(ctx, series.MapHooks{
+	err := r.MapPairs(ctx, series.MapHooks{
 		NewWorker: func() series.TileHook {
 			return &changeHook{k: k, pvals: r.o.PValues, diffs: r.o.Differences, grid: r.grid}
 		},
@@ -205,6 +214,12 @@ func (r *changeRun) mapPixels(ctx context.Context) error {
 	if err != nil {
 		return err
 	}
+	return r.commitMap(&outs)
+}
+
+// commitMap commits the map pass's rasters and lists them with change.tif,
+// which changeMap writes.
+func (r *changeRun) commitMap(outs *mapOutputs) error {
 	r.outputs = append(r.outputs, "change.tif")
 	for _, o := range outs.all() {
 		if err := o.Commit(); err != nil {

@@ -58,6 +58,9 @@ type Config struct {
 	Extra     []output.Path
 	Out       string
 	Overwrite bool
+	// NoFolder leaves the output folder alone (checked, never created):
+	// the stages of a staged run but the last.
+	NoFolder bool
 }
 
 // SharedOptions are the options of change and timeline that the engine
@@ -128,6 +131,10 @@ type Run struct {
 	Areas     *raster.CellAreas
 	MinPixels int
 	tiles     []tiles.Tile
+	only      []tiles.Tile // a shard's tiles, numbered among themselves (UseShard); nil for all
+	shard     *jobkit.Shard
+	scanAt    []int     // the global number of each of a shard's sample tiles
+	tileAcc   []TileAcc // a shard's sample tiles' co-moments
 	given     *transform.Basis
 	Matched   string // how the bands were matched, for people; "" when as given
 
@@ -227,6 +234,9 @@ func (r *Run) Open(context.Context) error {
 		if err := jobkit.CheckBands(r.given, c.Basis, first, jobkit.BandCheck{Selected: c.BandsChosen || r.Matched != "", IgnoreNames: c.IgnoreBandNames}); err != nil {
 			return err
 		}
+	}
+	if c.NoFolder {
+		return nil
 	}
 	r.Dir, err = output.CreateFolder(c.Out, c.Overwrite)
 	return err

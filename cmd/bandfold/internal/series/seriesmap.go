@@ -110,9 +110,13 @@ func (r *Run) MapPairs(ctx context.Context, h MapHooks) error {
 		ring = max(ring, pr[1]-pr[0]+1)
 	}
 	pool := &sync.Pool{New: func() any { return &PairTile{} }}
-	return tiles.Run(ctx, r.tiles, tiles.Options{Workers: r.Env.WorkerCount(), Progress: r.Env.ProgressFor("map", int64(g.Width)*int64(g.Height))},
+	ts := r.tiles
+	if r.only != nil {
+		ts = r.only
+	}
+	return tiles.Run(ctx, ts, tiles.Options{Workers: r.Env.WorkerCount(), Progress: r.Env.ProgressFor("map", int64(g.Width)*int64(g.Height))},
 		func(int) (tiles.Worker[*PairTile], error) {
-			w := &pairWorker{seriesReader: newSeriesReader(r.Scenes, r.tiles, ring), pairs: r.pairs, ring: ring, pool: pool,
+			w := &pairWorker{seriesReader: newSeriesReader(r.Scenes, ts, ring), pairs: r.pairs, ring: ring, pool: pool,
 				hook: h.NewWorker(), p: r.Scenes[0].Len()}
 			for q, pr := range r.pairs {
 				w.scorers = append(w.scorers, newPairScorer(r.Proj, r.Fits[q], r.norms[pr[0]], r.norms[pr[1]]))

@@ -204,7 +204,9 @@ func (r *Run) Sample(ctx context.Context) error {
 	g := r.Scenes[0].Grid
 	pixels := int64(g.Width) * int64(g.Height)
 	hint := change.SampleHint(r.C.Sample, pixels)
+	shardTiles := r.scanShard(r.sampleTiles(hint)) // nil in a single run
 	for {
+		r.tileAcc = r.tileAcc[:0]
 		total := seriesStats{sample: change.NewPairSample(r.C.Sample, p, len(r.Scenes), r.sampled, hint, pixels)}
 		for range r.Scenes {
 			total.acc = append(total.acc, bands.NewExactAccumulator(p))
@@ -213,14 +215,18 @@ func (r *Run) Sample(ctx context.Context) error {
 		bound.Store(total.sample.Bound())
 		keys := change.NewSampler(r.C.Sample, 1, 1)
 		ts := r.sampleTiles(hint)
+		if shardTiles != nil {
+			ts = shardTiles
+		}
 		err := tiles.Run(ctx, ts, tiles.Options{Workers: r.Env.WorkerCount(), Progress: r.Env.ProgressFor("statistics", pixels)},
 			func(int) (tiles.Worker[sampled], error) {
 				return &sampleWorker{seriesReader: newSeriesReader(r.Scenes, ts, 2), ref: r.Ref, pairs: r.sampled, p: p, width: int64(g.Width), keyer: keys, bound: &bound}, nil
 			},
-			func(_ tiles.Tile, res sampled) error {
+			func(t tiles.Tile, res sampled) error {
 				for i, a := range res.acc {
 					total.acc[i].Merge(a)
 				}
+				r.keepTile(t, res.acc)
 				total.sample.Add(res.ts)
 				bound.Store(total.sample.Bound())
 				return nil
@@ -231,6 +237,10 @@ func (r *Run) Sample(ctx context.Context) error {
 		if !total.sample.Complete() {
 			hint = total.sample.RetryHint()
 			continue
+		}
+		if shardTiles != nil {
+			r.stats = total // a shard's share: MergeScans checks and finishes the whole
+			return nil
 		}
 		for q, pr := range r.sampled {
 			if total.sample.Both(q) == 0 {
