@@ -80,7 +80,16 @@ type Spec struct {
 	BandMetadata []map[string]string
 	// ColorTable, when set, is given to band 1 (Byte outputs).
 	ColorTable [][4]int16
-	Format     Format
+	// Colour marks a quicklook meant as colour: its 3 or 4 bands are
+	// written as red, green, blue (and alpha), PHOTOMETRIC=RGB. Every other
+	// output of more than one band is written PHOTOMETRIC=MINISBLACK, so
+	// that GDAL reads band 1 as gray and the others as undefined: component
+	// images, codes, steps and statistics are not colour images, and GDAL's
+	// GeoTIFF driver would otherwise call any 3 or 4 Byte bands
+	// red/green/blue/alpha (so that a value 0 in a fourth band shows as
+	// transparent).
+	Colour bool
+	Format Format
 	// Compress, when set, is the GeoTIFF compression (see BestCompression)
 	// in place of DEFLATE, with the same predictor.
 	Compress string
@@ -181,6 +190,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	if spec.DataType == SignedByte {
 		base = append(base, "PIXELTYPE=SIGNEDBYTE")
 	}
+	base = append(base, photometric(spec)...)
 	opts := creationOptions(dt, append(base, spec.CreationOptions...))
 	driver, user := "GTiff", opts
 	if spec.Format == COG {
@@ -209,6 +219,24 @@ func Create(path string, spec Spec) (*Output, error) {
 		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
 	}
 	return o, nil
+}
+
+// photometric returns the creation options that set the bands' roles:
+// none for one band (gray, or a palette with a colour table), RGB for a
+// colour quicklook, MINISBLACK for every other multi-band output. The
+// user's --co may still override them.
+func photometric(spec Spec) []string {
+	switch {
+	case spec.Colour && (spec.Bands < 3 || spec.Bands > 4):
+		panic(fmt.Sprintf("raster: a colour output of %d bands (want 3 or 4)", spec.Bands))
+	case spec.Colour && spec.Bands == 4:
+		return []string{"PHOTOMETRIC=RGB", "ALPHA=YES"}
+	case spec.Colour:
+		return []string{"PHOTOMETRIC=RGB"}
+	case spec.Bands > 1:
+		return []string{"PHOTOMETRIC=MINISBLACK"}
+	}
+	return nil
 }
 
 // BestCompression returns the lossless GeoTIFF compression for integer
