@@ -14,8 +14,8 @@ import (
 	"strings"
 	"testing"
 
-	"bandfold/tiles/testenv"
 	"bandfold/raster/output"
+	"bandfold/tiles/testenv"
 )
 
 // patchScene is a change map whose truth is known by construction, on a
