@@ -31,8 +31,11 @@ static int bandfoldValidateOption(const char *driver, const char *kv, char **msg
 import "C"
 
 import (
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
+	"path/filepath"
 	"strings"
 	"unsafe"
 
@@ -78,8 +81,15 @@ type Spec struct {
 	// domain, for example "wavelength" and "wavelength_units" (read back
 	// by Stack.Wavelengths).
 	BandMetadata []map[string]string
-	// ColorTable, when set, is given to band 1 (Byte outputs).
-	ColorTable [][4]int16
+	// Classes, when set, name and colour the values of every band of a
+	// class raster (change, steps, dates): each band gets a thematic
+	// raster attribute table (columns value, name, red, green, blue,
+	// alpha), GDAL category names when every value is from 0 to 255, and
+	// a one-band Byte output also a colour table (TIFF's palette). A
+	// GeoTIFF has no place for attribute tables and category names: GDAL
+	// keeps them in an .aux.xml file beside it, which Commit moves beside
+	// the output.
+	Classes []Class
 	// Colour marks a quicklook meant as colour: its 3 or 4 bands are
 	// written as red, green, blue (and alpha), PHOTOMETRIC=RGB. Every other
 	// output of more than one band is written PHOTOMETRIC=MINISBLACK, so
@@ -183,6 +193,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
 	}
+	checkClasses(spec.Classes)
 	var base []string
 	if spec.Compress != "" {
 		base = append(base, "COMPRESS="+spec.Compress)
@@ -205,8 +216,10 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, err
 	}
-	// ".cog.tif" is the COG copy that Finish makes of the temporary.
-	f.Sidecars(".aux.xml", ".cog.tif")
+	// ".cog.tif" is the COG copy that Finish makes of the temporary;
+	// ".aux.xml" holds what GeoTIFF has no place for (Spec.Classes).
+	f.Sidecars(".cog.tif", ".cog.tif.aux.xml")
+	f.Companions(".aux.xml")
 	o := &Output{file: f, spec: spec}
 	ds, err := godal.Create(godal.GTiff, f.Temp(), spec.Bands, dt, spec.Width, spec.Height, godal.CreationOption(opts...), errLogger)
 	if err != nil {
@@ -296,36 +309,40 @@ func (o *Output) describe() error {
 		}
 	}
 	for i, b := range o.ds.Bands() {
-		if s.NoData != nil {
-			if err := b.SetNoData(*s.NoData, errLogger); err != nil {
-				return err
-			}
+		if err := o.describeBand(i, b); err != nil {
+			return err
 		}
-		if i < len(s.Descriptions) {
-			if err := b.SetDescription(s.Descriptions[i], errLogger); err != nil {
-				return err
-			}
+	}
+	return nil
+}
+
+// describeBand sets band i's nodata, description, scale and offset,
+// metadata and classes.
+func (o *Output) describeBand(i int, b godal.Band) error {
+	s := o.spec
+	if s.NoData != nil {
+		if err := b.SetNoData(*s.NoData, errLogger); err != nil {
+			return err
 		}
-		if i < len(s.Scales) {
-			if err := b.SetScaleOffset(s.Scales[i], s.Offsets[i], errLogger); err != nil {
-				return err
-			}
+	}
+	if i < len(s.Descriptions) {
+		if err := b.SetDescription(s.Descriptions[i], errLogger); err != nil {
+			return err
 		}
-		if i < len(s.BandMetadata) {
-			for k, v := range s.BandMetadata[i] {
-				if err := b.SetMetadata(k, v, errLogger); err != nil {
-					return err
-				}
-			}
+	}
+	if i < len(s.Scales) {
+		if err := b.SetScaleOffset(s.Scales[i], s.Offsets[i], errLogger); err != nil {
+			return err
 		}
-		if i == 0 && s.ColorTable != nil {
-			ct := godal.ColorTable{PaletteInterp: godal.RGBPalette, Entries: s.ColorTable}
-			if err := b.SetColorTable(ct, errLogger); err != nil {
+	}
+	if i < len(s.BandMetadata) {
+		for k, v := range s.BandMetadata[i] {
+			if err := b.SetMetadata(k, v, errLogger); err != nil {
 				return err
 			}
 		}
 	}
-	return nil
+	return setClasses(b, s.Classes, s.Bands == 1 && s.DataType == "Byte")
 }
 
 // Write writes window t of all bands from src, pixel-major (the band values
@@ -425,8 +442,8 @@ func (o *Output) Finish() error {
 
 // Commit finishes the output, if Finish was not called, and moves the file
 // into place (output.File.Commit: without Overwrite, a file that appeared
-// at the path meanwhile is never replaced). On failure the output is
-// aborted.
+// at the path meanwhile is never replaced), then the .aux.xml GDAL wrote
+// beside it, if any (see Spec.Classes). On failure the output is aborted.
 func (o *Output) Commit() error {
 	if err := o.Finish(); err != nil {
 		return err
@@ -434,27 +451,46 @@ func (o *Output) Commit() error {
 	return o.file.Commit()
 }
 
+// toCOG copies the finished temporary GeoTIFF with GDAL's COG driver and
+// puts the copy, and the .aux.xml GDAL made beside it if any, in its place.
 func (o *Output) toCOG() error {
 	tmp := o.file.Temp()
-	src, err := godal.Open(tmp, errLogger)
+	cog := tmp + ".cog.tif"
+	if err := o.translateCOG(tmp, cog); err != nil {
+		return err
+	}
+	if err := os.Rename(cog, tmp); err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
+	}
+	err := os.Rename(cog+".aux.xml", tmp+".aux.xml")
+	if errors.Is(err, fs.ErrNotExist) {
+		err = os.Remove(tmp + ".aux.xml")
+	}
+	if err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
+	}
+	return nil
+}
+
+// translateCOG writes the COG copy of src at dst, with what GDAL keeps in
+// src's .aux.xml (godal opens a file without its sidecars by default).
+func (o *Output) translateCOG(src, dst string) error {
+	base := filepath.Base(src)
+	in, err := godal.Open(src, godal.SiblingFiles(base, base+".aux.xml"), errLogger)
 	if err != nil {
 		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
-	defer src.Close(errLogger)
-	cog := tmp + ".cog.tif"
+	defer in.Close(errLogger)
 	var sw []string
 	for _, kv := range cogOptions(o.spec.CreationOptions) {
 		sw = append(sw, "-co", kv)
 	}
-	out, err := src.Translate(cog, append([]string{"-of", "COG"}, sw...), errLogger)
+	out, err := in.Translate(dst, append([]string{"-of", "COG"}, sw...), errLogger)
 	if err != nil {
 		return fmt.Errorf("write %s as COG: %w", o.Path(), tidy(err))
 	}
 	if err := out.Close(errLogger); err != nil {
 		return fmt.Errorf("write %s as COG: %w", o.Path(), tidy(err))
-	}
-	if err := os.Rename(cog, tmp); err != nil {
-		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
 	return nil
 }

@@ -35,6 +35,18 @@ var (
 	invalidColour = color.RGBA{0x2e, 0x2e, 0x2e, 0xff} // no-data pixels in RGB
 )
 
+// Colours of change maps and the charts that count them, shared with the
+// class rasters (steps.tif, change.tif) so that a map reads the same in a
+// GIS: the background where nothing changed, and a flag that lasted
+// (vermillion) or did not (blue), from Okabe and Ito's colour-blind-safe
+// set (Color Universal Design, 2008). Each has a contrast of at least 3:1
+// (WCAG 2.1's relative luminance) with MapBackground and with white.
+var (
+	MapBackground = color.RGBA{236, 236, 228, 255}
+	LastingColour = color.RGBA{213, 94, 0, 255}
+	FlaggedColour = color.RGBA{0, 114, 178, 255}
+)
+
 // px converts a length in pixels of a plotDPI canvas to vg units.
 func px(n float64) vg.Length { return vg.Length(n) * vg.Inch / plotDPI }
 

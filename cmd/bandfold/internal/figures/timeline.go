@@ -63,8 +63,8 @@ func TimelineBars(d TimelineData) ([]byte, error) {
 	unconf.Color, unconf.LineStyle.Width = unconfirmedColour, 0
 	unconf.StackOn(conf)
 	p.Add(conf, unconf)
-	p.Legend.Add("confirmed", conf)
-	p.Legend.Add("flagged, not confirmed", unconf)
+	p.Legend.Add("lasting", conf)
+	p.Legend.Add("flagged, did not last", unconf)
 	p.Legend.Top = true
 	p.NominalX(d.Steps...)
 	p.Y.Min = 0
