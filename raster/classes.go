@@ -46,12 +46,9 @@ import "C"
 import (
 	"fmt"
 	"image/color"
-	"path/filepath"
 	"unsafe"
 
 	"github.com/airbusgeo/godal"
-
-	"bandfold/raster/output"
 )
 
 // Class names and colours one value of a class raster (change, no change,
@@ -116,17 +113,11 @@ func setClasses(b godal.Band, classes []Class, palette bool) error {
 
 // ReadClasses returns the classes of each band of the raster at path, as
 // its raster attribute tables give them (nil for a band without one; an
-// alpha of 255 where the table has no alpha column). Unlike the stack
-// readers, which look at no file beside an input (godal's default), it
-// reads the .aux.xml beside path, where GDAL keeps a GeoTIFF's tables.
+// alpha of 255 where the table has no alpha column).
 func ReadClasses(path string) ([][]Class, error) {
-	if err := output.CheckInput(path, ErrNotFound); err != nil {
-		return nil, err
-	}
-	base := filepath.Base(path)
-	ds, err := godal.Open(path, godal.RasterOnly(), godal.SiblingFiles(base, base+".aux.xml"), errLogger)
+	ds, err := openWithAux(path)
 	if err != nil {
-		return nil, fmt.Errorf("%s: %w (%s)", path, ErrNotRaster, firstLine(err.Error()))
+		return nil, err
 	}
 	defer ds.Close(errLogger)
 	var out [][]Class

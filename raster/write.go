@@ -35,7 +35,6 @@ import (
 	"fmt"
 	"io/fs"
 	"os"
-	"path/filepath"
 	"strings"
 	"unsafe"
 
@@ -78,9 +77,13 @@ type Spec struct {
 	// Metadata is written to the dataset's default metadata domain.
 	Metadata map[string]string
 	// BandMetadata, when set, holds items for each band's default metadata
-	// domain, for example "wavelength" and "wavelength_units" (read back
-	// by Stack.Wavelengths).
+	// domain.
 	BandMetadata []map[string]string
+	// Wavelengths, when set, are the bands' centre wavelengths and widths,
+	// written as GDAL's convention has them (see Wavelength), in a COG in
+	// the .aux.xml beside it (see keepWavelengths), and read back by
+	// Stack.Wavelengths.
+	Wavelengths []Wavelength
 	// Classes, when set, name and colour the values of every band of a
 	// class raster (change, steps, dates): each band gets a thematic
 	// raster attribute table (columns value, name, red, green, blue,
@@ -342,6 +345,11 @@ func (o *Output) describeBand(i int, b godal.Band) error {
 			}
 		}
 	}
+	if i < len(s.Wavelengths) {
+		if err := s.Wavelengths[i].set(b); err != nil {
+			return err
+		}
+	}
 	return setClasses(b, s.Classes, s.Bands == 1 && s.DataType == "Byte")
 }
 
@@ -469,14 +477,38 @@ func (o *Output) toCOG() error {
 	if err != nil && !errors.Is(err, fs.ErrNotExist) {
 		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
+	return o.keepWavelengths(tmp)
+}
+
+// keepWavelengths gives the COG at path the bands' wavelengths again: GDAL
+// 3.6 copies only the default metadata domain of bands (the COG driver, as
+// gdal_translate and GTiff's CreateCopy), and writing them into the COG
+// would move its header to the end of the file and break its layout, so
+// they go into the .aux.xml beside it, where GDAL keeps metadata of a file
+// opened read-only.
+func (o *Output) keepWavelengths(path string) error {
+	if len(o.spec.Wavelengths) == 0 {
+		return nil
+	}
+	ds, err := openWithAux(path)
+	if err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), err)
+	}
+	for i, b := range ds.Bands() {
+		if i < len(o.spec.Wavelengths) {
+			err = errors.Join(err, o.spec.Wavelengths[i].set(b))
+		}
+	}
+	if err = errors.Join(err, ds.Close(errLogger)); err != nil {
+		return fmt.Errorf("write %s: wavelengths: %w", o.Path(), tidy(err))
+	}
 	return nil
 }
 
 // translateCOG writes the COG copy of src at dst, with what GDAL keeps in
-// src's .aux.xml (godal opens a file without its sidecars by default).
+// src's .aux.xml.
 func (o *Output) translateCOG(src, dst string) error {
-	base := filepath.Base(src)
-	in, err := godal.Open(src, godal.SiblingFiles(base, base+".aux.xml"), errLogger)
+	in, err := openWithAux(src)
 	if err != nil {
 		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
