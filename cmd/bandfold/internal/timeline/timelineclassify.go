@@ -209,7 +209,7 @@ func (r *timelineRun) markPreview(x, y, step int) {
 func (r *timelineRun) patches(context.Context) error {
 	var steps []raster.PatchStep
 	for q, m := range r.masks {
-		steps = append(steps, raster.PatchStep{Mask: m, Band: q + 1, Date: r.label(q + 1)})
+		steps = append(steps, raster.PatchStep{Mask: m, Band: q + 1, Date: r.Dates[q+1]})
 	}
 	sums, err := raster.WriteStepPatches(r.Dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.scratch, Metadata: r.metadata()}, steps)
 	if err != nil {
