@@ -79,7 +79,7 @@ func newPatchFile(path, crs string, o PatchOptions, dateFields []string) (*patch
 }
 
 // add writes one patch and returns its ground area (0 without ea).
-func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (float64, error) {
+func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *geodesy) (float64, error) {
 	z, err := zs.of(geom)
 	if err != nil {
 		return 0, err
@@ -94,7 +94,7 @@ func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (fl
 		if err != nil {
 			return 0, err
 		}
-		area, err = ea.area(g, true)
+		area, err = ea.area(g)
 		g.Close()
 		if err != nil {
 			return 0, fmt.Errorf("patch area: %w", err)

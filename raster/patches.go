@@ -281,10 +281,8 @@ type PatchSummary struct {
 // one that appears while it writes), layer "changes", polygons in
 // the grid's CRS, fields:
 //
-//   - area_m2 (Real): ground area, PolygonArea's local equal-area method;
-//     null when the grid has no CRS. Patches share one plane per degree of
-//     latitude and longitude, which changes nothing measurable: the planes
-//     are equal-area everywhere.
+//   - area_m2 (Real): ground area, PolygonArea's geodesic polygon area
+//     (PROJ); null when the grid has no CRS.
 //
 //   - area_ha (Real): the same in hectares.
 //
@@ -338,9 +336,9 @@ func writePatches(path string, o PatchOptions, fields []string, steps []patchMap
 	if err := g.Compare(gridOf(mag)); err != nil {
 		return nil, fmt.Errorf("magnitude %s is not on the grid of the change map: %w", o.Magnitude, err)
 	}
-	var ea *equalArea
+	var ea *geodesy
 	if g.Projection != "" {
-		if ea, err = newEqualArea(g.Projection); err != nil {
+		if ea, err = newGeodesy(g.Projection); err != nil {
 			return nil, fmt.Errorf("patches for %s: %w", path, err)
 		}
 		defer ea.Close()
@@ -383,7 +381,7 @@ func datedFields(fields []string, steps []patchMap) []string {
 }
 
 // addMap polygonizes one map and writes its patches.
-func (p *patchFile) addMap(st patchMap, mag *godal.Dataset, ea *equalArea) (PatchSummary, error) {
+func (p *patchFile) addMap(st patchMap, mag *godal.Dataset, ea *geodesy) (PatchSummary, error) {
 	sum := PatchSummary{AreaM2: math.NaN()}
 	if ea != nil {
 		sum.AreaM2 = 0
