@@ -60,7 +60,9 @@ func (r *timelineRun) figures(context.Context) error {
 	img := figures.DateMap(r.pw, r.ph, r.firstPrev, figures.DateColours(S), labels)
 	ann := figures.Annotation{Title: fmt.Sprintf("Date of first lasting change, %s to %s", r.label(0), r.label(S)), Lines: lines}
 	if r.Areas != nil {
+		gt := r.Scenes[0].GeoTransform
 		ann.MetresPerPixel = math.Sqrt(r.Areas.Mean()) * float64(r.Scenes[0].Width) / float64(r.pw)
+		ann.NorthArrow = gt[2] == 0 && gt[4] == 0
 	}
 	data, err := report.EncodePNG(figures.Annotate(img, ann))
 	if err != nil {
