@@ -2,7 +2,7 @@
 SHELL := /bin/bash
 GO ?= go
 BIN := bin/bandfold
-DEBS := libgdal-dev gdal-bin python3-gdal libopenblas-dev pkg-config chromium
+DEBS := libgdal-dev libproj-dev gdal-bin python3-gdal libopenblas-dev pkg-config chromium
 VERSION := $(shell git describe --always --dirty 2>/dev/null || echo dev)
 export GOFLAGS := -buildvcs=false
 

@@ -3,6 +3,7 @@ package raster
 import (
 	"fmt"
 	"slices"
+	"time"
 
 	"github.com/airbusgeo/godal"
 
@@ -15,8 +16,10 @@ type patchFile struct {
 	file  *output.File
 	ds    *godal.Dataset
 	layer godal.Layer
-	dates string
-	field string // the name of the dates field
+	// fields are the Date fields of the layer, dates the values of the
+	// map being written, one per field of writePatches (zero: null).
+	fields []string
+	dates  []Date
 }
 
 var patchFields = []struct {
@@ -26,13 +29,13 @@ var patchFields = []struct {
 	{"area_m2", godal.FTReal}, {"area_ha", godal.FTReal}, {"z_mean", godal.FTReal}, {"z_max", godal.FTReal}, {"top_component", godal.FTInt},
 }
 
-func newPatchFile(path, crs string, o PatchOptions, field string, withDates bool) (*patchFile, error) {
+func newPatchFile(path, crs string, o PatchOptions, dateFields []string) (*patchFile, error) {
 	f, err := output.Create(path, o.Overwrite, ".gpkg")
 	if err != nil {
 		return nil, err
 	}
 	f.Sidecars("-journal", "-wal", "-shm")
-	p := &patchFile{file: f, field: field}
+	p := &patchFile{file: f, fields: dateFields}
 	if p.ds, err = godal.CreateVector(godal.GeoPackage, f.Temp(), errLogger); err != nil {
 		f.Abort()
 		return nil, fmt.Errorf("create %s: %w", path, tidy(err))
@@ -49,8 +52,8 @@ func newPatchFile(path, crs string, o PatchOptions, field string, withDates bool
 	for _, f := range patchFields {
 		opts = append(opts, godal.NewFieldDefinition(f.name, f.typ))
 	}
-	if withDates {
-		opts = append(opts, godal.NewFieldDefinition(field, godal.FTString))
+	for _, name := range dateFields {
+		opts = append(opts, godal.NewFieldDefinition(name, godal.FTDate))
 	}
 	opts = append(opts, errLogger)
 	if p.layer, err = p.ds.CreateLayer("changes", sr, godal.GTPolygon, opts...); err == nil {
@@ -76,7 +79,7 @@ func newPatchFile(path, crs string, o PatchOptions, field string, withDates bool
 }
 
 // add writes one patch and returns its ground area (0 without ea).
-func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (float64, error) {
+func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *geodesy) (float64, error) {
 	z, err := zs.of(geom)
 	if err != nil {
 		return 0, err
@@ -91,7 +94,7 @@ func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (fl
 		if err != nil {
 			return 0, err
 		}
-		area, err = ea.area(g, true)
+		area, err = ea.area(g)
 		g.Close()
 		if err != nil {
 			return 0, fmt.Errorf("patch area: %w", err)
@@ -119,8 +122,10 @@ func (p *patchFile) add(geom *godal.Geometry, zs *patchStats, ea *equalArea) (fl
 	if z.top > 0 {
 		set("top_component", z.top)
 	}
-	if p.dates != "" {
-		set(p.field, p.dates)
+	for i, name := range p.fields {
+		if d := p.dates[i].Time; !d.IsZero() {
+			set(name, time.Date(d.Year(), d.Month(), d.Day(), 0, 0, 0, 0, time.UTC))
+		}
 	}
 	if err == nil {
 		err = p.layer.UpdateFeature(f, errLogger)

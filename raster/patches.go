@@ -34,6 +34,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"sync"
 	"sync/atomic"
 	"unsafe"
@@ -257,8 +258,10 @@ type PatchOptions struct {
 	Overwrite bool
 	// Metadata is written as the layer's metadata (default domain).
 	Metadata map[string]string
-	// Dates fills the dates field of every patch; empty leaves it out.
-	Dates string
+	// Before and After are the dates of the two scenes, written into the
+	// Date fields date_before and date_after of every patch; a field
+	// whose date is unknown (zero) is left out.
+	Before, After Date
 }
 
 // PatchSummary sums up the patches written by Patches.
@@ -278,10 +281,8 @@ type PatchSummary struct {
 // one that appears while it writes), layer "changes", polygons in
 // the grid's CRS, fields:
 //
-//   - area_m2 (Real): ground area, PolygonArea's local equal-area method;
-//     null when the grid has no CRS. Patches share one plane per degree of
-//     latitude and longitude, which changes nothing measurable: the planes
-//     are equal-area everywhere.
+//   - area_m2 (Real): ground area, PolygonArea's geodesic polygon area
+//     (PROJ); null when the grid has no CRS.
 //
 //   - area_ha (Real): the same in hectares.
 //
@@ -293,7 +294,9 @@ type PatchSummary struct {
 //     component 0 (filled holes) or 255 are not counted; null when none is
 //     left.
 //
-//   - dates (String): o.Dates, e.g. "2001-06-14 to 2013-07-02", when set.
+//   - date_before, date_after (Date): o.Before and o.After, when known; a
+//     date known to the year only is written as 1 January of it, as
+//     first-change.tif does.
 //
 // The layer carries o.Metadata as GDAL layer metadata (the provenance of the
 // map: dates, settings, tool version, caution).
@@ -303,17 +306,24 @@ type PatchSummary struct {
 // its bounding window (pixel centres inside) and that window of magnitude
 // and of the top band is read.
 func (m *ChangeMask) Patches(path string, o PatchOptions) (PatchSummary, error) {
-	sums, err := writePatches(path, o, "dates", []PatchStep{{Mask: m, Band: 1, Date: o.Dates}})
+	sums, err := writePatches(path, o, []string{"date_before", "date_after"}, []patchMap{{PatchStep{Mask: m, Band: 1}, []Date{o.Before, o.After}}})
 	if err != nil {
 		return PatchSummary{AreaM2: math.NaN()}, err
 	}
 	return sums[0], nil
 }
 
+// patchMap is a map to polygonize with the dates of its fields.
+type patchMap struct {
+	PatchStep
+	dates []Date // one per date field
+}
+
 // writePatches polygonizes the maps of steps into one GeoPackage at path,
-// layer "changes", each step's polygons with its date in field (left out
-// where the date is empty) and its Z from its band of o.Magnitude.
-func writePatches(path string, o PatchOptions, field string, steps []PatchStep) ([]PatchSummary, error) {
+// layer "changes", each step's polygons with its dates in the Date fields
+// named by fields (a field no step has a date for is left out) and its Z
+// from its band of o.Magnitude.
+func writePatches(path string, o PatchOptions, fields []string, steps []patchMap) ([]PatchSummary, error) {
 	if err := output.Check(path, o.Overwrite); err != nil {
 		return nil, err
 	}
@@ -326,18 +336,14 @@ func writePatches(path string, o PatchOptions, field string, steps []PatchStep) 
 	if err := g.Compare(gridOf(mag)); err != nil {
 		return nil, fmt.Errorf("magnitude %s is not on the grid of the change map: %w", o.Magnitude, err)
 	}
-	var ea *equalArea
+	var ea *geodesy
 	if g.Projection != "" {
-		if ea, err = newEqualArea(g.Projection); err != nil {
+		if ea, err = newGeodesy(g.Projection); err != nil {
 			return nil, fmt.Errorf("patches for %s: %w", path, err)
 		}
 		defer ea.Close()
 	}
-	withDates := false
-	for _, st := range steps {
-		withDates = withDates || st.Date != ""
-	}
-	out, err := newPatchFile(path, g.Projection, o, field, withDates)
+	out, err := newPatchFile(path, g.Projection, o, datedFields(fields, steps))
 	if err != nil {
 		return nil, err
 	}
@@ -354,8 +360,28 @@ func writePatches(path string, o PatchOptions, field string, steps []PatchStep) 
 	return sums, nil
 }
 
+// datedFields returns the fields some step has a date for, and keeps in
+// each step only the dates of those.
+func datedFields(fields []string, steps []patchMap) []string {
+	var dated []string
+	var keep []int
+	for i, f := range fields {
+		if slices.ContainsFunc(steps, func(st patchMap) bool { return !st.dates[i].Time.IsZero() }) {
+			dated, keep = append(dated, f), append(keep, i)
+		}
+	}
+	for j := range steps {
+		kept := make([]Date, len(keep))
+		for k, i := range keep {
+			kept[k] = steps[j].dates[i]
+		}
+		steps[j].dates = kept
+	}
+	return dated
+}
+
 // addMap polygonizes one map and writes its patches.
-func (p *patchFile) addMap(st PatchStep, mag *godal.Dataset, ea *equalArea) (PatchSummary, error) {
+func (p *patchFile) addMap(st patchMap, mag *godal.Dataset, ea *geodesy) (PatchSummary, error) {
 	sum := PatchSummary{AreaM2: math.NaN()}
 	if ea != nil {
 		sum.AreaM2 = 0
@@ -370,7 +396,7 @@ func (p *patchFile) addMap(st PatchStep, mag *godal.Dataset, ea *equalArea) (Pat
 	defer polys.Close(errLogger)
 	zs := patchStats{m: st.Mask, mag: mag.Bands()[st.Band-1]}
 	zs.nodata, zs.hasND = zs.mag.NoData()
-	p.dates = st.Date
+	p.dates = st.dates
 	src := polys.Layers()[0]
 	for f := src.NextFeature(); f != nil; f = src.NextFeature() {
 		area, err := p.add(f.Geometry(), &zs, ea)

@@ -14,8 +14,8 @@ import (
 	"strings"
 	"testing"
 
-	"bandfold/tiles/testenv"
 	"bandfold/raster/output"
+	"bandfold/tiles/testenv"
 )
 
 // patchScene is a change map whose truth is known by construction, on a
@@ -260,7 +260,7 @@ func readPatches(t *testing.T, path string) (rows []patchRow, crs string) {
 			for i, p := range ring {
 				xs[i], ys[i] = p[0], p[1]
 			}
-			a := math.Abs(shoelace(xs, ys))
+			a := math.Abs(planarArea(xs, ys))
 			if k > 0 {
 				a = -a // a hole
 			}
@@ -416,18 +416,62 @@ func onlyFiles(t *testing.T, dir string, names ...string) {
 }
 
 // TestPatchesProvenance: the layer carries the given metadata and every
-// polygon the dates (known by construction), read back through GDAL.
+// polygon the dates in fields of type Date (issue 26; known by
+// construction), read back through GDAL: a change map's date_before and
+// date_after, a series' date per step; a field without a date is left out,
+// and a year alone is 1 January.
 func TestPatchesProvenance(t *testing.T) {
-	dir := t.TempDir()
-	s := newPatchScene(t, utm33)
-	mag := s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif"))
-	m := s.mask(t)
-	out := filepath.Join(dir, "changes.gpkg")
-	md := map[string]string{"BANDFOLD_BEFORE": "2001-06-14 (a.tif)", "BANDFOLD_CAUTION": "verify before acting"}
-	if _, err := m.Patches(out, PatchOptions{Magnitude: mag, Metadata: md, Dates: "2001-06-14 to 2013-07-02"}); err != nil {
-		t.Fatal(err)
+	day := func(s string) Date {
+		d, ok := ParseDate(s)
+		if !ok {
+			t.Fatalf("bad test date %q", s)
+		}
+		return d
 	}
-	ds, err := godal.Open(out, godal.VectorOnly())
+	tests := []struct {
+		name   string
+		o      PatchOptions
+		steps  []Date // WriteStepPatches with a map per date; nil: Patches
+		want   map[string]string
+		absent []string
+	}{
+		{"change", PatchOptions{Before: day("2001-06-14"), After: day("2013-07-02")}, nil,
+			map[string]string{"date_before": "2001-06-14", "date_after": "2013-07-02"}, []string{"dates"}},
+		{"change, a year and an unknown date", PatchOptions{Before: day("2001")}, nil,
+			map[string]string{"date_before": "2001-01-01"}, []string{"date_after"}},
+		{"series", PatchOptions{}, []Date{day("2020-06-16"), day("2020-06-16")},
+			map[string]string{"date": "2020-06-16"}, []string{"date_before", "date_after"}},
+		{"series without dates", PatchOptions{}, []Date{{}, {}}, nil, []string{"date"}},
+	}
+	md := map[string]string{"BANDFOLD_BEFORE": "2001-06-14 (a.tif)", "BANDFOLD_CAUTION": "verify before acting"}
+	for _, tc := range tests {
+		dir := t.TempDir()
+		s := newPatchScene(t, utm33)
+		o := tc.o
+		o.Magnitude, o.Metadata = s.writeMagnitude(t, filepath.Join(dir, "magnitude.tif")), md
+		out := filepath.Join(dir, "changes.gpkg")
+		var err error
+		if tc.steps == nil {
+			_, err = s.mask(t).Patches(out, o)
+		} else {
+			var steps []PatchStep
+			for _, d := range tc.steps {
+				steps = append(steps, PatchStep{Mask: s.mask(t), Band: 1, Date: d})
+			}
+			_, err = WriteStepPatches(out, o, steps)
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		checkPatchDates(t, tc.name, out, md, tc.want, tc.absent)
+	}
+}
+
+// checkPatchDates checks the layer metadata md and, on every feature, the
+// Date fields of want and that the fields absent do not exist.
+func checkPatchDates(t *testing.T, name, path string, md, want map[string]string, absent []string) {
+	t.Helper()
+	ds, err := godal.Open(path, godal.VectorOnly())
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -436,19 +480,28 @@ func TestPatchesProvenance(t *testing.T) {
 	got := layer.Metadatas()
 	for k, v := range md {
 		if got[k] != v {
-			t.Errorf("layer metadata %s = %q, want %q", k, got[k], v)
+			t.Errorf("%s: layer metadata %s = %q, want %q", name, k, got[k], v)
 		}
 	}
 	n := 0
 	for f := layer.NextFeature(); f != nil; f = layer.NextFeature() {
-		if v := f.Fields()["dates"].String(); v != "2001-06-14 to 2013-07-02" {
-			t.Errorf("feature dates %q", v)
+		fields := f.Fields()
+		for k, v := range want {
+			fd, ok := fields[k]
+			if !ok || fd.Type() != godal.FTDate || fd.DateTime() == nil || fd.DateTime().Format("2006-01-02") != v {
+				t.Errorf("%s: field %s is %v (type %v), want the Date %s", name, k, fd.DateTime(), fd.Type(), v)
+			}
+		}
+		for _, k := range absent {
+			if _, ok := fields[k]; ok {
+				t.Errorf("%s: field %s should not exist", name, k)
+			}
 		}
 		f.Close()
 		n++
 	}
 	if n == 0 {
-		t.Error("no patches")
+		t.Errorf("%s: no patches", name)
 	}
 }
 
@@ -488,4 +541,15 @@ func TestPatchesLeaveTheMapFinal(t *testing.T) {
 			t.Errorf("%s after Patches: %v, want %v", name, err, errFinal)
 		}
 	}
+}
+
+// planarArea returns the signed area of the closed ring (xs, ys) by the
+// shoelace formula, taken relative to its first point.
+func planarArea(xs, ys []float64) float64 {
+	var s float64
+	for i := range xs {
+		j := (i + 1) % len(xs)
+		s += (xs[i]-xs[0])*(ys[j]-ys[0]) - (xs[j]-xs[0])*(ys[i]-ys[0])
+	}
+	return s / 2
 }

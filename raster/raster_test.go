@@ -12,9 +12,9 @@ import (
 
 	"github.com/airbusgeo/godal"
 
-	"bandfold/tiles/testenv"
 	"bandfold/raster/output"
 	"bandfold/tiles"
+	"bandfold/tiles/testenv"
 )
 
 func TestMain(m *testing.M) {

@@ -259,6 +259,27 @@ func openDataset(path string) (*godal.Dataset, error) {
 	return ds, nil
 }
 
+// openWithAux opens a local raster as openDataset does, and with the
+// .aux.xml beside it, where GDAL keeps what a GeoTIFF has no place for
+// (bandfold's class tables, a COG's wavelengths). Inputs are otherwise
+// opened without sidecars (godal's default): with any, GDAL 3.6 also runs
+// its metadata readers, which date a Landsat Collection 1 scene
+// 1970-01-01 from its MTL file.
+func openWithAux(path string) (*godal.Dataset, error) {
+	if IsVirtual(path) {
+		return openDataset(path)
+	}
+	if err := output.CheckInput(path, ErrNotFound); err != nil {
+		return nil, err
+	}
+	base := filepath.Base(path)
+	ds, err := godal.Open(path, godal.RasterOnly(), godal.SiblingFiles(base+".aux.xml"), errLogger)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w (%s)", path, ErrNotRaster, firstLine(err.Error()))
+	}
+	return ds, nil
+}
+
 func firstLine(s string) string {
 	s, _, _ = strings.Cut(strings.TrimSpace(s), "\n")
 	return s
@@ -344,6 +365,7 @@ func Open(paths []string, opts ...Option) (_ *Stack, err error) {
 			fileOf = append(fileOf, i)
 		}
 		counts = append(counts, len(ds.Bands()))
+		auxWavelengths(p, all[len(all)-len(ds.Bands()):])
 		if err := ds.Close(errLogger); err != nil {
 			return nil, fmt.Errorf("%s: %w", p, err)
 		}

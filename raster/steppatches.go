@@ -16,14 +16,15 @@ type PatchStep struct {
 	// Band is the 1-based band of the magnitude raster holding this
 	// map's change statistic.
 	Band int
-	// Date fills the date field of the map's patches.
-	Date string
+	// Date fills the Date field "date" of the map's patches (left out
+	// when no map has a date).
+	Date Date
 }
 
 // WriteStepPatches polygonizes the change patches (value 1) of several maps
 // on one grid into one GeoPackage at path, as Patches does for one map, with
-// each map's date in field "date" and z_mean and z_max from its band of
-// o.Magnitude (o.Dates is not used). It returns each map's summary.
+// each map's date in the Date field "date" and z_mean and z_max from its
+// band of o.Magnitude (o.Before and o.After are not used). It returns each map's summary.
 func WriteStepPatches(path string, o PatchOptions, steps []PatchStep) ([]PatchSummary, error) {
 	if len(steps) == 0 {
 		panic("raster: WriteStepPatches without maps")
@@ -33,7 +34,11 @@ func WriteStepPatches(path string, o PatchOptions, steps []PatchStep) ([]PatchSu
 			return nil, fmt.Errorf("patches for %s: maps on different grids: %w", path, err)
 		}
 	}
-	return writePatches(path, o, "date", steps)
+	maps := make([]patchMap, len(steps))
+	for i, st := range steps {
+		maps[i] = patchMap{st, []Date{st.Date}}
+	}
+	return writePatches(path, o, []string{"date"}, maps)
 }
 
 // SetMapped replaces the map of window (x, y, w, h) (the sieved map once

@@ -1,6 +1,7 @@
 package raster
 
 import (
+	"fmt"
 	"path/filepath"
 	"testing"
 
@@ -71,41 +72,55 @@ func setAll(b godal.Band, domain string, kv ...string) error {
 	return nil
 }
 
-// TestCreateBandMetadata: wavelengths written through Spec.BandMetadata are
-// read back by Open (known by construction: the written numbers).
-func TestCreateBandMetadata(t *testing.T) {
+// TestCreateWavelengths (issue 26): wavelengths written through
+// Spec.Wavelengths land in GDAL's IMAGERY domain as CENTRAL_WAVELENGTH_UM
+// and FWHM_UM (micrometres; for a COG in the .aux.xml beside it), as
+// GDAL's own gdalinfo -json reports them,
+// with nothing under the default-domain keys of ENVI headers, and are read
+// back by Open in nanometres (known by construction: the written numbers,
+// 1000 nm per um by definition).
+func TestCreateWavelengths(t *testing.T) {
 	for _, tc := range []struct {
-		name string
-		meta []map[string]string
-		want []float64
+		name   string
+		w      []Wavelength
+		centre []string // CENTRAL_WAVELENGTH_UM per band, "" for none
+		fwhm   []string
+		want   []float64 // Stack.Wavelengths
 	}{
-		{"nm", []map[string]string{{"wavelength": "450", "wavelength_units": "nm"}, {"wavelength": "2400.5", "wavelength_units": "nm"}}, []float64{450, 2400.5}},
-		{"um", []map[string]string{{"wavelength": "0.45", "wavelength_units": "um"}, {"wavelength": "2.4", "wavelength_units": "um"}}, []float64{450, 2400}},
-		{"none", nil, nil},
+		{"centre and width", []Wavelength{{450, 10}, {2400.5, 12.25}}, []string{"0.45", "2.4005"}, []string{"0.01", "0.01225"}, []float64{450, 2400.5}},
+		{"centre only", []Wavelength{{865, 0}, {1610, 0}}, []string{"0.865", "1.61"}, []string{"", ""}, []float64{865, 1610}},
+		{"none", nil, []string{"", ""}, []string{"", ""}, nil},
 	} {
-		path := filepath.Join(t.TempDir(), "m.tif")
-		o, err := Create(path, Spec{Grid: Grid{Width: 4, Height: 3}, Bands: 2, DataType: "Int16", BandMetadata: tc.meta})
-		if err != nil {
-			t.Fatal(err)
-		}
-		if err := o.Finish(); err != nil {
-			t.Fatal(err)
-		}
-		if err := o.Commit(); err != nil {
-			t.Fatal(err)
-		}
-		s, err := Open([]string{path})
-		if err != nil {
-			t.Fatal(err)
-		}
-		got := s.Wavelengths()
-		s.Close()
-		if len(got) != len(tc.want) {
-			t.Fatalf("%s: wavelengths %v, want %v", tc.name, got, tc.want)
-		}
-		for i := range got {
-			if !nearNM(got[i], tc.want[i]) {
-				t.Errorf("%s: band %d at %v nm, want %v", tc.name, i+1, got[i], tc.want[i])
+		for _, format := range []Format{GTiff, COG} {
+			path := filepath.Join(t.TempDir(), "m.tif")
+			writeZeros(t, path, Spec{Grid: Grid{Width: 4, Height: 3}, Bands: 2, DataType: "Int16", Wavelengths: tc.w, Format: format})
+			what := fmt.Sprintf("%s (%s)", tc.name, format)
+			for i, band := range gdalinfo(t, path)["bands"].([]any) {
+				md, _ := band.(map[string]any)["metadata"].(map[string]any)
+				img, _ := md["IMAGERY"].(map[string]any)
+				if got, _ := img["CENTRAL_WAVELENGTH_UM"].(string); got != tc.centre[i] {
+					t.Errorf("%s band %d: CENTRAL_WAVELENGTH_UM %q, want %q", what, i+1, got, tc.centre[i])
+				}
+				if got, _ := img["FWHM_UM"].(string); got != tc.fwhm[i] {
+					t.Errorf("%s band %d: FWHM_UM %q, want %q", what, i+1, got, tc.fwhm[i])
+				}
+				if def, _ := md[""].(map[string]any); def["wavelength"] != nil || def["wavelength_units"] != nil {
+					t.Errorf("%s band %d: default-domain wavelength items %v", what, i+1, def)
+				}
+			}
+			s, err := Open([]string{path})
+			if err != nil {
+				t.Fatal(err)
+			}
+			got := s.Wavelengths()
+			s.Close()
+			if len(got) != len(tc.want) {
+				t.Fatalf("%s: wavelengths %v, want %v", what, got, tc.want)
+			}
+			for i := range got {
+				if !nearNM(got[i], tc.want[i]) {
+					t.Errorf("%s: band %d at %v nm, want %v", what, i+1, got[i], tc.want[i])
+				}
 			}
 		}
 	}

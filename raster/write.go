@@ -32,7 +32,9 @@ import "C"
 
 import (
 	"cmp"
+	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"strings"
 	"unsafe"
@@ -76,12 +78,32 @@ type Spec struct {
 	// Metadata is written to the dataset's default metadata domain.
 	Metadata map[string]string
 	// BandMetadata, when set, holds items for each band's default metadata
-	// domain, for example "wavelength" and "wavelength_units" (read back
-	// by Stack.Wavelengths).
+	// domain.
 	BandMetadata []map[string]string
-	// ColorTable, when set, is given to band 1 (Byte outputs).
-	ColorTable [][4]int16
-	Format     Format
+	// Wavelengths, when set, are the bands' centre wavelengths and widths,
+	// written as GDAL's convention has them (see Wavelength), in a COG in
+	// the .aux.xml beside it (see keepWavelengths), and read back by
+	// Stack.Wavelengths.
+	Wavelengths []Wavelength
+	// Classes, when set, name and colour the values of every band of a
+	// class raster (change, steps, dates): each band gets a thematic
+	// raster attribute table (columns value, name, red, green, blue,
+	// alpha), GDAL category names when every value is from 0 to 255, and
+	// a one-band Byte output also a colour table (TIFF's palette). A
+	// GeoTIFF has no place for attribute tables and category names: GDAL
+	// keeps them in an .aux.xml file beside it, which Commit moves beside
+	// the output.
+	Classes []Class
+	// Colour marks a quicklook meant as colour: its 3 or 4 bands are
+	// written as red, green, blue (and alpha), PHOTOMETRIC=RGB. Every other
+	// output of more than one band is written PHOTOMETRIC=MINISBLACK, so
+	// that GDAL reads band 1 as gray and the others as undefined: component
+	// images, codes, steps and statistics are not colour images, and GDAL's
+	// GeoTIFF driver would otherwise call any 3 or 4 Byte bands
+	// red/green/blue/alpha (so that a value 0 in a fourth band shows as
+	// transparent).
+	Colour bool
+	Format Format
 	// Compress, when set, is the GeoTIFF compression (see BestCompression)
 	// in place of DEFLATE, with the same predictor (in COG output too).
 	Compress string
@@ -150,7 +172,7 @@ func cogOptions(spec Spec, dt godal.DataType) []string {
 	if dt == godal.Float32 || dt == godal.Float64 {
 		predictor = "FLOATING_POINT"
 	}
-	if spec.Categorical {
+	if spec.Categorical || len(spec.Classes) > 0 {
 		resampling = "NEAREST"
 	}
 	base := []string{"COMPRESS=" + cmp.Or(spec.Compress, "DEFLATE"), "PREDICTOR=" + predictor, "BIGTIFF=IF_SAFER",
@@ -211,6 +233,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, fmt.Errorf("output %s: %w", path, err)
 	}
+	checkClasses(spec.Classes)
 	var base []string
 	if spec.Compress != "" {
 		base = append(base, "COMPRESS="+spec.Compress)
@@ -218,6 +241,7 @@ func Create(path string, spec Spec) (*Output, error) {
 	if spec.DataType == SignedByte {
 		base = append(base, "PIXELTYPE=SIGNEDBYTE")
 	}
+	base = append(base, photometric(spec)...)
 	opts := creationOptions(dt, append(base, spec.CreationOptions...))
 	driver, user := "GTiff", opts
 	if spec.Format == COG {
@@ -232,8 +256,10 @@ func Create(path string, spec Spec) (*Output, error) {
 	if err != nil {
 		return nil, err
 	}
-	// ".cog.tif" is the COG copy that Finish makes of the temporary.
-	f.Sidecars(".aux.xml", ".cog.tif")
+	// ".cog.tif" is the COG copy that Finish makes of the temporary;
+	// ".aux.xml" holds what GeoTIFF has no place for (Spec.Classes).
+	f.Sidecars(".cog.tif", ".cog.tif.aux.xml")
+	f.Companions(".aux.xml")
 	o := &Output{file: f, spec: spec}
 	ds, err := godal.Create(godal.GTiff, f.Temp(), spec.Bands, dt, spec.Width, spec.Height, godal.CreationOption(opts...), errLogger)
 	if err != nil {
@@ -262,6 +288,24 @@ func CheckCreationOptions(format Format, opts []string) error {
 		driver = "COG"
 	}
 	return validateOptions(driver, opts)
+}
+
+// photometric returns the creation options that set the bands' roles:
+// none for one band (gray, or a palette with a colour table), RGB for a
+// colour quicklook, MINISBLACK for every other multi-band output. The
+// user's --co may still override them.
+func photometric(spec Spec) []string {
+	switch {
+	case spec.Colour && (spec.Bands < 3 || spec.Bands > 4):
+		panic(fmt.Sprintf("raster: a colour output of %d bands (want 3 or 4)", spec.Bands))
+	case spec.Colour && spec.Bands == 4:
+		return []string{"PHOTOMETRIC=RGB", "ALPHA=YES"}
+	case spec.Colour:
+		return []string{"PHOTOMETRIC=RGB"}
+	case spec.Bands > 1:
+		return []string{"PHOTOMETRIC=MINISBLACK"}
+	}
+	return nil
 }
 
 // BestCompression returns the lossless GeoTIFF compression for integer
@@ -321,36 +365,45 @@ func (o *Output) describe() error {
 		}
 	}
 	for i, b := range o.ds.Bands() {
-		if s.NoData != nil {
-			if err := b.SetNoData(*s.NoData, errLogger); err != nil {
-				return err
-			}
+		if err := o.describeBand(i, b); err != nil {
+			return err
 		}
-		if i < len(s.Descriptions) {
-			if err := b.SetDescription(s.Descriptions[i], errLogger); err != nil {
-				return err
-			}
+	}
+	return nil
+}
+
+// describeBand sets band i's nodata, description, scale and offset,
+// metadata and classes.
+func (o *Output) describeBand(i int, b godal.Band) error {
+	s := o.spec
+	if s.NoData != nil {
+		if err := b.SetNoData(*s.NoData, errLogger); err != nil {
+			return err
 		}
-		if i < len(s.Scales) {
-			if err := b.SetScaleOffset(s.Scales[i], s.Offsets[i], errLogger); err != nil {
-				return err
-			}
+	}
+	if i < len(s.Descriptions) {
+		if err := b.SetDescription(s.Descriptions[i], errLogger); err != nil {
+			return err
 		}
-		if i < len(s.BandMetadata) {
-			for k, v := range s.BandMetadata[i] {
-				if err := b.SetMetadata(k, v, errLogger); err != nil {
-					return err
-				}
-			}
+	}
+	if i < len(s.Scales) {
+		if err := b.SetScaleOffset(s.Scales[i], s.Offsets[i], errLogger); err != nil {
+			return err
 		}
-		if i == 0 && s.ColorTable != nil {
-			ct := godal.ColorTable{PaletteInterp: godal.RGBPalette, Entries: s.ColorTable}
-			if err := b.SetColorTable(ct, errLogger); err != nil {
+	}
+	if i < len(s.BandMetadata) {
+		for k, v := range s.BandMetadata[i] {
+			if err := b.SetMetadata(k, v, errLogger); err != nil {
 				return err
 			}
 		}
 	}
-	return nil
+	if i < len(s.Wavelengths) {
+		if err := s.Wavelengths[i].set(b); err != nil {
+			return err
+		}
+	}
+	return setClasses(b, s.Classes, s.Bands == 1 && s.DataType == "Byte")
 }
 
 // Write writes window t of all bands from src, pixel-major (the band values
@@ -450,8 +503,8 @@ func (o *Output) Finish() error {
 
 // Commit finishes the output, if Finish was not called, and moves the file
 // into place (output.File.Commit: without Overwrite, a file that appeared
-// at the path meanwhile is never replaced). On failure the output is
-// aborted.
+// at the path meanwhile is never replaced), then the .aux.xml GDAL wrote
+// beside it, if any (see Spec.Classes). On failure the output is aborted.
 func (o *Output) Commit() error {
 	if err := o.Finish(); err != nil {
 		return err
@@ -459,14 +512,60 @@ func (o *Output) Commit() error {
 	return o.file.Commit()
 }
 
+// toCOG copies the finished temporary GeoTIFF with GDAL's COG driver and
+// puts the copy, and the .aux.xml GDAL made beside it if any, in its place.
 func (o *Output) toCOG() error {
 	tmp := o.file.Temp()
-	src, err := godal.Open(tmp, errLogger)
+	cog := tmp + ".cog.tif"
+	if err := o.translateCOG(tmp, cog); err != nil {
+		return err
+	}
+	if err := os.Rename(cog, tmp); err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
+	}
+	err := os.Rename(cog+".aux.xml", tmp+".aux.xml")
+	if errors.Is(err, fs.ErrNotExist) {
+		err = os.Remove(tmp + ".aux.xml")
+	}
+	if err != nil && !errors.Is(err, fs.ErrNotExist) {
+		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
+	}
+	return o.keepWavelengths(tmp)
+}
+
+// keepWavelengths gives the COG at path the bands' wavelengths again: GDAL
+// 3.6 copies only the default metadata domain of bands (the COG driver, as
+// gdal_translate and GTiff's CreateCopy), and writing them into the COG
+// would move its header to the end of the file and break its layout, so
+// they go into the .aux.xml beside it, where GDAL keeps metadata of a file
+// opened read-only.
+func (o *Output) keepWavelengths(path string) error {
+	if len(o.spec.Wavelengths) == 0 {
+		return nil
+	}
+	ds, err := openWithAux(path)
+	if err != nil {
+		return fmt.Errorf("write %s: %w", o.Path(), err)
+	}
+	for i, b := range ds.Bands() {
+		if i < len(o.spec.Wavelengths) {
+			err = errors.Join(err, o.spec.Wavelengths[i].set(b))
+		}
+	}
+	if err = errors.Join(err, ds.Close(errLogger)); err != nil {
+		return fmt.Errorf("write %s: wavelengths: %w", o.Path(), tidy(err))
+	}
+	return nil
+}
+
+// translateCOG writes the COG copy of src at dst, with what GDAL keeps in
+// src's .aux.xml.
+func (o *Output) translateCOG(src, dst string) error {
+	in, err := openWithAux(src)
 	if err != nil {
 		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
-	defer src.Close(errLogger)
-	cog := tmp + ".cog.tif"
+	defer in.Close(errLogger)
 	var sw []string
 	dt, err := dataType(o.spec.DataType)
 	if err != nil {
@@ -475,15 +574,12 @@ func (o *Output) toCOG() error {
 	for _, kv := range cogOptions(o.spec, dt) {
 		sw = append(sw, "-co", kv)
 	}
-	out, err := src.Translate(cog, append([]string{"-of", "COG"}, sw...), errLogger)
+	out, err := in.Translate(dst, append([]string{"-of", "COG"}, sw...), errLogger)
 	if err != nil {
 		return fmt.Errorf("write %s as COG: %w", o.Path(), tidy(err))
 	}
 	if err := out.Close(errLogger); err != nil {
 		return fmt.Errorf("write %s as COG: %w", o.Path(), tidy(err))
-	}
-	if err := os.Rename(cog, tmp); err != nil {
-		return fmt.Errorf("write %s: %w", o.Path(), tidy(err))
 	}
 	return nil
 }

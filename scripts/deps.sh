@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # Installs the Debian packages bandfold needs to build and test, when missing:
-# GDAL's headers and library, its command-line tools (used by tests as an
+# GDAL's headers and library, PROJ's (geodesic.h, which raster calls directly),
+# GDAL's command-line tools (used by tests as an
 # outside check), OpenBLAS and pkg-config. Uses sudo only when not root.
 set -euo pipefail
 need=()

@@ -24,8 +24,10 @@ type File struct {
 	path, tmp string
 	overwrite bool
 	sidecars  []string
-	created   []string // parent folders Create made, outermost first
-	state     state
+	// companions are suffixes of files that go where the file goes.
+	companions []string
+	created    []string // parent folders Create made, outermost first
+	state      state
 }
 
 // Create runs Check, creates the missing parent folders, removes the
@@ -59,6 +61,17 @@ func (f *File) Temp() string { return f.tmp }
 // remove them.
 func (f *File) Sidecars(suffixes ...string) { f.sidecars = append(f.sidecars, suffixes...) }
 
+// Companions names files Temp()+suffix that belong with the file and go
+// where it goes (GDAL's ".aux.xml", holding what a format has no place
+// for, such as category names). Commit moves each one the writer made to
+// Path()+suffix once the file is in place, replacing what is there, and
+// removes a Path()+suffix the writer made none for: left from a file the
+// new one replaces, or from one gone, it would be read as describing the
+// new file. Abort removes them.
+func (f *File) Companions(suffixes ...string) {
+	f.companions = append(f.companions, suffixes...)
+}
+
 // Commit flushes the temporary file to disk, renames it into place and
 // flushes the folder. Without overwrite the rename never replaces a target
 // that appeared since Create: Commit then fails with an error wrapping
@@ -91,6 +104,9 @@ func (f *File) Commit() error {
 		return fmt.Errorf("write %s: %w", f.path, err)
 	}
 	f.state = committed
+	if err := f.moveCompanions(); err != nil {
+		return fmt.Errorf("write %s: %w", f.path, bare(err))
+	}
 	if err := syncFolders(f.path, f.created); err != nil {
 		return fmt.Errorf("write %s: flush folder: %w", f.path, bare(err))
 	}
@@ -106,6 +122,9 @@ func (f *File) Abort() {
 	f.state = aborted
 	os.Remove(f.tmp)
 	f.removeSidecars()
+	for _, s := range f.companions {
+		os.Remove(f.tmp + s)
+	}
 	removeCreated(f.created)
 }
 
@@ -113,6 +132,24 @@ func (f *File) removeSidecars() {
 	for _, s := range f.sidecars {
 		os.Remove(f.tmp + s)
 	}
+}
+
+// moveCompanions moves the companions beside the committed file, flushed
+// first, and removes those left there that the writer did not make.
+func (f *File) moveCompanions() error {
+	for _, s := range f.companions {
+		err := syncPath(f.tmp + s)
+		if err == nil {
+			err = os.Rename(f.tmp+s, f.path+s)
+		}
+		if errors.Is(err, fs.ErrNotExist) {
+			err = os.Remove(f.path + s)
+		}
+		if err != nil && !errors.Is(err, fs.ErrNotExist) {
+			return err
+		}
+	}
+	return nil
 }
 
 // WriteFile writes data to path through a File: Create, write, Commit,

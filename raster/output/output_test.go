@@ -922,3 +922,52 @@ func TestFolderFinalNames(t *testing.T) {
 		t.Errorf("nil folder changed the error: %v", got)
 	}
 }
+
+// TestCompanions: a companion the writer made goes beside the committed
+// file, replacing one there; one left beside the target that the writer
+// made none for is removed, as it would describe another file; Abort
+// removes the writer's. Known by construction.
+func TestCompanions(t *testing.T) {
+	tests := []struct {
+		name       string
+		made, left bool // a companion made by the writer; one left beside the target
+		abort      bool
+		want       []string
+		wantAux    string
+	}{
+		{"made", true, false, false, []string{"out.tif", "out.tif.aux.xml"}, "new"},
+		{"made, replacing one left", true, true, false, []string{"out.tif", "out.tif.aux.xml"}, "new"},
+		{"none made, one left", false, true, false, []string{"out.tif"}, ""},
+		{"none", false, false, false, []string{"out.tif"}, ""},
+		{"aborted", true, true, true, []string{"out.tif.aux.xml"}, "old"},
+	}
+	for _, tc := range tests {
+		dir := t.TempDir()
+		path := filepath.Join(dir, "out.tif")
+		if tc.left {
+			writeFile(t, path+".aux.xml", "old")
+		}
+		f, err := Create(path, false, ".tif")
+		if err != nil {
+			t.Fatal(err)
+		}
+		f.Companions(".aux.xml")
+		writeFile(t, f.Temp(), "tif")
+		if tc.made {
+			writeFile(t, f.Temp()+".aux.xml", "new")
+		}
+		if tc.abort {
+			f.Abort()
+		} else if err := f.Commit(); err != nil {
+			t.Fatalf("%s: %v", tc.name, err)
+		}
+		if got := entries(t, dir); !slices.Equal(got, tc.want) {
+			t.Errorf("%s: files %v, want %v", tc.name, got, tc.want)
+		}
+		if tc.wantAux != "" {
+			if got := readFile(t, path+".aux.xml"); got != tc.wantAux {
+				t.Errorf("%s: companion holds %q, want %q", tc.name, got, tc.wantAux)
+			}
+		}
+	}
+}

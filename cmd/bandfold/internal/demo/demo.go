@@ -182,7 +182,7 @@ func WriteScenario(ctx context.Context, env jobkit.Env, o *DemoOptions) (*scenar
 	hnd := c.HyperNoData()
 	hyperSpec := raster.Spec{Grid: raster.Grid{Width: hw, Height: hh, GeoTransform: c.HyperGeoTransform(), HasGeoTransform: true, Projection: wkt},
 		Bands: scenario.HyperBands, DataType: "Int16", NoData: &hnd, Descriptions: c.HyperBandNames(), Overwrite: o.Overwrite,
-		Metadata: with(map[string]string{"ACQUISITION_DATE": dates[1]}), BandMetadata: hyperBandMetadata(c)}
+		Metadata: with(map[string]string{"ACQUISITION_DATE": dates[1]}), Wavelengths: hyperWavelengths(c)}
 	err = jobkit.WriteRaster(ctx, env, files.Hyper, hyperSpec, tiles.NewGrid(hw, hh, 256, 32), func(int) jobkit.RenderFunc {
 		return func(t tiles.Tile, dst []float64) error {
 			c.Hyperspectral(t.X, t.Y, t.W, t.H, dst)

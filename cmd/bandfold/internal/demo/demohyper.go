@@ -154,12 +154,13 @@ func (w *demoErrWorker) Do(_ context.Context, t tiles.Tile) (demoErr, error) {
 	return e, nil
 }
 
-// hyperBandMetadata are the cube's band wavelength items, in the form
-// GDAL's ENVI driver reports them (raster.Stack.Wavelengths reads them).
-func hyperBandMetadata(c *scenario.Catchment) []map[string]string {
-	var out []map[string]string
+// hyperWavelengths are the cube's band centres and widths, written in
+// GDAL's convention (raster.Wavelength) and read back by
+// raster.Stack.Wavelengths.
+func hyperWavelengths(c *scenario.Catchment) []raster.Wavelength {
+	var out []raster.Wavelength
 	for _, nm := range c.HyperWavelengths() {
-		out = append(out, map[string]string{"wavelength": fmt.Sprintf("%.2f", nm), "fwhm": fmt.Sprintf("%.2f", c.HyperFWHM()), "wavelength_units": "nm"})
+		out = append(out, raster.Wavelength{CentreNM: nm, FWHMNM: c.HyperFWHM()})
 	}
 	return out
 }

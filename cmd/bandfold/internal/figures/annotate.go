@@ -53,108 +53,135 @@ const (
 // result is widened with the panel colour when the panel needs more
 // room than the image has; the image keeps its pixels at the top left.
 func Annotate(img *image.RGBA, opts Annotation) *image.RGBA {
-	b := img.Bounds()
+	return AnnotateLayout(Layout{Image: img}, opts).Image
+}
+
+// AnnotateLayout is Annotate on a figure with the boxes of its text: the
+// result keeps them and adds the panel's and the north arrow's.
+func AnnotateLayout(fig Layout, opts Annotation) Layout {
+	b := fig.Image.Bounds()
 	w, h := b.Dx(), b.Dy()
+	p := planPanel(w, opts)
+	out := image.NewRGBA(image.Rect(0, 0, p.width, h+p.height))
+	draw.Draw(out, out.Bounds(), image.NewUniform(panelColour), image.Point{}, draw.Src)
+	draw.Draw(out, image.Rect(0, 0, w, h), fig.Image, b.Min, draw.Src)
+	text := shifted(fig.Text, image.Pt(-b.Min.X, -b.Min.Y))
+	if p.height > 0 {
+		panel := p.draw(opts)
+		draw.Draw(out, image.Rect(0, h, p.width, h+p.height), panel.Image, image.Point{}, draw.Src)
+		text = append(text, shifted(panel.Text, image.Pt(0, h))...)
+	}
+	if opts.NorthArrow {
+		text = append(text, northArrow(out, w)...)
+	}
+	return Layout{Image: out, Text: text}
+}
+
+// panelPlan is the layout of Annotate's panel: its size, the scale bar,
+// the lines of text.
+type panelPlan struct {
+	width, height int
+	barPx         int
+	barLabel      string
+	legendW, barW int
+	lines         []string
+	legendRow     bool
+}
+
+// planPanel lays out the panel of opts under an image w pixels wide.
+func planPanel(w int, opts Annotation) panelPlan {
 	face := font.DefaultCache.Lookup(sansFont, vg.Length(annotateSize))
 	textW := func(s string) int { return int(math.Ceil(float64(face.Width(s)))) }
-
-	var barPx int
-	var barLabel string
+	var p panelPlan
 	if opts.MetresPerPixel > 0 && w > 0 {
-		_, barPx, barLabel = scaleBar(w, opts.MetresPerPixel)
+		_, p.barPx, p.barLabel = scaleBar(w, opts.MetresPerPixel)
 	}
-	hasSwatch, hasBar := opts.SwatchLabel != "", barPx > 0
-
-	legendW, barW := 0, 0
+	hasSwatch, hasBar := opts.SwatchLabel != "", p.barPx > 0
 	if hasSwatch {
-		legendW = swatchSide + itemGap + textW(opts.SwatchLabel)
+		p.legendW = swatchSide + itemGap + textW(opts.SwatchLabel)
 	}
 	if hasBar {
-		barW = barPx + itemGap + textW(barLabel)
+		p.barW = p.barPx + itemGap + textW(p.barLabel)
 	}
 	rows, need := 0, 0
-	if hasSwatch || hasBar {
+	if p.legendRow = hasSwatch || hasBar; p.legendRow {
 		rows++
-		need = 2*panelPad + legendW + barW
+		need = 2*panelPad + p.legendW + p.barW
 		if hasSwatch && hasBar {
 			need += groupGap
 		}
 	}
-	var lines []string
 	for _, l := range []string{opts.Title, opts.Text} {
 		if l != "" {
-			lines = append(lines, l)
+			p.lines = append(p.lines, l)
 			need = max(need, 2*panelPad+textW(l))
 		}
 	}
-	W := max(w, need)
+	p.width = max(w, need)
 	for _, l := range opts.Lines {
-		lines = append(lines, wrap(l, W-2*panelPad, textW)...)
+		p.lines = append(p.lines, wrap(l, p.width-2*panelPad, textW)...)
 	}
-	rows += len(lines)
-	panelH := 0
-	if rows > 0 {
-		panelH = 2*panelPad + rows*panelRow
+	if rows += len(p.lines); rows > 0 {
+		p.height = 2*panelPad + rows*panelRow
 	}
+	return p
+}
 
-	out := image.NewRGBA(image.Rect(0, 0, W, h+panelH))
-	draw.Draw(out, out.Bounds(), image.NewUniform(panelColour), image.Point{}, draw.Src)
-	draw.Draw(out, image.Rect(0, 0, w, h), img, b.Min, draw.Src)
-	if rows == 0 {
-		return out
-	}
-
-	// The panel is drawn at 72 dpi, so one vg point is one pixel; vg's
-	// y axis points up from the panel's bottom edge.
-	c := vgimg.NewWith(vgimg.UseWH(vg.Length(W), vg.Length(panelH)),
-		vgimg.UseDPI(72), vgimg.UseBackgroundColor(panelColour))
-	rowMid := func(i int) float64 { return float64(panelH - panelPad - i*panelRow - panelRow/2) }
+// draw draws the panel of p, at 72 dpi so that one vg point is one pixel;
+// vg's y axis points up from the panel's bottom edge.
+func (p panelPlan) draw(opts Annotation) Layout {
+	face := font.DefaultCache.Lookup(sansFont, vg.Length(annotateSize))
+	c := newRecorder(vgimg.NewWith(vgimg.UseWH(vg.Length(p.width), vg.Length(p.height)),
+		vgimg.UseDPI(72), vgimg.UseBackgroundColor(panelColour)))
+	rowMid := func(i int) float64 { return float64(p.height - panelPad - i*panelRow - panelRow/2) }
 	baseline := func(mid float64) vg.Length { return vg.Length(mid - 0.36*annotateSize) }
-	rect := func(x0, y0, x1, y1 float64) {
-		var p vg.Path
-		p.Move(vg.Point{X: vg.Length(x0), Y: vg.Length(y0)})
-		p.Line(vg.Point{X: vg.Length(x1), Y: vg.Length(y0)})
-		p.Line(vg.Point{X: vg.Length(x1), Y: vg.Length(y1)})
-		p.Line(vg.Point{X: vg.Length(x0), Y: vg.Length(y1)})
-		p.Close()
-		c.Fill(p)
-	}
 	// Thin rule separating the image from the panel.
 	c.SetColor(inkColour)
-	rect(0, float64(panelH-1), float64(W), float64(panelH))
-
+	fillRect(c, 0, float64(p.height-1), float64(p.width), float64(p.height))
 	row := 0
-	if hasSwatch || hasBar {
+	if p.legendRow {
 		mid := rowMid(row)
-		if hasSwatch {
-			x := float64(panelPad)
+		if opts.SwatchLabel != "" {
+			swatch(c, panelPad, mid, opts.Swatch)
 			c.SetColor(inkColour)
-			rect(x-1, mid-swatchSide/2-1, x+swatchSide+1, mid+swatchSide/2+1)
-			c.SetColor(opts.Swatch)
-			rect(x, mid-swatchSide/2, x+swatchSide, mid+swatchSide/2)
-			c.SetColor(inkColour)
-			c.FillString(face, vg.Point{X: vg.Length(x + swatchSide + itemGap), Y: baseline(mid)}, opts.SwatchLabel)
+			c.FillString(face, vg.Point{X: vg.Length(panelPad + swatchSide + itemGap), Y: baseline(mid)}, opts.SwatchLabel)
 		}
-		if hasBar {
-			x := float64(W - panelPad - barW)
+		if p.barPx > 0 {
+			x := float64(p.width - panelPad - p.barW)
 			c.SetColor(inkColour)
-			rect(x, mid-barHeight/2, x+float64(barPx), mid+barHeight/2)
-			rect(x, mid-barTickSpan/2, x+2, mid+barTickSpan/2)
-			rect(x+float64(barPx)-2, mid-barTickSpan/2, x+float64(barPx), mid+barTickSpan/2)
-			c.FillString(face, vg.Point{X: vg.Length(x + float64(barPx+itemGap)), Y: baseline(mid)}, barLabel)
+			fillRect(c, x, mid-barHeight/2, x+float64(p.barPx), mid+barHeight/2)
+			fillRect(c, x, mid-barTickSpan/2, x+2, mid+barTickSpan/2)
+			fillRect(c, x+float64(p.barPx)-2, mid-barTickSpan/2, x+float64(p.barPx), mid+barTickSpan/2)
+			c.FillString(face, vg.Point{X: vg.Length(x + float64(p.barPx+itemGap)), Y: baseline(mid)}, p.barLabel)
 		}
 		row++
 	}
 	c.SetColor(inkColour)
-	for _, l := range lines {
+	for _, l := range p.lines {
 		c.FillString(face, vg.Point{X: panelPad, Y: baseline(rowMid(row))}, l)
 		row++
 	}
-	draw.Draw(out, image.Rect(0, h, W, h+panelH), c.Image(), image.Point{}, draw.Src)
-	if opts.NorthArrow {
-		northArrow(out, w)
-	}
-	return out
+	return c.layout()
+}
+
+// fillRect fills the rectangle (x0, y0)-(x1, y1) of c in its colour.
+func fillRect(c vg.Canvas, x0, y0, x1, y1 float64) {
+	var p vg.Path
+	p.Move(vg.Point{X: vg.Length(x0), Y: vg.Length(y0)})
+	p.Line(vg.Point{X: vg.Length(x1), Y: vg.Length(y0)})
+	p.Line(vg.Point{X: vg.Length(x1), Y: vg.Length(y1)})
+	p.Line(vg.Point{X: vg.Length(x0), Y: vg.Length(y1)})
+	p.Close()
+	c.Fill(p)
+}
+
+// swatch draws a legend swatch of colour col with a thin ink border, its
+// left edge at x and its middle at height mid.
+func swatch(c vg.Canvas, x, mid float64, col color.RGBA) {
+	c.SetColor(inkColour)
+	fillRect(c, x-1, mid-swatchSide/2-1, x+swatchSide+1, mid+swatchSide/2+1)
+	c.SetColor(col)
+	fillRect(c, x, mid-swatchSide/2, x+swatchSide, mid+swatchSide/2)
 }
 
 // wrap splits s at spaces into lines no wider than width (a single word
@@ -188,12 +215,13 @@ const (
 )
 
 // northArrow draws an arrow pointing up with an N in a light box at the
-// top right corner of the first w columns of img.
-func northArrow(img *image.RGBA, w int) {
+// top right corner of the first w columns of img, and returns the box of
+// its N.
+func northArrow(img *image.RGBA, w int) []TextBox {
 	if w < arrowSize+2*arrowPad || img.Bounds().Dy() < arrowSize+2*arrowPad {
-		return
+		return nil
 	}
-	c := vgimg.NewWith(vgimg.UseWH(arrowSize, arrowSize), vgimg.UseDPI(72), vgimg.UseBackgroundColor(panelColour))
+	c := newRecorder(vgimg.NewWith(vgimg.UseWH(arrowSize, arrowSize), vgimg.UseDPI(72), vgimg.UseBackgroundColor(panelColour)))
 	c.SetColor(inkColour)
 	var p vg.Path
 	mid := vg.Length(arrowSize) / 2
@@ -206,7 +234,9 @@ func northArrow(img *image.RGBA, w int) {
 	face := font.DefaultCache.Lookup(sansFont, vg.Length(annotateSize))
 	c.FillString(face, vg.Point{X: mid - face.Width("N")/2, Y: 5}, "N")
 	x0 := w - arrowSize - arrowPad
-	draw.Draw(img, image.Rect(x0, arrowPad, x0+arrowSize, arrowPad+arrowSize), c.Image(), image.Point{}, draw.Src)
+	arrow := c.layout()
+	draw.Draw(img, image.Rect(x0, arrowPad, x0+arrowSize, arrowPad+arrowSize), arrow.Image, image.Point{}, draw.Src)
+	return shifted(arrow.Text, image.Pt(x0, arrowPad))
 }
 
 // scaleBar picks the scale-bar length for an image widthPx pixels wide

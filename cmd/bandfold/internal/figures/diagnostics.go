@@ -1,7 +1,6 @@
 package figures
 
 import (
-	"bytes"
 	"errors"
 	"fmt"
 	"image/color"
@@ -18,7 +17,7 @@ import (
 // Diagnostics figure size in pixels, histogram bins and QQ points.
 const (
 	diagWidth  = 1400
-	diagHeight = 600
+	diagHeight = 700
 	diagBins   = 80
 	qqPoints   = 400
 )
@@ -40,45 +39,51 @@ var thresholdColour = color.RGBA{0xd6, 0x28, 0x78, 0xff}
 // Diagnostics draws, side by side, the histogram of Z (as a density)
 // against the chi-square density with K degrees of freedom with the
 // threshold marked, and a QQ plot of the sample's quantiles of Z against
-// the chi-square quantiles (gonum's distuv.ChiSquared), and returns the
-// PNG. Points above the diagonal at the top of the QQ panel are tails
-// heavier than chi-square, common on real pairs.
+// the chi-square quantiles (gonum's distuv.ChiSquared), each with its
+// legend under it, and returns the PNG. Points above the diagonal at the
+// top of the QQ panel are tails heavier than chi-square, common on real
+// pairs.
 func Diagnostics(d DiagnosticsData) ([]byte, error) {
+	l, err := DiagnosticsLayout(d)
+	if err != nil {
+		return nil, err
+	}
+	return encodePNG(l.Image)
+}
+
+// DiagnosticsLayout is Diagnostics' figure with the boxes of its text.
+func DiagnosticsLayout(d DiagnosticsData) (Layout, error) {
 	if len(d.Z) < 2 || d.K < 1 {
-		return nil, errors.New("figures: diagnostics: need at least 2 Z values and k >= 1")
+		return Layout{}, errors.New("figures: diagnostics: need at least 2 Z values and k >= 1")
 	}
 	z := slices.Clone(d.Z)
 	slices.Sort(z)
 	chi := distuv.ChiSquared{K: float64(d.K)}
 	hi := math.Max(chi.Quantile(0.999), d.Threshold) * 1.25
-	hist, err := zHistogram(z, chi, d.Threshold, hi)
+	hist, histLeg, err := zHistogram(z, chi, d.Threshold, hi)
 	if err != nil {
-		return nil, err
+		return Layout{}, err
 	}
 	hist.Title.Text = d.Title
 	if hist.Title.Text == "" {
 		hist.Title.Text = "sampled Z against the chi-square no-change model"
 	}
-	qq, err := qqPlot(z, chi, d.Threshold)
+	qq, qqLeg, err := qqPlot(z, chi, d.Threshold)
 	if err != nil {
-		return nil, err
+		return Layout{}, err
 	}
-	c := newCanvas(diagWidth, diagHeight)
+	c := newRecorder(newCanvas(diagWidth, diagHeight))
 	dc := draw.New(c)
 	tiles := draw.Tiles{Rows: 1, Cols: 2, PadX: vg.Points(16), PadY: vg.Points(8), PadTop: vg.Points(8), PadBottom: vg.Points(8), PadLeft: vg.Points(8), PadRight: vg.Points(8)}
-	hist.Draw(tiles.At(dc, 0, 0))
-	qq.Draw(tiles.At(dc, 1, 0))
-	var buf bytes.Buffer
-	if err := writeCanvas(&buf, c); err != nil {
-		return nil, err
-	}
-	return buf.Bytes(), nil
+	drawBelow(hist, histLeg, tiles.At(dc, 0, 0))
+	drawBelow(qq, qqLeg, tiles.At(dc, 1, 0))
+	return c.layout(), nil
 }
 
 // zHistogram is the density histogram of sorted z on [0, hi) with the
 // chi-square density and the threshold.
-func zHistogram(z []float64, chi distuv.ChiSquared, cut, hi float64) (*plot.Plot, error) {
-	p := newPlot("")
+func zHistogram(z []float64, chi distuv.ChiSquared, cut, hi float64) (*plot.Plot, plot.Legend, error) {
+	p, leg := newPlot(""), newLegend()
 	p.X.Label.Text = "Z"
 	p.Y.Label.Text = "density"
 	width := hi / diagBins
@@ -102,7 +107,7 @@ func zHistogram(z []float64, chi distuv.ChiSquared, cut, hi float64) (*plot.Plot
 	}
 	h, err := plotter.NewLine(hist)
 	if err != nil {
-		return nil, err
+		return nil, plot.Legend{}, err
 	}
 	h.Color, h.Width = barColour, vg.Points(2)
 	var dens plotter.XYs
@@ -113,27 +118,26 @@ func zHistogram(z []float64, chi distuv.ChiSquared, cut, hi float64) (*plot.Plot
 	}
 	l, err := plotter.NewLine(dens)
 	if err != nil {
-		return nil, err
+		return nil, plot.Legend{}, err
 	}
 	l.Color, l.Width = inkColour, vg.Points(1.5)
 	mark, err := plotter.NewLine(plotter.XYs{{X: cut, Y: 0}, {X: cut, Y: top * 1.05}})
 	if err != nil {
-		return nil, err
+		return nil, plot.Legend{}, err
 	}
 	mark.Color, mark.Width, mark.Dashes = thresholdColour, vg.Points(2), []vg.Length{vg.Points(6), vg.Points(4)}
 	p.Add(plotter.NewGrid(), h, l, mark)
-	p.Legend.Add("sampled Z", h)
-	p.Legend.Add(fmt.Sprintf("chi-square density, k = %d", int(chi.K)), l)
-	p.Legend.Add(fmt.Sprintf("threshold Z = %.4g", cut), mark)
-	p.Legend.Add(fmt.Sprintf("%d of %d beyond the axis", above, len(z)))
-	p.Legend.Top = true
+	leg.Add("sampled Z", h)
+	leg.Add(fmt.Sprintf("chi-square density, k = %d", int(chi.K)), l)
+	leg.Add(fmt.Sprintf("threshold Z = %.4g", cut), mark)
+	leg.Add(fmt.Sprintf("%d of %d beyond the axis", above, len(z)))
 	p.X.Min, p.X.Max, p.Y.Min, p.Y.Max = 0, hi, 0, top*1.1
-	return p, nil
+	return p, leg, nil
 }
 
 // qqPlot plots the sample quantiles of sorted z against chi-square ones.
-func qqPlot(z []float64, chi distuv.ChiSquared, cut float64) (*plot.Plot, error) {
-	p := newPlot("QQ: sample Z against chi-square quantiles")
+func qqPlot(z []float64, chi distuv.ChiSquared, cut float64) (*plot.Plot, plot.Legend, error) {
+	p, leg := newPlot("QQ: sample Z against chi-square quantiles"), newLegend()
 	p.X.Label.Text = fmt.Sprintf("chi-square quantile (k = %d)", int(chi.K))
 	p.Y.Label.Text = "sample quantile of Z"
 	n := min(qqPoints, len(z))
@@ -153,27 +157,26 @@ func qqPlot(z []float64, chi distuv.ChiSquared, cut float64) (*plot.Plot, error)
 	}
 	s, err := plotter.NewScatter(pts)
 	if err != nil {
-		return nil, err
+		return nil, plot.Legend{}, err
 	}
 	s.GlyphStyle.Color, s.GlyphStyle.Shape, s.GlyphStyle.Radius = barColour, draw.CircleGlyph{}, vg.Points(2.5)
 	diag, err := plotter.NewLine(plotter.XYs{{X: 0, Y: 0}, {X: top, Y: top}})
 	if err != nil {
-		return nil, err
+		return nil, plot.Legend{}, err
 	}
 	diag.Color = inkColour
 	mark, err := plotter.NewLine(plotter.XYs{{X: 0, Y: cut}, {X: top, Y: cut}})
 	if err != nil {
-		return nil, err
+		return nil, plot.Legend{}, err
 	}
 	mark.Color, mark.Dashes = thresholdColour, []vg.Length{vg.Points(6), vg.Points(4)}
 	p.Add(plotter.NewGrid(), diag, mark, s)
-	p.Legend.Add("quantiles", s)
-	p.Legend.Add("chi-square fit (y = x)", diag)
-	p.Legend.Add("threshold", mark)
+	leg.Add("quantiles", s)
+	leg.Add("chi-square fit (y = x)", diag)
+	leg.Add("threshold", mark)
 	if clipped > 0 {
-		p.Legend.Add(fmt.Sprintf("%d of %d quantiles beyond the axis, on the top edge", clipped, n))
+		leg.Add(fmt.Sprintf("%d of %d quantiles beyond the axis, on the top edge", clipped, n))
 	}
-	p.Legend.Top, p.Legend.Left = true, true
 	p.X.Min, p.Y.Min, p.X.Max, p.Y.Max = 0, 0, top, top*1.02
-	return p, nil
+	return p, leg, nil
 }

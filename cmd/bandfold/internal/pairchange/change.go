@@ -248,7 +248,7 @@ func (r *changeRun) sieve(ctx context.Context) error {
 func (r *changeRun) patches(context.Context) error {
 	md := r.metadata()
 	ps, err := r.mask.Patches(r.Dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.Dir.Path("magnitude.tif"), Metadata: md,
-		Dates: r.Name(0) + " to " + r.Name(1)})
+		Before: r.Dates[0], After: r.Dates[1]})
 	if err != nil {
 		return err
 	}

@@ -2,21 +2,21 @@ package pairchange
 
 import (
 	"context"
+	"image/color"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
+	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/raster"
 	"bandfold/transform/change"
 )
 
-// changeColors is change.tif's colour table: no change, change, nodata.
-var changeColors = func() [][4]int16 {
-	ct := make([][4]int16, 256)
-	ct[0] = [4]int16{236, 236, 228, 255}
-	ct[1] = [4]int16{214, 40, 120, 255}
-	ct[255] = [4]int16{0, 0, 0, 0}
-	return ct
-}()
+// changeClasses are the names and colours of change.tif's values.
+var changeClasses = []raster.Class{
+	{Value: 0, Name: "no change", Colour: figures.MapBackground},
+	{Value: 1, Name: "change", Colour: color.RGBA{214, 40, 120, 255}},
+	{Value: 255, Name: "nodata"},
+}
 
 // changeMap writes change.tif from the sieved mask and counts the mapped
 // change, its ground area and, with a reference, the agreement.
@@ -24,7 +24,7 @@ func (r *changeRun) changeMap(ctx context.Context) error {
 	nd := 255.0
 	md := r.metadata()
 	out, err := raster.Create(r.Dir.Path("change.tif"), r.o.Output.Spec(raster.Spec{Grid: r.before.Grid, Bands: 1, DataType: "Byte", NoData: &nd,
-		ColorTable: changeColors, Descriptions: []string{"change (1), no change (0), nodata (255)"}, Metadata: md}, true))
+		Classes: changeClasses, Descriptions: []string{"change (1), no change (0), nodata (255)"}, Metadata: md}, true))
 	if err != nil {
 		return err
 	}

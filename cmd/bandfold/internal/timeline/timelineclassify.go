@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 
+	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/report"
 	"bandfold/raster"
@@ -68,23 +69,17 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	nd8, nd0, ndc := float64(StepNoData), 0.0, -1.0
 	descs := make([]string, S)
 	for q := range descs {
-		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged not confirmed, 2 confirmed, 255 nodata", r.label(q), r.label(q+1))
+		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged (did not last), 2 lasting, 255 nodata", r.label(q), r.label(q+1))
 	}
-	// GeoTIFF keeps a colour table (on band 1) only in files of one or two
-	// bands: a longer series' steps.tif goes without, its values told by
-	// the band descriptions.
-	colors := stepColors
-	if S > 2 {
-		colors = nil
-	}
+	dates := r.dateClasses()
 	specs := []struct {
 		name string
 		spec raster.Spec
 	}{
-		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, ColorTable: colors, Descriptions: descs, Metadata: md}},
-		{"first-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the first confirmed change (YYYYMMDD); nodata where none"}}},
-		{"last-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Descriptions: []string{"date of the last confirmed change (YYYYMMDD); nodata where none"}}},
-		{"change-count.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"confirmed changes per pixel; nodata where no step is valid"}}},
+		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, Classes: stepClasses, Descriptions: descs, Metadata: md}},
+		{"first-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Classes: dates, Descriptions: []string{"date of the first lasting change (YYYYMMDD); nodata where none"}}},
+		{"last-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Classes: dates, Descriptions: []string{"date of the last lasting change (YYYYMMDD); nodata where none"}}},
+		{"change-count.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"lasting changes per pixel; nodata where no step is valid"}}},
 	}
 	outs := make([]*raster.Output, len(specs))
 	for i, s := range specs {
@@ -179,6 +174,18 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	return nil
 }
 
+// dateClasses names and colours the values of first-change.tif and
+// last-change.tif, the dates of the steps' later scenes, with the colour
+// ramp of first-change.png.
+func (r *timelineRun) dateClasses() []raster.Class {
+	colours := figures.DateColours(r.steps())
+	out := make([]raster.Class, len(colours))
+	for q, c := range colours {
+		out[q] = raster.Class{Value: r.Dates[q+1].YYYYMMDD(), Name: r.label(q) + " to " + r.label(q+1), Colour: c}
+	}
+	return out
+}
+
 // markPreview records, for first-change.png, the step of a pixel's first
 // confirmed change at its preview pixel (the earliest wins).
 func (r *timelineRun) markPreview(x, y, step int) {
@@ -202,7 +209,7 @@ func (r *timelineRun) markPreview(x, y, step int) {
 func (r *timelineRun) patches(context.Context) error {
 	var steps []raster.PatchStep
 	for q, m := range r.masks {
-		steps = append(steps, raster.PatchStep{Mask: m, Band: q + 1, Date: r.label(q + 1)})
+		steps = append(steps, raster.PatchStep{Mask: m, Band: q + 1, Date: r.Dates[q+1]})
 	}
 	sums, err := raster.WriteStepPatches(r.Dir.Path("changes.gpkg"), raster.PatchOptions{Magnitude: r.scratch, Metadata: r.metadata()}, steps)
 	if err != nil {

@@ -7,6 +7,7 @@ import (
 	"os"
 	"strconv"
 
+	"bandfold/cmd/bandfold/internal/figures"
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
@@ -16,21 +17,19 @@ import (
 // Values of steps.tif.
 const (
 	stepNone        = 0
-	StepUnconfirmed = 1
-	StepConfirmed   = 2
+	StepUnconfirmed = 1 // flagged, did not last
+	StepConfirmed   = 2 // lasting
 	StepNoData      = 255
 )
 
-// stepColors is steps.tif's colour table: none, flagged but not confirmed,
-// confirmed, nodata.
-var stepColors = func() [][4]int16 {
-	ct := make([][4]int16, 256)
-	ct[stepNone] = [4]int16{236, 236, 228, 255}
-	ct[StepUnconfirmed] = [4]int16{244, 180, 120, 255}
-	ct[StepConfirmed] = [4]int16{180, 30, 60, 255}
-	ct[StepNoData] = [4]int16{0, 0, 0, 0}
-	return ct
-}()
+// stepClasses are the names and colours of steps.tif's values: those of
+// timeline.png's bars.
+var stepClasses = []raster.Class{
+	{Value: stepNone, Name: "none", Colour: figures.MapBackground},
+	{Value: StepUnconfirmed, Name: "flagged", Colour: figures.FlaggedColour},
+	{Value: StepConfirmed, Name: "lasting", Colour: figures.LastingColour},
+	{Value: StepNoData, Name: "nodata"},
+}
 
 // stepTile is a timeline tile's own results: each step's Z as float32,
 // the largest Z and its step.

@@ -22,7 +22,7 @@ import (
 // (the date of the first confirmed change).
 func (r *timelineRun) figures(context.Context) error {
 	S := r.steps()
-	d := figures.TimelineData{Unit: "pixels", Title: "Mapped change per step: confirmed, and flagged but not confirmed"}
+	d := figures.TimelineData{Unit: "pixels", Title: "Mapped change per step: lasting, and flagged but did not last"}
 	for q := range S {
 		c := r.counts[q]
 		d.Steps = append(d.Steps, r.label(q+1))
@@ -56,12 +56,14 @@ func (r *timelineRun) figures(context.Context) error {
 	}
 	var labels []string
 	for q := range S {
-		labels = append(labels, "first confirmed change between "+r.label(q)+" and "+r.label(q+1))
+		labels = append(labels, "first lasting change between "+r.label(q)+" and "+r.label(q+1))
 	}
 	img := figures.DateMap(r.pw, r.ph, r.firstPrev, figures.DateColours(S), labels)
-	ann := figures.Annotation{Title: fmt.Sprintf("Date of first confirmed change, %s to %s", r.label(0), r.label(S)), Lines: lines}
+	ann := figures.Annotation{Title: fmt.Sprintf("Date of first lasting change, %s to %s", r.label(0), r.label(S)), Lines: lines}
 	if r.Areas != nil {
+		gt := r.Scenes[0].GeoTransform
 		ann.MetresPerPixel = math.Sqrt(r.Areas.Mean()) * float64(r.Scenes[0].Width) / float64(r.pw)
+		ann.NorthArrow = gt[2] == 0 && gt[4] == 0
 	}
 	data, err := report.EncodePNG(figures.Annotate(img, ann))
 	if err != nil {
