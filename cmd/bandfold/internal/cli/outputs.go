@@ -47,6 +47,7 @@ var Outputs = map[string][]OutputFile{
 	},
 	"change": {
 		{"change.tif", "", "the change map: 1 change, 0 no change, 255 nodata (after the minimum mapping unit)"},
+		{"change.tif.aux.xml", "", "its class names and colours (a raster attribute table GDAL reads beside the file)"},
 		{"magnitude.tif", "", "the change statistic Z of every pixel (chi-square with k degrees of freedom under no change)"},
 		{"pvalue.tif", "with --pvalues", "the no-change p-value of Z"},
 		{"differences.tif", "with --differences", "per component, the score difference minus the no-change location"},
@@ -59,9 +60,12 @@ var Outputs = map[string][]OutputFile{
 		{"bandfold-output.json", "", "the folder's manifest"},
 	},
 	"timeline": {
-		{"steps.tif", "", "one band per step: flagged, lasting (confirmed), no change, nodata"},
+		{"steps.tif", "", "one band per step: none, flagged (did not last), lasting, nodata"},
+		{"steps.tif.aux.xml", "", "its class names and colours (GDAL's sidecar)"},
 		{"first-change.tif", "", "the date of the first lasting change (YYYYMMDD)"},
+		{"first-change.tif.aux.xml", "", "its dates' names and colours (GDAL's sidecar)"},
 		{"last-change.tif", "", "the date of the last lasting change (YYYYMMDD)"},
+		{"last-change.tif.aux.xml", "", "its dates' names and colours (GDAL's sidecar)"},
 		{"change-count.tif", "", "lasting changes per pixel"},
 		{"max-magnitude.tif", "", "the largest Z over the steps and its step"},
 		{"changes.gpkg", "", "the lasting patches of every step as polygons"},

@@ -28,7 +28,7 @@ const (
 // "Common Media Types in STAC").
 var stacMediaTypes = map[string]string{
 	".tif": "image/tiff; application=geotiff", ".gpkg": "application/geopackage+sqlite3", ".png": "image/png",
-	".json": "application/json", ".html": "text/html", ".csv": "text/csv",
+	".json": "application/json", ".html": "text/html", ".csv": "text/csv", ".xml": "application/xml",
 }
 
 // ItemSpec is what an output set's STAC Item says.
@@ -177,6 +177,10 @@ func FolderAssets(dir string, files []string) ([]ItemAsset, error) {
 				return nil, err
 			}
 			a.Bands = bands
+			if aux := f + ".aux.xml"; fileExists(filepath.Join(dir, aux)) {
+				// GDAL's sidecar: the class names and colours of f.
+				out = append(out, ItemAsset{Key: aux, File: aux, Title: "class names and colours of " + f + " (GDAL's auxiliary metadata)", Roles: []string{"metadata"}})
+			}
 		case ".gpkg", ".csv":
 			a.Roles = []string{"data"}
 		case ".png":
@@ -308,4 +312,9 @@ func CheckOutputs(ins, outs []output.Path, overwrite bool) error {
 		}
 	}
 	return nil
+}
+
+func fileExists(p string) bool {
+	fi, err := os.Stat(p)
+	return err == nil && !fi.IsDir()
 }
