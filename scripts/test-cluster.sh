@@ -13,6 +13,10 @@
 #          and equal the single-machine fold bit for bit; a second array over
 #          the same list must skip every scene and leave the outputs untouched.
 #
+#   job 3: a staged "change" of two of those scenes: a 3-task scan array, the
+#          fit, a 3-task map array and the finish, chained with afterok
+#          (change-stage.sbatch); change.tif, magnitude.tif and summary.json
+#          must equal a single-machine change bit for bit.
 # The job scripts are the examples in examples/slurm (learn-array.sbatch,
 # merge.sbatch, fold-array.sbatch), so the examples are tested too; the sbatch
 # command line overrides their #SBATCH sizes to fit this 2-core node.
@@ -364,7 +368,7 @@ fi
 # The jobs are the examples in examples/slurm, so these are tested too; the
 # command line overrides their #SBATCH sizes to fit this small node.
 EX=$REPO/examples/slurm
-for f in learn-array.sbatch merge.sbatch fold-array.sbatch; do
+for f in learn-array.sbatch merge.sbatch fold-array.sbatch change-stage.sbatch; do
 	[ -f "$EX/$f" ] || die "job scripts" "$EX/$f is missing"
 done
 LEARN_BF=$BF
@@ -557,11 +561,15 @@ check_fold_outputs() {
 		gdalinfo "$out" 2>/dev/null | grep -q 'BANDFOLD_COMPLETE=' ||
 			{ echo "folds/scene-$s.components.tif has no BANDFOLD_COMPLETE record"; return 1; }
 	done
-	# nothing else left behind (temporary files of an interrupted write)
+	# each image's STAC Item beside it, and nothing else left behind
+	# (temporary files of an interrupted write)
+	for s in 1 2 3 4 5 6; do
+		[ -s "$W/folds/scene-$s.components.item.json" ] || { echo "folds/scene-$s.components.item.json missing"; return 1; }
+	done
 	n=$(find "$W/folds" -mindepth 1 | wc -l)
-	[ "$n" = 6 ] || { echo "folds/ holds $n entries, want the 6 images only: $(find "$W/folds" -mindepth 1 -printf '%f ')"; return 1; }
+	[ "$n" = 12 ] || { echo "folds/ holds $n entries, want the 6 images and their 6 STAC Items only: $(find "$W/folds" -mindepth 1 -printf '%f ')"; return 1; }
 }
-if why=$(check_fold_outputs); then pass "fold outputs: 6 component images, each with its BANDFOLD_COMPLETE record"; else failed "fold outputs" "$why"; fi
+if why=$(check_fold_outputs); then pass "fold outputs: 6 component images, each with its BANDFOLD_COMPLETE record and its STAC Item"; else failed "fold outputs" "$why"; fi
 
 same_image() { # a b: same grid, georeferencing, band types and pixels
 	local a=$1 b=$2 shape
@@ -600,5 +608,36 @@ check_rerun() {
 	check_split refold "$id" skipped
 }
 if why=$(check_rerun); then pass "fold re-run array: COMPLETED, every complete output skipped and left untouched"; else failed "fold re-run" "$why"; fi
+
+# ---------------------------------------------------------------------------
+# job 3: a staged change (examples/slurm/change-stage.sbatch: a 3-task scan
+# array, the fit, a 3-task map array and the finish, chained with afterok)
+# must equal a single-machine change of the same pair bit for bit.
+chg_job() { # stage sbatch-args...: prints the job id
+	STAGE=$1 BEFORE=$W/scenes/scene-1.tif AFTER=$W/scenes/scene-2.tif OUT=$W/staged BANDFOLD=$BF OPTS="--tile 128" \
+		submit -J "bf-change-$1" -o "$W/logs/change-$1_%A_%a.out" "${@:2}" "$EX/change-stage.sbatch"
+}
+check_staged_change() {
+	local scan fit map fin id
+	scan=$(chg_job scan --array=0-2) || return 1
+	fit=$(chg_job fit --dependency=afterok:"$scan") || return 1
+	map=$(chg_job map --array=0-2 --dependency=afterok:"$fit") || return 1
+	fin=$(chg_job finish --dependency=afterok:"$map") || return 1
+	"$BF" --quiet change "$W/scenes/scene-1.tif" "$W/scenes/scene-2.tif" --tile 128 --out "$W/single-change" ||
+		{ echo "single-machine change failed"; return 1; }
+	wait_jobs "$scan" "$fit" "$map" "$fin" || return 1
+	for id in "$scan:3" "$fit:1" "$map:3" "$fin:1"; do
+		all_completed "${id%:*}" "${id#*:}" || { echo "job ${id%:*}: $(show_jobs "${id%:*}")"; tail_logs "$W/logs/change-*"; return 1; }
+	done
+	same_image "$W/staged/change.tif" "$W/single-change/change.tif" || return 1
+	same_image "$W/staged/magnitude.tif" "$W/single-change/magnitude.tif" || return 1
+	[ "$(jq -S 'del(.outputs)' "$W/staged/summary.json")" = "$(jq -S 'del(.outputs)' "$W/single-change/summary.json")" ] ||
+		{ echo "summary.json differs from the single run's"; return 1; }
+}
+if why=$(check_staged_change); then
+	pass "staged change on Slurm (scan array, fit, map array, finish): change.tif, magnitude.tif and summary.json equal the single run's"
+else
+	failed "staged change" "$why"
+fi
 
 exit 0
