@@ -52,6 +52,11 @@ type Band struct {
 	// Landsat top-of-atmosphere reflectance (Scale and Offset then hold the
 	// reflectance coefficients divided by the sine of the sun elevation).
 	Calibration string `json:"calibration,omitempty"`
+	// WavelengthNM and FWHMNM are the band's centre wavelength and width in
+	// nanometres, 0 when unknown: outputs rebuilt band for band from the
+	// basis (unfold, denoise) carry them.
+	WavelengthNM float64 `json:"wavelength_nm,omitempty"`
+	FWHMNM       float64 `json:"fwhm_nm,omitempty"`
 }
 
 // Fingerprint identifies an input file by path, size and modification time,

@@ -277,23 +277,26 @@ func leafEnd(in []byte, i int) (end int, leaf bool) {
 // with a nodata value that can be NaN. TestBandFileMirrorsBand keeps the two
 // in step.
 type bandFile struct {
-	Name        string      `json:"name"`
-	Source      string      `json:"source"`
-	Index       int         `json:"index"`
-	DataType    string      `json:"data_type"`
-	NoData      *noDataJSON `json:"nodata"`
-	Scale       float64     `json:"scale"`
-	Offset      float64     `json:"offset"`
-	Min         float64     `json:"min"`
-	Max         float64     `json:"max"`
-	Calibration string      `json:"calibration,omitempty"`
+	Name         string      `json:"name"`
+	Source       string      `json:"source"`
+	Index        int         `json:"index"`
+	DataType     string      `json:"data_type"`
+	NoData       *noDataJSON `json:"nodata"`
+	Scale        float64     `json:"scale"`
+	Offset       float64     `json:"offset"`
+	Min          float64     `json:"min"`
+	Max          float64     `json:"max"`
+	Calibration  string      `json:"calibration,omitempty"`
+	WavelengthNM float64     `json:"wavelength_nm,omitempty"`
+	FWHMNM       float64     `json:"fwhm_nm,omitempty"`
 }
 
 // MarshalJSON encodes b as a member of a basis or partial file, a NaN nodata
 // value as the string "nan".
 func (b Band) MarshalJSON() ([]byte, error) {
 	f := bandFile{Name: b.Name, Source: b.Source, Index: b.Index, DataType: b.DataType,
-		NoData: (*noDataJSON)(b.NoData), Scale: b.Scale, Offset: b.Offset, Min: b.Min, Max: b.Max, Calibration: b.Calibration}
+		NoData: (*noDataJSON)(b.NoData), Scale: b.Scale, Offset: b.Offset, Min: b.Min, Max: b.Max, Calibration: b.Calibration,
+		WavelengthNM: b.WavelengthNM, FWHMNM: b.FWHMNM}
 	return json.Marshal(f)
 }
 
@@ -312,7 +315,8 @@ func (b *Band) UnmarshalJSON(data []byte) error {
 		return fmt.Errorf("bands: %w", err)
 	}
 	*b = Band{Name: f.Name, Source: f.Source, Index: f.Index, DataType: f.DataType,
-		NoData: (*float64)(f.NoData), Scale: f.Scale, Offset: f.Offset, Min: f.Min, Max: f.Max, Calibration: f.Calibration}
+		NoData: (*float64)(f.NoData), Scale: f.Scale, Offset: f.Offset, Min: f.Min, Max: f.Max, Calibration: f.Calibration,
+		WavelengthNM: f.WavelengthNM, FWHMNM: f.FWHMNM}
 	return nil
 }
 

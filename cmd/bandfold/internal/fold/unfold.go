@@ -135,6 +135,15 @@ func restoredSpec(g raster.Grid, b *transform.Basis, st *transform.Storage, k in
 		if st.Integer && (st.Scale[j] != 1 || st.Offset[j] != 0) {
 			spec.Scales, spec.Offsets = st.Scale, st.Offset
 		}
+		if band.WavelengthNM > 0 && spec.Wavelengths == nil {
+			spec.Wavelengths = make([]raster.Wavelength, len(b.Bands))
+		}
+	}
+	// The wavelengths and widths the basis recorded of its source bands.
+	for j, band := range b.Bands {
+		if spec.Wavelengths != nil {
+			spec.Wavelengths[j] = raster.Wavelength{CentreNM: band.WavelengthNM, FWHMNM: band.FWHMNM}
+		}
 	}
 	return spec
 }

@@ -200,7 +200,7 @@ func BasisBands(s *raster.Stack) []transform.Band {
 	out := make([]transform.Band, s.Len())
 	for i, b := range s.Bands {
 		out[i] = transform.Band{Name: b.Name, Source: b.Path, Index: b.Index, DataType: b.DataType,
-			NoData: b.NoData, Scale: b.Scale, Offset: b.Offset}
+			NoData: b.NoData, Scale: b.Scale, Offset: b.Offset, WavelengthNM: b.WavelengthNM, FWHMNM: b.FWHMNM}
 		if b.Calibration != raster.CalibrateScale {
 			out[i].Calibration = b.Calibration
 		}
