@@ -42,12 +42,12 @@ docs: deps
 	$(GO) test -count=1 ./cmd/bandfold -run 'TestDocsAreCurrent|TestWalkthrough' -args -update-docs
 
 bench: build
-	@bash scripts/bench.sh
+	@GO=$(GO) bash scripts/bench.sh
 
 # learn on a 224-band 4096 x 4096 Int16 cube (7.5 GB, written once into
 # bench-out/) with its peak memory, against the floor.
 bench-large: build
-	@bash scripts/bench.sh large
+	@GO=$(GO) bash scripts/bench.sh large
 
 clean:
 	rm -rf bin demo-out bench-out

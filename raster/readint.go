@@ -164,3 +164,18 @@ func flipSign(v []int16) {
 		v[i] ^= math.MinInt16
 	}
 }
+
+// Float64 sets dst to the values of pixels lo to hi − 1 of the tile as
+// Reader.Read gives them, pixel-major (the p band values of a pixel
+// consecutive) as float64: X[b·n+i] + Shift[b], exactly. dst needs
+// (hi − lo)·p values; it returns them.
+func (it *Int16Tile) Float64(dst []float64, lo, hi int) []float64 {
+	n, p := it.Tile.Pixels(), len(it.Shift)
+	dst = dst[:(hi-lo)*p]
+	for b, s := range it.Shift {
+		for i, v := range it.X[b*n+lo : b*n+hi] {
+			dst[i*p+b] = float64(int32(v) + s)
+		}
+	}
+	return dst
+}

@@ -15,7 +15,8 @@ import (
 // checkReadInt16 reads windows of s with ReadInt16 and with Read and
 // checks that they give the same values (stored int16 plus shift against
 // the float64 read, which TestReadWidensStoredTypes checks against GDAL's
-// own conversion), the same validity and count, and the same exact
+// own conversion; and Int16Tile.Float64's, whole and in part), the same
+// validity and count, and the same exact
 // co-moments through bands (AddInt16Tile against AddPixels, bit for bit).
 func checkReadInt16(t *testing.T, s *Stack, windows ...tiles.Tile) {
 	t.Helper()
@@ -49,6 +50,20 @@ func checkReadInt16(t *testing.T, s *Stack, windows ...tiles.Tile) {
 				if v := float64(int32(got[b*n+i]) + shift[b]); valid[i] && v != want[i*p+b] {
 					t.Fatalf("%s %v band %d pixel %d: %v, Read %v", s.Label, tl, b, i, v, want[i*p+b])
 				}
+			}
+		}
+		// Float64 gives Read's values, whole or a part.
+		it := &Int16Tile{Tile: tl, X: got, Valid: valid, Count: count, Shift: shift}
+		for _, part := range [][2]int{{0, n}, {n / 3, n/3 + (n+1)/2}} {
+			lo, hi := part[0], part[1]
+			f := it.Float64(make([]float64, (hi-lo)*p+3), lo, hi)
+			for i, v := range f {
+				if j := lo*p + i; valid[j/p] && v != want[j] {
+					t.Fatalf("%s %v: Float64(%d, %d) value %d is %v, Read %v", s.Label, tl, lo, hi, i, v, want[j])
+				}
+			}
+			if len(f) != (hi-lo)*p {
+				t.Fatalf("%s %v: Float64(%d, %d) gave %d values", s.Label, tl, lo, hi, len(f))
 			}
 		}
 		ia, fa := bands.NewExactAccumulator(p), bands.NewExactAccumulator(p)

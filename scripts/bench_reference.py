@@ -8,6 +8,16 @@ seconds, then a description):
                                  P x P cross-product of N float64 pixels, in
                                  chunks of 2^18 pixels, timing the products.
   bench_reference.py kernel      which BLAS numpy loaded and its CPU kernel.
+  bench_reference.py change-floor BEFORE AFTER CHANGE_DIR OUT
+                                 what change cannot avoid (its I/O floor):
+                                 GDAL reading every block of both dates
+                                 twice (as read does), writing Z (the
+                                 float32 values of CHANGE_DIR/magnitude.tif,
+                                 read beforehand) to OUT with change's
+                                 creation options, and GDAL's sieve on a
+                                 Byte map of the scene's size (the flags
+                                 of CHANGE_DIR/change.tif, nodata 255) at
+                                 change's minimum mapping unit of 4 pixels.
 The baselines, timed whole from outside:
   bench_reference.py numpy-learn FILE
                                  the in-memory approach: the whole cube as
@@ -27,19 +37,67 @@ import time
 
 def read(path):
     from osgeo import gdal
+    ds = gdal.Open(path)
+    bw, bh = ds.GetRasterBand(1).GetBlockSize()
+    w, h, p = ds.RasterXSize, ds.RasterYSize, ds.RasterCount
+    dt, nbytes = read_blocks(path)
+    print("%.3f read %d bands x %d x %d in %d x %d blocks, %.0f MiB, %.2f GiB/s"
+          % (dt, p, w, h, bw, bh, nbytes / 2**20, nbytes / dt / 2**30))
+
+
+def read_blocks(path):
+    """Reads every block of path (all bands) with GTIFF_DIRECT_IO, as a
+    tiled reader must; returns the seconds taken and the bytes read."""
+    from osgeo import gdal
     gdal.UseExceptions()
     gdal.SetConfigOption("GTIFF_DIRECT_IO", "YES")
     ds = gdal.Open(path)
     bw, bh = ds.GetRasterBand(1).GetBlockSize()
-    w, h, p = ds.RasterXSize, ds.RasterYSize, ds.RasterCount
+    w, h = ds.RasterXSize, ds.RasterYSize
     t = time.perf_counter()
     nbytes = 0
     for y in range(0, h, bh):
         for x in range(0, w, bw):
             nbytes += len(ds.ReadRaster(x, y, min(bw, w - x), min(bh, h - y)))
-    dt = time.perf_counter() - t
-    print("%.3f read %d bands x %d x %d in %d x %d blocks, %.0f MiB, %.2f GiB/s"
-          % (dt, p, w, h, bw, bh, nbytes / 2**20, nbytes / dt / 2**30))
+    return time.perf_counter() - t, nbytes
+
+
+def change_floor(before, after, change_dir, out):
+    import os
+    from osgeo import gdal
+    gdal.UseExceptions()
+    reads = 0.0
+    for _ in range(2):
+        for path in (before, after):
+            reads += read_blocks(path)[0]
+    # Z: change's own values, so that the compressor gets the same content.
+    mag = gdal.Open(os.path.join(change_dir, "magnitude.tif"))
+    z = mag.GetRasterBand(1).ReadAsArray()
+    w, h = mag.RasterXSize, mag.RasterYSize
+    opts = ["TILED=YES", "BLOCKXSIZE=256", "BLOCKYSIZE=256", "COMPRESS=ZSTD", "ZSTD_LEVEL=1", "PREDICTOR=3",
+            "BIGTIFF=IF_SAFER", "NUM_THREADS=ALL_CPUS"]
+    t = time.perf_counter()
+    dst = gdal.GetDriverByName("GTiff").Create(out, w, h, 1, gdal.GDT_Float32, opts)
+    band = dst.GetRasterBand(1)
+    band.SetNoDataValue(float("nan"))
+    for y in range(0, h, 256):
+        band.WriteArray(z[y:y + 256], 0, y)
+    band = None
+    dst = None  # closing flushes the last blocks
+    write = time.perf_counter() - t
+    # The sieve: a Byte map in memory, nodata 255 masked, 8-connected.
+    chg = gdal.Open(os.path.join(change_dir, "change.tif"))
+    flags = chg.GetRasterBand(1).ReadAsArray()
+    mem = gdal.GetDriverByName("MEM").Create("", w, h, 2, gdal.GDT_Byte)
+    src = mem.GetRasterBand(1)
+    src.WriteArray(flags)
+    src.SetNoDataValue(255)
+    t = time.perf_counter()
+    gdal.SieveFilter(src, src.GetMaskBand(), mem.GetRasterBand(2), 4, 8)
+    sieve = time.perf_counter() - t
+    src = mem = None
+    print("%.3f I/O floor of change: read both dates twice %.3f s, write Z %.3f s (%.0f MB), sieve %.3f s"
+          % (reads + write + sieve, reads, write, os.path.getsize(out) / 1e6, sieve))
 
 
 def syrk(p, n):
@@ -109,6 +167,8 @@ if __name__ == "__main__":
         numpy_learn(sys.argv[2])
     elif cmd == "gdal-fold":
         gdal_fold(sys.argv[2], int(sys.argv[3]), sys.argv[4], sys.argv[5] if len(sys.argv) > 5 else None)
+    elif cmd == "change-floor":
+        change_floor(sys.argv[2], sys.argv[3], sys.argv[4], sys.argv[5])
     elif cmd == "kernel":
         kernel()
     else:

@@ -2,7 +2,9 @@ package jobkit
 
 import (
 	"context"
+	"errors"
 	"fmt"
+	"runtime"
 	"strings"
 	"sync"
 
@@ -100,20 +102,26 @@ func (w *Reader) Read(k int) ([]float64, []bool, int, error) {
 	if err != nil {
 		return nil, nil, 0, err
 	}
-	if st := w.Sc.stride; st > 1 {
-		t := it.Tile
-		count = 0
-		for r := range t.H {
-			for c := range t.W {
-				i := r*t.W + c
-				valid[i] = valid[i] && (t.Y+r)%st == 0 && (t.X+c)%st == 0
-				if valid[i] {
-					count++
-				}
+	if w.Sc.stride > 1 {
+		count = w.Sc.onGrid(it.Tile, valid)
+	}
+	return buf, valid, count, nil
+}
+
+// onGrid clears in valid, the flags of tile t, the pixels off the stride
+// grid, and returns the number of valid pixels left.
+func (sc *Scan) onGrid(t tiles.Tile, valid []bool) int {
+	st, count := sc.stride, 0
+	for r := range t.H {
+		for c := range t.W {
+			i := r*t.W + c
+			valid[i] = valid[i] && (t.Y+r)%st == 0 && (t.X+c)%st == 0
+			if valid[i] {
+				count++
 			}
 		}
 	}
-	return buf, valid, count, nil
+	return count
 }
 
 func (w *Reader) Close() error {
@@ -136,35 +144,144 @@ func Grow[T any](s []T, n int) []T {
 	return s[:n]
 }
 
-// momentWorker accumulates the co-moments of one tile at a time.
+// IntegerKernel sends the scenes whose bands are 8- or 16-bit integers
+// read unscaled (raster.Stack.Int16Shifts) through the integer co-moment
+// kernel: read band-sequentially as int16 (raster.Int16Reader), ahead of
+// their use, and summed by bands.AddInt16Tile and its kin. Their exact
+// sums are the same integers as those of the float64 path, so every result
+// is the same bit for bit; tests turn it off to compare the two paths.
+var IntegerKernel = true
+
+// ReadAhead returns how many tiles a worker of the integer path reads
+// ahead of the one it sums (tiles.Options.Ahead, raster.NewInt16Reader):
+// one while there are fewer workers than CPUs, so that a spare core reads
+// while the worker sums, and none otherwise, where every core already
+// reads or sums and the reads ahead only take memory (BenchmarkInt16Read
+// in package raster: with 1 worker on 2 cores the kernel hides behind the
+// reads; with 2 workers reading ahead gains nothing).
+func ReadAhead(workers int) int {
+	if workers < runtime.NumCPU() {
+		return 1
+	}
+	return 0
+}
+
+// Int16Readers are one worker's readers of the integer path: an
+// raster.Int16Reader for each scene that takes it (IntegerKernel, and
+// bands that fit int16), opened on first use.
+type Int16Readers struct {
+	scenes []*raster.Stack
+	depth  int
+	fits   []bool
+	rs     []*raster.Int16Reader
+	errs   []error
+}
+
+// NewInt16Readers returns the integer readers of one worker over scenes,
+// each reading depth tiles ahead (ReadAhead).
+func NewInt16Readers(scenes []*raster.Stack, depth int) *Int16Readers {
+	ir := &Int16Readers{scenes: scenes, depth: depth, fits: make([]bool, len(scenes)),
+		rs: make([]*raster.Int16Reader, len(scenes)), errs: make([]error, len(scenes))}
+	for k, s := range scenes {
+		_, ir.fits[k] = s.Int16Shifts()
+		ir.fits[k] = ir.fits[k] && IntegerKernel
+	}
+	return ir
+}
+
+// Get returns the reader of scene k, opening it on first use, or nil when
+// the scene takes the float64 path. A failed open is remembered: Ahead,
+// which cannot return it, leaves it to the next Get in Do to report.
+func (ir *Int16Readers) Get(k int) (*raster.Int16Reader, error) {
+	if !ir.fits[k] || ir.errs[k] != nil || ir.rs[k] != nil {
+		return ir.rs[k], ir.errs[k]
+	}
+	ir.rs[k], ir.errs[k] = ir.scenes[k].NewInt16Reader(ir.depth)
+	return ir.rs[k], ir.errs[k]
+}
+
+// Ahead asks scene k's reader, if it has one, to read window t ahead.
+func (ir *Int16Readers) Ahead(k int, t tiles.Tile) {
+	if r, _ := ir.Get(k); r != nil {
+		r.Ahead(t)
+	}
+}
+
+// Close closes the readers opened.
+func (ir *Int16Readers) Close() error {
+	var errs []error
+	for _, r := range ir.rs {
+		if r != nil {
+			errs = append(errs, r.Close())
+		}
+	}
+	return errors.Join(errs...)
+}
+
+// momentWorker accumulates the co-moments of one tile at a time, through
+// the integer kernel where the tile's scene takes it.
 type momentWorker struct {
 	*Reader
+	ints *Int16Readers
 	pool *sync.Pool
 }
 
-func (w *momentWorker) Do(_ context.Context, t tiles.Tile) (*bands.Accumulator, error) {
-	buf, valid, _, err := w.Read(t.Index)
+func (w *momentWorker) Ahead(t tiles.Tile) {
+	it := w.Sc.Items[t.Index]
+	w.ints.Ahead(it.Scene, it.Tile)
+}
+
+func (w *momentWorker) Do(ctx context.Context, t tiles.Tile) (*bands.Accumulator, error) {
+	it := w.Sc.Items[t.Index]
+	r, err := w.ints.Get(it.Scene)
 	if err != nil {
 		return nil, err
 	}
-	acc := w.pool.Get().(*bands.Accumulator)
-	acc.Reset()
-	acc.AddPixels(buf, valid)
+	if r == nil {
+		buf, valid, _, err := w.Read(t.Index)
+		if err != nil {
+			return nil, err
+		}
+		acc := w.get()
+		acc.AddPixels(buf, valid)
+		return acc, nil
+	}
+	x, err := r.Read(ctx, it.Tile)
+	if err != nil {
+		return nil, err
+	}
+	defer r.Release(x)
+	if w.Sc.stride > 1 {
+		w.Sc.onGrid(it.Tile, x.Valid)
+	}
+	acc := w.get()
+	acc.AddInt16Tile(x.X, x.Valid, x.Shift)
 	return acc, nil
 }
+
+func (w *momentWorker) get() *bands.Accumulator {
+	acc := w.pool.Get().(*bands.Accumulator)
+	acc.Reset()
+	return acc
+}
+
+func (w *momentWorker) Close() error { return errors.Join(w.ints.Close(), w.Reader.Close()) }
 
 // Moments accumulates band co-moments over the scan, tile by tile in
 // parallel, merged in tile order so the result is the same for any number
 // of workers. The accumulators are exact (bands.NewExactAccumulator): for
 // integer pixels, as digital numbers are, the result is also the same for
-// any tile size and shard split.
+// any tile size and shard split, and the same whether the integer kernel
+// (IntegerKernel) or the float64 path summed them.
 func (sc *Scan) Moments(ctx context.Context, env Env) (*bands.Accumulator, error) {
 	p := sc.Scenes[0].Len()
 	pool := &sync.Pool{New: func() any { return bands.NewExactAccumulator(p) }}
 	total := bands.NewExactAccumulator(p)
-	err := tiles.Run(ctx, sc.RunTiles(), tiles.Options{Workers: env.WorkerCount(), Progress: env.ProgressFor("co-moments", sc.Pixels())},
+	workers := env.WorkerCount()
+	ahead := ReadAhead(workers)
+	err := tiles.Run(ctx, sc.RunTiles(), tiles.Options{Workers: workers, Ahead: ahead, Progress: env.ProgressFor("co-moments", sc.Pixels())},
 		func(int) (tiles.Worker[*bands.Accumulator], error) {
-			return &momentWorker{Reader: sc.NewReader(), pool: pool}, nil
+			return &momentWorker{Reader: sc.NewReader(), ints: NewInt16Readers(sc.Scenes, ahead), pool: pool}, nil
 		},
 		func(_ tiles.Tile, acc *bands.Accumulator) error {
 			total.Merge(acc)

@@ -41,7 +41,8 @@ type TileHook interface {
 const seriesChunk = 2048
 
 // pairWorker reads the dates of a tile in order into a ring holding the
-// last ring dates and scores the pairs ending on each date.
+// last ring dates and scores the pairs ending on each date, a chunk at a
+// time (the values of the integer path converted a chunk at a time).
 type pairWorker struct {
 	*seriesReader
 	scorers []*PairScorer
@@ -52,17 +53,20 @@ type pairWorker struct {
 	p       int
 	both    []bool
 	ending  []int
+	xa, xb  []float64 // a chunk of the pair's dates, on the integer path
 }
 
-func (w *pairWorker) Do(_ context.Context, t tiles.Tile) (*PairTile, error) {
+func (w *pairWorker) Do(ctx context.Context, t tiles.Tile) (*PairTile, error) {
+	defer w.releaseAll()
 	n, p := t.Pixels(), w.p
 	pt := w.pool.Get().(*PairTile)
 	Q := len(w.pairs)
 	pt.Z, pt.Flags, pt.Top = Grows(pt.Z, Q, n), Grows(pt.Flags, Q, n), Grows(pt.Top, Q, n)
 	w.hook.Begin(t, pt)
 	w.both = jobkit.Grow(w.both, seriesChunk)
+	w.xa, w.xb = jobkit.Grow(w.xa, seriesChunk*p), jobkit.Grow(w.xb, seriesChunk*p)
 	for d := range w.scenes {
-		if err := w.readDate(t.Index, d, d%w.ring); err != nil {
+		if err := w.readDate(ctx, t.Index, d, d%w.ring); err != nil {
 			return nil, err
 		}
 		w.ending = w.ending[:0]
@@ -79,7 +83,7 @@ func (w *pairWorker) Do(_ context.Context, t tiles.Tile) (*PairTile, error) {
 				for i := range both {
 					both[i] = w.valid[a][lo+i] && w.valid[b][lo+i]
 				}
-				x := [2][]float64{w.x[a][lo*p : hi*p], w.x[b][lo*p : hi*p]}
+				x := [2][]float64{w.values(a, lo, hi, w.xa), w.values(b, lo, hi, w.xb)}
 				w.scorers[q].score(x[0], x[1], both, pt.Z[q][lo:hi], pt.Top[q][lo:hi], pt.Flags[q][lo:hi])
 				w.hook.Pair(q, t, lo, hi, x, both, w.scorers[q], pt)
 			}
@@ -114,9 +118,11 @@ func (r *Run) MapPairs(ctx context.Context, h MapHooks) error {
 	if r.only != nil {
 		ts = r.only
 	}
-	return tiles.Run(ctx, ts, tiles.Options{Workers: r.Env.WorkerCount(), Progress: r.Env.ProgressFor("map", int64(g.Width)*int64(g.Height))},
+	workers := r.Env.WorkerCount()
+	ahead := jobkit.ReadAhead(workers)
+	return tiles.Run(ctx, ts, tiles.Options{Workers: workers, Ahead: ahead, Progress: r.Env.ProgressFor("map", int64(g.Width)*int64(g.Height))},
 		func(int) (tiles.Worker[*PairTile], error) {
-			w := &pairWorker{seriesReader: newSeriesReader(r.Scenes, ts, ring), pairs: r.pairs, ring: ring, pool: pool,
+			w := &pairWorker{seriesReader: newSeriesReader(r.Scenes, ts, ring, ahead), pairs: r.pairs, ring: ring, pool: pool,
 				hook: h.NewWorker(), p: r.Scenes[0].Len()}
 			for q, pr := range r.pairs {
 				w.scorers = append(w.scorers, newPairScorer(r.Proj, r.Fits[q], r.norms[pr[0]], r.norms[pr[1]]))

@@ -17,21 +17,52 @@ import (
 
 // seriesReader reads the same tile of every date (each on the first date's
 // tile grid) into a ring of buffers: O(ring x tile) values at most. It
-// opens one reader per date, for one worker.
+// opens one reader per date, for one worker. A date of 8- or 16-bit
+// integer bands read unscaled takes the integer path (jobkit.IntegerKernel):
+// its tiles are read as int16, ahead of their use, and held in the ring
+// until their buffer is read into again (or release); values(b, …) gives
+// them as float64 a chunk at a time, addTo sums them with the integer
+// kernel. Both paths give the same values.
 type seriesReader struct {
 	scenes []*raster.Stack
 	tiles  []tiles.Tile
 	rs     []*raster.Reader
+	ints   *jobkit.Int16Readers
 	x      [][]float64
-	valid  [][]bool
+	i16    []*raster.Int16Tile // the integer path's tile in buffer b, or nil
+	from   []int               // the date of the tile in buffer b
+	valid  [][]bool            // buffer b's flags: fvalid[b] or its integer tile's
+	fvalid [][]bool
 }
 
-func newSeriesReader(scenes []*raster.Stack, ts []tiles.Tile, ring int) *seriesReader {
-	return &seriesReader{scenes: scenes, tiles: ts, rs: make([]*raster.Reader, len(scenes)), x: make([][]float64, ring), valid: make([][]bool, ring)}
+func newSeriesReader(scenes []*raster.Stack, ts []tiles.Tile, ring, ahead int) *seriesReader {
+	return &seriesReader{scenes: scenes, tiles: ts, rs: make([]*raster.Reader, len(scenes)), ints: jobkit.NewInt16Readers(scenes, ahead),
+		x: make([][]float64, ring), i16: make([]*raster.Int16Tile, ring), from: make([]int, ring), valid: make([][]bool, ring), fvalid: make([][]bool, ring)}
+}
+
+// Ahead asks the integer readers for tile t of every date (tiles.Lookahead).
+func (sr *seriesReader) Ahead(t tiles.Tile) {
+	for d := range sr.scenes {
+		sr.ints.Ahead(d, sr.tiles[t.Index])
+	}
 }
 
 // readDate reads tile k of date d into buffer b.
-func (sr *seriesReader) readDate(k, d, b int) error {
+func (sr *seriesReader) readDate(ctx context.Context, k, d, b int) error {
+	sr.release(b)
+	ir, err := sr.ints.Get(d)
+	if err != nil {
+		return err
+	}
+	t := sr.tiles[k]
+	if ir != nil {
+		it, err := ir.Read(ctx, t)
+		if err != nil {
+			return err
+		}
+		sr.i16[b], sr.from[b], sr.valid[b] = it, d, it.Valid
+		return nil
+	}
 	if sr.rs[d] == nil {
 		rd, err := sr.scenes[d].NewReader()
 		if err != nil {
@@ -39,14 +70,51 @@ func (sr *seriesReader) readDate(k, d, b int) error {
 		}
 		sr.rs[d] = rd
 	}
-	t := sr.tiles[k]
-	sr.x[b], sr.valid[b] = jobkit.Grow(sr.x[b], t.Pixels()*sr.scenes[d].Len()), jobkit.Grow(sr.valid[b], t.Pixels())
-	_, err := sr.rs[d].Read(t, sr.x[b], sr.valid[b])
+	sr.x[b], sr.fvalid[b] = jobkit.Grow(sr.x[b], t.Pixels()*sr.scenes[d].Len()), jobkit.Grow(sr.fvalid[b], t.Pixels())
+	sr.valid[b] = sr.fvalid[b]
+	_, err = sr.rs[d].Read(t, sr.x[b], sr.valid[b])
 	return err
 }
 
+// values returns the values of pixels lo to hi − 1 of buffer b,
+// pixel-major: a part of the buffer, or on the integer path converted
+// into dst (of room enough).
+func (sr *seriesReader) values(b, lo, hi int, dst []float64) []float64 {
+	if it := sr.i16[b]; it != nil {
+		return it.Float64(dst, lo, hi)
+	}
+	p := len(sr.x[b]) / len(sr.valid[b])
+	return sr.x[b][lo*p : hi*p]
+}
+
+// addTo adds the pixels of buffer b selected by mask to acc, an exact
+// accumulator: the same sums on either path.
+func (sr *seriesReader) addTo(acc *bands.Accumulator, b int, mask []bool) {
+	if it := sr.i16[b]; it != nil {
+		acc.AddInt16Tile(it.X, mask, it.Shift)
+		return
+	}
+	acc.AddPixels(sr.x[b], mask)
+}
+
+// release hands the integer tile in buffer b back to its reader.
+func (sr *seriesReader) release(b int) {
+	if it := sr.i16[b]; it != nil {
+		r, _ := sr.ints.Get(sr.from[b])
+		r.Release(it)
+		sr.i16[b], sr.valid[b] = nil, nil
+	}
+}
+
+// releaseAll releases every buffer's integer tile: at the end of a tile.
+func (sr *seriesReader) releaseAll() {
+	for b := range sr.i16 {
+		sr.release(b)
+	}
+}
+
 func (sr *seriesReader) Close() error {
-	var errs []error
+	errs := []error{sr.ints.Close()}
 	for _, rd := range sr.rs {
 		if rd != nil {
 			errs = append(errs, rd.Close())
@@ -112,7 +180,8 @@ type sampled struct {
 	ts  *change.TileSample
 }
 
-func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
+func (w *sampleWorker) Do(ctx context.Context, t tiles.Tile) (sampled, error) {
+	defer w.releaseAll()
 	n, D, p := t.Pixels(), len(w.scenes), w.p
 	// The pixels whose key can enter some pair's sample; Add drops those
 	// valid on no pair.
@@ -140,13 +209,14 @@ func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
 		case k <= w.ref:
 			d = k - 1
 		}
-		if err := w.readDate(t.Index, d, b); err != nil {
+		if err := w.readDate(ctx, t.Index, d, b); err != nil {
 			return sampled{}, err
 		}
-		x, valid := w.x[b], w.valid[b]
+		valid := w.valid[b]
 		copy(w.dvalid[d], valid)
 		for c, i := range w.pos {
-			copy(ts.Vals[(c*D+d)*p:(c*D+d+1)*p], x[i*p:i*p+p])
+			dst := ts.Vals[(c*D+d)*p : (c*D+d+1)*p]
+			copy(dst, w.values(b, i, i+1, dst))
 			ts.Valid[c*D+d] = valid[i]
 		}
 		if d == w.ref {
@@ -158,14 +228,14 @@ func (w *sampleWorker) Do(_ context.Context, t tiles.Tile) (sampled, error) {
 			w.other[i] = w.other[i] || valid[i]
 		}
 		res.acc[d] = bands.NewExactAccumulator(p)
-		res.acc[d].AddPixels(x, w.mask)
+		w.addTo(res.acc[d], b, w.mask)
 	}
 	ref := w.dvalid[w.ref]
 	for i := range n {
 		w.mask[i] = ref[i] && w.other[i]
 	}
 	res.acc[w.ref] = bands.NewExactAccumulator(p)
-	res.acc[w.ref].AddPixels(w.x[0], w.mask)
+	w.addTo(res.acc[w.ref], 0, w.mask)
 	for i := range n {
 		for q, pr := range w.pairs {
 			if w.dvalid[pr[0]][i] && w.dvalid[pr[1]][i] {
@@ -218,9 +288,11 @@ func (r *Run) Sample(ctx context.Context) error {
 		if shardTiles != nil {
 			ts = shardTiles
 		}
-		err := tiles.Run(ctx, ts, tiles.Options{Workers: r.Env.WorkerCount(), Progress: r.Env.ProgressFor("statistics", pixels)},
+		workers := r.Env.WorkerCount()
+		ahead := jobkit.ReadAhead(workers)
+		err := tiles.Run(ctx, ts, tiles.Options{Workers: workers, Ahead: ahead, Progress: r.Env.ProgressFor("statistics", pixels)},
 			func(int) (tiles.Worker[sampled], error) {
-				return &sampleWorker{seriesReader: newSeriesReader(r.Scenes, ts, 2), ref: r.Ref, pairs: r.sampled, p: p, width: int64(g.Width), keyer: keys, bound: &bound}, nil
+				return &sampleWorker{seriesReader: newSeriesReader(r.Scenes, ts, 2, ahead), ref: r.Ref, pairs: r.sampled, p: p, width: int64(g.Width), keyer: keys, bound: &bound}, nil
 			},
 			func(t tiles.Tile, res sampled) error {
 				for i, a := range res.acc {
