@@ -166,7 +166,7 @@ func ReadAhead(workers int) int {
 	return 0
 }
 
-// Int16Readers are one worker's readers of the integer path: an
+// Int16Readers are one worker's readers of the integer path: a
 // raster.Int16Reader for each scene that takes it (IntegerKernel, and
 // bands that fit int16), opened on first use.
 type Int16Readers struct {
