@@ -2,6 +2,7 @@ package raster
 
 import (
 	"cmp"
+	"maps"
 	"slices"
 	"strings"
 )
@@ -87,15 +88,5 @@ func namedRule(layer, list string) (bits []int, values []ValueRange, err error) 
 }
 
 func unknownName[V any](layer, name string, known map[string]V) error {
-	return specErr(ErrBadSpec, "%q is not a %s name (known: %s)", shorten(strings.TrimSpace(name)), layer, strings.Join(slices.Sorted(mapKeys(known)), ", "))
-}
-
-func mapKeys[V any](m map[string]V) func(func(string) bool) {
-	return func(yield func(string) bool) {
-		for k := range m {
-			if !yield(k) {
-				return
-			}
-		}
-	}
+	return specErr(ErrBadSpec, "%q is not a %s name (known: %s)", shorten(strings.TrimSpace(name)), layer, strings.Join(slices.Sorted(maps.Keys(known)), ", "))
 }

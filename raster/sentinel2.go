@@ -237,7 +237,7 @@ func S2FileBand(path string) (band string, resolution int, ok bool) {
 // most four levels: R10m, IMG_DATA, the granule, GRANULE). ok is false when
 // the file is not named as a Level-2A band file or no metadata is found.
 func FindS2Metadata(bandPath string, read func(string) (*S2Metadata, error)) (m *S2Metadata, ok bool, err error) {
-	if _, _, named := S2FileBand(bandPath); !named || isVirtual(bandPath) {
+	if _, _, named := S2FileBand(bandPath); !named || IsVirtual(bandPath) {
 		return nil, false, nil
 	}
 	dir := filepath.Dir(bandPath)
@@ -274,7 +274,7 @@ func s2Cache() func(string) (*S2Metadata, error) {
 // IsS2Product reports whether path names a Level-2A product: its folder
 // (holding MTD_MSIL2A.xml) or that file itself.
 func IsS2Product(path string) bool {
-	if isVirtual(path) {
+	if IsVirtual(path) {
 		return false
 	}
 	if strings.EqualFold(filepath.Base(path), S2MetadataName) {
@@ -344,10 +344,6 @@ func (m *S2Metadata) bandFile(band string) (string, int, error) {
 	}
 	return best, bestRes, nil
 }
-
-// isVirtual reports whether p is a GDAL virtual path (/vsicurl/, /vsizip/
-// ...), which has no folder to walk.
-func isVirtual(p string) bool { return strings.HasPrefix(p, "/vsi") }
 
 func fileExists(p string) bool {
 	fi, err := os.Stat(p)

@@ -2,6 +2,7 @@ package cli
 
 import (
 	"fmt"
+	"maps"
 	"slices"
 	"strings"
 )
@@ -113,7 +114,7 @@ func OutputsHelp(command string) string {
 // OutputsMarkdown is docs/outputs.md's table of every command's files.
 func OutputsMarkdown() string {
 	var b strings.Builder
-	for _, cmd := range slices.Sorted(mapKeys(Outputs)) {
+	for _, cmd := range slices.Sorted(maps.Keys(Outputs)) {
 		fmt.Fprintf(&b, "## bandfold %s\n\n| file | when | what it holds |\n| --- | --- | --- |\n", cmd)
 		for _, f := range Outputs[cmd] {
 			when := f.When
@@ -125,14 +126,4 @@ func OutputsMarkdown() string {
 		b.WriteString("\n")
 	}
 	return b.String()
-}
-
-func mapKeys[V any](m map[string]V) func(func(string) bool) {
-	return func(yield func(string) bool) {
-		for k := range m {
-			if !yield(k) {
-				return
-			}
-		}
-	}
 }

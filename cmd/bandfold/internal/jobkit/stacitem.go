@@ -195,9 +195,16 @@ func FolderAssets(dir string, files []string) ([]ItemAsset, error) {
 
 // RasterBands describes the bands of a raster file for its asset.
 func RasterBands(path string) ([]ItemBand, error) {
+	bands, _, err := rasterBandsAndGrid(path)
+	return bands, err
+}
+
+// rasterBandsAndGrid describes the bands of a raster file for its asset,
+// and returns its grid, from one opening.
+func rasterBandsAndGrid(path string) ([]ItemBand, raster.Grid, error) {
 	s, err := raster.Open([]string{path})
 	if err != nil {
-		return nil, err
+		return nil, raster.Grid{}, err
 	}
 	defer s.Close()
 	out := make([]ItemBand, s.Len())
@@ -205,7 +212,7 @@ func RasterBands(path string) ([]ItemBand, error) {
 		out[i] = ItemBand{Name: b.Name, Description: b.Name, DataType: b.DataType, NoData: b.NoData,
 			CentreUM: b.WavelengthNM / 1000, FWHMUM: b.FWHMNM / 1000}
 	}
-	return out, nil
+	return out, s.Grid, nil
 }
 
 // stacDataType is the raster extension's name of a GDAL data type.
@@ -245,13 +252,7 @@ func ItemPath(rasterPath string) string {
 // of writing when it has no date). The caller commits the returned file
 // after the raster, or aborts it.
 func RasterItem(temp, final, sceneFile, description string, cog, overwrite bool) (*output.File, error) {
-	s, err := raster.Open([]string{temp})
-	if err != nil {
-		return nil, err
-	}
-	grid := s.Grid
-	s.Close()
-	bands, err := RasterBands(temp)
+	bands, grid, err := rasterBandsAndGrid(temp)
 	if err != nil {
 		return nil, err
 	}

@@ -314,15 +314,21 @@ func (r *Run) Sample(ctx context.Context) error {
 			r.stats = total // a shard's share: MergeScans checks and finishes the whole
 			return nil
 		}
-		for q, pr := range r.sampled {
-			if total.sample.Both(q) == 0 {
-				return r.noOverlap(ctx, pr)
-			}
-		}
-		total.sample.Finish()
-		r.stats = total
-		return nil
+		return r.finishStats(ctx, total)
 	}
+}
+
+// finishStats keeps the whole image's statistics once every pair has
+// pixels valid on both its dates, and explains why not otherwise.
+func (r *Run) finishStats(ctx context.Context, total seriesStats) error {
+	for q, pr := range r.sampled {
+		if total.sample.Both(q) == 0 {
+			return r.noOverlap(ctx, pr)
+		}
+	}
+	total.sample.Finish()
+	r.stats = total
+	return nil
 }
 
 // noOverlap explains why a pair of dates shares no valid pixel: a date with

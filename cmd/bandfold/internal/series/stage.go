@@ -135,14 +135,7 @@ func (r *Run) MergeScans(ctx context.Context, parts []ScanState, what []string) 
 	if !total.sample.Complete() {
 		return fmt.Errorf("%s: the merged sample is incomplete (a shard's sample came short)", what[0])
 	}
-	for q, pr := range r.sampled {
-		if total.sample.Both(q) == 0 {
-			return r.noOverlap(ctx, pr)
-		}
-	}
-	total.sample.Finish()
-	r.stats = total
-	return nil
+	return r.finishStats(ctx, total)
 }
 
 // mergeTiles merges the tiles' co-moments in order into each date's, as
