@@ -4,11 +4,9 @@ import (
 	"github.com/airbusgeo/godal"
 
 	"context"
-	"encoding/json"
 	"errors"
 	"math"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -226,52 +224,18 @@ type patchRow struct {
 }
 
 // readPatches reads layer "changes" of a GeoPackage back with GDAL's own
-// ogr2ogr, as GeoJSON: an outside check of what Patches wrote, nulls
-// included. Rows are sorted by size; crs is the GeoJSON crs name.
+// ogr2ogr (testenv.ReadPolygons), nulls included. Rows are sorted by size;
+// crs is the GeoJSON crs name.
 func readPatches(t *testing.T, path string) (rows []patchRow, crs string) {
 	t.Helper()
-	testenv.NeedTool(t, "ogr2ogr", "gdal-bin")
-	out, err := exec.Command("ogr2ogr", "-f", "GeoJSON", "/vsistdout/", path, "changes").Output()
-	if err != nil {
-		t.Fatalf("ogr2ogr %s: %v", path, err)
-	}
-	var fc struct {
-		CRS struct {
-			Properties struct{ Name string }
-		}
-		Features []struct {
-			Properties map[string]*float64
-			Geometry   struct {
-				Type        string
-				Coordinates [][][2]float64
-			}
-		}
-	}
-	if err := json.Unmarshal(out, &fc); err != nil {
-		t.Fatalf("ogr2ogr %s: %v", path, err)
-	}
-	for _, f := range fc.Features {
-		if f.Geometry.Type != "Polygon" {
-			t.Errorf("a %s in %s, want polygons", f.Geometry.Type, path)
-		}
-		var area float64
-		for k, ring := range f.Geometry.Coordinates {
-			xs, ys := make([]float64, len(ring)), make([]float64, len(ring))
-			for i, p := range ring {
-				xs[i], ys[i] = p[0], p[1]
-			}
-			a := math.Abs(planarArea(xs, ys))
-			if k > 0 {
-				a = -a // a hole
-			}
-			area += a
-		}
+	polys, crs := testenv.ReadPolygons(t, path, "changes")
+	for _, f := range polys {
 		p := f.Properties
-		rows = append(rows, patchRow{pixels: int(math.Round(area / 100)),
+		rows = append(rows, patchRow{pixels: int(math.Round(f.Area / 100)),
 			areaM2: p["area_m2"], areaHa: p["area_ha"], zMean: p["z_mean"], zMax: p["z_max"], top: p["top_component"]})
 	}
 	slices.SortFunc(rows, func(a, b patchRow) int { return a.pixels - b.pixels })
-	return rows, fc.CRS.Properties.Name
+	return rows, crs
 }
 
 // near reports whether v is set and within tol (relative) of want.
@@ -541,15 +505,4 @@ func TestPatchesLeaveTheMapFinal(t *testing.T) {
 			t.Errorf("%s after Patches: %v, want %v", name, err, errFinal)
 		}
 	}
-}
-
-// planarArea returns the signed area of the closed ring (xs, ys) by the
-// shoelace formula, taken relative to its first point.
-func planarArea(xs, ys []float64) float64 {
-	var s float64
-	for i := range xs {
-		j := (i + 1) % len(xs)
-		s += (xs[i]-xs[0])*(ys[j]-ys[0]) - (xs[j]-xs[0])*(ys[i]-ys[0])
-	}
-	return s / 2
 }

@@ -15,8 +15,11 @@
 #
 #   job 3: a staged "change" of two of those scenes: a 3-task scan array, the
 #          fit, a 3-task map array and the finish, chained with afterok
-#          (change-stage.sbatch); change.tif, magnitude.tif and summary.json
+#          (stage.sbatch); change.tif, magnitude.tif and summary.json
 #          must equal a single-machine change bit for bit.
+#   job 4: a staged "timeline" of three of those scenes through the same
+#          stage.sbatch; steps.tif, first-change.tif, max-magnitude.tif and
+#          timeline.json must equal a single-machine timeline bit for bit.
 # The job scripts are the examples in examples/slurm (learn-array.sbatch,
 # merge.sbatch, fold-array.sbatch), so the examples are tested too; the sbatch
 # command line overrides their #SBATCH sizes to fit this 2-core node.
@@ -368,7 +371,7 @@ fi
 # The jobs are the examples in examples/slurm, so these are tested too; the
 # command line overrides their #SBATCH sizes to fit this small node.
 EX=$REPO/examples/slurm
-for f in learn-array.sbatch merge.sbatch fold-array.sbatch change-stage.sbatch; do
+for f in learn-array.sbatch merge.sbatch fold-array.sbatch stage.sbatch; do
 	[ -f "$EX/$f" ] || die "job scripts" "$EX/$f is missing"
 done
 LEARN_BF=$BF
@@ -610,34 +613,44 @@ check_rerun() {
 if why=$(check_rerun); then pass "fold re-run array: COMPLETED, every complete output skipped and left untouched"; else failed "fold re-run" "$why"; fi
 
 # ---------------------------------------------------------------------------
-# job 3: a staged change (examples/slurm/change-stage.sbatch: a 3-task scan
-# array, the fit, a 3-task map array and the finish, chained with afterok)
-# must equal a single-machine change of the same pair bit for bit.
-chg_job() { # stage sbatch-args...: prints the job id
-	STAGE=$1 BEFORE=$W/scenes/scene-1.tif AFTER=$W/scenes/scene-2.tif OUT=$W/staged BANDFOLD=$BF OPTS="--tile 128" \
-		submit -J "bf-change-$1" -o "$W/logs/change-$1_%A_%a.out" "${@:2}" "$EX/change-stage.sbatch"
+# jobs 3 and 4: a staged change and a staged timeline
+# (examples/slurm/stage.sbatch: a 3-task scan array, the fit, a 3-task map
+# array and the finish, chained with afterok) must equal a single-machine
+# run of the same command bit for bit.
+stage_job() { # command out scenes opts stage sbatch-args...: prints the job id
+	COMMAND=$1 OUT=$2 SCENES=$3 OPTS=$4 STAGE=$5 BANDFOLD=$BF \
+		submit -J "bf-$1-$5" -o "$W/logs/$1-$5_%A_%a.out" "${@:6}" "$EX/stage.sbatch"
 }
-check_staged_change() {
-	local scan fit map fin id
-	scan=$(chg_job scan --array=0-2) || return 1
-	fit=$(chg_job fit --dependency=afterok:"$scan") || return 1
-	map=$(chg_job map --array=0-2 --dependency=afterok:"$fit") || return 1
-	fin=$(chg_job finish --dependency=afterok:"$map") || return 1
-	"$BF" --quiet change "$W/scenes/scene-1.tif" "$W/scenes/scene-2.tif" --tile 128 --out "$W/single-change" ||
-		{ echo "single-machine change failed"; return 1; }
+check_staged() { # command summary opts scene... : then the rasters to compare on stdin
+	local command=$1 summary=$2 opts=$3 scan fit map fin id f
+	shift 3
+	local out=$W/staged-$command single=$W/single-$command
+	scan=$(stage_job "$command" "$out" "$*" "$opts" scan --array=0-2) || return 1
+	fit=$(stage_job "$command" "$out" "$*" "$opts" fit --dependency=afterok:"$scan") || return 1
+	map=$(stage_job "$command" "$out" "$*" "$opts" map --array=0-2 --dependency=afterok:"$fit") || return 1
+	fin=$(stage_job "$command" "$out" "$*" "$opts" finish --dependency=afterok:"$map") || return 1
+	# shellcheck disable=SC2086 # opts is a list of options
+	"$BF" --quiet "$command" "$@" $opts --out "$single" || { echo "single-machine $command failed"; return 1; }
 	wait_jobs "$scan" "$fit" "$map" "$fin" || return 1
 	for id in "$scan:3" "$fit:1" "$map:3" "$fin:1"; do
-		all_completed "${id%:*}" "${id#*:}" || { echo "job ${id%:*}: $(show_jobs "${id%:*}")"; tail_logs "$W/logs/change-*"; return 1; }
+		all_completed "${id%:*}" "${id#*:}" || { echo "job ${id%:*}: $(show_jobs "${id%:*}")"; tail_logs "$W/logs/$command-*"; return 1; }
 	done
-	same_image "$W/staged/change.tif" "$W/single-change/change.tif" || return 1
-	same_image "$W/staged/magnitude.tif" "$W/single-change/magnitude.tif" || return 1
-	[ "$(jq -S 'del(.outputs)' "$W/staged/summary.json")" = "$(jq -S 'del(.outputs)' "$W/single-change/summary.json")" ] ||
-		{ echo "summary.json differs from the single run's"; return 1; }
+	while read -r f; do
+		same_image "$out/$f" "$single/$f" || return 1
+	done
+	[ "$(jq -S 'del(.outputs)' "$out/$summary")" = "$(jq -S 'del(.outputs)' "$single/$summary")" ] ||
+		{ echo "$summary differs from the single run's"; return 1; }
 }
-if why=$(check_staged_change); then
+if why=$(printf '%s\n' change.tif magnitude.tif | check_staged change summary.json "--tile 128" "$W/scenes/scene-1.tif" "$W/scenes/scene-2.tif"); then
 	pass "staged change on Slurm (scan array, fit, map array, finish): change.tif, magnitude.tif and summary.json equal the single run's"
 else
 	failed "staged change" "$why"
+fi
+if why=$(printf '%s\n' steps.tif first-change.tif max-magnitude.tif | check_staged timeline timeline.json "--tile 128 --dates 2021,2022,2023" \
+	"$W/scenes/scene-1.tif" "$W/scenes/scene-2.tif" "$W/scenes/scene-3.tif"); then
+	pass "staged timeline on Slurm (scan array, fit, map array, finish): steps.tif, first-change.tif, max-magnitude.tif and timeline.json equal the single run's"
+else
+	failed "staged timeline" "$why"
 fi
 
 exit 0

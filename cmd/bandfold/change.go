@@ -27,8 +27,7 @@ type changeFlags struct {
 	bandsBefore  string
 	bandsAfter   string
 	format       string
-	shard        string
-	shardCount   int
+	stage        stageFlags
 	o            pairchange.ChangeOptions
 }
 
@@ -50,16 +49,15 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 			if err != nil {
 				return err
 			}
-			if o.Shard, err = fl.stageShard(os.Getenv); err != nil {
+			if o.Staging, err = fl.stage.staging(os.Getenv); err != nil {
 				return err
 			}
-			if o.Stage != "" && o.Stage != pairchange.StageFinish {
+			if !o.WritesFolder() {
 				res, err := pairchange.ChangeStage(ctx, env, o)
 				if err != nil {
 					return err
 				}
-				g.info("change --stage %s: wrote %s", res.Stage, res.File)
-				return g.emit(res)
+				return g.stageDone("change", res)
 			}
 			res, err := pairchange.Change(ctx, env, o)
 			if err != nil {
@@ -93,9 +91,7 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 	f.StringVar(&fl.format, "format", "gtiff", "raster format of the outputs: gtiff or cog (Cloud Optimized GeoTIFF, with overviews)")
 	f.StringArrayVar(&o.Output.CreationOptions, "co", nil, "GDAL creation option KEY=VALUE for the rasters written (repeatable)")
 	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
-	f.StringVar(&o.Stage, "stage", "", "run one stage of a staged run: scan (per shard), fit, map (per shard) or finish; default: all in one process")
-	f.StringVar(&fl.shard, "shard", "", `the shard of a scan or map stage ("I/N", or "auto" from a Slurm array or Kubernetes Indexed Job)`)
-	f.IntVar(&fl.shardCount, "shard-count", 0, "number of shards for --shard auto in a Kubernetes Indexed Job")
+	fl.stage.register(f, "change")
 	cmd.MarkFlagRequired("out")
 	cli.MarkArgs(cmd, cli.InputImage)
 	cli.MarkInputs(f, cli.InputFile, "basis", "reference")
@@ -143,14 +139,6 @@ func (fl *changeFlags) options(before, after string) (pairchange.ChangeOptions, 
 		*b.dst = sel
 	}
 	return o, nil
-}
-
-// stageShard reads --shard; getenv reads the scheduler's environment.
-func (fl *changeFlags) stageShard(getenv func(string) string) (jobkit.Shard, error) {
-	if fl.shard == "" {
-		return jobkit.Shard{}, nil
-	}
-	return jobkit.ParseShard(fl.shard, fl.shardCount, getenv)
 }
 
 // reportChange prints the summary table on stderr.

@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"fmt"
+	"os"
 
 	"github.com/spf13/cobra"
 
@@ -21,6 +22,7 @@ type timelineFlags struct {
 	dates      []string
 	sceneBands []string
 	format     string
+	stage      stageFlags
 	o          timeline.TimelineOptions
 }
 
@@ -39,6 +41,16 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 			o, err := fl.options(a)
 			if err != nil {
 				return err
+			}
+			if o.Staging, err = fl.stage.staging(os.Getenv); err != nil {
+				return err
+			}
+			if !o.WritesFolder() {
+				res, err := timeline.TimelineStage(ctx, env, o)
+				if err != nil {
+					return err
+				}
+				return g.stageDone("timeline", res)
 			}
 			res, err := timeline.Timeline(ctx, env, o)
 			if err != nil {
@@ -70,6 +82,7 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 	f.StringArrayVar(&fl.sceneBands, "scene-bands", nil, "bands of one scene, as --bands; give it once per scene, in the order of the scenes (for a change of sensor)")
 	f.StringVar(&o.ReferenceDate, "reference-date", "", "the date every date is normalised onto (default: the first)")
 	f.BoolVar(&o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
+	fl.stage.register(f, "timeline")
 	cmd.MarkFlagRequired("out")
 	cli.MarkArgs(cmd, cli.InputImage)
 	cli.MarkInputs(f, cli.InputFile, "basis")

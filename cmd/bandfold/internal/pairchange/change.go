@@ -46,7 +46,9 @@ type ChangeOptions struct {
 	// PreviewBands are three 1-based bands of AFTER for preview.png.
 	PreviewBands []int
 	Sample       int
-	Overwrite    bool
+	// Overwrite replaces an earlier output; not recorded in stage files
+	// (stages may differ in it).
+	Overwrite bool `json:"-"`
 	// Normalize is NormalizeStable (the default) or NormalizeNone.
 	Normalize string
 	// IgnoreBandNames compares the dates band for band even where their
@@ -54,11 +56,9 @@ type ChangeOptions struct {
 	IgnoreBandNames bool
 	// Output is the format and creation options of the rasters written.
 	Output jobkit.OutputFormat
-	// Stage is one stage of a staged run (StageScan, StageFit, StageMap,
-	// StageFinish; "" runs them all in one process), Shard the shard of a
-	// scan or map stage.
-	Stage string
-	Shard jobkit.Shard
+	// Staging is one stage of a staged run ("" runs them all in one
+	// process); not recorded in stage files.
+	series.Staging `json:"-"`
 }
 
 // Change maps land-cover change between two dates: it fits (or reads) a
@@ -67,19 +67,19 @@ type ChangeOptions struct {
 // the patches and writes everything into the output folder at once.
 func Change(ctx context.Context, env jobkit.Env, o ChangeOptions) (_ *changefolder.ChangeResult, err error) {
 	defer func() { err = jobkit.Classify(err) }()
-	if o.Stage != "" && o.Stage != StageFinish {
+	if !o.WritesFolder() {
 		return nil, jobkit.Usagef("--stage %s writes no change folder: run it with ChangeStage", o.Stage)
 	}
 	r := &changeRun{Run: &series.Run{Env: env}, o: &o}
 	defer r.close()
 	fit := []jobkit.JobStep{jobkit.Step("scan", r.Sample)}
 	mapping := jobkit.Step("map", r.mapPixels)
-	if o.Stage == StageFinish {
-		fit, mapping = []jobkit.JobStep{jobkit.Step("read model", r.readModel)}, jobkit.Step("join", r.joinPieces)
+	if o.Stage == series.StageFinish {
+		fit, mapping = []jobkit.JobStep{jobkit.Step("read model", r.ReadModel)}, jobkit.Step("join", r.joinPieces)
 	}
 	steps := append([]jobkit.JobStep{jobkit.Step("open", r.open)}, fit...)
-	steps = append(steps, jobkit.Step("normalize", r.Normalize), jobkit.Step("basis", r.FitBasis), jobkit.Step("model", r.fitModel),
-		mapping, jobkit.Step("sieve", r.sieve), jobkit.Step("change map", r.changeMap), jobkit.Step("patches", r.patches),
+	steps = append(steps, r.FitSteps(jobkit.Step("model", r.fitModel))...)
+	steps = append(steps, mapping, jobkit.Step("sieve", r.sieve), jobkit.Step("change map", r.changeMap), jobkit.Step("patches", r.patches),
 		jobkit.Step("preview", r.preview), jobkit.Step("diagnostics", r.diagnostics), jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary))
 	if err := jobkit.RunSteps(ctx, env, "change", steps); err != nil {
 		return nil, r.Dir.FinalNames(err)
@@ -134,12 +134,6 @@ type changeRun struct {
 	grid      *report.PreviewGrid
 	outputs   []string
 	sum       *changefolder.ChangeResult
-
-	stage   series.StageHeader // this run's, for the stage files (a staged run)
-	modelID string             // the model file's (map and finish)
-	merged  series.ScanState   // the merged statistics (fit)
-	zModel  float64            // the model file's threshold (map and finish)
-	written string             // the stage file written
 }
 
 func (r *changeRun) close() {
@@ -166,7 +160,11 @@ func (r *changeRun) open(ctx context.Context) error {
 		IgnoreBandNames: o.IgnoreBandNames, Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components,
 		Threshold: o.Threshold, MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile,
 		Pairs: func(int) [][2]int { return [][2]int{{0, 1}} }, Out: o.Out, Overwrite: o.Overwrite,
-		NoFolder: o.Stage != "" && o.Stage != StageFinish}
+		Command: "change", Staging: o.Staging}
+	var err error
+	if c.Record, err = series.RecordOptions(o); err != nil {
+		return err
+	}
 	for _, extra := range []output.Path{{Role: "basis", Path: o.Basis}, {Role: "reference", Path: o.Reference}} {
 		if extra.Path != "" {
 			c.Extra = append(c.Extra, extra)
@@ -177,10 +175,6 @@ func (r *changeRun) open(ctx context.Context) error {
 		return err
 	}
 	r.before, r.after = r.Scenes[0], r.Scenes[1]
-	if err := r.openStage(); err != nil {
-		return err
-	}
-	var err error
 	if r.rgb, err = report.PreviewBands(o.PreviewBands, r.after.Len()); err != nil {
 		return err
 	}

@@ -1,14 +1,12 @@
 package pairchange_test
 
 import (
-	"bytes"
-	"encoding/json"
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"reflect"
-	"strings"
 	"testing"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
@@ -16,79 +14,39 @@ import (
 	"bandfold/cmd/bandfold/internal/jobtest"
 	"bandfold/cmd/bandfold/internal/pairchange"
 	"bandfold/cmd/bandfold/internal/series"
+	"bandfold/raster"
+	"bandfold/tiles"
+	"bandfold/tiles/testenv"
 )
 
 // runStaged runs a staged change: n scan shards, the fit, n map shards
 // and the finish, each with env.
 func runStaged(t *testing.T, env jobkit.Env, o pairchange.ChangeOptions, n int) *changefolder.ChangeResult {
 	t.Helper()
-	for _, stage := range []string{pairchange.StageScan, pairchange.StageFit, pairchange.StageMap} {
-		shards := n
-		if stage == pairchange.StageFit {
-			shards = 1
-		}
-		for i := range shards {
-			s := o
-			s.Stage = stage
-			if stage != pairchange.StageFit {
-				s.Shard = jobkit.Shard{I: i, N: n}
-			}
-			if _, err := pairchange.ChangeStage(t.Context(), env, s); err != nil {
-				t.Fatalf("--stage %s --shard %d/%d: %v", stage, i, n, err)
-			}
-		}
-	}
-	o.Stage = pairchange.StageFinish
+	jobtest.RunStages(t, n, func(st series.Staging) error {
+		s := o
+		s.Staging = st
+		_, err := pairchange.ChangeStage(t.Context(), env, s)
+		return err
+	})
+	o.Stage = series.StageFinish
 	return jobtest.RunChange(t, env, o)
 }
 
-// sameFolder compares a staged run's change folder with a single run's:
-// change.tif and magnitude.tif byte for byte (the same pixels, bit for
-// bit, and the same metadata), and the summaries but for the folder's
-// name in the outputs' paths.
+// sameFolder compares a staged run's change folder with a single run's
+// (jobtest.SameFolder): change.tif and magnitude.tif byte for byte, the
+// summaries, the patches and the mapped area.
 func sameFolder(t *testing.T, name, single, staged string, a, b *changefolder.ChangeResult) {
 	t.Helper()
-	for _, f := range []string{"change.tif", "magnitude.tif"} {
-		x, err1 := os.ReadFile(filepath.Join(single, f))
-		y, err2 := os.ReadFile(filepath.Join(staged, f))
-		if err1 != nil || err2 != nil {
-			t.Fatalf("%s: %v %v", name, err1, err2)
-		}
-		if !bytes.Equal(x, y) {
-			t.Errorf("%s: %s differs from the single run's", name, f)
-		}
-	}
-	ja, jb := summaryJSON(t, a, single), summaryJSON(t, b, staged)
-	if !reflect.DeepEqual(ja, jb) {
-		for k := range ja {
-			if !reflect.DeepEqual(ja[k], jb[k]) {
-				t.Errorf("%s: summary %s = %v, the single run's %v", name, k, jb[k], ja[k])
-			}
-		}
-	}
+	jobtest.SameFolder(t, name, single, staged, []string{"change.tif", "magnitude.tif"}, a, b)
 	if a.Patches != b.Patches || a.ChangedPixels != b.ChangedPixels || !reflect.DeepEqual(a.ChangedAreaM2, b.ChangedAreaM2) {
 		t.Errorf("%s: %d patches, %d pixels changed; the single run's %d, %d", name, b.Patches, b.ChangedPixels, a.Patches, a.ChangedPixels)
 	}
 }
 
-// summaryJSON is a summary as JSON members, its folder's name cut out of
-// the outputs' paths.
-func summaryJSON(t *testing.T, s *changefolder.ChangeResult, dir string) map[string]any {
-	data, err := json.Marshal(s)
-	if err != nil {
-		t.Fatal(err)
-	}
-	data = []byte(strings.ReplaceAll(string(data), dir, "DIR"))
-	var m map[string]any
-	if err := json.Unmarshal(data, &m); err != nil {
-		t.Fatal(err)
-	}
-	return m
-}
-
 // TestStagedChangeEqualsSingleRun: on the demo pair and on a pair of
-// noisy copies of the real Landsat 7 subset, a staged run of 1, 2 and 3
-// shards writes what a single run writes, for 1 and 2 workers (known by
+// noisy copies of the real Landsat 7 subset, a staged run of 1, 2, 3 and 7
+// shards writes what a single run writes, with 1 or 2 workers (known by
 // construction: exact sums, a mergeable sample and the same fit).
 func TestStagedChangeEqualsSingleRun(t *testing.T) {
 	dir := t.TempDir()
@@ -110,16 +68,14 @@ func TestStagedChangeEqualsSingleRun(t *testing.T) {
 		single := o
 		single.Out = filepath.Join(dir, pr.name+"-single")
 		want := jobtest.RunChange(t, jobtest.TestEnv, single)
-		for _, n := range []int{1, 2, 3} {
-			for _, workers := range []int{1, 2} {
-				name := fmt.Sprintf("%s, %d shards, %d workers", pr.name, n, workers)
-				s := o
-				s.Out = filepath.Join(dir, fmt.Sprintf("%s-%d-%d", pr.name, n, workers))
-				got := runStaged(t, jobtest.WorkersEnv(workers), s, n)
-				sameFolder(t, name, single.Out, s.Out, want, got)
-				if _, err := os.Stat(series.WorkArea(s.Out)); err != nil {
-					t.Errorf("%s: no work area: %v", name, err)
-				}
+		for _, c := range jobtest.ShardCases {
+			name := fmt.Sprintf("%s, %d shards, %d workers", pr.name, c.Shards, c.Workers)
+			s := o
+			s.Out = filepath.Join(dir, fmt.Sprintf("%s-%d-%d", pr.name, c.Shards, c.Workers))
+			got := runStaged(t, jobtest.WorkersEnv(c.Workers), s, c.Shards)
+			sameFolder(t, name, single.Out, s.Out, want, got)
+			if _, err := os.Stat(series.WorkArea(s.Out)); err != nil {
+				t.Errorf("%s: no work area: %v", name, err)
 			}
 		}
 	}
@@ -136,22 +92,17 @@ func TestStagedChangeRefusals(t *testing.T) {
 	base := pairchange.ChangeOptions{Before: demo.Before, After: after, Input: jobkit.Input{Tile: 32}}
 	stage := func(o pairchange.ChangeOptions, st string, i, n int) error {
 		o.Stage, o.Shard = st, jobkit.Shard{I: i, N: n}
-		if st == pairchange.StageFit {
+		if st == series.StageFit {
 			o.Shard = jobkit.Shard{}
 		}
-		if st == pairchange.StageFinish {
+		if st == series.StageFinish {
 			_, err := pairchange.Change(t.Context(), jobtest.TestEnv, o)
 			return err
 		}
 		_, err := pairchange.ChangeStage(t.Context(), jobtest.TestEnv, o)
 		return err
 	}
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
+	must := func(err error) { jobtest.Must(t, err) }
 	tests := []struct {
 		name  string
 		run   func(o pairchange.ChangeOptions) error
@@ -206,16 +157,86 @@ func TestStagedChangeRefusals(t *testing.T) {
 			return err
 		}, true, []string{"--shard 1/2 applies to --stage scan and map only"}},
 	}
-	for i, tc := range tests {
-		o := base
-		o.Out = filepath.Join(dir, fmt.Sprintf("out%d", i))
-		err := tc.run(o)
-		jobtest.WantError(t, tc.name, err, tc.usage, tc.want...)
-		if err != nil && strings.Contains(err.Error(), "\n") {
-			t.Errorf("%s: the error is not one line", tc.name)
-		}
-		jobtest.MustNotExist(t, tc.name, o.Out)
+	var cases []jobtest.Refusal
+	for _, tc := range tests {
+		cases = append(cases, jobtest.Refusal{Name: tc.name, Usage: tc.usage, Want: tc.want, Run: func(out string) error {
+			o := base
+			o.Out = out
+			return tc.run(o)
+		}})
 	}
+	jobtest.CheckRefusals(t, dir, cases)
+}
+
+// TestStagedPatchAcrossShardEdges: a block of change across the corner of
+// four tiles, which 2 and 3 shards map apart, is one polygon in the
+// staged run's changes.gpkg, read back with GDAL's ogr2ogr: the block's
+// 256 pixels (with whatever noise flags touch it, the same in every run)
+// and the single run's ground area. Known by construction: the block is
+// the only change, 400 counts in every band against noise of a few.
+func TestStagedPatchAcrossShardEdges(t *testing.T) {
+	jobtest.NeedLandsat(t)
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a.tif"), filepath.Join(dir, "b.tif")
+	jobtest.NoisyCopy(t, a, 1, 0)
+	unchanged := filepath.Join(dir, "unchanged.tif")
+	jobtest.NoisyCopy(t, unchanged, 2, 0)
+	block := tiles.Tile{X: 120, Y: 120, W: 16, H: 16} // across the tile edges at 128
+	g := addBlock(t, unchanged, b, block, 400)
+	o := pairchange.ChangeOptions{Before: a, After: b, MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 64}}
+	single := o
+	single.Out = filepath.Join(dir, "single")
+	jobtest.RunChange(t, jobtest.TestEnv, single)
+	want := blockPatch(t, single.Out, g, block)
+	px := want.Area / math.Abs(g.GeoTransform[1]*g.GeoTransform[5])
+	if px < 256 || px > 256+8 {
+		t.Errorf("the single run's patch over the block has %.1f pixels, want the block's 256 and at most a few flagged beside it", px)
+	}
+	for _, n := range []int{2, 3} {
+		s := o
+		s.Out = filepath.Join(dir, fmt.Sprintf("staged-%d", n))
+		runStaged(t, jobtest.TestEnv, s, n)
+		got := blockPatch(t, s.Out, g, block)
+		if got.Area != want.Area || *got.Properties["area_m2"] != *want.Properties["area_m2"] {
+			t.Errorf("%d shards: the block's patch is %v m2 (planar %v), the single run's %v (%v)", n, *got.Properties["area_m2"], got.Area, *want.Properties["area_m2"], want.Area)
+		}
+	}
+}
+
+// addBlock writes the image at src with v added to every band over the
+// block to dst and returns the image's grid.
+func addBlock(t *testing.T, src, dst string, block tiles.Tile, v float64) raster.Grid {
+	s, buf, _ := jobtest.ReadImage(t, src, tiles.Tile{})
+	p := s.Len()
+	for y := block.Y; y < block.Y+block.H; y++ {
+		for x := block.X; x < block.X+block.W; x++ {
+			for b := range p {
+				buf[(y*s.Width+x)*p+b] += v
+			}
+		}
+	}
+	jobtest.WriteRasterFile(t, dst, raster.Spec{Grid: s.Grid, Bands: p, DataType: "Float32"}, buf)
+	return s.Grid
+}
+
+// blockPatch returns the one patch of a change folder over the block,
+// failing unless there is exactly one.
+func blockPatch(t *testing.T, out string, g raster.Grid, block tiles.Tile) testenv.Polygon {
+	t.Helper()
+	gt := g.GeoTransform
+	cx := gt[0] + (float64(block.X)+float64(block.W)/2)*gt[1]
+	cy := gt[3] + (float64(block.Y)+float64(block.H)/2)*gt[5]
+	polys, _ := testenv.ReadPolygons(t, filepath.Join(out, "changes.gpkg"), "changes")
+	var over []testenv.Polygon
+	for _, p := range polys {
+		if p.Box[0] < cx && cx < p.Box[2] && p.Box[1] < cy && cy < p.Box[3] {
+			over = append(over, p)
+		}
+	}
+	if len(over) != 1 {
+		t.Fatalf("%s: %d patches over the block, want 1", out, len(over))
+	}
+	return over[0]
 }
 
 // appendByte makes path another file, still readable.

@@ -58,9 +58,13 @@ type Config struct {
 	Extra     []output.Path
 	Out       string
 	Overwrite bool
-	// NoFolder leaves the output folder alone (checked, never created):
-	// the stages of a staged run but the last.
-	NoFolder bool
+	// Command names the command in stage files ("change"), Record is its
+	// options as they record them (RecordOptions), Staging the stage run
+	// ("": every stage at once). The stages but the finish leave the
+	// output folder alone (checked, never created).
+	Command string
+	Record  string
+	Staging Staging
 }
 
 // SharedOptions are the options of change and timeline that the engine
@@ -150,6 +154,7 @@ type Run struct {
 	Fits      []*PairFit
 	Warnings  []string
 	Dir       *output.Folder
+	st        staged
 }
 
 func (r *Run) Close() {
@@ -235,7 +240,10 @@ func (r *Run) Open(context.Context) error {
 			return err
 		}
 	}
-	if c.NoFolder {
+	if err := r.openStage(); err != nil {
+		return err
+	}
+	if !c.Staging.WritesFolder() {
 		return nil
 	}
 	r.Dir, err = output.CreateFolder(c.Out, c.Overwrite)

@@ -38,9 +38,11 @@ type TimelineOptions struct {
 	// Normalize is NormalizeStable (the default) or NormalizeNone.
 	Normalize string
 	// Confirm is ConfirmLasting (the default) or ConfirmNone.
-	Confirm   string
-	Sample    int
-	Overwrite bool
+	Confirm string
+	Sample  int
+	// Overwrite replaces an earlier output; not recorded in stage files
+	// (stages may differ in it).
+	Overwrite bool `json:"-"`
 	// SceneBands select each scene's own bands, in the order of Scenes
 	// (nil: Input.Bands for all).
 	SceneBands [][]int
@@ -50,6 +52,9 @@ type TimelineOptions struct {
 	IgnoreBandNames bool
 	// Output is the format and creation options of the rasters written.
 	Output jobkit.OutputFormat
+	// Staging is one stage of a staged run ("" runs them all in one
+	// process); not recorded in stage files.
+	series.Staging `json:"-"`
 }
 
 // TimelineResult is timeline.json.
@@ -132,13 +137,18 @@ type TimelineStep struct {
 // confirmed patches, in one streaming pass over the tiles per stage.
 func Timeline(ctx context.Context, env jobkit.Env, o TimelineOptions) (_ *TimelineResult, err error) {
 	defer func() { err = jobkit.Classify(err) }()
+	if !o.WritesFolder() {
+		return nil, jobkit.Usagef("--stage %s writes no timeline folder: run it with TimelineStage", o.Stage)
+	}
 	r := &timelineRun{Run: &series.Run{Env: env}, o: &o}
 	defer r.close()
-	steps := []jobkit.JobStep{
-		jobkit.Step("open", r.open), jobkit.Step("sample", r.Sample), jobkit.Step("normalize", r.Normalize), jobkit.Step("basis", r.FitBasis), jobkit.Step("models", r.FitModels),
-		jobkit.Step("map", r.mapPixels), jobkit.Step("sieve", r.sieve), jobkit.Step("classify", r.classify), jobkit.Step("patches", r.patches), jobkit.Step("figures", r.figures),
-		jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary),
+	sample, mapping := jobkit.Step("sample", r.Sample), jobkit.Step("map", r.mapPixels)
+	if o.Stage == series.StageFinish {
+		sample, mapping = jobkit.Step("read model", r.ReadModel), jobkit.Step("join", r.joinPieces)
 	}
+	steps := append([]jobkit.JobStep{jobkit.Step("open", r.open), sample}, r.FitSteps(jobkit.Step("models", r.FitModels))...)
+	steps = append(steps, mapping, jobkit.Step("sieve", r.sieve), jobkit.Step("classify", r.classify), jobkit.Step("patches", r.patches), jobkit.Step("figures", r.figures),
+		jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary))
 	if err := jobkit.RunSteps(ctx, env, "timeline", steps); err != nil {
 		return nil, r.Dir.FinalNames(err)
 	}
@@ -170,6 +180,9 @@ func (o *TimelineOptions) check() error {
 		return err
 	}
 	if err := o.Output.Check(); err != nil {
+		return err
+	}
+	if err := o.Staging.Check(); err != nil {
 		return err
 	}
 	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = co.Input, co.Resampling, co.Sample, co.Threshold, co.Normalize
@@ -238,7 +251,10 @@ func (r *timelineRun) open(ctx context.Context) error {
 		BandsChosen: o.Input.Bands != nil || o.SceneBands != nil, IgnoreBandNames: o.IgnoreBandNames,
 		Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components, Threshold: o.Threshold,
 		MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile, Pairs: timelinePairs,
-		Out: o.Out, Overwrite: o.Overwrite}
+		Out: o.Out, Overwrite: o.Overwrite, Command: "timeline", Staging: o.Staging}
+	if c.Record, err = series.RecordOptions(o); err != nil {
+		return err
+	}
 	for i := range o.Scenes {
 		in := o.Input
 		if o.SceneBands != nil {

@@ -84,17 +84,60 @@ func (h *timelineHook) Done(t tiles.Tile, pt *series.PairTile) {
 	}
 }
 
+// stepMaps are a mapped tile's values that timeline's outputs take: each
+// step's Z, the largest Z and its step, every pair's raw flags and each
+// step's top component. A single run takes them from the engine's tile,
+// the finish of a staged run from the map pieces.
+type stepMaps struct {
+	z            [][]float32 // per step
+	zmax, argmax []float32
+	flags, top   [][]uint8 // per pair
+}
+
+// mapWriter writes the map pass's outputs: each step's mask, the steps'
+// Z scratch raster, max-magnitude.tif and the confirmation bits.
+type mapWriter struct {
+	r          *timelineRun
+	zs, mag    *raster.Output
+	zbuf, mbuf []float64
+}
+
 // mapPixels computes every pair's change statistic in one pass over the
 // tiles: each step's raw flags and top components into its mask, its Z
 // into a scratch raster for the patches, the largest Z into
 // max-magnitude.tif, and the skips' verdicts into the confirmation bits.
 func (r *timelineRun) mapPixels(ctx context.Context) error {
+	w, err := r.startMap()
+	if err != nil {
+		return err
+	}
+	defer w.abort()
+	var m stepMaps
+	err = r.MapPairs(ctx, series.MapHooks{
+		NewWorker: r.newHook,
+		Deliver: func(t tiles.Tile, pt *series.PairTile) error {
+			st := pt.Extra.(*stepTile)
+			m = stepMaps{z: st.z, zmax: st.zmax, argmax: st.argmax, flags: pt.Flags, top: pt.Top}
+			return w.deliver(t, &m)
+		}})
+	if err != nil {
+		return err
+	}
+	return w.commit()
+}
+
+// newHook is a map worker's hook.
+func (r *timelineRun) newHook() series.TileHook { return &timelineHook{steps: r.steps()} }
+
+// startMap creates the masks, the confirmation bits and the map pass's
+// rasters.
+func (r *timelineRun) startMap() (*mapWriter, error) {
 	S, g := r.steps(), r.Scenes[0].Grid
 	for q := range S {
 		// On disk: the maps of every step stay out of memory.
 		m, err := raster.NewMaskFile(g, r.Dir.Path(fmt.Sprintf("step-%d-map.tif", q+1)))
 		if err != nil {
-			return err
+			return nil, err
 		}
 		r.masks = append(r.masks, m)
 		r.confirm = append(r.confirm, make([]uint64, (g.Width*g.Height+63)/64))
@@ -106,58 +149,67 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 		zdesc[q] = fmt.Sprintf("change statistic Z, %s to %s", r.label(q), r.label(q+1))
 	}
 	r.scratch = r.Dir.Path("step-z.tif")
+	w := &mapWriter{r: r}
+	var err error
 	// Scratch, read once for the patches: not worth compressing.
-	zs, err := raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &series.Nan, Descriptions: zdesc, Metadata: md,
+	w.zs, err = raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &series.Nan, Descriptions: zdesc, Metadata: md,
 		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1"}})
 	if err != nil {
-		return err
+		return nil, err
 	}
-	defer zs.Abort()
 	// Nearest overviews: the second band is a step number.
-	mag, err := raster.Create(r.Dir.Path("max-magnitude.tif"), r.o.Output.Spec(raster.Spec{Grid: g, Bands: 2, DataType: "Float32", NoData: &series.Nan, Metadata: md,
+	w.mag, err = raster.Create(r.Dir.Path("max-magnitude.tif"), r.o.Output.Spec(raster.Spec{Grid: g, Bands: 2, DataType: "Float32", NoData: &series.Nan, Metadata: md,
 		Descriptions: []string{fmt.Sprintf("largest change statistic Z over the steps (chi-square, k = %d)", r.Proj.Components()), "step of the largest Z (1 = first pair of dates)"}}, true))
 	if err != nil {
+		w.zs.Abort()
+		return nil, err
+	}
+	return w, nil
+}
+
+// deliver writes one mapped tile.
+func (w *mapWriter) deliver(t tiles.Tile, m *stepMaps) error {
+	r := w.r
+	S, g := r.steps(), r.Scenes[0].Grid
+	n := t.Pixels()
+	w.zbuf, w.mbuf = jobkit.Grow(w.zbuf, n*S), jobkit.Grow(w.mbuf, 2*n)
+	for q := range S {
+		if err := r.masks[q].Write(t.X, t.Y, t.W, t.H, m.flags[q], m.top[q]); err != nil {
+			return err
+		}
+		for i := range n {
+			w.zbuf[i*S+q] = float64(m.z[q][i])
+			if m.flags[q][i] != 255 {
+				r.valid[q]++
+			}
+			if r.confirmed(m, q, i) {
+				bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
+				r.confirm[q][bit/64] |= 1 << (bit % 64)
+			}
+		}
+	}
+	for i := range n {
+		w.mbuf[2*i], w.mbuf[2*i+1] = float64(m.zmax[i]), float64(m.argmax[i])
+	}
+	if err := w.zs.Write(t, w.zbuf); err != nil {
 		return err
 	}
-	defer mag.Abort()
-	var zbuf, mbuf []float64
-	err = r.MapPairs(ctx, series.MapHooks{
-		NewWorker: func() series.TileHook { return &timelineHook{steps: S} },
-		Deliver: func(t tiles.Tile, pt *series.PairTile) error {
-			st := pt.Extra.(*stepTile)
-			n := t.Pixels()
-			zbuf, mbuf = jobkit.Grow(zbuf, n*S), jobkit.Grow(mbuf, 2*n)
-			for q := range S {
-				if err := r.masks[q].Write(t.X, t.Y, t.W, t.H, pt.Flags[q], pt.Top[q]); err != nil {
-					return err
-				}
-				for i := range n {
-					zbuf[i*S+q] = float64(st.z[q][i])
-					if pt.Flags[q][i] != 255 {
-						r.valid[q]++
-					}
-					if r.confirmed(pt, q, i) {
-						bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
-						r.confirm[q][bit/64] |= 1 << (bit % 64)
-					}
-				}
-			}
-			for i := range n {
-				mbuf[2*i], mbuf[2*i+1] = float64(st.zmax[i]), float64(st.argmax[i])
-			}
-			if err := zs.Write(t, zbuf); err != nil {
-				return err
-			}
-			return mag.Write(t, mbuf)
-		}})
-	if err != nil {
+	return w.mag.Write(t, w.mbuf)
+}
+
+// commit commits the map pass's rasters.
+func (w *mapWriter) commit() error {
+	if err := w.zs.Commit(); err != nil {
 		return err
 	}
-	if err := zs.Commit(); err != nil {
-		return err
-	}
-	r.outputs = append(r.outputs, "max-magnitude.tif")
-	return mag.Commit()
+	w.r.outputs = append(w.r.outputs, "max-magnitude.tif")
+	return w.mag.Commit()
+}
+
+// abort removes what commit did not keep.
+func (w *mapWriter) abort() {
+	w.zs.Abort()
+	w.mag.Abort()
 }
 
 // confirmed reports whether the skips confirm a flag of step q (dates q and
@@ -165,15 +217,15 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 // date q-1 exists, date q+1 differs from date q-1 (skip q-1). The last step
 // has no date after it and is never confirmed; with --confirm none every
 // pixel is.
-func (r *timelineRun) confirmed(pt *series.PairTile, q, i int) bool {
+func (r *timelineRun) confirmed(m *stepMaps, q, i int) bool {
 	if r.o.Confirm == ConfirmNone {
 		return true
 	}
 	S := r.steps()
-	if q == S-1 || pt.Flags[S+q][i] != 1 {
+	if q == S-1 || m.flags[S+q][i] != 1 {
 		return false
 	}
-	return q == 0 || pt.Flags[S+q-1][i] == 1
+	return q == 0 || m.flags[S+q-1][i] == 1
 }
 
 // sieve applies the minimum mapping unit to each step's flags.
