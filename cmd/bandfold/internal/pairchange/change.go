@@ -160,11 +160,8 @@ func (r *changeRun) open(ctx context.Context) error {
 		IgnoreBandNames: o.IgnoreBandNames, Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components,
 		Threshold: o.Threshold, MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile,
 		Pairs: func(int) [][2]int { return [][2]int{{0, 1}} }, Out: o.Out, Overwrite: o.Overwrite,
-		Command: "change", Staging: o.Staging}
+		Command: "change", Staging: o.Staging, Options: *o}
 	var err error
-	if c.Record, err = series.RecordOptions(o); err != nil {
-		return err
-	}
 	for _, extra := range []output.Path{{Role: "basis", Path: o.Basis}, {Role: "reference", Path: o.Reference}} {
 		if extra.Path != "" {
 			c.Extra = append(c.Extra, extra)

@@ -58,12 +58,12 @@ type Config struct {
 	Extra     []output.Path
 	Out       string
 	Overwrite bool
-	// Command names the command in stage files ("change"), Record is its
-	// options as they record them (RecordOptions), Staging the stage run
+	// Command names the command in stage files ("change"), Options are
+	// its options (recorded there by RecordOptions), Staging the stage run
 	// ("": every stage at once). The stages but the finish leave the
 	// output folder alone (checked, never created).
 	Command string
-	Record  string
+	Options any
 	Staging Staging
 }
 

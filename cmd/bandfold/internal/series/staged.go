@@ -54,10 +54,14 @@ func (s Staging) WritesFolder() bool { return s.Stage == "" || s.Stage == StageF
 
 // RecordOptions is a command's options as the stage files record them:
 // JSON of opts, whose stage, shard and --overwrite are left out by their
-// json:"-" tags (those may differ between stages).
-func RecordOptions(opts any) (string, error) {
+// json:"-" tags (those may differ between stages); Go's own notation of
+// them where JSON has none for a value (a NaN nodata value).
+func RecordOptions(opts any) string {
 	data, err := json.Marshal(opts)
-	return string(data), err
+	if err != nil {
+		return fmt.Sprintf("%+v", opts)
+	}
+	return string(data)
 }
 
 // StageResult is what a scan, fit or map stage wrote.
@@ -97,7 +101,7 @@ func (r *Run) openStage() error {
 	if err != nil {
 		return err
 	}
-	r.st.header = StageHeader{Tool: r.Env.Version, Command: c.Command, Shard: c.Staging.Shard.OrWhole(), Options: c.Record, Inputs: inputs}
+	r.st.header = StageHeader{Tool: r.Env.Version, Command: c.Command, Shard: c.Staging.Shard.OrWhole(), Options: RecordOptions(c.Options), Inputs: inputs}
 	if c.Staging.Stage == StageScan || c.Staging.Stage == StageMap {
 		r.UseShard(c.Staging.Shard)
 	}

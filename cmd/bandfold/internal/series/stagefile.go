@@ -228,7 +228,7 @@ func fingerprints(fs []transform.Fingerprint) string {
 func optionsDiff(theirs, ours string) string {
 	var a, b map[string]json.RawMessage
 	if json.Unmarshal([]byte(theirs), &a) != nil || json.Unmarshal([]byte(ours), &b) != nil {
-		return "unreadable"
+		return "their values differ"
 	}
 	keys := make([]string, 0, len(a)+len(b))
 	for k := range a {

@@ -251,10 +251,7 @@ func (r *timelineRun) open(ctx context.Context) error {
 		BandsChosen: o.Input.Bands != nil || o.SceneBands != nil, IgnoreBandNames: o.IgnoreBandNames,
 		Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components, Threshold: o.Threshold,
 		MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile, Pairs: timelinePairs,
-		Out: o.Out, Overwrite: o.Overwrite, Command: "timeline", Staging: o.Staging}
-	if c.Record, err = series.RecordOptions(o); err != nil {
-		return err
-	}
+		Out: o.Out, Overwrite: o.Overwrite, Command: "timeline", Staging: o.Staging, Options: *o}
 	for i := range o.Scenes {
 		in := o.Input
 		if o.SceneBands != nil {
