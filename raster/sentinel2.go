@@ -350,6 +350,14 @@ func fileExists(p string) bool {
 	return err == nil && !fi.IsDir()
 }
 
+// AuxSidecar returns GDAL's .aux.xml sidecar of the raster at path (where
+// GDAL keeps what the format has no place for: class names and colours,
+// wavelengths), and whether there is one.
+func AuxSidecar(path string) (string, bool) {
+	aux := path + ".aux.xml"
+	return aux, fileExists(aux)
+}
+
 // s2Spectral names a Sentinel-2 Level-2A band file's band as the product
 // does ("B02") and gives it the product's wavelengths; false for other
 // files.

@@ -1,7 +1,6 @@
 package raster
 
 import (
-	"os"
 	"slices"
 	"strconv"
 	"strings"
@@ -101,7 +100,7 @@ func auxWavelengths(path string, bands []Band) {
 	if IsVirtual(path) || !slices.ContainsFunc(bands, func(b Band) bool { return !(b.WavelengthNM > 0) }) {
 		return
 	}
-	if _, err := os.Stat(path + ".aux.xml"); err != nil {
+	if _, ok := AuxSidecar(path); !ok {
 		return
 	}
 	ds, err := openWithAux(path)

@@ -177,7 +177,8 @@ func FolderAssets(dir string, files []string) ([]ItemAsset, error) {
 				return nil, err
 			}
 			a.Bands = bands
-			if aux := f + ".aux.xml"; fileExists(filepath.Join(dir, aux)) {
+			if _, ok := raster.AuxSidecar(filepath.Join(dir, f)); ok {
+				aux := f + ".aux.xml"
 				// GDAL's sidecar: the class names and colours of f.
 				out = append(out, ItemAsset{Key: aux, File: aux, Title: "class names and colours of " + f + " (GDAL's auxiliary metadata)", Roles: []string{"metadata"}})
 			}
@@ -313,9 +314,4 @@ func CheckOutputs(ins, outs []output.Path, overwrite bool) error {
 		}
 	}
 	return nil
-}
-
-func fileExists(p string) bool {
-	fi, err := os.Stat(p)
-	return err == nil && !fi.IsDir()
 }
