@@ -234,7 +234,7 @@ func TimelineText(w io.Writer, r *timeline.TimelineResult) {
 	}
 	fmt.Fprintf(w, "  %s of %s valid pixels changed at least once (confirmed)\n", jobkit.Count(r.ChangedPixels), jobkit.Count(r.ValidPixels))
 	for _, p := range r.Outputs {
-		fmt.Fprintf(w, "  wrote %s\n", p)
+		fmt.Fprintf(w, "  wrote %s\n", r.Paths.Resolve(p))
 	}
 	fmt.Fprintf(w, "note: %s\n", jobkit.Caution)
 }
@@ -246,7 +246,7 @@ func ChangeText(w io.Writer, s *changefolder.ChangeResult) {
 		fmt.Fprintln(w, line)
 	}
 	for _, p := range s.Outputs {
-		fmt.Fprintf(w, "  wrote %s\n", p)
+		fmt.Fprintf(w, "  wrote %s\n", s.Paths.Resolve(p))
 	}
 	fmt.Fprintf(w, "note: %s\n", jobkit.Caution)
 }

@@ -48,7 +48,7 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 	}
 	dates := s.Dates()
 	for i, sc := range res.Scenes {
-		if sc.Date != dates[i] || sc.DateSource != "ACQUISITION_DATE" || sc.Path != files.Dates[i] {
+		if sc.Date != dates[i] || sc.DateSource != "ACQUISITION_DATE" || res.Paths.Resolve(sc.Path) != files.Dates[i] {
 			t.Errorf("scene %d: %s dated %s from %s, want %s dated %s from ACQUISITION_DATE", i+1, sc.Path, sc.Date, sc.DateSource, files.Dates[i], dates[i])
 		}
 	}

@@ -3,7 +3,6 @@ package pairchange
 import (
 	"context"
 	"fmt"
-	"path/filepath"
 	"slices"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
@@ -221,8 +220,9 @@ func (r *changeRun) sieve(ctx context.Context) error {
 	}
 	o := r.o
 	norm := r.NormSums[1]
-	r.sum = &changefolder.ChangeResult{Document: jobkit.Doc("bandfold-change-summary"), Before: o.Before, After: o.After, BeforeLabel: jobkit.Describe(r.before), AfterLabel: jobkit.Describe(r.after), Threshold: r.thresholdSummary(),
-		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisName, Aligned: r.Aligned,
+	paths := jobkit.DocPaths{Dir: r.Dir.Final()}
+	r.sum = &changefolder.ChangeResult{Document: changefolder.SummaryDoc, Paths: paths, Before: paths.Input(o.Before), After: paths.Input(o.After), BeforeLabel: jobkit.Describe(r.before), AfterLabel: jobkit.Describe(r.after), Threshold: r.thresholdSummary(),
+		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisIn(paths), Aligned: r.Aligned,
 		Identical: r.identical, Caution: jobkit.Caution, Location: []float64{}, Covariance: [][]float64{},
 		Normalization: norm, Warnings: jobkit.Strings(r.Warnings), Scenario: r.before.Metadata["SCENARIO"],
 		BeforeDate: r.Dates[0].Label, AfterDate: r.Dates[1].Label, DateSource: []string{r.Dates[0].Source, r.Dates[1].Source}, BandMatch: r.Matched,
@@ -272,8 +272,6 @@ func (r *changeRun) item(context.Context) error {
 
 func (r *changeRun) summary(context.Context) error {
 	r.outputs = append(r.outputs, "summary.json")
-	for _, name := range r.outputs {
-		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.Dir.Final(), name))
-	}
+	r.sum.Outputs = r.sum.Paths.Entries(r.outputs)
 	return jobkit.CommitSummary(r.Env, r.Dir, "summary.json", r.sum, r.Warnings)
 }

@@ -196,6 +196,15 @@ func (r *Run) FitBasis(context.Context) error {
 	return nil
 }
 
+// BasisIn is the basis as a document in d records it: the --basis file
+// relative to the document's folder, or how the basis was fitted.
+func (r *Run) BasisIn(d jobkit.DocPaths) string {
+	if r.C.Basis != "" {
+		return d.Input(r.C.Basis)
+	}
+	return r.BasisName
+}
+
 // FitModels fits every pair's own no-change model and threshold, the
 // pairs in parallel (tiles.Each).
 func (r *Run) FitModels(ctx context.Context) error {

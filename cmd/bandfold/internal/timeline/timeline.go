@@ -55,6 +55,9 @@ type TimelineOptions struct {
 // TimelineResult is timeline.json.
 type TimelineResult struct {
 	jobkit.Document
+	// Paths is how the document records paths: relative to the timeline
+	// folder (scenes' paths, a --basis file, outputs).
+	Paths  jobkit.DocPaths `json:"-"`
 	Scenes []TimelineScene `json:"scenes"`
 	// ValidPixels are the pixels valid on at least one step.
 	ValidPixels int64 `json:"valid_pixels"`

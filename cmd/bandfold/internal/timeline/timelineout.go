@@ -76,9 +76,15 @@ func (r *timelineRun) figures(context.Context) error {
 	return nil
 }
 
+// SummaryDoc heads timeline.json. Version 2 records every path relative to
+// the timeline folder (jobkit.DocPaths), where version 1 had the scenes as
+// typed and the outputs from the working directory.
+var SummaryDoc = jobkit.Document{Format: "bandfold-timeline-summary", Version: 2}
+
 // result fills timeline.json's content.
 func (r *timelineRun) result() {
-	s := &TimelineResult{Document: jobkit.Doc("bandfold-timeline-summary"), Components: r.Proj.Components(), Basis: r.BasisName, Threshold: r.o.Threshold.String(),
+	paths := jobkit.DocPaths{Dir: r.Dir.Final()}
+	s := &TimelineResult{Document: SummaryDoc, Paths: paths, Components: r.Proj.Components(), Basis: r.BasisIn(paths), Threshold: r.o.Threshold.String(),
 		MinAreaPixels: r.MinPixels, Normalize: r.o.Normalize, Confirm: r.o.Confirm, Aligned: r.Aligned, ReferenceDate: r.Dates[r.Ref].Label, BandMatch: r.Matched,
 		Scenario: r.Scenes[0].Metadata["SCENARIO"], Warnings: jobkit.Strings(r.Warnings), Caution: jobkit.Caution, Outputs: []string{},
 		AreaNote: "mapped areas (pixels flagged after the minimum mapping unit), not estimates of the true area of change"}
@@ -90,7 +96,7 @@ func (r *timelineRun) result() {
 		s.ChangedAreaM2, s.ChangedAreaHa = jobkit.Ptr(r.changedArea), jobkit.Ptr(r.changedArea/1e4)
 	}
 	for i, sc := range r.Scenes {
-		s.Scenes = append(s.Scenes, TimelineScene{Path: r.Args[i], Label: jobkit.Describe(sc), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
+		s.Scenes = append(s.Scenes, TimelineScene{Path: paths.Input(r.Args[i]), Label: jobkit.Describe(sc), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
 	}
 	k := r.Proj.Components()
 	ha := func(m2 float64) (*float64, *float64) {
@@ -182,8 +188,6 @@ func (r *timelineRun) item(context.Context) error {
 // summary writes timeline.json and moves the folder into place.
 func (r *timelineRun) summary(context.Context) error {
 	r.outputs = append(r.outputs, "timeline.json")
-	for _, name := range r.outputs {
-		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.Dir.Final(), name))
-	}
+	r.sum.Outputs = r.sum.Paths.Entries(r.outputs)
 	return jobkit.CommitSummary(r.Env, r.Dir, "timeline.json", r.sum, r.Warnings)
 }
