@@ -19,7 +19,7 @@ import (
 )
 
 // figures writes timeline.png (mapped change per step) and first-change.png
-// (the date of the first confirmed change).
+// (the date of the first lasting change).
 func (r *timelineRun) figures(context.Context) error {
 	S := r.steps()
 	d := figures.TimelineData{Unit: "pixels", Title: "Mapped change per step: lasting, and flagged but did not last"}
@@ -28,9 +28,9 @@ func (r *timelineRun) figures(context.Context) error {
 		d.Steps = append(d.Steps, r.label(q+1))
 		if r.Areas != nil {
 			d.Unit = "ha"
-			d.Confirmed, d.Unconfirmed = append(d.Confirmed, c.confirmedArea/1e4), append(d.Unconfirmed, (c.flaggedArea-c.confirmedArea)/1e4)
+			d.Lasting, d.Passing = append(d.Lasting, c.confirmedArea/1e4), append(d.Passing, (c.flaggedArea-c.confirmedArea)/1e4)
 		} else {
-			d.Confirmed, d.Unconfirmed = append(d.Confirmed, float64(c.confirmed)), append(d.Unconfirmed, float64(c.flagged-c.confirmed))
+			d.Lasting, d.Passing = append(d.Lasting, float64(c.confirmed)), append(d.Passing, float64(c.flagged-c.confirmed))
 		}
 	}
 	bars, err := figures.TimelineBars(d)
@@ -78,7 +78,9 @@ func (r *timelineRun) figures(context.Context) error {
 
 // SummaryDoc heads timeline.json. Version 2 records every path relative to
 // the timeline folder (jobkit.DocPaths), where version 1 had the scenes as
-// typed and the outputs from the working directory.
+// typed and the outputs from the working directory, and names the flags
+// that last lasting_* (version 1: confirmed_*), as --confirm lasting and
+// steps.tif do.
 var SummaryDoc = jobkit.Document{Format: "bandfold-timeline-summary", Version: 2}
 
 // result fills timeline.json's content.
@@ -110,9 +112,9 @@ func (r *timelineRun) result() {
 		st := TimelineStep{Step: q + 1, From: r.label(q), To: r.label(q + 1), Components: k, Identical: f.Identical,
 			Threshold:   series.ThresholdSummary{Rule: r.o.Threshold.String(), Z: f.Zcut, Median: series.ChisqMedian(k), Separability: f.Eta},
 			Confirmable: q < r.steps()-1 || r.o.Confirm == ConfirmNone, ValidPixels: r.valid[q],
-			FlaggedPixels: c.flagged, ConfirmedPixels: c.confirmed, Patches: c.patches, Location: []float64{}, Covariance: [][]float64{}, Converged: true}
+			FlaggedPixels: c.flagged, LastingPixels: c.confirmed, Patches: c.patches, Location: []float64{}, Covariance: [][]float64{}, Converged: true}
 		st.FlaggedAreaM2, st.FlaggedAreaHa = ha(c.flaggedArea)
-		st.ConfirmedAreaM2, st.ConfirmedAreaHa = ha(c.confirmedArea)
+		st.LastingAreaM2, st.LastingAreaHa = ha(c.confirmedArea)
 		if m := f.Model; m != nil {
 			st.Location, st.Iterations, st.Converged, st.SamplePixels = m.Location, m.Iterations, m.Converged, m.Sample
 			for i := range k {
@@ -159,10 +161,10 @@ func timelineReport(s *TimelineResult, images []report.NamedImage) *report.Repor
 	settings.Facts = append(settings.Facts, [2]string{"threshold", s.Threshold}, [2]string{"components", fmt.Sprint(s.Components)},
 		[2]string{"basis", s.Basis}, [2]string{"minimum mapping unit", fmt.Sprintf("%d px", s.MinAreaPixels)},
 		[2]string{"normalisation", s.Normalize}, [2]string{"confirmation", s.Confirm}, [2]string{"aligned", fmt.Sprint(s.Aligned)})
-	steps := report.ReportTable{Caption: "Steps", Head: []string{"step", "dates", "Z threshold", "flagged pixels", "confirmed pixels", "confirmed area (ha)", "patches", "confirmable"}}
+	steps := report.ReportTable{Caption: "Steps", Head: []string{"step", "dates", "Z threshold", "flagged pixels", "lasting pixels", "lasting area (ha)", "patches", "confirmable"}}
 	for _, st := range s.Steps {
 		steps.Rows = append(steps.Rows, []string{fmt.Sprint(st.Step), st.From + " to " + st.To, fmt.Sprintf("%.4g", st.Threshold.Z),
-			fmt.Sprint(st.FlaggedPixels), fmt.Sprint(st.ConfirmedPixels), report.Num(st.ConfirmedAreaHa, 2), fmt.Sprint(st.Patches), fmt.Sprint(st.Confirmable)})
+			fmt.Sprint(st.FlaggedPixels), fmt.Sprint(st.LastingPixels), report.Num(st.LastingAreaHa, 2), fmt.Sprint(st.Patches), fmt.Sprint(st.Confirmable)})
 	}
 	results := report.ReportSection{Heading: "Mapped change", Notes: append([]string{s.AreaNote}, s.Warnings...), Tables: []report.ReportTable{steps}}
 	for _, im := range images {
