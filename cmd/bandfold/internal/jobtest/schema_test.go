@@ -33,6 +33,17 @@ func TestDocumentsMatchTheirSchemas(t *testing.T) {
 	ValidJSONFile(t, "timeline-summary", filepath.Join(tl, "timeline.json"))
 	relativePaths(t, filepath.Join(chg, "summary.json"), "before", "after", "outputs", "reference.file")
 	relativePaths(t, filepath.Join(tl, "timeline.json"), "scenes.path", "outputs")
+	// Nothing written names the inputs' absolute paths, given as they
+	// were: labels and metadata by base name.
+	for _, file := range []string{"summary.json", "item.json", "change.tif.aux.xml", "change.tif", "timeline.json", "steps.tif", "first-change.tif"} {
+		folder := chg
+		if _, err := os.Stat(filepath.Join(chg, file)); err != nil {
+			folder = tl
+		}
+		if data, err := os.ReadFile(filepath.Join(folder, file)); err != nil || strings.Contains(string(data), dir) {
+			t.Errorf("%s: %v, or it names %s", file, err, dir)
+		}
+	}
 	for _, folder := range []string{chg, tl} {
 		checkItem(t, folder)
 	}

@@ -135,7 +135,7 @@ func (r *Run) NormDescription(d int) string {
 		}
 		return "stable (not applied: see the warnings)"
 	}
-	parts := []string{fmt.Sprintf("stable, onto %s as offset + gain x value over %d stable pixels", r.Name(r.Ref), r.NormSums[d].StablePixels)}
+	parts := []string{fmt.Sprintf("stable, onto %s as offset + gain x value over %d stable pixels", r.NameIn(r.Ref), r.NormSums[d].StablePixels)}
 	for j, f := range norm {
 		parts = append(parts, fmt.Sprintf("band %d gain %.6g offset %.6g", j+1, f.Gain, f.Offset))
 	}

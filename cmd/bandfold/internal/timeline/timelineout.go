@@ -97,8 +97,8 @@ func (r *timelineRun) result() {
 	if r.Areas != nil {
 		s.ChangedAreaM2, s.ChangedAreaHa = jobkit.Ptr(r.changedArea), jobkit.Ptr(r.changedArea/1e4)
 	}
-	for i, sc := range r.Scenes {
-		s.Scenes = append(s.Scenes, TimelineScene{Path: paths.Input(r.Args[i]), Label: jobkit.Describe(sc), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
+	for i := range r.Scenes {
+		s.Scenes = append(s.Scenes, TimelineScene{Path: paths.Input(r.Args[i]), Label: r.LabelIn(i), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
 	}
 	k := r.Proj.Components()
 	ha := func(m2 float64) (*float64, *float64) {
