@@ -336,11 +336,17 @@ type CellAreas struct {
 	block, blocks int
 	area          []float64 // mean pixel area of block b of row r at r*blocks+b
 	mean          float64
+	// alike counts the rows measured by their first block (sameAlongRow).
+	alike int
 }
 
 // NewCellAreas computes the cell areas of g. It returns ErrNoCRS when g has
 // no CRS, and an error when it has no geotransform.
-func NewCellAreas(g Grid) (*CellAreas, error) {
+func NewCellAreas(g Grid) (*CellAreas, error) { return newCellAreas(g, false) }
+
+// newCellAreas is NewCellAreas; everyBlock measures every block of every
+// row, also where sameAlongRow would measure the first alone.
+func newCellAreas(g Grid, everyBlock bool) (*CellAreas, error) {
 	if g.Projection == "" {
 		return nil, fmt.Errorf("cell areas: %w", ErrNoCRS)
 	}
@@ -369,8 +375,9 @@ func NewCellAreas(g Grid) (*CellAreas, error) {
 	c.area = make([]float64, g.Height*c.blocks)
 	s := cellSampling{
 		g: g, c: c, e: e,
-		subX: max(1, int(math.Ceil(float64(c.block)*pixW/maxPiece))),
-		subY: max(1, int(math.Ceil(pixH/maxPiece))),
+		subX:       max(1, int(math.Ceil(float64(c.block)*pixW/maxPiece))),
+		subY:       max(1, int(math.Ceil(pixH/maxPiece))),
+		everyBlock: everyBlock,
 	}
 	total, err := s.measure()
 	if err != nil {
@@ -402,8 +409,13 @@ type cellSampling struct {
 	subX, subY int
 	row        []float64 // the areas of a row's blocks
 	// S12 and longitude changes of the edges of the top and bottom lines
-	// and of the sides (geod_geninverse's S12, bandfoldRowAreas).
+	// and of the sides (geod_geninverse's S12, bandfoldRowAreas); the top
+	// line's are stale after a row measured by block 0 alone.
 	tS12, tLon, bS12, bLon, sS12, sLon []float64
+	topStale                           bool
+	// everyBlock measures every block of every row (tests compare the
+	// shortcut of sameAlongRow with it).
+	everyBlock bool
 }
 
 // measure fills the areas of every block and row, and returns their total.
@@ -433,7 +445,11 @@ func (s *cellSampling) measure() (float64, error) {
 		if err != nil {
 			return 0, err
 		}
-		if err := s.strips(topX, topY, botX, botY, sideX, sideY); err != nil {
+		measure := s.strips
+		if s.sameAlongRow(topX, topY, botX, botY, sideX, sideY) {
+			measure = s.firstBlock
+		}
+		if err := measure(topX, topY, botX, botY, sideX, sideY); err != nil {
 			return 0, err
 		}
 		for b, a := range s.row {
@@ -472,29 +488,102 @@ func (s *cellSampling) sides(cols []float64, r int) ([]float64, []float64, error
 // the bottom line's edges are kept for the row below.
 func (s *cellSampling) strips(topX, topY, botX, botY, sideX, sideY []float64) error {
 	m, per := len(topX)-1, s.subY
-	if s.row == nil {
-		s.row = make([]float64, s.c.blocks)
+	if s.tS12 == nil {
 		s.sS12, s.sLon = make([]float64, (s.c.blocks+1)*per), make([]float64, (s.c.blocks+1)*per)
 		s.bS12, s.bLon = make([]float64, m), make([]float64, m)
 		s.tS12, s.tLon = make([]float64, m), make([]float64, m)
+		s.topStale = true
+	}
+	if s.topStale {
 		for i := range m {
 			C.bandfoldEdge(&s.e.g, C.double(topX[i]), C.double(topY[i]), C.double(topX[i+1]), C.double(topY[i+1]),
 				(*C.double)(&s.tS12[i]), (*C.double)(&s.tLon[i]))
 		}
+		s.topStale = false
 	}
-	ptr := func(v []float64) *C.double {
-		if len(v) == 0 {
-			return nil
-		}
-		return (*C.double)(&v[0])
+	if s.row == nil {
+		s.row = make([]float64, s.c.blocks)
 	}
 	if C.bandfoldRowAreas(&s.e.g, C.int(s.c.blocks), C.int(s.subX), C.int(s.subY-1),
-		ptr(topX), ptr(topY), ptr(botX), ptr(botY), ptr(sideX), ptr(sideY),
-		ptr(s.tS12), ptr(s.tLon), ptr(s.bS12), ptr(s.bLon), ptr(s.sS12), ptr(s.sLon), ptr(s.row)) != 0 {
+		cPtr(topX), cPtr(topY), cPtr(botX), cPtr(botY), cPtr(sideX), cPtr(sideY),
+		cPtr(s.tS12), cPtr(s.tLon), cPtr(s.bS12), cPtr(s.bLon), cPtr(s.sS12), cPtr(s.sLon), cPtr(s.row)) != 0 {
 		return errors.New("out of memory")
 	}
 	s.tS12, s.bS12 = s.bS12, s.tS12
 	s.tLon, s.bLon = s.bLon, s.tLon
+	return nil
+}
+
+// cPtr is the address of v's first value for C, nil when v is empty.
+func cPtr(v []float64) *C.double {
+	if len(v) == 0 {
+		return nil
+	}
+	return (*C.double)(&v[0])
+}
+
+// sameAlongRow reports whether every whole block of a row is its first
+// block turned about the polar axis: on a north-up grid whose rows are
+// parallels and whose columns step evenly in longitude (a geographic
+// grid, or a cylindrical projection such as Mercator), each whole block's
+// ring, points of its top and bottom lines and sides, is block 0's with
+// every longitude shifted by one amount and every latitude the same. The
+// ellipsoid being symmetric about its axis, such blocks have block 0's
+// area. The rings are compared to 1e-10 of a block's width in longitude,
+// a shift that moves no area by more than about 1e-10 of the block's.
+func (s *cellSampling) sameAlongRow(topX, topY, botX, botY, sideX, sideY []float64) bool {
+	n, in := s.subX, s.subY-1
+	whole := s.g.Width / s.c.block
+	if s.everyBlock || whole < 2 || s.g.GeoTransform[2] != 0 || s.g.GeoTransform[4] != 0 {
+		return false
+	}
+	tol := 1e-10 * math.Abs(topX[n]-topX[0])
+	near := func(a, b float64) bool { return math.Abs(a-b) <= tol }
+	for b := 1; b < whole; b++ {
+		shift := topX[b*n] - topX[0]
+		same := func(xs, ys []float64, i, i0 int) bool { return near(xs[i]-shift, xs[i0]) && near(ys[i], ys[i0]) }
+		for k := 0; k <= n; k++ {
+			if !same(topX, topY, b*n+k, k) || !same(botX, botY, b*n+k, k) {
+				return false
+			}
+		}
+		for k := 0; k < 2*in; k++ { // the inner points of sides b and b+1
+			if !same(sideX, sideY, b*in+k, k) {
+				return false
+			}
+		}
+	}
+	return tol > 0
+}
+
+// firstBlock measures a row whose whole blocks all have block 0's area
+// (sameAlongRow): block 0, and the last block when narrower, each as a
+// geodesic polygon (bandfoldStripArea), the others taking block 0's.
+func (s *cellSampling) firstBlock(topX, topY, botX, botY, sideX, sideY []float64) error {
+	if s.row == nil {
+		s.row = make([]float64, s.c.blocks)
+	}
+	strip := func(b int) error {
+		a := C.bandfoldStripArea(&s.e.g, C.int(b), C.int(s.subX), C.int(s.subY-1),
+			cPtr(topX), cPtr(topY), cPtr(botX), cPtr(botY), cPtr(sideX), cPtr(sideY))
+		if a < 0 {
+			return errors.New("out of memory")
+		}
+		s.row[b] = float64(a)
+		return nil
+	}
+	if err := strip(0); err != nil {
+		return err
+	}
+	whole := s.g.Width / s.c.block
+	for b := 1; b < whole; b++ {
+		s.row[b] = s.row[0]
+	}
+	s.topStale = true
+	s.c.alike++
+	if whole < s.c.blocks {
+		return strip(s.c.blocks - 1)
+	}
 	return nil
 }
 

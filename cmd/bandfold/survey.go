@@ -65,7 +65,7 @@ func newSurveyCommand(g *globals) *cobra.Command {
 					g.info("  %-10s mapped %.2f ha, estimated %.2f ± %.2f ha (95%% interval %.2f to %.2f ha)", c.Class, *c.MappedAreaHa, *c.AreaHa, *c.AreaSEHa, c.AreaCI95Ha[0], c.AreaCI95Ha[1])
 				}
 			}
-			g.info("  overall accuracy %.3f ± %.3f; wrote %s", res.OverallAccuracy, res.OverallAccuracySE, strings.Join(res.Outputs, " and "))
+			g.info("  overall accuracy %.3f ± %.3f; wrote %s", res.OverallAccuracy, res.OverallAccuracySE, strings.Join(res.Paths.ResolveAll(res.Outputs), " and "))
 			g.info("note: %s", res.Caution)
 			return g.emit(res)
 		}),

@@ -179,7 +179,7 @@ func SurveyDraw(_ context.Context, _ jobkit.Env, o SurveyDrawOptions) (_ *Survey
 	if !st.Ground {
 		unit = "px"
 	}
-	pts.Metadata = map[string]string{MdFingerprint: fp, mdMap: mapPath, mdDesign: design, mdStrata: string(strata), mdAreaUnit: unit, mdCaution: jobkit.Caution}
+	pts.Metadata = map[string]string{MdFingerprint: fp, mdMap: jobkit.DocPaths{Dir: filepath.Dir(o.Out)}.Input(mapPath), mdDesign: design, mdStrata: string(strata), mdAreaUnit: unit, mdCaution: jobkit.Caution}
 	if err := writeSurvey(o.Out, csvPath, pts, o.Overwrite); err != nil {
 		return nil, err
 	}

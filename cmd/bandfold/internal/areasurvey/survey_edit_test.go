@@ -146,7 +146,7 @@ func TestSurveyEstimateFromAnEditedGeoPackage(t *testing.T) {
 	}
 	wantAreas(t, "10 features deleted", e)
 	// estimate.json as written follows its JSON Schema (docs/schemas).
-	jobtest.ValidJSONFile(t, "survey-estimate", e.Outputs[0])
+	jobtest.ValidJSONFile(t, "survey-estimate", e.Paths.Resolve(e.Outputs[0]))
 	pts.Points[3].Weight = math.NaN()
 	nan := filepath.Join(dir, "nan", "survey.gpkg")
 	if err := raster.WritePoints(nan, pts, false); err != nil {

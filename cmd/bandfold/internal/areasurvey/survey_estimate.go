@@ -44,13 +44,21 @@ type ClassEstimate struct {
 	ProducersAccuracySE *float64    `json:"producers_accuracy_se"`
 }
 
+// EstimateDoc heads estimate.json. Version 2 records every path relative
+// to the estimate's folder (jobkit.DocPaths), where version 1 had them as
+// typed.
+var EstimateDoc = jobkit.Document{Format: "bandfold-survey-estimate", Version: 2}
+
 // SurveyEstimateResult is estimate.json.
 type SurveyEstimateResult struct {
 	jobkit.Document
-	Survey      string `json:"survey"`
-	Map         string `json:"map"`
-	Fingerprint string `json:"fingerprint"`
-	Estimator   string `json:"estimator"`
+	// Paths is how the document records paths: relative to the folder of
+	// estimate.json (Survey, Map, Outputs).
+	Paths       jobkit.DocPaths `json:"-"`
+	Survey      string          `json:"survey"`
+	Map         string          `json:"map"`
+	Fingerprint string          `json:"fingerprint"`
+	Estimator   string          `json:"estimator"`
 	// Drawn is the number of points the survey drew; Labelled and
 	// Excluded (no label) count those in the file, Missing those absent
 	// from it (MissingIDs), which count as not interpreted.
@@ -102,15 +110,16 @@ func SurveyEstimate(_ context.Context, env jobkit.Env, o SurveyEstimateOptions) 
 	if res.Missing > 0 {
 		env.Warn("survey %s lacks %d of the %d points drawn (%s): they count as not interpreted", o.Survey, res.Missing, res.Drawn, idList(res.MissingIDs))
 	}
-	res.Map, res.Fingerprint, res.Caution = mapPath, fp, jobkit.Caution
-	res.Outputs = []string{estPath}
+	res.Paths = jobkit.DocPaths{Dir: filepath.Dir(estPath)}
+	res.Survey, res.Map, res.Fingerprint, res.Caution = res.Paths.Input(o.Survey), res.Paths.Input(mapPath), fp, jobkit.Caution
+	res.Outputs = res.Paths.Outputs(estPath)
 	var report []byte
 	if folder {
-		section := estimateSection(res)
+		section := estimateSection(res, jobkit.DocPaths{Dir: dir}.Input(o.Survey))
 		if report, err = changefolder.FolderReport(dir, res.validArea(), &section); err != nil {
 			return nil, err
 		}
-		res.Outputs = append(res.Outputs, filepath.Join(dir, "report.html"))
+		res.Outputs = append(res.Outputs, res.Paths.Outputs(filepath.Join(dir, "report.html"))...)
 	}
 	js, err := json.MarshalIndent(res, "", "  ")
 	if err != nil {
@@ -191,7 +200,7 @@ func estimate(s *surveyFile) (*SurveyEstimateResult, error) {
 	if err != nil {
 		return nil, err
 	}
-	res := &SurveyEstimateResult{Document: jobkit.Doc("bandfold-survey-estimate"), Survey: s.path, MatrixClasses: surveyClasses, Drawn: s.drawn(), Missing: len(missing), MissingIDs: missing}
+	res := &SurveyEstimateResult{Document: EstimateDoc, Survey: s.path, MatrixClasses: surveyClasses, Drawn: s.drawn(), Missing: len(missing), MissingIDs: missing}
 	labelled := make([]int, len(s.strata))
 	var units []survey.Unit
 	for i, p := range s.pts.Points {
@@ -264,8 +273,9 @@ func finite(v float64) *float64 {
 	return &v
 }
 
-// estimateSection shows a survey's estimates.
-func estimateSection(e *SurveyEstimateResult) report.ReportSection {
+// estimateSection shows a survey's estimates, naming the survey file as
+// survey (relative to the report's folder).
+func estimateSection(e *SurveyEstimateResult, survey string) report.ReportSection {
 	areas := report.ReportTable{Caption: "Estimated area (95% confidence interval) beside the mapped area",
 		Head: []string{"class", "mapped area (ha)", "estimated area (ha)", "standard error (ha)", "95% interval (ha)", "user's accuracy", "producer's accuracy"}}
 	for _, c := range e.Classes {
@@ -285,7 +295,7 @@ func estimateSection(e *SurveyEstimateResult) report.ReportSection {
 		matrix.Rows = append(matrix.Rows, cells)
 	}
 	return report.ReportSection{Heading: "Estimated area from the reference survey", Notes: []string{
-		fmt.Sprintf("Survey %s: %d points drawn, %d labelled, %d without a label and %d missing from the file excluded. Estimator: %s.", e.Survey, e.Drawn, e.Labelled, e.Excluded, e.Missing, e.Estimator),
+		fmt.Sprintf("Survey %s: %d points drawn, %d labelled, %d without a label and %d missing from the file excluded. Estimator: %s.", survey, e.Drawn, e.Labelled, e.Excluded, e.Missing, e.Estimator),
 		fmt.Sprintf("Overall accuracy %.3f ± %.3f (standard error).", e.OverallAccuracy, e.OverallAccuracySE),
 	}, Tables: []report.ReportTable{areas, matrix}}
 }

@@ -12,9 +12,19 @@ import (
 	"strings"
 )
 
+// SummaryDoc heads summary.json. Version 2 records every path relative to
+// the change folder (jobkit.DocPaths), where version 1 had the inputs as
+// typed and the outputs from the working directory.
+var SummaryDoc = jobkit.Document{Format: "bandfold-change-summary", Version: 2}
+
 // ChangeResult is summary.json ("format": "bandfold-change-summary").
 type ChangeResult struct {
 	jobkit.Document
+	// Paths is how the document records paths: relative to the change
+	// folder (Resolve gives them back from the working directory).
+	Paths jobkit.DocPaths `json:"-"`
+	// Before, After, Basis (when a file), Reference.File and Outputs are
+	// relative to the change folder; URLs and /vsi paths as given.
 	Before string `json:"before"`
 	After  string `json:"after"`
 	// BeforeLabel and AfterLabel name the dates' stacks for people.

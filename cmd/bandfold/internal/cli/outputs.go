@@ -57,7 +57,7 @@ var Outputs = map[string][]OutputFile{
 		{"diagnostics.png", "", "the distribution of Z against the no-change model, with the threshold"},
 		{"report.html", "", "the report: caution, dates and settings, figures, summary, accuracy, estimated area"},
 		{"item.json", "", "the folder's STAC Item"},
-		{"summary.json", "", "the summary (docs/schemas/change-summary.schema.json)"},
+		{"summary.json", "", "the summary, its paths relative to DIR (docs/schemas/change-summary.schema.json)"},
 		{"bandfold-output.json", "", "the folder's manifest"},
 	},
 	"timeline": {
@@ -74,7 +74,7 @@ var Outputs = map[string][]OutputFile{
 		{"first-change.png", "", "the map of the first lasting change"},
 		{"report.html", "", "the report"},
 		{"item.json", "", "the folder's STAC Item"},
-		{"timeline.json", "", "the summary (docs/schemas/timeline-summary.schema.json)"},
+		{"timeline.json", "", "the summary, its paths relative to DIR (docs/schemas/timeline-summary.schema.json)"},
 		{"bandfold-output.json", "", "the folder's manifest"},
 	},
 	"survey draw": {
@@ -82,7 +82,7 @@ var Outputs = map[string][]OutputFile{
 		{"STEM.csv", "", "the same points as CSV, for labelling in a spreadsheet"},
 	},
 	"survey estimate": {
-		{"estimate.json", "", "beside the survey: estimated areas with 95% intervals, accuracies, error matrix (docs/schemas/survey-estimate.schema.json)"},
+		{"estimate.json", "", "beside the survey: estimated areas with 95% intervals, accuracies, error matrix, its paths relative to its folder (docs/schemas/survey-estimate.schema.json)"},
 		{"report.html", "for a change folder", "the change report again, with the estimated area"},
 	},
 	"demo synth": {{"OUT", "", "an invented cube of correlated bands"}},

@@ -156,11 +156,11 @@ func demoTimelineText(w io.Writer, tl *demo.DemoTimeline) {
 		if !e.Lasting {
 			fmt.Fprintf(w, "  %s on %s only: %s (the most common); no lasting change at %.1f%% of its %d pixels\n", e.Name, e.Date, found, 100*e.Correct, e.Pixels)
 		} else {
-			fmt.Fprintf(w, "  %s from %s: %s (the most common first confirmed change); the right date at %.1f%% of its %d pixels\n", e.Name, e.Date, found, 100*e.Correct, e.Pixels)
+			fmt.Fprintf(w, "  %s from %s: %s (the most common first lasting change); the right date at %.1f%% of its %d pixels\n", e.Name, e.Date, found, 100*e.Correct, e.Pixels)
 		}
 	}
 	if tl.Unchanged > 0 {
-		fmt.Fprintf(w, "  unchanged land: %.2f%% of its %d pixels confirmed as change\n", 100*float64(tl.UnchangedConfirmed)/float64(tl.Unchanged), tl.Unchanged)
+		fmt.Fprintf(w, "  unchanged land: %.2f%% of its %d pixels with a lasting change\n", 100*float64(tl.UnchangedLasting)/float64(tl.Unchanged), tl.Unchanged)
 	}
 }
 
@@ -223,18 +223,18 @@ func TimelineText(w io.Writer, r *timeline.TimelineResult) {
 	fmt.Fprintf(w, "timeline %s to %s: %d dates, %d components, threshold %s, confirmation %s\n", r.Scenes[0].Date, r.Scenes[n-1].Date, n, r.Components, r.Threshold, r.Confirm)
 	for _, s := range r.Steps {
 		area := ""
-		if s.ConfirmedAreaHa != nil {
-			area = fmt.Sprintf(" (%.1f ha)", *s.ConfirmedAreaHa)
+		if s.LastingAreaHa != nil {
+			area = fmt.Sprintf(" (%.1f ha)", *s.LastingAreaHa)
 		}
 		note := ""
 		if !s.Confirmable {
-			note = "; last step: cannot be confirmed"
+			note = "; last step: no later date to confirm it"
 		}
-		fmt.Fprintf(w, "  %s to %s: Z > %.4g, %s flagged, %s confirmed%s%s\n", s.From, s.To, s.Threshold.Z, jobkit.Count(s.FlaggedPixels), jobkit.Count(s.ConfirmedPixels), area, note)
+		fmt.Fprintf(w, "  %s to %s: Z > %.4g, %s flagged, %s lasting%s%s\n", s.From, s.To, s.Threshold.Z, jobkit.Count(s.FlaggedPixels), jobkit.Count(s.LastingPixels), area, note)
 	}
-	fmt.Fprintf(w, "  %s of %s valid pixels changed at least once (confirmed)\n", jobkit.Count(r.ChangedPixels), jobkit.Count(r.ValidPixels))
+	fmt.Fprintf(w, "  %s of %s valid pixels with at least one lasting change\n", jobkit.Count(r.ChangedPixels), jobkit.Count(r.ValidPixels))
 	for _, p := range r.Outputs {
-		fmt.Fprintf(w, "  wrote %s\n", p)
+		fmt.Fprintf(w, "  wrote %s\n", r.Paths.Resolve(p))
 	}
 	fmt.Fprintf(w, "note: %s\n", jobkit.Caution)
 }
@@ -246,7 +246,7 @@ func ChangeText(w io.Writer, s *changefolder.ChangeResult) {
 		fmt.Fprintln(w, line)
 	}
 	for _, p := range s.Outputs {
-		fmt.Fprintf(w, "  wrote %s\n", p)
+		fmt.Fprintf(w, "  wrote %s\n", s.Paths.Resolve(p))
 	}
 	fmt.Fprintf(w, "note: %s\n", jobkit.Caution)
 }

@@ -123,9 +123,9 @@ type DemoTimeline struct {
 	Files    SeriesFiles
 	Timeline *timeline.TimelineResult
 	Events   []DemoEvent
-	// Unchanged are the pixels no event touched; UnchangedConfirmed those
-	// of them with a confirmed change on some step.
-	Unchanged, UnchangedConfirmed int64
+	// Unchanged are the pixels no event touched; UnchangedLasting those
+	// of them with a lasting change on some step.
+	Unchanged, UnchangedLasting int64
 }
 
 // DemoEvent is one event of the series as the timeline found it.
@@ -136,10 +136,10 @@ type DemoEvent struct {
 	Date    string
 	Lasting bool
 	Pixels  int64
-	// Found is the most common date of first confirmed change over its
+	// Found is the most common date of first lasting change over its
 	// pixels, "none" when most have none.
 	Found string
-	// Correct is the share of its pixels whose first confirmed change is
+	// Correct is the share of its pixels whose first lasting change is
 	// its date (for the cloud: that have none).
 	Correct float64
 }
@@ -170,7 +170,7 @@ func demoTimeline(ctx context.Context, env jobkit.Env, o *DemoOptions) (*DemoTim
 }
 
 // Score counts, tile by tile, each event's pixels by their date of first
-// confirmed change (first-change.tif) against the truth.
+// lasting change (first-change.tif) against the truth.
 func (d *DemoTimeline) Score(s *scenario.Series, firstChange string) error {
 	st, err := raster.Open([]string{firstChange})
 	if err != nil {
@@ -205,7 +205,7 @@ func (d *DemoTimeline) Score(s *scenario.Series, firstChange string) error {
 			if id == 0 {
 				d.Unchanged++
 				if date != 0 {
-					d.UnchangedConfirmed++
+					d.UnchangedLasting++
 				}
 			}
 			for k, ev := range evs {

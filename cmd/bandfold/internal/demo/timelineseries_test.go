@@ -48,7 +48,7 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 	}
 	dates := s.Dates()
 	for i, sc := range res.Scenes {
-		if sc.Date != dates[i] || sc.DateSource != "ACQUISITION_DATE" || sc.Path != files.Dates[i] {
+		if sc.Date != dates[i] || sc.DateSource != "ACQUISITION_DATE" || res.Paths.Resolve(sc.Path) != files.Dates[i] {
 			t.Errorf("scene %d: %s dated %s from %s, want %s dated %s from ACQUISITION_DATE", i+1, sc.Path, sc.Date, sc.DateSource, files.Dates[i], dates[i])
 		}
 	}
@@ -99,7 +99,7 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 		t.Logf("event %d: %d pixels, %d confirmed, %d with the right first date", id, c.pixels, c.confirmed, c.correct)
 	}
 	for _, st := range res.Steps {
-		t.Logf("step %d %s to %s: flagged %d confirmed %d", st.Step, st.From, st.To, st.FlaggedPixels, st.ConfirmedPixels)
+		t.Logf("step %d %s to %s: flagged %d confirmed %d", st.Step, st.From, st.To, st.FlaggedPixels, st.LastingPixels)
 	}
 	// The demo's own scoring of the same run agrees with the counts above.
 	d := &demo.DemoTimeline{}
@@ -119,8 +119,8 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 			t.Errorf("demo score of %s: found %s, want %s", ev.Name, e.Found, wantFound)
 		}
 	}
-	if d.Unchanged != int64(got[0].pixels) || d.UnchangedConfirmed != int64(got[0].confirmed) {
-		t.Errorf("demo score: %d of %d unchanged confirmed; the test counts %d of %d", d.UnchangedConfirmed, d.Unchanged, got[0].confirmed, got[0].pixels)
+	if d.Unchanged != int64(got[0].pixels) || d.UnchangedLasting != int64(got[0].confirmed) {
+		t.Errorf("demo score: %d of %d unchanged confirmed; the test counts %d of %d", d.UnchangedLasting, d.Unchanged, got[0].confirmed, got[0].pixels)
 	}
 	md, err := raster.ReadMetadata(files.Truth)
 	if err != nil || md["EVENT_4"] == "" {

@@ -72,7 +72,7 @@ func TestFigureText(t *testing.T) {
 			d := TimelineData{Unit: "ha", Title: "Mapped change per step: lasting, and flagged but did not last"}
 			for q := range steps {
 				d.Steps = append(d.Steps, fmt.Sprintf("20%02d-06-15", 20+q))
-				d.Confirmed, d.Unconfirmed = append(d.Confirmed, float64(q*40)), append(d.Unconfirmed, float64(150-q*30))
+				d.Lasting, d.Passing = append(d.Lasting, float64(q*40)), append(d.Passing, float64(150-q*30))
 			}
 			l, err := TimelineLayout(d)
 			return AnnotateLayout(l, Annotation{Lines: []string{caution}}), err

@@ -26,9 +26,9 @@ const (
 type TimelineData struct {
 	// Steps name the steps on the axis ("2020-06-16").
 	Steps []string
-	// Confirmed and Unconfirmed are each step's mapped amounts: the
-	// flags that lasted, and those that did not.
-	Confirmed, Unconfirmed []float64
+	// Lasting and Passing are each step's mapped amounts: the flags
+	// that lasted, and those that did not.
+	Lasting, Passing []float64
 	// Unit labels the y axis ("ha" or "pixels").
 	Unit  string
 	Title string
@@ -47,19 +47,19 @@ func TimelineBars(d TimelineData) ([]byte, error) {
 
 // TimelineLayout is TimelineBars' figure with the boxes of its text.
 func TimelineLayout(d TimelineData) (Layout, error) {
-	if len(d.Steps) == 0 || len(d.Confirmed) != len(d.Steps) || len(d.Unconfirmed) != len(d.Steps) {
-		return Layout{}, errors.New("figures: timeline: need one confirmed and one unconfirmed value per step")
+	if len(d.Steps) == 0 || len(d.Lasting) != len(d.Steps) || len(d.Passing) != len(d.Steps) {
+		return Layout{}, errors.New("figures: timeline: need one lasting and one passing value per step")
 	}
 	p, leg := newPlot(d.Title), newLegend()
 	p.Y.Label.Text = "mapped change (" + d.Unit + ")"
 	p.X.Label.Text = "step (date of the later scene)"
 	w := px(float64(timelineWidth) / float64(2*len(d.Steps)+1))
-	lasting, err := plotter.NewBarChart(plotter.Values(d.Confirmed), w)
+	lasting, err := plotter.NewBarChart(plotter.Values(d.Lasting), w)
 	if err != nil {
 		return Layout{}, err
 	}
 	lasting.Color, lasting.LineStyle.Width = LastingColour, 0
-	flagged, err := plotter.NewBarChart(plotter.Values(d.Unconfirmed), w)
+	flagged, err := plotter.NewBarChart(plotter.Values(d.Passing), w)
 	if err != nil {
 		return Layout{}, err
 	}

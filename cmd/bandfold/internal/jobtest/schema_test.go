@@ -31,6 +31,19 @@ func TestDocumentsMatchTheirSchemas(t *testing.T) {
 		t.Fatal(err)
 	}
 	ValidJSONFile(t, "timeline-summary", filepath.Join(tl, "timeline.json"))
+	relativePaths(t, filepath.Join(chg, "summary.json"), "before", "after", "outputs", "reference.file")
+	relativePaths(t, filepath.Join(tl, "timeline.json"), "scenes.path", "outputs")
+	// Nothing written names the inputs' absolute paths, given as they
+	// were: labels and metadata by base name.
+	for _, file := range []string{"summary.json", "item.json", "change.tif.aux.xml", "change.tif", "timeline.json", "steps.tif", "first-change.tif"} {
+		folder := chg
+		if _, err := os.Stat(filepath.Join(chg, file)); err != nil {
+			folder = tl
+		}
+		if data, err := os.ReadFile(filepath.Join(folder, file)); err != nil || strings.Contains(string(data), dir) {
+			t.Errorf("%s: %v, or it names %s", file, err, dir)
+		}
+	}
 	for _, folder := range []string{chg, tl} {
 		checkItem(t, folder)
 	}
@@ -40,6 +53,54 @@ func TestDocumentsMatchTheirSchemas(t *testing.T) {
 	ValidJSONFile(t, "basis", basis)
 
 	ValidJSON(t, "result", MarshalOf(t, jobkit.Doc("bandfold-learn-result")))
+}
+
+// relativePaths checks that the paths a document records under keys
+// (a dotted key descends into objects and lists) are relative to the
+// document's folder and lead to the files from there, every input having
+// been given by its absolute path (true by construction: the files exist).
+func relativePaths(t *testing.T, doc string, keys ...string) {
+	t.Helper()
+	data, err := os.ReadFile(doc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var v any
+	if err := json.Unmarshal(data, &v); err != nil {
+		t.Fatal(err)
+	}
+	for _, key := range keys {
+		paths := pathsAt(v, strings.Split(key, "."))
+		if len(paths) == 0 {
+			t.Errorf("%s: no %s", doc, key)
+		}
+		for _, p := range paths {
+			if _, err := os.Stat(filepath.Join(filepath.Dir(doc), p)); filepath.IsAbs(p) || err != nil {
+				t.Errorf("%s: %s %q is not a path from the document's folder to a file (%v)", doc, key, p, err)
+			}
+		}
+	}
+}
+
+// pathsAt collects the strings under the key path of a decoded document.
+func pathsAt(v any, key []string) []string {
+	switch x := v.(type) {
+	case string:
+		if len(key) == 0 {
+			return []string{x}
+		}
+	case []any:
+		var out []string
+		for _, e := range x {
+			out = append(out, pathsAt(e, key)...)
+		}
+		return out
+	case map[string]any:
+		if len(key) > 0 {
+			return pathsAt(x[key[0]], key[1:])
+		}
+	}
+	return nil
 }
 
 // checkItem checks the STAC Item of an output folder: it follows the

@@ -3,7 +3,6 @@ package pairchange
 import (
 	"context"
 	"fmt"
-	"path/filepath"
 	"slices"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
@@ -212,8 +211,9 @@ func (r *changeRun) sieve(ctx context.Context) error {
 	}
 	o := r.o
 	norm := r.NormSums[1]
-	r.sum = &changefolder.ChangeResult{Document: jobkit.Doc("bandfold-change-summary"), Before: o.Before, After: o.After, BeforeLabel: jobkit.Describe(r.before), AfterLabel: jobkit.Describe(r.after), Threshold: r.thresholdSummary(),
-		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisName, Aligned: r.Aligned,
+	paths := jobkit.DocPaths{Dir: r.Dir.Final()}
+	r.sum = &changefolder.ChangeResult{Document: changefolder.SummaryDoc, Paths: paths, Before: paths.Input(o.Before), After: paths.Input(o.After), BeforeLabel: r.LabelIn(0), AfterLabel: r.LabelIn(1), Threshold: r.thresholdSummary(),
+		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisIn(paths), Aligned: r.Aligned,
 		Identical: r.identical, Caution: jobkit.Caution, Location: []float64{}, Covariance: [][]float64{},
 		Normalization: norm, Warnings: jobkit.Strings(r.Warnings), Scenario: r.before.Metadata["SCENARIO"],
 		BeforeDate: r.Dates[0].Label, AfterDate: r.Dates[1].Label, DateSource: []string{r.Dates[0].Source, r.Dates[1].Source}, BandMatch: r.Matched,
@@ -252,7 +252,7 @@ func (r *changeRun) patches(context.Context) error {
 // item writes item.json, the folder's STAC Item: the two dates, the
 // footprint, every output with its bands, and the caution.
 func (r *changeRun) item(context.Context) error {
-	desc := fmt.Sprintf("bandfold change between %s and %s. %s", r.Name(0), r.Name(1), jobkit.Caution)
+	desc := fmt.Sprintf("bandfold change between %s and %s. %s", r.NameIn(0), r.NameIn(1), jobkit.Caution)
 	files := append(slices.Clone(r.outputs), "summary.json")
 	if err := jobkit.FolderItem(r.Dir, files, r.before.Grid, r.Dates[0].Time, r.Dates[1].Time, desc); err != nil {
 		return err
@@ -263,8 +263,6 @@ func (r *changeRun) item(context.Context) error {
 
 func (r *changeRun) summary(context.Context) error {
 	r.outputs = append(r.outputs, "summary.json")
-	for _, name := range r.outputs {
-		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.Dir.Final(), name))
-	}
+	r.sum.Outputs = r.sum.Paths.Entries(r.outputs)
 	return jobkit.CommitSummary(r.Env, r.Dir, "summary.json", r.sum, r.Warnings)
 }

@@ -85,7 +85,7 @@ func TestChangeOnTheDemoScenario(t *testing.T) {
 		t.Errorf("recall %.3f (want >= 0.9), false alarms %.4f (want <= 0.005)", *r.Recall, *r.FalseAlarmRate)
 	}
 	// Known by construction: the truth is compared on valid pixels only.
-	if n := r.TruePositive + r.FalsePositive + r.FalseNegative + r.TrueNegative; n == 0 || n > s.ValidPixels || r.File != f.Truth {
+	if n := r.TruePositive + r.FalsePositive + r.FalseNegative + r.TrueNegative; n == 0 || n > s.ValidPixels || s.Paths.Resolve(r.File) != f.Truth {
 		t.Errorf("reference %s counts %d pixels of %d valid", r.File, n, s.ValidPixels)
 	}
 	// The scenario's pixels are 10 m: 100 m² each, 1% for the projection.
@@ -99,10 +99,11 @@ func TestChangeOnTheDemoScenario(t *testing.T) {
 	if len(s.Outputs) != len(changeOutputs) {
 		t.Errorf("outputs %v, want %v", s.Outputs, changeOutputs)
 	}
+	// Outputs are recorded relative to the folder (docs/formats.md).
 	for _, name := range changeOutputs {
 		path := filepath.Join(out, name)
-		if !jobkit.Contains(s.Outputs, path) {
-			t.Errorf("outputs %v lack %s", s.Outputs, path)
+		if !jobkit.Contains(s.Outputs, name) {
+			t.Errorf("outputs %v lack %s", s.Outputs, name)
 		}
 		if _, err := os.Stat(path); err != nil {
 			t.Errorf("missing %s: %v", name, err)
@@ -224,7 +225,7 @@ func TestChangeAlignAndNoCRS(t *testing.T) {
 	// Differences adds differences.tif, one band per component, and
 	// PValues pvalue.tif.
 	diffs, pvals := filepath.Join(bareOut, "differences.tif"), filepath.Join(bareOut, "pvalue.tif")
-	if !jobkit.Contains(sum.Outputs, diffs) || !jobkit.Contains(sum.Outputs, pvals) || len(sum.Outputs) != len(changeOutputs)+2 {
+	if got := sum.Paths.ResolveAll(sum.Outputs); !jobkit.Contains(got, diffs) || !jobkit.Contains(got, pvals) || len(got) != len(changeOutputs)+2 {
 		t.Errorf("outputs %v lack %s or %s", sum.Outputs, diffs, pvals)
 	} else if ds, err := raster.Open([]string{diffs}); err != nil {
 		t.Error(err)
@@ -258,7 +259,7 @@ func TestChangeOfIdenticalDates(t *testing.T) {
 	// A given basis is used as it is, with its own k.
 	b, basis := jobtest.LearnLandsat(t, dir)
 	s = jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Basis: basis, Out: filepath.Join(dir, "given")})
-	if s.Basis != basis || s.Components != b.Components || !s.Identical {
+	if s.Paths.Resolve(s.Basis) != basis || s.Components != b.Components || !s.Identical {
 		t.Errorf("given basis %s (k=%d): summary basis %q, %d components, identical %v", basis, b.Components, s.Basis, s.Components, s.Identical)
 	}
 }

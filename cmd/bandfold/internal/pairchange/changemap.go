@@ -84,7 +84,7 @@ func (r *changeRun) changeMap(ctx context.Context) error {
 		sum.ValidAreaM2, sum.ValidAreaHa = &validArea, &vha
 	}
 	if r.ref != nil {
-		sum.Reference = &changefolder.ChangeAccuracy{File: r.o.Reference, Confusion: conf, Rates: conf.Rates()}
+		sum.Reference = &changefolder.ChangeAccuracy{File: sum.Paths.Input(r.o.Reference), Confusion: conf, Rates: conf.Rates()}
 	}
 	return nil
 }

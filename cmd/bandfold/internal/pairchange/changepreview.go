@@ -103,7 +103,7 @@ func (r *changeRun) preview(context.Context) error {
 	draw.Draw(img, image.Rect(0, 0, pw, ph), before, image.Point{}, draw.Src)
 	draw.Draw(img, image.Rect(pw+PanelGap, 0, 2*pw+PanelGap, ph), after, image.Point{}, draw.Src)
 
-	bl, al := r.Name(0), r.Name(1)
+	bl, al := r.NameIn(0), r.NameIn(1)
 	text := fmt.Sprintf("mapped change: %s of %s valid pixels", jobkit.Count(r.sum.ChangedPixels), jobkit.Count(r.sum.ValidPixels))
 	if r.sum.ChangedAreaHa != nil {
 		text = fmt.Sprintf("mapped area of change: %.1f ha of %.1f ha valid", *r.sum.ChangedAreaHa, *r.sum.ValidAreaHa)

@@ -235,7 +235,7 @@ func (r *changeRun) commitMap(outs *mapOutputs) error {
 // normalisation and the scenario tag of invented data.
 func (r *changeRun) metadata() map[string]string {
 	md := map[string]string{"BANDFOLD_VERSION": r.Env.Version, "BANDFOLD_CAUTION": jobkit.Caution,
-		"BANDFOLD_BEFORE": r.Name(0), "BANDFOLD_AFTER": r.Name(1),
+		"BANDFOLD_BEFORE": r.NameIn(0), "BANDFOLD_AFTER": r.NameIn(1),
 		"BANDFOLD_THRESHOLD":       r.o.Threshold.String(),
 		"BANDFOLD_Z_THRESHOLD":     strconv.FormatFloat(r.zcut, 'g', -1, 64),
 		"BANDFOLD_MIN_AREA_PIXELS": strconv.Itoa(r.MinPixels),

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"path"
 	"slices"
 	"strings"
 
@@ -184,6 +185,30 @@ func (r *Run) Name(i int) string {
 		return jobkit.Describe(r.Scenes[i])
 	}
 	return r.Dates[i].Label + " (" + jobkit.Describe(r.Scenes[i]) + ")"
+}
+
+// LabelIn names date i's stack for people as the outputs record it: a
+// stack's label, or its files by base name (their paths are recorded
+// apart, relative to the output folder: jobkit.DocPaths).
+func (r *Run) LabelIn(i int) string {
+	s := r.Scenes[i]
+	if name := jobkit.Describe(s); name != strings.Join(s.Paths, ",") {
+		return name
+	}
+	names := make([]string, len(s.Paths))
+	for j, p := range s.Paths {
+		names[j] = path.Base(p)
+	}
+	return strings.Join(names, ",")
+}
+
+// NameIn is Name as the outputs record it (LabelIn), for their metadata,
+// figures and descriptions; messages keep Name, the files as typed.
+func (r *Run) NameIn(i int) string {
+	if r.Dates[i].Label == "" {
+		return r.LabelIn(i)
+	}
+	return r.Dates[i].Label + " (" + r.LabelIn(i) + ")"
 }
 
 // Open checks the files, dates the scenes, opens them in date order (all

@@ -135,7 +135,7 @@ func (r *Run) NormDescription(d int) string {
 		}
 		return "stable (not applied: see the warnings)"
 	}
-	parts := []string{fmt.Sprintf("stable, onto %s as offset + gain x value over %d stable pixels", r.Name(r.Ref), r.NormSums[d].StablePixels)}
+	parts := []string{fmt.Sprintf("stable, onto %s as offset + gain x value over %d stable pixels", r.NameIn(r.Ref), r.NormSums[d].StablePixels)}
 	for j, f := range norm {
 		parts = append(parts, fmt.Sprintf("band %d gain %.6g offset %.6g", j+1, f.Gain, f.Offset))
 	}
@@ -194,6 +194,15 @@ func (r *Run) FitBasis(context.Context) error {
 	}
 	r.basis, r.BasisName, r.Proj = b, name, proj
 	return nil
+}
+
+// BasisIn is the basis as a document in d records it: the --basis file
+// relative to the document's folder, or how the basis was fitted.
+func (r *Run) BasisIn(d jobkit.DocPaths) string {
+	if r.C.Basis != "" {
+		return d.Input(r.C.Basis)
+	}
+	return r.BasisName
 }
 
 // FitModels fits every pair's own no-change model and threshold, the

@@ -60,10 +60,13 @@ type TimelineOptions struct {
 // TimelineResult is timeline.json.
 type TimelineResult struct {
 	jobkit.Document
+	// Paths is how the document records paths: relative to the timeline
+	// folder (scenes' paths, a --basis file, outputs).
+	Paths  jobkit.DocPaths `json:"-"`
 	Scenes []TimelineScene `json:"scenes"`
 	// ValidPixels are the pixels valid on at least one step.
 	ValidPixels int64 `json:"valid_pixels"`
-	// ChangedPixels have at least one confirmed change.
+	// ChangedPixels have at least one lasting change.
 	ChangedPixels int64    `json:"changed_pixels"`
 	ChangedAreaM2 *float64 `json:"changed_area_m2"`
 	ChangedAreaHa *float64 `json:"changed_area_ha"`
@@ -117,15 +120,19 @@ type TimelineStep struct {
 	SamplePixels int `json:"sample_pixels"`
 	// Confirmable is false for the last step: no later date can show that
 	// its changes last.
-	Confirmable     bool     `json:"confirmable"`
-	ValidPixels     int64    `json:"valid_pixels"`
-	FlaggedPixels   int64    `json:"flagged_pixels"`
-	ConfirmedPixels int64    `json:"confirmed_pixels"`
-	FlaggedAreaM2   *float64 `json:"flagged_area_m2"`
-	FlaggedAreaHa   *float64 `json:"flagged_area_ha"`
-	ConfirmedAreaM2 *float64 `json:"confirmed_area_m2"`
-	ConfirmedAreaHa *float64 `json:"confirmed_area_ha"`
-	Patches         int      `json:"patches"`
+	Confirmable bool  `json:"confirmable"`
+	ValidPixels int64 `json:"valid_pixels"`
+	// FlaggedPixels are the step's flags after the minimum mapping unit,
+	// LastingPixels those of them that last (--confirm lasting; all of
+	// them with --confirm none), steps.tif's classes 1 and 2 together and
+	// 2; their ground areas are null without a CRS.
+	FlaggedPixels int64    `json:"flagged_pixels"`
+	LastingPixels int64    `json:"lasting_pixels"`
+	FlaggedAreaM2 *float64 `json:"flagged_area_m2"`
+	FlaggedAreaHa *float64 `json:"flagged_area_ha"`
+	LastingAreaM2 *float64 `json:"lasting_area_m2"`
+	LastingAreaHa *float64 `json:"lasting_area_ha"`
+	Patches       int      `json:"patches"`
 }
 
 // Timeline maps, over a series of at least three dates, when each pixel

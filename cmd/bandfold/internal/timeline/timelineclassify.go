@@ -51,7 +51,7 @@ func (r *timelineRun) confirmFlags(ctx context.Context) error {
 			}
 		}
 		if err := m.SieveAgain(ctx, r.MinPixels); err != nil {
-			return fmt.Errorf("sieve of the confirmed changes of %s to %s: %w", r.label(q), r.label(q+1), err)
+			return fmt.Errorf("sieve of the lasting changes of %s to %s: %w", r.label(q), r.label(q+1), err)
 		}
 	}
 	return nil

@@ -242,7 +242,7 @@ func (r *timelineRun) metadata() map[string]string {
 		"BANDFOLD_CONFIRM":         r.o.Confirm,
 	}
 	for i := range r.Scenes {
-		md[fmt.Sprintf("BANDFOLD_DATE_%d", i+1)] = r.Name(i)
+		md[fmt.Sprintf("BANDFOLD_DATE_%d", i+1)] = r.NameIn(i)
 		md[fmt.Sprintf("BANDFOLD_NORMALIZATION_%d", i+1)] = r.NormDescription(i)
 	}
 	if r.Proj != nil {

@@ -19,7 +19,7 @@ import (
 )
 
 // figures writes timeline.png (mapped change per step) and first-change.png
-// (the date of the first confirmed change).
+// (the date of the first lasting change).
 func (r *timelineRun) figures(context.Context) error {
 	S := r.steps()
 	d := figures.TimelineData{Unit: "pixels", Title: "Mapped change per step: lasting, and flagged but did not last"}
@@ -28,9 +28,9 @@ func (r *timelineRun) figures(context.Context) error {
 		d.Steps = append(d.Steps, r.label(q+1))
 		if r.Areas != nil {
 			d.Unit = "ha"
-			d.Confirmed, d.Unconfirmed = append(d.Confirmed, c.confirmedArea/1e4), append(d.Unconfirmed, (c.flaggedArea-c.confirmedArea)/1e4)
+			d.Lasting, d.Passing = append(d.Lasting, c.confirmedArea/1e4), append(d.Passing, (c.flaggedArea-c.confirmedArea)/1e4)
 		} else {
-			d.Confirmed, d.Unconfirmed = append(d.Confirmed, float64(c.confirmed)), append(d.Unconfirmed, float64(c.flagged-c.confirmed))
+			d.Lasting, d.Passing = append(d.Lasting, float64(c.confirmed)), append(d.Passing, float64(c.flagged-c.confirmed))
 		}
 	}
 	bars, err := figures.TimelineBars(d)
@@ -76,9 +76,17 @@ func (r *timelineRun) figures(context.Context) error {
 	return nil
 }
 
+// SummaryDoc heads timeline.json. Version 2 records every path relative to
+// the timeline folder (jobkit.DocPaths), where version 1 had the scenes as
+// typed and the outputs from the working directory, and names the flags
+// that last lasting_* (version 1: confirmed_*), as --confirm lasting and
+// steps.tif do.
+var SummaryDoc = jobkit.Document{Format: "bandfold-timeline-summary", Version: 2}
+
 // result fills timeline.json's content.
 func (r *timelineRun) result() {
-	s := &TimelineResult{Document: jobkit.Doc("bandfold-timeline-summary"), Components: r.Proj.Components(), Basis: r.BasisName, Threshold: r.o.Threshold.String(),
+	paths := jobkit.DocPaths{Dir: r.Dir.Final()}
+	s := &TimelineResult{Document: SummaryDoc, Paths: paths, Components: r.Proj.Components(), Basis: r.BasisIn(paths), Threshold: r.o.Threshold.String(),
 		MinAreaPixels: r.MinPixels, Normalize: r.o.Normalize, Confirm: r.o.Confirm, Aligned: r.Aligned, ReferenceDate: r.Dates[r.Ref].Label, BandMatch: r.Matched,
 		Scenario: r.Scenes[0].Metadata["SCENARIO"], Warnings: jobkit.Strings(r.Warnings), Caution: jobkit.Caution, Outputs: []string{},
 		AreaNote: "mapped areas (pixels flagged after the minimum mapping unit), not estimates of the true area of change"}
@@ -89,8 +97,8 @@ func (r *timelineRun) result() {
 	if r.Areas != nil {
 		s.ChangedAreaM2, s.ChangedAreaHa = jobkit.Ptr(r.changedArea), jobkit.Ptr(r.changedArea/1e4)
 	}
-	for i, sc := range r.Scenes {
-		s.Scenes = append(s.Scenes, TimelineScene{Path: r.Args[i], Label: jobkit.Describe(sc), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
+	for i := range r.Scenes {
+		s.Scenes = append(s.Scenes, TimelineScene{Path: paths.Input(r.Args[i]), Label: r.LabelIn(i), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
 	}
 	k := r.Proj.Components()
 	ha := func(m2 float64) (*float64, *float64) {
@@ -104,9 +112,9 @@ func (r *timelineRun) result() {
 		st := TimelineStep{Step: q + 1, From: r.label(q), To: r.label(q + 1), Components: k, Identical: f.Identical,
 			Threshold:   series.ThresholdSummary{Rule: r.o.Threshold.String(), Z: f.Zcut, Median: series.ChisqMedian(k), Separability: f.Eta},
 			Confirmable: q < r.steps()-1 || r.o.Confirm == ConfirmNone, ValidPixels: r.valid[q],
-			FlaggedPixels: c.flagged, ConfirmedPixels: c.confirmed, Patches: c.patches, Location: []float64{}, Covariance: [][]float64{}, Converged: true}
+			FlaggedPixels: c.flagged, LastingPixels: c.confirmed, Patches: c.patches, Location: []float64{}, Covariance: [][]float64{}, Converged: true}
 		st.FlaggedAreaM2, st.FlaggedAreaHa = ha(c.flaggedArea)
-		st.ConfirmedAreaM2, st.ConfirmedAreaHa = ha(c.confirmedArea)
+		st.LastingAreaM2, st.LastingAreaHa = ha(c.confirmedArea)
 		if m := f.Model; m != nil {
 			st.Location, st.Iterations, st.Converged, st.SamplePixels = m.Location, m.Iterations, m.Converged, m.Sample
 			for i := range k {
@@ -153,10 +161,10 @@ func timelineReport(s *TimelineResult, images []report.NamedImage) *report.Repor
 	settings.Facts = append(settings.Facts, [2]string{"threshold", s.Threshold}, [2]string{"components", fmt.Sprint(s.Components)},
 		[2]string{"basis", s.Basis}, [2]string{"minimum mapping unit", fmt.Sprintf("%d px", s.MinAreaPixels)},
 		[2]string{"normalisation", s.Normalize}, [2]string{"confirmation", s.Confirm}, [2]string{"aligned", fmt.Sprint(s.Aligned)})
-	steps := report.ReportTable{Caption: "Steps", Head: []string{"step", "dates", "Z threshold", "flagged pixels", "confirmed pixels", "confirmed area (ha)", "patches", "confirmable"}}
+	steps := report.ReportTable{Caption: "Steps", Head: []string{"step", "dates", "Z threshold", "flagged pixels", "lasting pixels", "lasting area (ha)", "patches", "confirmable"}}
 	for _, st := range s.Steps {
 		steps.Rows = append(steps.Rows, []string{fmt.Sprint(st.Step), st.From + " to " + st.To, fmt.Sprintf("%.4g", st.Threshold.Z),
-			fmt.Sprint(st.FlaggedPixels), fmt.Sprint(st.ConfirmedPixels), report.Num(st.ConfirmedAreaHa, 2), fmt.Sprint(st.Patches), fmt.Sprint(st.Confirmable)})
+			fmt.Sprint(st.FlaggedPixels), fmt.Sprint(st.LastingPixels), report.Num(st.LastingAreaHa, 2), fmt.Sprint(st.Patches), fmt.Sprint(st.Confirmable)})
 	}
 	results := report.ReportSection{Heading: "Mapped change", Notes: append([]string{s.AreaNote}, s.Warnings...), Tables: []report.ReportTable{steps}}
 	for _, im := range images {
@@ -182,8 +190,6 @@ func (r *timelineRun) item(context.Context) error {
 // summary writes timeline.json and moves the folder into place.
 func (r *timelineRun) summary(context.Context) error {
 	r.outputs = append(r.outputs, "timeline.json")
-	for _, name := range r.outputs {
-		r.sum.Outputs = append(r.sum.Outputs, filepath.Join(r.Dir.Final(), name))
-	}
+	r.sum.Outputs = r.sum.Paths.Entries(r.outputs)
 	return jobkit.CommitSummary(r.Env, r.Dir, "timeline.json", r.sum, r.Warnings)
 }
