@@ -4,6 +4,10 @@ import (
 	"os"
 	"path/filepath"
 	"testing"
+
+	"gonum.org/v1/gonum/mat"
+
+	"bandfold/transform"
 )
 
 // TestDocPaths: a document's paths are relative to its folder for local
@@ -65,4 +69,40 @@ func sameFile(t *testing.T, a, b string) bool {
 	}
 	fb, err := os.Stat(b)
 	return err == nil && os.SameFile(fa, fb)
+}
+
+// TestBasisInputsRelative: a basis file names its inputs relative to its
+// own folder, as the documents beside outputs do (true by construction:
+// the file and the basis are made where the test says).
+func TestBasisInputsRelative(t *testing.T) {
+	root := t.TempDir()
+	t.Chdir(root)
+	if err := os.MkdirAll("scenes", 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile("scenes/a.tif", []byte{1}, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	fp, err := transform.FileFingerprint("scenes/a.tif")
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := transform.NewBasis(transform.Covariance, []transform.Band{{Name: "b1", Index: 1, Scale: 1}, {Name: "b2", Index: 2, Scale: 1}}, 10, []float64{0, 0}, mat.NewSymDense(2, []float64{2, 1, 1, 2}))
+	if err != nil {
+		t.Fatal(err)
+	}
+	b.Inputs = []transform.Fingerprint{fp}
+	if err := os.MkdirAll("bases", 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteBasis(b, "bases/site.basis.json", false); err != nil {
+		t.Fatal(err)
+	}
+	got, err := transform.ReadBasis("bases/site.basis.json")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if got.Inputs[0].Path != "../scenes/a.tif" {
+		t.Errorf("the basis names its input %q, want ../scenes/a.tif", got.Inputs[0].Path)
+	}
 }

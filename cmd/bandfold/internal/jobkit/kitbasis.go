@@ -6,6 +6,7 @@ import (
 	"bandfold/transform"
 	"errors"
 	"fmt"
+	"path/filepath"
 )
 
 // FitBasis checks the accumulated statistics and decomposes them. what
@@ -47,6 +48,12 @@ func FitBasis(env Env, acc *bands.Accumulator, mode transform.Mode, info []trans
 
 // WriteBasis writes a basis file through the output lifecycle.
 func WriteBasis(b *transform.Basis, path string, overwrite bool) error {
+	// The inputs as every document beside an output names them: relative
+	// to the basis file's folder (DocPaths).
+	d := DocPaths{Dir: filepath.Dir(path)}
+	for i := range b.Inputs {
+		b.Inputs[i].Path = d.Input(b.Inputs[i].Path)
+	}
 	data, err := b.Marshal()
 	if err != nil {
 		return fmt.Errorf("write basis %s: %w", path, err)
