@@ -11,6 +11,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/jobtest"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster/output"
 )
 
@@ -29,7 +30,7 @@ func TestSurveyInTheChangeFolder(t *testing.T) {
 	dir := t.TempDir()
 	f := jobtest.ScenarioFiles(t, dir, 256, 7)
 	out := filepath.Join(dir, "chg")
-	jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: out, MinArea: jobkit.MinArea{Px: 4}})
+	jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, SharedOptions: series.SharedOptions{Out: out, MinArea: jobkit.MinArea{Px: 4}}})
 	gpkg := filepath.Join(out, "survey.gpkg")
 	if _, err := areasurvey.SurveyDraw(t.Context(), jobtest.TestEnv, areasurvey.SurveyDrawOptions{Dir: out, Out: gpkg, Points: 120, Buffer: "0", MinPerStratum: 40, Seed: 2}); err != nil {
 		t.Fatal(err)

@@ -14,6 +14,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobtest"
 	"bandfold/cmd/bandfold/internal/pairchange"
 	"bandfold/cmd/bandfold/internal/scenario"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/transform/survey"
 )
@@ -146,7 +147,7 @@ func TestSurveyDrawAndEstimate(t *testing.T) {
 	dir := t.TempDir()
 	f := jobtest.ScenarioFiles(t, dir, 256, 7)
 	out := filepath.Join(dir, "chg")
-	jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: out, MinArea: jobkit.MinArea{Px: 4}})
+	jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, SharedOptions: series.SharedOptions{Out: out, MinArea: jobkit.MinArea{Px: 4}}})
 	gpkg := filepath.Join(dir, "survey", "survey.gpkg")
 	res, err := areasurvey.SurveyDraw(t.Context(), jobtest.TestEnv, areasurvey.SurveyDrawOptions{Dir: out, Out: gpkg, Points: 200, Buffer: "35m", MinPerStratum: 30, Seed: 3})
 	if err != nil {

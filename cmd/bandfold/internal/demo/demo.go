@@ -15,6 +15,7 @@ import (
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
 	"bandfold/cmd/bandfold/internal/scenario"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/tiles"
 	"bandfold/transform/change"
@@ -107,8 +108,9 @@ func Demo(ctx context.Context, env jobkit.Env, o DemoOptions) (_ *DemoResult, er
 	if err != nil {
 		return nil, err
 	}
-	if res.Change, err = pairchange.Change(ctx, env, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: j("change"), Reference: f.Truth,
-		PreviewBands: []int{3, 2, 1}, Threshold: thr, MinArea: jobkit.MinArea{Px: 4}, Overwrite: o.Overwrite}); err != nil {
+	if res.Change, err = pairchange.Change(ctx, env, pairchange.ChangeOptions{Before: f.Before, After: f.After, Reference: f.Truth,
+		PreviewBands: []int{3, 2, 1}, SharedOptions: series.SharedOptions{Out: j("change"),
+			Threshold: thr, MinArea: jobkit.MinArea{Px: 4}, Overwrite: o.Overwrite}}); err != nil {
 		return nil, fmt.Errorf("demo change: %w", err)
 	}
 	if res.Timeline, err = demoTimeline(ctx, env, &o); err != nil {

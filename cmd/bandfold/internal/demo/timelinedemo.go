@@ -157,8 +157,9 @@ func demoTimeline(ctx context.Context, env jobkit.Env, o *DemoOptions) (*DemoTim
 		return nil, err
 	}
 	out := filepath.Join(o.Dir, "timeline")
-	res, err := timeline.Timeline(ctx, env, timeline.TimelineOptions{Scenes: files.Dates, Out: out, Threshold: thr, MinArea: jobkit.MinArea{Px: 4},
-		Normalize: series.NormalizeStable, Confirm: timeline.ConfirmLasting, Overwrite: o.Overwrite})
+	res, err := timeline.Timeline(ctx, env, timeline.TimelineOptions{Scenes: files.Dates,
+		Confirm: timeline.ConfirmLasting, SharedOptions: series.SharedOptions{Out: out, Threshold: thr, MinArea: jobkit.MinArea{Px: 4},
+			Normalize: series.NormalizeStable, Overwrite: o.Overwrite}})
 	if err != nil {
 		return nil, fmt.Errorf("demo timeline: %w", err)
 	}

@@ -42,7 +42,7 @@ func TestTimelineSeriesAccuracy(t *testing.T) {
 	// The dates given out of order: the timeline sorts them by the
 	// ACQUISITION_DATE each carries.
 	scenes := []string{files.Dates[3], files.Dates[0], files.Dates[4], files.Dates[2], files.Dates[1]}
-	res, err := timeline.Timeline(t.Context(), jobtest.WorkersEnv(3), timeline.TimelineOptions{Scenes: scenes, Out: out, Threshold: thr, MinArea: jobkit.MinArea{Px: 4}})
+	res, err := timeline.Timeline(t.Context(), jobtest.WorkersEnv(3), timeline.TimelineOptions{Scenes: scenes, SharedOptions: series.SharedOptions{Out: out, Threshold: thr, MinArea: jobkit.MinArea{Px: 4}}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -145,7 +145,7 @@ func TestTimelineWorkers(t *testing.T) {
 	var first map[string][]float64
 	for _, workers := range []int{1, 2, 5} {
 		out := filepath.Join(dir, fmt.Sprint("tl", workers))
-		if _, err := timeline.Timeline(t.Context(), jobtest.WorkersEnv(workers), timeline.TimelineOptions{Scenes: files.Dates, Out: out, Sample: 1000, MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 32}}); err != nil {
+		if _, err := timeline.Timeline(t.Context(), jobtest.WorkersEnv(workers), timeline.TimelineOptions{Scenes: files.Dates, SharedOptions: series.SharedOptions{Out: out, Sample: 1000, MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 32}}}); err != nil {
 			t.Fatal(err)
 		}
 		got := map[string][]float64{}

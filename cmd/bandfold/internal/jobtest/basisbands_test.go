@@ -10,6 +10,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/tiles"
 )
 
@@ -29,8 +30,8 @@ func TestChangeTakesTheBasisBands(t *testing.T) {
 	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{Landsat}, Input: jobkit.Input{Bands: []int{2, 3, 4, 5, 6}},
 		Spectral: jobkit.Spectral{Exclude: []int{2}}, Components: 3, Out: basis})
 	run := func(name string, bands []int) *pairchangeResult {
-		r := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: Landsat, After: after, Basis: basis, Input: jobkit.Input{Bands: bands},
-			Out: filepath.Join(dir, name)})
+		r := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: Landsat, After: after, SharedOptions: series.SharedOptions{Basis: basis, Input: jobkit.Input{Bands: bands},
+			Out: filepath.Join(dir, name)}})
 		return &pairchangeResult{r.ValidPixels, r.ChangedPixels, r.Location, r.Covariance}
 	}
 	implied, given := run("implied", nil), run("given", []int{2, 4, 5, 6})

@@ -13,6 +13,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 )
 
@@ -146,8 +147,7 @@ func BenchmarkChangePair(b *testing.B) {
 	a, after, _ := strings.Cut(pair, ",")
 	dir := b.TempDir()
 	for range b.N {
-		if _, err := pairchange.Change(context.Background(), jobkit.Env{Workers: 2}, pairchange.ChangeOptions{Before: a, After: after,
-			Out: filepath.Join(dir, "chg"), Overwrite: true}); err != nil {
+		if _, err := pairchange.Change(context.Background(), jobkit.Env{Workers: 2}, pairchange.ChangeOptions{Before: a, After: after, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "chg"), Overwrite: true}}); err != nil {
 			b.Fatal(err)
 		}
 	}

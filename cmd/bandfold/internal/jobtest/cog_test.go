@@ -11,6 +11,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
 	"bandfold/tiles/testenv"
@@ -32,10 +33,10 @@ func TestOutputsAreValidCOGs(t *testing.T) {
 	f := ScenarioFiles(t, dir, 600, 11)
 	cog := jobkit.OutputFormat{Format: raster.COG}
 	chg := filepath.Join(dir, "change")
-	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: chg, PValues: true, Output: cog})
+	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, PValues: true, SharedOptions: series.SharedOptions{Out: chg, Output: cog}})
 	third := thirdDate(t, f.Before, dir)
 	tl := filepath.Join(dir, "timeline")
-	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third}, Out: tl, Output: cog}); err != nil {
+	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third}, SharedOptions: series.SharedOptions{Out: tl, Output: cog}}); err != nil {
 		t.Fatal(err)
 	}
 	basis := filepath.Join(dir, "b.json")

@@ -5,6 +5,7 @@ import (
 	"bandfold/cmd/bandfold/internal/fold"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"context"
 	"os"
 	"os/exec"
@@ -61,7 +62,7 @@ func TestDiskFullLeavesNothing(t *testing.T) {
 			return err
 		}},
 		{"change", func() error {
-			_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: a, After: b, Out: filepath.Join(disk, "chg"), Differences: true})
+			_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: a, After: b, Differences: true, SharedOptions: series.SharedOptions{Out: filepath.Join(disk, "chg")}})
 			return err
 		}},
 	}

@@ -18,6 +18,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/raster/output"
 	"bandfold/tiles"
@@ -146,11 +147,11 @@ func TestOutputSameAsAnInputIsRefused(t *testing.T) {
 				return err
 			}},
 			{"change --out = folder of the inputs", func() error {
-				_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, Out: f.dir, Overwrite: overwrite})
+				_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, SharedOptions: series.SharedOptions{Out: f.dir, Overwrite: overwrite}})
 				return err
 			}},
 			{"change --out = parent of the inputs", func() error {
-				_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, Out: filepath.Join(f.dir, "sub", ".."), Overwrite: overwrite})
+				_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, SharedOptions: series.SharedOptions{Out: filepath.Join(f.dir, "sub", ".."), Overwrite: overwrite}})
 				return err
 			}},
 		}
@@ -189,7 +190,7 @@ func TestConcurrentRunsOneWins(t *testing.T) {
 			return err
 		}},
 		{"change", func(out string) error {
-			_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, Out: out})
+			_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, SharedOptions: series.SharedOptions{Out: out}})
 			return err
 		}},
 	} {
@@ -250,7 +251,7 @@ func TestOutputFolderReplacedOnlyWhenItIsAPreviousOutput(t *testing.T) {
 	ctx := context.Background()
 	out := filepath.Join(f.dir, "chg")
 	runChange := func(overwrite bool) error {
-		_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, Out: out, Overwrite: overwrite})
+		_, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, SharedOptions: series.SharedOptions{Out: out, Overwrite: overwrite}})
 		return err
 	}
 	if err := runChange(false); err != nil {
@@ -296,7 +297,7 @@ func TestMissingParentFoldersAreCreated(t *testing.T) {
 	if _, err := learn.Inspect(ctx, lcEnv, learn.InspectOptions{Basis: f.basis, Plots: deep("plots")}); err != nil {
 		t.Errorf("inspect: %v", err)
 	}
-	if _, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, Out: deep("change")}); err != nil {
+	if _, err := pairchange.Change(ctx, lcEnv, pairchange.ChangeOptions{Before: f.scene, After: f.other, SharedOptions: series.SharedOptions{Out: deep("change")}}); err != nil {
 		t.Errorf("change: %v", err)
 	}
 	for _, p := range []string{deep("learn") + "/b.json", deep("fold") + "/c.tif", deep("preview") + "/p.png",

@@ -12,6 +12,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/tiles"
 	"bandfold/tiles/testenv"
@@ -179,14 +180,13 @@ func TestQualityNamesEqualTheirBits(t *testing.T) {
 // wavelength.
 func TestChangeOnProducts(t *testing.T) {
 	dir := t.TempDir()
-	s2 := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: product(t, s2a), After: product(t, s2b),
-		Input: jobkit.Input{Calibrate: raster.CalibrateReflectance, BandNames: []string{"B02", "B03", "B04", "B08", "B11", "B12"}}, Out: filepath.Join(dir, "s2")})
+	s2 := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: product(t, s2a), After: product(t, s2b), SharedOptions: series.SharedOptions{Input: jobkit.Input{Calibrate: raster.CalibrateReflectance, BandNames: []string{"B02", "B03", "B04", "B08", "B11", "B12"}}, Out: filepath.Join(dir, "s2")}})
 	if s2.BeforeDate != "2023-06-14" || s2.AfterDate != "2024-06-18" {
 		t.Errorf("Sentinel-2 dates %s and %s, want 2023-06-14 and 2024-06-18 from MTD_MSIL2A.xml", s2.BeforeDate, s2.AfterDate)
 	}
 	l7 := level2Bands(t, l7Level2, "1", "2", "3", "4", "5", "7")
 	l8 := level2Bands(t, l8Level2, "1", "2", "3", "4", "5", "6", "7")
-	ls := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8, Input: jobkit.Input{Calibrate: raster.CalibrateReflectance}, Out: filepath.Join(dir, "landsat")})
+	ls := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8, SharedOptions: series.SharedOptions{Input: jobkit.Input{Calibrate: raster.CalibrateReflectance}, Out: filepath.Join(dir, "landsat")}})
 	if ls.BeforeDate != "2001-07-30" || ls.AfterDate != "2013-07-07" || !strings.Contains(ls.BandMatch, "OLI_TIRS band 2") {
 		t.Errorf("Landsat Level-2 pair: dates %s, %s, band match %q", ls.BeforeDate, ls.AfterDate, ls.BandMatch)
 	}

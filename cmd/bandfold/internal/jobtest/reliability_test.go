@@ -14,6 +14,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/raster/output"
 )
@@ -59,7 +60,7 @@ func TestUndefinedRatesAreNull(t *testing.T) {
 	WriteRasterFile(t, a, spec, correlatedPixels(w*h, p, 1, 1))
 	WriteRasterFile(t, b, spec, correlatedPixels(w*h, p, 2, 1))
 	WriteRasterFile(t, ref, gridSpec(t, w, h, 1, "Byte", nil), make([]float64, w*h)) // no change anywhere
-	res, err := pairchange.Change(ctx, TestEnv, pairchange.ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, "chg"), Reference: ref})
+	res, err := pairchange.Change(ctx, TestEnv, pairchange.ChangeOptions{Before: a, After: b, Reference: ref, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "chg")}})
 	if err != nil {
 		t.Fatalf("change against a no-change reference: %v", err)
 	}
@@ -131,7 +132,7 @@ func TestNaNNoData(t *testing.T) {
 	if _, err := fold.Fold(ctx, TestEnv, fold.FoldOptions{Scenes: []string{b}, Basis: basis, Out: filepath.Join(dir, "c.tif")}); err != nil {
 		t.Errorf("fold: %v", err)
 	}
-	res, err := pairchange.Change(ctx, TestEnv, pairchange.ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, "chg")})
+	res, err := pairchange.Change(ctx, TestEnv, pairchange.ChangeOptions{Before: a, After: b, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "chg")}})
 	if err != nil {
 		t.Fatalf("change: %v", err)
 	}

@@ -5,6 +5,7 @@ import (
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
 	"bandfold/cmd/bandfold/internal/report"
+	"bandfold/cmd/bandfold/internal/series"
 	"bytes"
 	"fmt"
 	"image/png"
@@ -133,7 +134,7 @@ func TestReportsInBrowser(t *testing.T) {
 	dir := t.TempDir()
 	f := ScenarioFiles(t, dir, 256, 7)
 	out := filepath.Join(dir, "chg")
-	s := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: out, Reference: f.Truth})
+	s := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Reference: f.Truth, SharedOptions: series.SharedOptions{Out: out}})
 	renderInBrowser(t, filepath.Join(out, "report.html"), "Mapped change", "mapped area of change", s.BeforeLabel, "No survey yet")
 	gpkg := filepath.Join(dir, "survey.gpkg")
 	if _, err := areasurvey.SurveyDraw(t.Context(), TestEnv, areasurvey.SurveyDrawOptions{Dir: out, Out: gpkg, Points: 120, Buffer: "0", MinPerStratum: 40, Seed: 1}); err != nil {

@@ -11,6 +11,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
 	"bandfold/tiles/testenv"
@@ -116,13 +117,15 @@ func TestBandRolesOfEveryOutput(t *testing.T) {
 		t.Fatal(err)
 	}
 	chg, tl := filepath.Join(dir, "change"), filepath.Join(dir, "timeline")
-	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: chg, PValues: true, Differences: true})
+	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, PValues: true, Differences: true, SharedOptions:
 	// Four dates make steps.tif 3 Byte bands, which GDAL would otherwise
 	// tag RGB; the timeline in COG also checks the COG driver's copy.
+	series.SharedOptions{Out: chg}})
+
 	third, fourth := thirdDate(t, f.Before, dir), filepath.Join(dir, "vessel-2026-06-21.tif")
 	CopyFile(t, third, fourth)
-	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third, fourth}, Out: tl,
-		Output: jobkit.OutputFormat{Format: raster.COG}}); err != nil {
+	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third, fourth}, SharedOptions: series.SharedOptions{Out: tl,
+		Output: jobkit.OutputFormat{Format: raster.COG}}}); err != nil {
 		t.Fatal(err)
 	}
 	files, _ := filepath.Glob(filepath.Join(dir, "*", "*.tif"))

@@ -10,6 +10,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 )
 
@@ -21,13 +22,13 @@ func TestDocumentsMatchTheirSchemas(t *testing.T) {
 	dir := t.TempDir()
 	f := ScenarioFiles(t, dir, 96, 5)
 	chg := filepath.Join(dir, "change")
-	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Reference: f.Truth, Out: chg})
+	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Reference: f.Truth, SharedOptions: series.SharedOptions{Out: chg}})
 	ValidJSONFile(t, "change-summary", filepath.Join(chg, "summary.json"))
 	ValidJSONFile(t, "output-manifest", filepath.Join(chg, "bandfold-output.json"))
 
 	third := thirdDate(t, f.Before, dir)
 	tl := filepath.Join(dir, "timeline")
-	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third}, Out: tl}); err != nil {
+	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{f.Before, f.After, third}, SharedOptions: series.SharedOptions{Out: tl}}); err != nil {
 		t.Fatal(err)
 	}
 	ValidJSONFile(t, "timeline-summary", filepath.Join(tl, "timeline.json"))

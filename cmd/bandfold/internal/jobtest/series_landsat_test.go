@@ -11,6 +11,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
 	"bandfold/tiles"
@@ -73,8 +74,7 @@ func TestTimelineReturnToTheFirstStateConfirmsNothing(t *testing.T) {
 	l7 := productStack(t, landsatDir, l7Product, l7Reflective...)
 	l8 := productStack(t, landsatDir, l8Product, "1", "2", "3", "4", "5", "6", "7")
 	again := productStack(t, filepath.Join(mkdir(t, dir, "again")), l7Product, l7Reflective...)
-	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{l7, l8, again}, Dates: []string{"2001-07-30", "2013-07-07", "2015-07-01"},
-		Input: jobkit.Input{Calibrate: raster.CalibrateTOA}, Out: filepath.Join(dir, "tl")})
+	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{l7, l8, again}, Dates: []string{"2001-07-30", "2013-07-07", "2015-07-01"}, SharedOptions: series.SharedOptions{Input: jobkit.Input{Calibrate: raster.CalibrateTOA}, Out: filepath.Join(dir, "tl")}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -98,8 +98,7 @@ func TestTimelineIdenticalStepFlagsNothing(t *testing.T) {
 	l8 := productStack(t, landsatDir, l8Product, l8Reflective...)
 	copyOf := productStack(t, mkdir(t, dir, "copy"), l8Product, l8Reflective...)
 	env, log := LoggingEnv()
-	res, err := timeline.Timeline(t.Context(), env, timeline.TimelineOptions{Scenes: []string{l7, l8, copyOf}, Dates: []string{"2001-07-30", "2013-07-07", "2014-07-07"},
-		Input: jobkit.Input{Calibrate: raster.CalibrateTOA}, Out: filepath.Join(dir, "tl")})
+	res, err := timeline.Timeline(t.Context(), env, timeline.TimelineOptions{Scenes: []string{l7, l8, copyOf}, Dates: []string{"2001-07-30", "2013-07-07", "2014-07-07"}, SharedOptions: series.SharedOptions{Input: jobkit.Input{Calibrate: raster.CalibrateTOA}, Out: filepath.Join(dir, "tl")}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -122,12 +121,12 @@ func TestChangeMatchesBandsByWavelength(t *testing.T) {
 	l7 := productStack(t, landsatDir, l7Product, l7Reflective...)
 	l8all := productStack(t, landsatDir, l8Product, "1", "2", "3", "4", "5", "6", "7")
 	toa := jobkit.Input{Calibrate: raster.CalibrateTOA}
-	_, err := pairchange.Change(t.Context(), TestEnv, pairchange.ChangeOptions{Before: l7, After: l8all, Input: toa, BandsBefore: []int{1, 2, 3}, BandsAfter: []int{1, 2, 3}, Out: filepath.Join(dir, "refused")})
+	_, err := pairchange.Change(t.Context(), TestEnv, pairchange.ChangeOptions{Before: l7, After: l8all, BandsBefore: []int{1, 2, 3}, BandsAfter: []int{1, 2, 3}, SharedOptions: series.SharedOptions{Input: toa, Out: filepath.Join(dir, "refused")}})
 	WantError(t, "blue against coastal", err, true, "LANDSAT_7 ETM band 1", "450-515 nm", "LANDSAT_8 OLI_TIRS band 1", "435-451 nm", "--ignore-band-names")
 	MustNotExist(t, "blue against coastal", filepath.Join(dir, "refused"))
 
-	auto := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8all, Input: toa, Out: filepath.Join(dir, "auto")})
-	byHand := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8all, Input: toa, BandsAfter: []int{2, 3, 4, 5, 6, 7}, Out: filepath.Join(dir, "hand")})
+	auto := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8all, SharedOptions: series.SharedOptions{Input: toa, Out: filepath.Join(dir, "auto")}})
+	byHand := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8all, BandsAfter: []int{2, 3, 4, 5, 6, 7}, SharedOptions: series.SharedOptions{Input: toa, Out: filepath.Join(dir, "hand")}})
 	if auto.BandMatch == "" || byHand.BandMatch != "" {
 		t.Errorf("band match: automatic %q, by hand %q", auto.BandMatch, byHand.BandMatch)
 	}
@@ -148,7 +147,7 @@ func TestChangeDatesFromTheMTL(t *testing.T) {
 	dir := t.TempDir()
 	l7 := productStack(t, landsatDir, l7Product, l7Reflective...)
 	l8 := productStack(t, landsatDir, l8Product, l8Reflective...)
-	res := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l8, After: l7, Input: jobkit.Input{Calibrate: raster.CalibrateTOA}, Out: filepath.Join(dir, "c")})
+	res := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l8, After: l7, SharedOptions: series.SharedOptions{Input: jobkit.Input{Calibrate: raster.CalibrateTOA}, Out: filepath.Join(dir, "c")}})
 	if res.BeforeDate != "2013-07-07" || res.AfterDate != "2001-07-30" || !slices.Equal(res.DateSource, []string{"MTL:DATE_ACQUIRED", "MTL:DATE_ACQUIRED"}) {
 		t.Errorf("dates %s and %s from %v", res.BeforeDate, res.AfterDate, res.DateSource)
 	}
@@ -174,8 +173,8 @@ func TestChangeEqualsTimelineOfTwoDates(t *testing.T) {
 	l7 := productStack(t, landsatDir, l7Product, l7Reflective...)
 	l8 := productStack(t, landsatDir, l8Product, l8Reflective...)
 	toa := jobkit.Input{Calibrate: raster.CalibrateTOA}
-	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8, Input: toa, Out: filepath.Join(dir, "c")})
-	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{l8, l7}, Input: toa, Confirm: timeline.ConfirmNone, Out: filepath.Join(dir, "t")}); err != nil {
+	RunChange(t, TestEnv, pairchange.ChangeOptions{Before: l7, After: l8, SharedOptions: series.SharedOptions{Input: toa, Out: filepath.Join(dir, "c")}})
+	if _, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{l8, l7}, Confirm: timeline.ConfirmNone, SharedOptions: series.SharedOptions{Input: toa, Out: filepath.Join(dir, "t")}}); err != nil {
 		t.Fatal(err)
 	}
 	_, z, _ := ReadImage(t, filepath.Join(dir, "c", "magnitude.tif"), tiles.Tile{})
@@ -245,8 +244,8 @@ func TestTimelinePartialReturnLeavesNoPatchUnderTheUnit(t *testing.T) {
 		return in(blockB, x, y) || slices.Contains(lShape, [2]int{x, y})
 	})
 	out := filepath.Join(dir, "tl")
-	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{d1, d2, d3}, Out: out,
-		MinArea: jobkit.MinArea{Px: 4}})
+	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{d1, d2, d3}, SharedOptions: series.SharedOptions{Out: out,
+		MinArea: jobkit.MinArea{Px: 4}}})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -14,6 +14,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/learn"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
 	"bandfold/tiles/testenv"
@@ -164,8 +165,7 @@ func TestSTACSeries(t *testing.T) {
 	if err := os.WriteFile(thirdItem, []byte(doc), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{thirdItem, stacCollection(t)},
-		Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "tl")})
+	res, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{thirdItem, stacCollection(t)}, SharedOptions: series.SharedOptions{Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "tl")}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -180,8 +180,7 @@ func TestSTACSeries(t *testing.T) {
 		t.Errorf("dates %v, want %v", dates, want)
 	}
 	coll := stacCollection(t)
-	ch := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: coll + "#" + l7Product, After: coll + "#" + l8Product,
-		Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "change")})
+	ch := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: coll + "#" + l7Product, After: coll + "#" + l8Product, SharedOptions: series.SharedOptions{Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "change")}})
 	if ch.BeforeDate != "2001-07-30" || ch.AfterDate != "2013-07-07" {
 		t.Errorf("change dates %s and %s, want 2001-07-30 and 2013-07-07 from the items", ch.BeforeDate, ch.AfterDate)
 	}
@@ -189,7 +188,7 @@ func TestSTACSeries(t *testing.T) {
 	// eo:bands wavelengths (Landsat 7 blue 450-515 nm with Landsat 8 blue
 	// 452-512 nm, not coastal 435-451 nm; the handbooks' band edges), the
 	// 15 m pan band warped onto 30 m.
-	all := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: stacItem(t, l7Product), After: stacItem(t, l8Product), Align: true, Out: filepath.Join(dir, "all")})
+	all := RunChange(t, TestEnv, pairchange.ChangeOptions{Before: stacItem(t, l7Product), After: stacItem(t, l8Product), SharedOptions: series.SharedOptions{Align: true, Out: filepath.Join(dir, "all")}})
 	if !strings.Contains(all.BandMatch, "landsat-7 band B1 = landsat-8 band B2") || strings.Contains(all.BandMatch, "landsat-8 band B1;") ||
 		strings.Contains(all.BandMatch, "landsat-8 band B9") {
 		t.Errorf("band match %q: want blue with blue, and no coastal or cirrus band", all.BandMatch)
@@ -299,8 +298,7 @@ func TestSTACBadInputs(t *testing.T) {
 		{"asset on another grid", func() error { return learnOn(l8, jobkit.Input{Assets: []string{"blue", "green", "pan"}}) }, false,
 			[]string{l8, "asset pan", "not on the grid of asset blue", "--align"}, false},
 		{"no datetime in a series", func() error {
-			_, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{stacItem(t, l7Product), l8, undated},
-				Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "tl")})
+			_, err := timeline.Timeline(t.Context(), TestEnv, timeline.TimelineOptions{Scenes: []string{stacItem(t, l7Product), l8, undated}, SharedOptions: series.SharedOptions{Input: jobkit.Input{Assets: stacRefl}, Out: filepath.Join(dir, "tl")}})
 			return err
 		}, false, []string{undated, "properties.datetime is null", "--dates"}, false},
 		{"no such asset", func() error { return learnOn(l8, jobkit.Input{Assets: []string{"blue", "nir99"}}) }, true,
@@ -310,7 +308,7 @@ func TestSTACBadInputs(t *testing.T) {
 		{"no such member", func() error { return learnOn(stacCollection(t)+"#nope", jobkit.Input{Assets: stacRefl}) }, true,
 			[]string{"landsat-items.json", `without an item "nope"`}, false},
 		{"a collection for one image", func() error {
-			_, err := pairchange.Change(t.Context(), TestEnv, pairchange.ChangeOptions{Before: stacCollection(t), After: l8, Out: filepath.Join(dir, "ch")})
+			_, err := pairchange.Change(t.Context(), TestEnv, pairchange.ChangeOptions{Before: stacCollection(t), After: l8, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "ch")}})
 			return err
 		}, true, []string{"is an ItemCollection of 2 items", "#ID"}, false},
 	}

@@ -4,6 +4,7 @@ import (
 	"bandfold/cmd/bandfold/internal/demo"
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"context"
 	"fmt"
@@ -47,8 +48,9 @@ func BenchmarkTimeline(b *testing.B) {
 			out := filepath.Join(b.TempDir(), "tl")
 			b.ResetTimer()
 			for range b.N {
-				_, err := timeline.Timeline(context.Background(), jobkit.Env{Workers: 2}, timeline.TimelineOptions{Scenes: scenes, Out: out, Overwrite: true,
-					Dates: []string{"2019", "2020", "2021", "2022", "2023"}, MinArea: jobkit.MinArea{Px: 4}})
+				_, err := timeline.Timeline(context.Background(), jobkit.Env{Workers: 2}, timeline.TimelineOptions{Scenes: scenes,
+					Dates: []string{"2019", "2020", "2021", "2022", "2023"}, SharedOptions: series.SharedOptions{Out: out, Overwrite: true,
+						MinArea: jobkit.MinArea{Px: 4}}})
 				if err != nil {
 					b.Fatal(err)
 				}
@@ -66,8 +68,7 @@ func BenchmarkChangePairs(b *testing.B) {
 			b.ResetTimer()
 			for range b.N {
 				for i := range 4 {
-					_, err := pairchange.Change(context.Background(), jobkit.Env{Workers: 2}, pairchange.ChangeOptions{Before: scenes[i], After: scenes[i+1],
-						Out: filepath.Join(dir, fmt.Sprint(i)), Overwrite: true, MinArea: jobkit.MinArea{Px: 4}})
+					_, err := pairchange.Change(context.Background(), jobkit.Env{Workers: 2}, pairchange.ChangeOptions{Before: scenes[i], After: scenes[i+1], SharedOptions: series.SharedOptions{Out: filepath.Join(dir, fmt.Sprint(i)), Overwrite: true, MinArea: jobkit.MinArea{Px: 4}}})
 					if err != nil {
 						b.Fatal(err)
 					}

@@ -53,8 +53,9 @@ func TestTimelineStepsEqualChange(t *testing.T) {
 	}
 	out := filepath.Join(dir, "tl")
 	// The scenes out of order: the timeline sorts them by date.
-	res, err := timeline.Timeline(t.Context(), WorkersEnv(3), timeline.TimelineOptions{Scenes: []string{third, f.After, f.Before}, Out: out, Basis: basis,
-		Threshold: thr, MinArea: jobkit.MinArea{Px: 4}, Normalize: series.NormalizeNone, Confirm: timeline.ConfirmNone})
+	res, err := timeline.Timeline(t.Context(), WorkersEnv(3), timeline.TimelineOptions{Scenes: []string{third, f.After, f.Before},
+		Confirm: timeline.ConfirmNone, SharedOptions: series.SharedOptions{Out: out, Basis: basis,
+			Threshold: thr, MinArea: jobkit.MinArea{Px: 4}, Normalize: series.NormalizeNone}})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -68,8 +69,8 @@ func TestTimelineStepsEqualChange(t *testing.T) {
 	order := []string{f.Before, f.After, third}
 	for q := range 2 {
 		co := filepath.Join(dir, "chg"+string(rune('a'+q)))
-		chg := RunChange(t, WorkersEnv(2), pairchange.ChangeOptions{Before: order[q], After: order[q+1], Out: co, Basis: basis,
-			Threshold: thr, MinArea: jobkit.MinArea{Px: 4}, Normalize: series.NormalizeNone})
+		chg := RunChange(t, WorkersEnv(2), pairchange.ChangeOptions{Before: order[q], After: order[q+1], SharedOptions: series.SharedOptions{Out: co, Basis: basis,
+			Threshold: thr, MinArea: jobkit.MinArea{Px: 4}, Normalize: series.NormalizeNone}})
 		_, cm, _ := ReadImage(t, filepath.Join(co, "change.tif"), tiles.Tile{})
 		var flagged, diff int64
 		for i, c := range cm {

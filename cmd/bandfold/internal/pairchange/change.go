@@ -17,24 +17,16 @@ import (
 // ChangeOptions are the options of Change.
 type ChangeOptions struct {
 	Before, After string
-	Input         jobkit.Input
+	// SharedOptions are the options timeline shares: the inputs' options,
+	// the output folder, --align (AFTER onto BEFORE's grid), the basis,
+	// the model's and the map's options, the stage.
+	series.SharedOptions
 	// MaskBefore and MaskAfter are quality masks of one date only, on
 	// BEFORE's grid.
 	MaskBefore, MaskAfter []raster.MaskRule
 	// BandsBefore and BandsAfter select different bands of each date (for
 	// a change of sensor); nil takes Input.Bands.
 	BandsBefore, BandsAfter []int
-	// Out is the output folder.
-	Out string
-	// Align warps AFTER onto BEFORE's grid with Resampling when the grids
-	// differ.
-	Align      bool
-	Resampling string
-	// Basis, when set, is used instead of fitting one on both dates.
-	Basis      string
-	Components int
-	Threshold  change.Threshold
-	MinArea    jobkit.MinArea
 	// Differences also writes differences.tif.
 	Differences bool
 	// PValues also writes pvalue.tif.
@@ -44,20 +36,6 @@ type ChangeOptions struct {
 	Reference string
 	// PreviewBands are three 1-based bands of AFTER for preview.png.
 	PreviewBands []int
-	Sample       int
-	// Overwrite replaces an earlier output; not recorded in stage files
-	// (stages may differ in it).
-	Overwrite bool `json:"-"`
-	// Normalize is NormalizeStable (the default) or NormalizeNone.
-	Normalize string
-	// IgnoreBandNames compares the dates band for band even where their
-	// wavelengths differ.
-	IgnoreBandNames bool
-	// Output is the format and creation options of the rasters written.
-	Output jobkit.OutputFormat
-	// Staging is one stage of a staged run ("" runs them all in one
-	// process); not recorded in stage files.
-	series.Staging `json:"-"`
 }
 
 // Change maps land-cover change between two dates: it fits (or reads) a
@@ -88,18 +66,12 @@ func Change(ctx context.Context, env jobkit.Env, o ChangeOptions) (_ *changefold
 
 // check refuses option values that cannot be right.
 func (o *ChangeOptions) check() error {
-	sh := series.SharedOptions{Input: o.Input, Out: o.Out, Align: o.Align, Resampling: o.Resampling, Sample: o.Sample,
-		Components: o.Components, Threshold: o.Threshold, Normalize: o.Normalize}
-	if err := sh.Check(); err != nil {
+	if err := o.SharedOptions.Check(); err != nil {
 		return err
 	}
-	if err := o.Output.Check(); err != nil {
-		return err
+	if o.Stage != "" && o.Differences {
+		return jobkit.Usagef("--differences is not written by a staged run: run change in one process for differences.tif")
 	}
-	if err := o.checkStage(); err != nil {
-		return err
-	}
-	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = sh.Input, sh.Resampling, sh.Sample, sh.Threshold, sh.Normalize
 	return nil
 }
 
@@ -153,13 +125,11 @@ func (r *changeRun) open(ctx context.Context) error {
 	if err := o.check(); err != nil {
 		return err
 	}
-	c := &series.Config{Args: []string{o.Before, o.After}, Roles: []string{"BEFORE", "AFTER"},
-		Inputs:          []jobkit.Input{o.dateInput(o.BandsBefore).WithMasks(o.MaskBefore), o.dateInput(o.BandsAfter).WithMasks(o.MaskAfter)},
-		BandsChosen:     o.Input.Bands != nil || o.BandsBefore != nil || o.BandsAfter != nil,
-		IgnoreBandNames: o.IgnoreBandNames, Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components,
-		Threshold: o.Threshold, MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile,
-		Pairs: func(int) [][2]int { return [][2]int{{0, 1}} }, Out: o.Out, Overwrite: o.Overwrite,
-		Command: "change", Staging: o.Staging, Options: *o}
+	c := o.Config("change", *o)
+	c.Args, c.Roles = []string{o.Before, o.After}, []string{"BEFORE", "AFTER"}
+	c.Inputs = []jobkit.Input{o.dateInput(o.BandsBefore).WithMasks(o.MaskBefore), o.dateInput(o.BandsAfter).WithMasks(o.MaskAfter)}
+	c.BandsChosen = o.Input.Bands != nil || o.BandsBefore != nil || o.BandsAfter != nil
+	c.Pairs = func(int) [][2]int { return [][2]int{{0, 1}} }
 	var err error
 	for _, extra := range []output.Path{{Role: "basis", Path: o.Basis}, {Role: "reference", Path: o.Reference}} {
 		if extra.Path != "" {

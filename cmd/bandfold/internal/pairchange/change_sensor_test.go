@@ -83,7 +83,7 @@ func TestChangeNormalizesTwoSensors(t *testing.T) {
 	dir := t.TempDir()
 	before, after, ref, gains, offsets, ranges := sensorPair(t, dir)
 	out := filepath.Join(dir, "chg")
-	s := jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: before, After: after, Out: out, Reference: ref, MinArea: jobkit.MinArea{Px: 4}})
+	s := jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: before, After: after, Reference: ref, SharedOptions: series.SharedOptions{Out: out, MinArea: jobkit.MinArea{Px: 4}}})
 	n := s.Normalization
 	if n.Method != series.NormalizeStable || !n.Applied || len(n.Bands) != len(gains) || n.StablePixels < 1000 || !strings.Contains(n.Rule, "p-value >= 0.5") {
 		t.Fatalf("normalisation %+v", n)
@@ -152,7 +152,7 @@ func TestChangeNormalizesTwoSensors(t *testing.T) {
 	}
 
 	env, log := jobtest.LoggingEnv()
-	jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: before, After: after, Out: filepath.Join(dir, "raw"), MinArea: jobkit.MinArea{Px: 4}, Normalize: series.NormalizeNone})
+	jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: before, After: after, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "raw"), MinArea: jobkit.MinArea{Px: 4}, Normalize: series.NormalizeNone}})
 	if !strings.Contains(log.String(), "radiometrically incomparable") || !strings.Contains(log.String(), "--normalize stable") {
 		t.Errorf("--normalize none on two scales: no warning in %q", log.String())
 	}
@@ -191,7 +191,7 @@ func TestChangeThresholdWarnings(t *testing.T) {
 			t.Fatal(err)
 		}
 		env, log := jobtest.LoggingEnv()
-		s := jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, tc.rule), Threshold: th})
+		s := jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: a, After: b, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, tc.rule), Threshold: th}})
 		for _, w := range tc.want {
 			if !strings.Contains(log.String(), w) || len(s.Warnings) == 0 {
 				t.Errorf("%s: no warning %q in %q", tc.rule, w, log.String())

@@ -13,6 +13,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/jobtest"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/tiles"
 	"bandfold/transform/change"
@@ -38,7 +39,7 @@ func TestChangeCalibrationOnUnchangedLandsat(t *testing.T) {
 	a, b := filepath.Join(dir, "a.tif"), filepath.Join(dir, "b.tif")
 	jobtest.NoisyCopy(t, a, 1, 0)
 	jobtest.NoisyCopy(t, b, 2, 3)
-	s := jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, "chg")})
+	s := jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: a, After: b, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "chg")}})
 	if s.ValidPixels != jobtest.LandsatPixels {
 		t.Errorf("valid pixels %d, want %d", s.ValidPixels, jobtest.LandsatPixels)
 	}
@@ -76,7 +77,7 @@ func TestChangeOnTheDemoScenario(t *testing.T) {
 	dir := t.TempDir()
 	f := jobtest.ScenarioFiles(t, dir, 512, 7)
 	out := filepath.Join(dir, "chg")
-	s := jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: out, Reference: f.Truth, MinArea: jobkit.MinArea{Px: 4}})
+	s := jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: f.After, Reference: f.Truth, SharedOptions: series.SharedOptions{Out: out, MinArea: jobkit.MinArea{Px: 4}}})
 	r := s.Reference
 	if r == nil || r.Recall == nil || r.FalseAlarmRate == nil {
 		t.Fatalf("no reference rates in the summary: %+v", r)
@@ -133,7 +134,7 @@ func TestChangeIsIdenticalForAnyWorkerCount(t *testing.T) {
 	runs := map[int]run{}
 	for _, w := range []int{1, 2, 7} {
 		out := filepath.Join(dir, fmt.Sprintf("w%d", w))
-		s := jobtest.RunChange(t, jobtest.WorkersEnv(w), pairchange.ChangeOptions{Before: f.Before, After: f.After, Out: out, Reference: f.Truth, MinArea: jobkit.MinArea{Px: 4}})
+		s := jobtest.RunChange(t, jobtest.WorkersEnv(w), pairchange.ChangeOptions{Before: f.Before, After: f.After, Reference: f.Truth, SharedOptions: series.SharedOptions{Out: out, MinArea: jobkit.MinArea{Px: 4}}})
 		_, z, valid := jobtest.ReadImage(t, filepath.Join(out, "magnitude.tif"), tiles.Tile{})
 		runs[w] = run{s, z, valid}
 	}
@@ -184,13 +185,14 @@ func TestChangeAlignAndNoCRS(t *testing.T) {
 	g.Width -= 5
 	g.GeoTransform[0] += 5 * g.GeoTransform[1]
 	jobtest.CopyWindow(t, f.After, cropped, g, 5, 0)
-	_, err = pairchange.Change(t.Context(), jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: cropped, Out: filepath.Join(dir, "no")})
+	_, err = pairchange.Change(t.Context(), jobtest.TestEnv, pairchange.ChangeOptions{Before: f.Before, After: cropped, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "no")}})
 	jobtest.WantError(t, "grids differ", err, false, "cropped.tif is not on the grid of", "pass --align to warp it onto that grid")
 	jobtest.MustNotExist(t, "grids differ", filepath.Join(dir, "no"))
 
 	env, log := jobtest.LoggingEnv()
-	sum := jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: f.Before, After: cropped, Align: true, Resampling: "nearest",
-		Out: filepath.Join(dir, "aligned"), Reference: f.Truth, MinArea: jobkit.MinArea{Px: 4}})
+	sum := jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: f.Before, After: cropped,
+		Reference: f.Truth, SharedOptions: series.SharedOptions{Align: true, Resampling: "nearest",
+			Out: filepath.Join(dir, "aligned"), MinArea: jobkit.MinArea{Px: 4}}})
 	// Truth of the scenario, known by construction, as on the same grid.
 	if !sum.Aligned || sum.Reference == nil || sum.Reference.Recall == nil || *sum.Reference.Recall < 0.9 {
 		t.Errorf("aligned change: aligned %v, reference %+v", sum.Aligned, sum.Reference)
@@ -218,7 +220,7 @@ func TestChangeAlignAndNoCRS(t *testing.T) {
 	bare(f.After, b)
 	env, log = jobtest.LoggingEnv()
 	bareOut := filepath.Join(dir, "bare")
-	sum = jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: a, After: b, Out: bareOut, MinArea: jobkit.MinArea{Px: 4}, Differences: true, PValues: true})
+	sum = jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: a, After: b, Differences: true, PValues: true, SharedOptions: series.SharedOptions{Out: bareOut, MinArea: jobkit.MinArea{Px: 4}}})
 	if !strings.Contains(log.String(), "no CRS: areas are given in pixels only") {
 		t.Errorf("no warning of the missing CRS: %q", log.String())
 	}
@@ -238,7 +240,7 @@ func TestChangeAlignAndNoCRS(t *testing.T) {
 		t.Errorf("no CRS: area %v m2 %v ha, pixels %d", sum.ChangedAreaM2, sum.ChangedAreaHa, sum.ChangedPixels)
 	}
 	// A minimum area on the ground needs a CRS.
-	_, err = pairchange.Change(t.Context(), jobtest.TestEnv, pairchange.ChangeOptions{Before: a, After: b, Out: filepath.Join(dir, "bare-ha"), MinArea: jobkit.MinArea{M2: 5000}})
+	_, err = pairchange.Change(t.Context(), jobtest.TestEnv, pairchange.ChangeOptions{Before: a, After: b, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "bare-ha"), MinArea: jobkit.MinArea{M2: 5000}}})
 	jobtest.WantError(t, "ground area without CRS", err, true, "needs a CRS", "px")
 	jobtest.MustNotExist(t, "ground area without CRS", filepath.Join(dir, "bare-ha"))
 }
@@ -249,7 +251,7 @@ func TestChangeOfIdenticalDates(t *testing.T) {
 	jobtest.NeedLandsat(t)
 	dir := t.TempDir()
 	env, log := jobtest.LoggingEnv()
-	s := jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Out: filepath.Join(dir, "same")})
+	s := jobtest.RunChange(t, env, pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Out: filepath.Join(dir, "same")}})
 	if !s.Identical || s.ChangedPixels != 0 || s.Patches != 0 || s.ValidPixels != jobtest.LandsatPixels || s.Threshold.Z != 0 || len(s.Location) != 0 {
 		t.Errorf("identical dates: %+v", s)
 	}
@@ -258,7 +260,7 @@ func TestChangeOfIdenticalDates(t *testing.T) {
 	}
 	// A given basis is used as it is, with its own k.
 	b, basis := jobtest.LearnLandsat(t, dir)
-	s = jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Basis: basis, Out: filepath.Join(dir, "given")})
+	s = jobtest.RunChange(t, jobtest.TestEnv, pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Basis: basis, Out: filepath.Join(dir, "given")}})
 	if s.Paths.Resolve(s.Basis) != basis || s.Components != b.Components || !s.Identical {
 		t.Errorf("given basis %s (k=%d): summary basis %q, %d components, identical %v", basis, b.Components, s.Basis, s.Components, s.Identical)
 	}
@@ -277,7 +279,7 @@ func TestChangeNoValidPixels(t *testing.T) {
 	}
 	jobtest.WriteRasterFile(t, zero, raster.Spec{Grid: s.Grid, Bands: 1, DataType: "Byte"}, make([]float64, 40*30))
 	out := filepath.Join(dir, "out")
-	res, err := pairchange.Change(t.Context(), jobtest.TestEnv, pairchange.ChangeOptions{Before: a, After: a, Out: out, MaskAfter: []raster.MaskRule{{Path: zero}}})
+	res, err := pairchange.Change(t.Context(), jobtest.TestEnv, pairchange.ChangeOptions{Before: a, After: a, MaskAfter: []raster.MaskRule{{Path: zero}}, SharedOptions: series.SharedOptions{Out: out}})
 	if res != nil {
 		t.Errorf("a result without valid pixels: %+v", res)
 	}
@@ -307,13 +309,13 @@ func TestChangeRefusals(t *testing.T) {
 		{"grids", pairchange.ChangeOptions{Before: jobtest.Landsat, After: small}, false, []string{"small.tif is not on the grid of", "pass --align"}},
 		{"reference grid", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Reference: small}, false, []string{"reference", "small.tif", "is not on the grid of the images"}},
 		{"preview bands", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, PreviewBands: []int{1, 2, 9}}, true, []string{"--preview-bands", "band 9 out of range", "6 bands"}},
-		{"resampling", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Resampling: "sinc"}, true, []string{`--resampling "sinc"`}},
-		{"sample", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Sample: 10}, true, []string{"--sample 10", "at least 100"}},
-		{"components", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Components: 7}, true, []string{"--components 7", "6 bands"}},
+		{"resampling", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Resampling: "sinc"}}, true, []string{`--resampling "sinc"`}},
+		{"sample", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Sample: 10}}, true, []string{"--sample 10", "at least 100"}},
+		{"components", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Components: 7}}, true, []string{"--components 7", "6 bands"}},
 		// Missing parent folders are made; a file in the way is refused.
-		{"out under a file", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Out: filepath.Join(small, "out")}, false, []string{"small.tif/out"}},
-		{"out is a file", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Out: small}, false, []string{"small.tif is a file, not a folder"}},
-		{"no output", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, Out: "-"}, true, []string{"no output folder"}},
+		{"out under a file", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Out: filepath.Join(small, "out")}}, false, []string{"small.tif/out"}},
+		{"out is a file", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Out: small}}, false, []string{"small.tif is a file, not a folder"}},
+		{"no output", pairchange.ChangeOptions{Before: jobtest.Landsat, After: jobtest.Landsat, SharedOptions: series.SharedOptions{Out: "-"}}, true, []string{"no output folder"}},
 	}
 	for _, tc := range tests {
 		o := tc.o

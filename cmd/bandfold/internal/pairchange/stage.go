@@ -20,17 +20,6 @@ func (p *pieceTile) Reset() {
 	*p = pieceTile{Z: p.Z[:0], PV: p.PV[:0], Flags: p.Flags[:0], Top: p.Top[:0]}
 }
 
-// checkStage refuses a stage or shard that cannot be right.
-func (o *ChangeOptions) checkStage() error {
-	if err := o.Staging.Check(); err != nil {
-		return err
-	}
-	if o.Stage != "" && o.Differences {
-		return jobkit.Usagef("--differences is not written by a staged run: run change in one process for differences.tif")
-	}
-	return nil
-}
-
 // ChangeStage runs the scan, fit or map stage of a staged change; the
 // finish stage is Change with Stage StageFinish.
 func ChangeStage(ctx context.Context, env jobkit.Env, o ChangeOptions) (*series.StageResult, error) {

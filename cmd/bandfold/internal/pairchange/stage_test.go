@@ -64,7 +64,7 @@ func TestStagedChangeEqualsSingleRun(t *testing.T) {
 			jobtest.NoisyCopy(t, pr.before, 1, 0)
 			jobtest.NoisyCopy(t, pr.after, 2, 3)
 		}
-		o := pairchange.ChangeOptions{Before: pr.before, After: pr.after, MinArea: jobkit.MinArea{Px: 4}, PValues: true, Input: jobkit.Input{Tile: 64}}
+		o := pairchange.ChangeOptions{Before: pr.before, After: pr.after, PValues: true, SharedOptions: series.SharedOptions{MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 64}}}
 		single := o
 		single.Out = filepath.Join(dir, pr.name+"-single")
 		want := jobtest.RunChange(t, jobtest.TestEnv, single)
@@ -89,7 +89,7 @@ func TestStagedChangeRefusals(t *testing.T) {
 	demo := jobtest.ScenarioFiles(t, dir, 128, 3)
 	after := filepath.Join(dir, "after.tif")
 	jobtest.CopyFile(t, demo.After, after)
-	base := pairchange.ChangeOptions{Before: demo.Before, After: after, Input: jobkit.Input{Tile: 32}}
+	base := pairchange.ChangeOptions{Before: demo.Before, After: after, SharedOptions: series.SharedOptions{Input: jobkit.Input{Tile: 32}}}
 	stage := func(o pairchange.ChangeOptions, st string, i, n int) error {
 		o.Stage, o.Shard = st, jobkit.Shard{I: i, N: n}
 		if st == series.StageFit {
@@ -183,7 +183,7 @@ func TestStagedPatchAcrossShardEdges(t *testing.T) {
 	jobtest.NoisyCopy(t, unchanged, 2, 0)
 	block := tiles.Tile{X: 120, Y: 120, W: 16, H: 16} // across the tile edges at 128
 	g := addBlock(t, unchanged, b, block, 400)
-	o := pairchange.ChangeOptions{Before: a, After: b, MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 64}}
+	o := pairchange.ChangeOptions{Before: a, After: b, SharedOptions: series.SharedOptions{MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 64}}}
 	single := o
 	single.Out = filepath.Join(dir, "single")
 	jobtest.RunChange(t, jobtest.TestEnv, single)

@@ -13,6 +13,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/jobtest"
 	"bandfold/cmd/bandfold/internal/pairchange"
+	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/tiles"
 	"bandfold/tiles/testenv"
@@ -93,14 +94,14 @@ func TestIntegerKernelGivesTheSameChange(t *testing.T) {
 	files := jobtest.ScenarioFiles(t, filepath.Join(dir, "scenario"), 96, 3)
 	l7 := landsatBands(t, "LE07_L1TP_195025_20010730_20170204_01_T1", "1", "2", "3", "4", "5", "7")
 	l8 := landsatBands(t, "LC08_L1TP_195025_20130707_20170503_01_T1", "2", "3", "4", "5", "6", "7")
-	var series []string
+	var dates []string
 	for i := range 3 {
 		f := filepath.Join(dir, fmt.Sprintf("date-201%d-07-01.tif", i))
 		if _, err := demo.Synth(t.Context(), jobtest.TestEnv, demo.SynthOptions{Bands: 5, Width: 90, Height: 70, Type: "uint16",
 			Block: 32, Interleave: "pixel", Out: f, Seed: uint64(20 + i)}); err != nil {
 			t.Fatal(err)
 		}
-		series = append(series, f)
+		dates = append(dates, f)
 	}
 	n := 0
 	out := func() string { n++; return filepath.Join(dir, fmt.Sprintf("out%d", n)) }
@@ -110,7 +111,7 @@ func TestIntegerKernelGivesTheSameChange(t *testing.T) {
 	}{{"scenario", files.Before, files.After}, {"Landsat 7 and 8", l7, l8}} {
 		change := func(integer bool, workers, tile int) (string, any) {
 			setIntegerKernel(t, integer)
-			o := pairchange.ChangeOptions{Before: pair.before, After: pair.after, Input: jobkit.Input{Tile: tile}, Out: out()}
+			o := pairchange.ChangeOptions{Before: pair.before, After: pair.after, SharedOptions: series.SharedOptions{Input: jobkit.Input{Tile: tile}, Out: out()}}
 			return o.Out, jobtest.RunChange(t, jobtest.WorkersEnv(workers), o)
 		}
 		for _, tile := range []int{0, 37} {
@@ -123,7 +124,7 @@ func TestIntegerKernelGivesTheSameChange(t *testing.T) {
 	}
 	tl := func(integer bool, workers, tile int) (string, any) {
 		setIntegerKernel(t, integer)
-		o := timeline.TimelineOptions{Scenes: series, Input: jobkit.Input{Tile: tile}, Out: out()}
+		o := timeline.TimelineOptions{Scenes: dates, SharedOptions: series.SharedOptions{Input: jobkit.Input{Tile: tile}, Out: out()}}
 		res, err := timeline.Timeline(t.Context(), jobtest.WorkersEnv(workers), o)
 		if err != nil {
 			t.Fatal(err)

@@ -71,14 +71,32 @@ type Config struct {
 // SharedOptions are the options of change and timeline that the engine
 // reads, checked and defaulted in one place.
 type SharedOptions struct {
-	Input      jobkit.Input
-	Out        string
+	Input jobkit.Input
+	// Out is the output folder.
+	Out string
+	// Align warps every other date onto the first's grid with Resampling
+	// when the grids differ.
 	Align      bool
 	Resampling string
-	Sample     int
+	// Basis, when set, is used instead of fitting one on the dates.
+	Basis      string
 	Components int
 	Threshold  change.Threshold
-	Normalize  string
+	MinArea    jobkit.MinArea
+	// Normalize is NormalizeStable (the default) or NormalizeNone.
+	Normalize string
+	Sample    int
+	// IgnoreBandNames compares the dates band for band even where their
+	// wavelengths differ.
+	IgnoreBandNames bool
+	// Output is the format and creation options of the rasters written.
+	Output jobkit.OutputFormat
+	// Overwrite replaces an earlier output; not recorded in stage files
+	// (stages may differ in it).
+	Overwrite bool `json:"-"`
+	// Staging is one stage of a staged run ("" runs them all in one
+	// process); not recorded in stage files.
+	Staging `json:"-"`
 }
 
 // Check refuses option values that cannot be right and fills defaults.
@@ -118,7 +136,22 @@ func (o *SharedOptions) Check() error {
 	if o.Align {
 		o.Input.Align, o.Input.Resampling = true, o.Resampling
 	}
+	if err := o.Output.Check(); err != nil {
+		return err
+	}
+	if err := o.Staging.Check(); err != nil {
+		return err
+	}
 	return o.Input.Check()
+}
+
+// Config is the engine's configuration of the shared options, for
+// command with options opts (recorded in a staged run's files); the
+// command adds its dates, their inputs and its pairs.
+func (o *SharedOptions) Config(command string, opts any) *Config {
+	return &Config{Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components, Threshold: o.Threshold,
+		MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile, IgnoreBandNames: o.IgnoreBandNames,
+		Out: o.Out, Overwrite: o.Overwrite, Command: command, Options: opts, Staging: o.Staging}
 }
 
 // Run is one run of the engine, a step per method.

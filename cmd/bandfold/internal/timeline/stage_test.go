@@ -45,7 +45,7 @@ func TestStagedTimelineEqualsSingleRun(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	o := timeline.TimelineOptions{Scenes: files.Dates, MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 48}}
+	o := timeline.TimelineOptions{Scenes: files.Dates, SharedOptions: series.SharedOptions{MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 48}}}
 	single := o
 	single.Out = filepath.Join(dir, "single")
 	want, err := timeline.Timeline(t.Context(), jobtest.TestEnv, single)
@@ -71,7 +71,7 @@ func TestStagedTimelineRefusals(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	base := timeline.TimelineOptions{Scenes: files.Dates, Input: jobkit.Input{Tile: 48}}
+	base := timeline.TimelineOptions{Scenes: files.Dates, SharedOptions: series.SharedOptions{Input: jobkit.Input{Tile: 48}}}
 	stage := func(o timeline.TimelineOptions, st string, n int) error {
 		o.Staging = series.Staging{Stage: st}
 		if st == series.StageScan || st == series.StageMap {

@@ -7,7 +7,6 @@ import (
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/raster/output"
-	"bandfold/transform/change"
 )
 
 // The values of --confirm.
@@ -20,41 +19,21 @@ const (
 type TimelineOptions struct {
 	// Scenes are the dates' stacks, at least 2, in any order.
 	Scenes []string
-	Input  jobkit.Input
+	// SharedOptions are the options change shares: the inputs' options,
+	// the output folder, --align (every scene onto the first's grid), the
+	// basis, the model's and the map's options, the stage.
+	series.SharedOptions
 	// Dates, when set, date the scenes in the order given (YYYY-MM-DD,
 	// YYYYMMDD or YYYY); otherwise metadata or the file names do.
 	Dates []string
-	// Out is the output folder.
-	Out string
-	// Align warps every scene onto the first's grid with Resampling when
-	// the grids differ.
-	Align      bool
-	Resampling string
-	// Basis, when set, is used instead of fitting one on all dates.
-	Basis      string
-	Components int
-	Threshold  change.Threshold
-	MinArea    jobkit.MinArea
-	// Normalize is NormalizeStable (the default) or NormalizeNone.
-	Normalize string
 	// Confirm is ConfirmLasting (the default) or ConfirmNone.
 	Confirm string
-	Sample  int
-	// Overwrite replaces an earlier output; not recorded in stage files
-	// (stages may differ in it).
-	Overwrite bool `json:"-"`
 	// SceneBands select each scene's own bands, in the order of Scenes
 	// (nil: Input.Bands for all).
 	SceneBands [][]int
 	// ReferenceDate is the date every date is normalised onto ("": the
 	// first).
-	ReferenceDate   string
-	IgnoreBandNames bool
-	// Output is the format and creation options of the rasters written.
-	Output jobkit.OutputFormat
-	// Staging is one stage of a staged run ("" runs them all in one
-	// process); not recorded in stage files.
-	series.Staging `json:"-"`
+	ReferenceDate string
 }
 
 // TimelineResult is timeline.json.
@@ -181,18 +160,9 @@ func (o *TimelineOptions) check() error {
 		return jobkit.Usagef("--confirm %q: want lasting or none", o.Confirm)
 	}
 	// The options Change shares are checked as Change checks them.
-	co := series.SharedOptions{Input: o.Input, Out: o.Out, Resampling: o.Resampling, Sample: o.Sample, Components: o.Components,
-		Threshold: o.Threshold, Normalize: o.Normalize, Align: o.Align}
-	if err := co.Check(); err != nil {
+	if err := o.SharedOptions.Check(); err != nil {
 		return err
 	}
-	if err := o.Output.Check(); err != nil {
-		return err
-	}
-	if err := o.Staging.Check(); err != nil {
-		return err
-	}
-	o.Input, o.Resampling, o.Sample, o.Threshold, o.Normalize = co.Input, co.Resampling, co.Sample, co.Threshold, co.Normalize
 	return nil
 }
 
@@ -254,11 +224,9 @@ func (r *timelineRun) open(ctx context.Context) error {
 	if err := o.check(); err != nil {
 		return err
 	}
-	c := &series.Config{Args: o.Scenes, Dates: o.Dates, RefDate: o.ReferenceDate, Chronological: true,
-		BandsChosen: o.Input.Bands != nil || o.SceneBands != nil, IgnoreBandNames: o.IgnoreBandNames,
-		Align: o.Align, Resampling: o.Resampling, Basis: o.Basis, Components: o.Components, Threshold: o.Threshold,
-		MinArea: o.MinArea, Normalize: o.Normalize, Sample: o.Sample, Tile: o.Input.Tile, Pairs: timelinePairs,
-		Out: o.Out, Overwrite: o.Overwrite, Command: "timeline", Staging: o.Staging, Options: *o}
+	c := o.Config("timeline", *o)
+	c.Args, c.Dates, c.RefDate, c.Chronological, c.Pairs = o.Scenes, o.Dates, o.ReferenceDate, true, timelinePairs
+	c.BandsChosen = o.Input.Bands != nil || o.SceneBands != nil
 	for i := range o.Scenes {
 		in := o.Input
 		if o.SceneBands != nil {
