@@ -14,20 +14,15 @@ import (
 	"bandfold/cmd/bandfold/internal/pairchange"
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
-	"bandfold/transform/change"
 )
 
 type changeFlags struct {
-	input        inputFlags
-	threshold    string
-	minArea      string
+	seriesFlags
 	previewBands string
 	maskBefore   []string
 	maskAfter    []string
 	bandsBefore  string
 	bandsAfter   string
-	format       string
-	stage        stageFlags
 	o            pairchange.ChangeOptions
 }
 
@@ -49,15 +44,10 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 			if err != nil {
 				return err
 			}
-			if o.Staging, err = fl.stage.staging(os.Getenv); err != nil {
+			if staged, err := g.runStaged(ctx, env, "change", o.Staging, func(ctx context.Context, env jobkit.Env) (*series.StageResult, error) {
+				return pairchange.ChangeStage(ctx, env, o)
+			}); staged {
 				return err
-			}
-			if !o.WritesFolder() {
-				res, err := pairchange.ChangeStage(ctx, env, o)
-				if err != nil {
-					return err
-				}
-				return g.stageDone("change", res)
 			}
 			res, err := pairchange.Change(ctx, env, o)
 			if err != nil {
@@ -68,30 +58,19 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 		}),
 	}
 	f := cmd.Flags()
-	fl.input.register(f, false)
 	o := &fl.o
+	fl.register(f, &o.SharedOptions, seriesHelp{command: "change", align: "warp AFTER onto BEFORE's grid with GDAL when the grids differ",
+		resampling: "resampling for --align: bilinear (the default), nearest (categorical data), cubic, cubicspline, lanczos, average, mode",
+		basis:      "basis to use instead of fitting one on both dates", sample: "pixels sampled to estimate the no-change distribution",
+		normalize: "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none"})
 	f.StringArrayVar(&fl.maskBefore, "mask-before", nil, "quality mask of the BEFORE date only, as --mask (repeatable)")
 	f.StringArrayVar(&fl.maskAfter, "mask-after", nil, "quality mask of the AFTER date only, on BEFORE's grid, as --mask (repeatable)")
 	f.StringVar(&fl.bandsBefore, "bands-before", "", "bands of BEFORE only, as --bands (for a change of sensor)")
 	f.StringVar(&fl.bandsAfter, "bands-after", "", "bands of AFTER only, as --bands; the same number as BEFORE's")
-	f.BoolVar(&fl.o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
-	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
-	f.BoolVar(&o.Align, "align", false, "warp AFTER onto BEFORE's grid with GDAL when the grids differ")
-	f.StringVar(&o.Resampling, "resampling", "", "resampling for --align: bilinear (the default), nearest (categorical data), cubic, cubicspline, lanczos, average, mode")
-	f.StringVarP(&o.Basis, "basis", "b", "", "basis to use instead of fitting one on both dates")
-	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
-	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
-	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
 	f.BoolVar(&o.Differences, "differences", false, "also write differences.tif (d - m per component)")
 	f.BoolVar(&o.PValues, "pvalues", false, "also write pvalue.tif (the no-change p-value of Z)")
 	f.StringVar(&o.Reference, "reference", "", "reference change data: a raster on the same grid (non-zero = changed) or a vector file of changed polygons")
 	f.StringVar(&fl.previewBands, "preview-bands", "", "three 1-based bands of AFTER for preview.png (default: the first three)")
-	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled to estimate the no-change distribution")
-	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous change output folder")
-	f.StringVar(&fl.format, "format", "gtiff", "raster format of the outputs: gtiff or cog (Cloud Optimized GeoTIFF, with overviews)")
-	f.StringArrayVar(&o.Output.CreationOptions, "co", nil, "GDAL creation option KEY=VALUE for the rasters written (repeatable)")
-	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of AFTER onto BEFORE: stable (orthogonal regression over stable pixels) or none")
-	fl.stage.register(f, "change")
 	cmd.MarkFlagRequired("out")
 	cli.MarkArgs(cmd, cli.InputImage)
 	cli.MarkInputs(f, cli.InputFile, "basis", "reference")
@@ -103,24 +82,12 @@ func changeCommand(g *globals, fl *changeFlags) *cobra.Command {
 func (fl *changeFlags) options(before, after string) (pairchange.ChangeOptions, error) {
 	o := fl.o
 	o.Before, o.After = before, after
+	if err := fl.shared(&o.SharedOptions, os.Getenv); err != nil {
+		return o, err
+	}
 	var err error
-	if o.Threshold, err = change.ParseThreshold(fl.threshold); err != nil {
-		return o, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
-	}
-	if o.MinArea, err = jobkit.ParseMinArea(fl.minArea); err != nil {
-		return o, err
-	}
-	if o.Normalize, err = series.ParseNormalize(o.Normalize); err != nil {
-		return o, err
-	}
-	if o.Output.Format, err = raster.ParseFormat(fl.format); err != nil {
-		return o, usagef("--format %q: want gtiff or cog", fl.format)
-	}
 	if o.PreviewBands, err = raster.ParseBands(fl.previewBands); err != nil || (fl.previewBands != "" && len(o.PreviewBands) != 3) {
 		return o, usagef("--preview-bands %q: want three band numbers such as 3,2,1", fl.previewBands)
-	}
-	if o.Input, err = fl.input.input(); err != nil {
-		return o, err
 	}
 	if o.MaskBefore, err = parseMasks("--mask-before", fl.maskBefore); err != nil {
 		return o, err

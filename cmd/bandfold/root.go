@@ -21,7 +21,6 @@ import (
 	"bandfold/bands/openblas"
 	"bandfold/cmd/bandfold/internal/cli"
 	"bandfold/cmd/bandfold/internal/jobkit"
-	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 )
 
@@ -240,35 +239,6 @@ func args(check cobra.PositionalArgs) cobra.PositionalArgs {
 
 // usagef is job.Usagef, for flag translation.
 var usagef = jobkit.Usagef
-
-// stageFlags are the flags of a staged run of change or timeline.
-type stageFlags struct {
-	stage, shard string
-	shardCount   int
-}
-
-func (f *stageFlags) register(fs *pflag.FlagSet, folder string) {
-	fs.StringVar(&f.stage, "stage", "", "run one stage of a staged run: scan (per shard), fit, map (per shard) or finish (writes the "+folder+" folder); default: all in one process")
-	fs.StringVar(&f.shard, "shard", "", `the shard of a scan or map stage ("I/N", or "auto" from a Slurm array or Kubernetes Indexed Job)`)
-	fs.IntVar(&f.shardCount, "shard-count", 0, "number of shards for --shard auto in a Kubernetes Indexed Job")
-}
-
-// staging reads the flags; getenv reads the scheduler's environment.
-func (f *stageFlags) staging(getenv func(string) string) (series.Staging, error) {
-	st := series.Staging{Stage: f.stage}
-	if f.shard == "" {
-		return st, nil
-	}
-	var err error
-	st.Shard, err = jobkit.ParseShard(f.shard, f.shardCount, getenv)
-	return st, err
-}
-
-// stageDone says what a stage wrote and prints its result.
-func (g *globals) stageDone(command string, res *series.StageResult) error {
-	g.info("%s --stage %s: wrote %s", command, res.Stage, res.File)
-	return g.emit(res)
-}
 
 // inputFlags are the input flags of a command (see cli.InputFlags).
 type inputFlags struct{ cli.InputFlags }

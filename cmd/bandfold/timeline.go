@@ -2,7 +2,6 @@ package main
 
 import (
 	"context"
-	"fmt"
 	"os"
 
 	"github.com/spf13/cobra"
@@ -12,17 +11,12 @@ import (
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/cmd/bandfold/internal/timeline"
 	"bandfold/raster"
-	"bandfold/transform/change"
 )
 
 type timelineFlags struct {
-	input      inputFlags
-	threshold  string
-	minArea    string
+	seriesFlags
 	dates      []string
 	sceneBands []string
-	format     string
-	stage      stageFlags
 	o          timeline.TimelineOptions
 }
 
@@ -42,15 +36,10 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 			if err != nil {
 				return err
 			}
-			if o.Staging, err = fl.stage.staging(os.Getenv); err != nil {
+			if staged, err := g.runStaged(ctx, env, "timeline", o.Staging, func(ctx context.Context, env jobkit.Env) (*series.StageResult, error) {
+				return timeline.TimelineStage(ctx, env, o)
+			}); staged {
 				return err
-			}
-			if !o.WritesFolder() {
-				res, err := timeline.TimelineStage(ctx, env, o)
-				if err != nil {
-					return err
-				}
-				return g.stageDone("timeline", res)
 			}
 			res, err := timeline.Timeline(ctx, env, o)
 			if err != nil {
@@ -63,26 +52,15 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 		}),
 	}
 	f := cmd.Flags()
-	fl.input.register(f, false)
 	o := &fl.o
-	f.StringVarP(&o.Out, "out", "o", "", "folder for the outputs")
+	fl.register(f, &o.SharedOptions, seriesHelp{command: "timeline", align: "warp every scene onto the first's grid with GDAL when the grids differ",
+		resampling: "resampling for --align (default bilinear)", basis: "basis to use instead of fitting one on all dates",
+		sample:    "pixels sampled per pair to estimate its no-change distribution",
+		normalize: "radiometric normalisation of every date onto the reference date: stable or none"})
 	f.StringSliceVar(&fl.dates, "dates", nil, "the scenes' dates in the order given (YYYY-MM-DD, YYYYMMDD or YYYY); default: metadata, else the file names")
-	f.BoolVar(&o.Align, "align", false, "warp every scene onto the first's grid with GDAL when the grids differ")
-	f.StringVar(&o.Resampling, "resampling", "", "resampling for --align (default bilinear)")
-	f.StringVarP(&o.Basis, "basis", "b", "", "basis to use instead of fitting one on all dates")
-	f.IntVarP(&o.Components, "components", "k", 0, "number of components (default: 99% of the pooled variance, at least 3)")
-	f.StringVar(&fl.threshold, "threshold", change.DefaultThreshold, "chisq:Q, sigma:N, otsu or value:Z")
-	f.StringVar(&fl.minArea, "min-area", "4px", "minimum mapping unit: a number with m2, ha, km2 or px; 0 turns it off")
-	f.StringVar(&fl.format, "format", "gtiff", "raster format of the outputs: gtiff or cog (Cloud Optimized GeoTIFF, with overviews)")
-	f.StringArrayVar(&o.Output.CreationOptions, "co", nil, "GDAL creation option KEY=VALUE for the rasters written (repeatable)")
-	f.StringVar(&o.Normalize, "normalize", series.NormalizeStable, "radiometric normalisation of every date onto the reference date: stable or none")
 	f.StringVar(&o.Confirm, "confirm", timeline.ConfirmLasting, "lasting (a flag must last and not be a return) or none (keep every flag)")
-	f.IntVar(&o.Sample, "sample", change.DefaultSampleSize, "pixels sampled per pair to estimate its no-change distribution")
-	f.BoolVar(&o.Overwrite, "overwrite", false, "replace a previous timeline output folder")
 	f.StringArrayVar(&fl.sceneBands, "scene-bands", nil, "bands of one scene, as --bands; give it once per scene, in the order of the scenes (for a change of sensor)")
 	f.StringVar(&o.ReferenceDate, "reference-date", "", "the date every date is normalised onto (default: the first)")
-	f.BoolVar(&o.IgnoreBandNames, "ignore-band-names", false, "compare the dates band for band even where their wavelengths differ")
-	fl.stage.register(f, "timeline")
 	cmd.MarkFlagRequired("out")
 	cli.MarkArgs(cmd, cli.InputImage)
 	cli.MarkInputs(f, cli.InputFile, "basis")
@@ -93,20 +71,7 @@ func timelineCommand(g *globals, fl *timelineFlags) *cobra.Command {
 func (fl *timelineFlags) options(scenes []string) (timeline.TimelineOptions, error) {
 	o := fl.o
 	o.Scenes, o.Dates = scenes, fl.dates
-	var err error
-	if o.Threshold, err = change.ParseThreshold(fl.threshold); err != nil {
-		return o, &jobkit.UsageError{Err: fmt.Errorf("--%w", err)}
-	}
-	if o.MinArea, err = jobkit.ParseMinArea(fl.minArea); err != nil {
-		return o, err
-	}
-	if o.Normalize, err = series.ParseNormalize(o.Normalize); err != nil {
-		return o, err
-	}
-	if o.Output.Format, err = raster.ParseFormat(fl.format); err != nil {
-		return o, usagef("--format %q: want gtiff or cog", fl.format)
-	}
-	if o.Input, err = fl.input.input(); err != nil {
+	if err := fl.shared(&o.SharedOptions, os.Getenv); err != nil {
 		return o, err
 	}
 	for i, spec := range fl.sceneBands {
