@@ -20,55 +20,38 @@ var SummaryDoc = jobkit.Document{Format: "bandfold-change-summary", Version: 2}
 // ChangeResult is summary.json ("format": "bandfold-change-summary").
 type ChangeResult struct {
 	jobkit.Document
-	// Paths is how the document records paths: relative to the change
-	// folder (Resolve gives them back from the working directory).
-	Paths jobkit.DocPaths `json:"-"`
-	// Before, After, Basis (when a file), Reference.File and Outputs are
-	// relative to the change folder; URLs and /vsi paths as given.
+	// FolderSummary is what the summary says of the run as a whole
+	// (paths relative to the change folder; changed pixels are those
+	// flagged after the minimum mapping unit).
+	series.FolderSummary
+	// Before, After and Reference.File are relative to the change folder;
+	// URLs and /vsi paths as given.
 	Before string `json:"before"`
 	After  string `json:"after"`
 	// BeforeLabel and AfterLabel name the dates' stacks for people.
-	BeforeLabel   string   `json:"before_label"`
-	AfterLabel    string   `json:"after_label"`
-	ValidPixels   int64    `json:"valid_pixels"`
-	ChangedPixels int64    `json:"changed_pixels"`
-	ChangedAreaM2 *float64 `json:"changed_area_m2"`
-	ChangedAreaHa *float64 `json:"changed_area_ha"`
-	ChangedFrac   float64  `json:"changed_fraction"`
+	BeforeLabel string  `json:"before_label"`
+	AfterLabel  string  `json:"after_label"`
+	ChangedFrac float64 `json:"changed_fraction"`
 	// ValidAreaM2 and ValidAreaHa are the ground area of the pixels valid
 	// on both dates; null without a CRS.
 	ValidAreaM2 *float64                `json:"valid_area_m2"`
 	ValidAreaHa *float64                `json:"valid_area_ha"`
 	Threshold   series.ThresholdSummary `json:"threshold"`
-	Components  int                     `json:"components"`
 	Location    []float64               `json:"location"`
 	Covariance  [][]float64             `json:"covariance"`
 	Iterations  int                     `json:"iterations"`
 	Converged   bool                    `json:"converged"`
 	// Identical is set when the dates do not differ at all over the valid
 	// pixels: no change is mapped and no model is fitted.
-	Identical     bool   `json:"identical"`
-	SamplePixels  int    `json:"sample_pixels"`
-	MinAreaPixels int    `json:"min_area_pixels"`
-	Patches       int    `json:"patches"`
-	Basis         string `json:"basis"`
-	Aligned       bool   `json:"aligned"`
+	Identical    bool `json:"identical"`
+	SamplePixels int  `json:"sample_pixels"`
 	// BeforeDate and AfterDate are the dates' dates and where each came
-	// from; BandMatch says how the bands were matched when the dates'
-	// bands differed ("" when compared as given).
+	// from.
 	BeforeDate    string                      `json:"before_date"`
 	AfterDate     string                      `json:"after_date"`
 	DateSource    []string                    `json:"date_sources"`
-	BandMatch     string                      `json:"band_match,omitempty"`
 	Reference     *ChangeAccuracy             `json:"reference,omitempty"`
 	Normalization series.NormalizationSummary `json:"normalization"`
-	// Scenario is the SCENARIO tag of invented input data.
-	Scenario string `json:"scenario,omitempty"`
-	// Warnings repeats the warnings printed on stderr about the map.
-	Warnings []string `json:"warnings"`
-	Outputs  []string `json:"outputs"`
-	AreaNote string   `json:"area_note"`
-	Caution  string   `json:"caution"`
 }
 
 // ChangeAccuracy compares the map with reference data over the pixels valid

@@ -181,13 +181,11 @@ func (r *changeRun) sieve(ctx context.Context) error {
 	}
 	o := r.o
 	norm := r.NormSums[1]
-	paths := jobkit.DocPaths{Dir: r.Dir.Final()}
-	r.sum = &changefolder.ChangeResult{Document: changefolder.SummaryDoc, Paths: paths, Before: paths.Input(o.Before), After: paths.Input(o.After), BeforeLabel: r.LabelIn(0), AfterLabel: r.LabelIn(1), Threshold: r.thresholdSummary(),
-		Components: r.Proj.Components(), MinAreaPixels: r.MinPixels, Basis: r.BasisIn(paths), Aligned: r.Aligned,
-		Identical: r.identical, Caution: jobkit.Caution, Location: []float64{}, Covariance: [][]float64{},
-		Normalization: norm, Warnings: jobkit.Strings(r.Warnings), Scenario: r.before.Metadata["SCENARIO"],
-		BeforeDate: r.Dates[0].Label, AfterDate: r.Dates[1].Label, DateSource: []string{r.Dates[0].Source, r.Dates[1].Source}, BandMatch: r.Matched,
-		AreaNote: "mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change"}
+	r.sum = &changefolder.ChangeResult{Document: changefolder.SummaryDoc, BeforeLabel: r.LabelIn(0), AfterLabel: r.LabelIn(1), Threshold: r.thresholdSummary(),
+		Identical: r.identical, Location: []float64{}, Covariance: [][]float64{}, Normalization: norm,
+		BeforeDate: r.Dates[0].Label, AfterDate: r.Dates[1].Label, DateSource: []string{r.Dates[0].Source, r.Dates[1].Source},
+		FolderSummary: r.FolderSummary("mapped area of change (pixels flagged after the minimum mapping unit), not an estimate of the true area of change")}
+	r.sum.Before, r.sum.After = r.sum.Paths.Input(o.Before), r.sum.Paths.Input(o.After)
 	if r.identical {
 		r.sum.Converged = true
 		return nil

@@ -77,11 +77,9 @@ func (r *changeRun) changeMap(ctx context.Context) error {
 	if sum.ValidPixels > 0 {
 		sum.ChangedFrac = float64(sum.ChangedPixels) / float64(sum.ValidPixels)
 	}
+	sum.SetChangedArea(r.Run, area)
 	if r.Areas != nil {
-		ha := area / 1e4
-		sum.ChangedAreaM2, sum.ChangedAreaHa = &area, &ha
-		vha := validArea / 1e4
-		sum.ValidAreaM2, sum.ValidAreaHa = &validArea, &vha
+		sum.ValidAreaM2, sum.ValidAreaHa = jobkit.Ptr(validArea), jobkit.Ptr(validArea/1e4)
 	}
 	if r.ref != nil {
 		sum.Reference = &changefolder.ChangeAccuracy{File: sum.Paths.Input(r.o.Reference), Confusion: conf, Rates: conf.Rates()}

@@ -39,35 +39,18 @@ type TimelineOptions struct {
 // TimelineResult is timeline.json.
 type TimelineResult struct {
 	jobkit.Document
-	// Paths is how the document records paths: relative to the timeline
-	// folder (scenes' paths, a --basis file, outputs).
-	Paths  jobkit.DocPaths `json:"-"`
-	Scenes []TimelineScene `json:"scenes"`
-	// ValidPixels are the pixels valid on at least one step.
-	ValidPixels int64 `json:"valid_pixels"`
-	// ChangedPixels have at least one lasting change.
-	ChangedPixels int64    `json:"changed_pixels"`
-	ChangedAreaM2 *float64 `json:"changed_area_m2"`
-	ChangedAreaHa *float64 `json:"changed_area_ha"`
-	Components    int      `json:"components"`
-	Basis         string   `json:"basis"`
-	Threshold     string   `json:"threshold"`
-	MinAreaPixels int      `json:"min_area_pixels"`
-	Normalize     string   `json:"normalize"`
-	Confirm       string   `json:"confirm"`
-	Aligned       bool     `json:"aligned"`
+	// FolderSummary is what the summary says of the run as a whole
+	// (paths relative to the timeline folder; valid pixels are those
+	// valid on at least one step, changed pixels those with at least one
+	// lasting change).
+	series.FolderSummary
+	Scenes    []TimelineScene `json:"scenes"`
+	Threshold string          `json:"threshold"`
+	Normalize string          `json:"normalize"`
+	Confirm   string          `json:"confirm"`
 	// ReferenceDate is the date every date was normalised onto.
-	ReferenceDate string `json:"reference_date"`
-	// BandMatch says how the bands were matched when the dates' bands
-	// differed ("" when compared as given).
-	BandMatch string         `json:"band_match,omitempty"`
-	Steps     []TimelineStep `json:"steps"`
-	Patches   int            `json:"patches"`
-	Scenario  string         `json:"scenario,omitempty"`
-	Warnings  []string       `json:"warnings"`
-	Outputs   []string       `json:"outputs"`
-	AreaNote  string         `json:"area_note"`
-	Caution   string         `json:"caution"`
+	ReferenceDate string         `json:"reference_date"`
+	Steps         []TimelineStep `json:"steps"`
 }
 
 // TimelineScene is one date of the series.

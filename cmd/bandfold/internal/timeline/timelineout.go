@@ -85,18 +85,11 @@ var SummaryDoc = jobkit.Document{Format: "bandfold-timeline-summary", Version: 2
 
 // result fills timeline.json's content.
 func (r *timelineRun) result() {
-	paths := jobkit.DocPaths{Dir: r.Dir.Final()}
-	s := &TimelineResult{Document: SummaryDoc, Paths: paths, Components: r.Proj.Components(), Basis: r.BasisIn(paths), Threshold: r.o.Threshold.String(),
-		MinAreaPixels: r.MinPixels, Normalize: r.o.Normalize, Confirm: r.o.Confirm, Aligned: r.Aligned, ReferenceDate: r.Dates[r.Ref].Label, BandMatch: r.Matched,
-		Scenario: r.Scenes[0].Metadata["SCENARIO"], Warnings: jobkit.Strings(r.Warnings), Caution: jobkit.Caution, Outputs: []string{},
-		AreaNote: "mapped areas (pixels flagged after the minimum mapping unit), not estimates of the true area of change"}
-	if s.Warnings == nil {
-		s.Warnings = []string{}
-	}
+	s := &TimelineResult{Document: SummaryDoc, Threshold: r.o.Threshold.String(), Normalize: r.o.Normalize, Confirm: r.o.Confirm, ReferenceDate: r.Dates[r.Ref].Label,
+		FolderSummary: r.FolderSummary("mapped areas (pixels flagged after the minimum mapping unit), not estimates of the true area of change")}
 	s.ValidPixels, s.ChangedPixels = r.totalValid, r.totalChanged
-	if r.Areas != nil {
-		s.ChangedAreaM2, s.ChangedAreaHa = jobkit.Ptr(r.changedArea), jobkit.Ptr(r.changedArea/1e4)
-	}
+	s.SetChangedArea(r.Run, r.changedArea)
+	paths := s.Paths
 	for i := range r.Scenes {
 		s.Scenes = append(s.Scenes, TimelineScene{Path: paths.Input(r.Args[i]), Label: r.LabelIn(i), Date: r.label(i), DateSource: r.Dates[i].Source, Normalization: r.NormSums[i]})
 	}
