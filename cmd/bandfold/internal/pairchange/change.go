@@ -65,15 +65,7 @@ func Change(ctx context.Context, env jobkit.Env, o ChangeOptions) (_ *changefold
 }
 
 // check refuses option values that cannot be right.
-func (o *ChangeOptions) check() error {
-	if err := o.SharedOptions.Check(); err != nil {
-		return err
-	}
-	if o.Stage != "" && o.Differences {
-		return jobkit.Usagef("--differences is not written by a staged run: run change in one process for differences.tif")
-	}
-	return nil
-}
+func (o *ChangeOptions) check() error { return o.SharedOptions.Check() }
 
 // dateInput is Input with one date's own band selection, if any.
 func (o *ChangeOptions) dateInput(bands []int) jobkit.Input {

@@ -3,6 +3,7 @@ package pairchange
 import (
 	"context"
 	"fmt"
+	"math"
 
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/series"
@@ -10,14 +11,16 @@ import (
 )
 
 // pieceTile is one tile of a map piece: Z (and the p-values, with
-// --pvalues) as float32 bits, the raw flags and the top component.
+// --pvalues) as float32 bits, the score differences (with --differences)
+// as float64 bits, the raw flags and the top component.
 type pieceTile struct {
 	Z, PV      []uint32
+	D          []uint64
 	Flags, Top []uint8
 }
 
 func (p *pieceTile) Reset() {
-	*p = pieceTile{Z: p.Z[:0], PV: p.PV[:0], Flags: p.Flags[:0], Top: p.Top[:0]}
+	*p = pieceTile{Z: p.Z[:0], PV: p.PV[:0], D: p.D[:0], Flags: p.Flags[:0], Top: p.Top[:0]}
 }
 
 // ChangeStage runs the scan, fit or map stage of a staged change; the
@@ -36,12 +39,16 @@ func ChangeStage(ctx context.Context, env jobkit.Env, o ChangeOptions) (*series.
 func (r *changeRun) mapShard(ctx context.Context) error {
 	k := r.Proj.Components()
 	var rec pieceTile
-	return r.MapPiece(ctx, func() series.TileHook { return &changeHook{k: k, pvals: r.o.PValues} },
+	return r.MapPiece(ctx, func() series.TileHook { return &changeHook{k: k, pvals: r.o.PValues, diffs: r.o.Differences} },
 		func(_ tiles.Tile, pt *series.PairTile) any {
 			mt := pt.Extra.(*mapTile)
 			rec.Z, rec.PV = jobkit.Grow(rec.Z, len(mt.z32)), jobkit.Grow(rec.PV, len(mt.pv32))
 			series.Float32Bits(rec.Z, mt.z32)
 			series.Float32Bits(rec.PV, mt.pv32)
+			rec.D = rec.D[:0]
+			for _, v := range mt.diffs {
+				rec.D = append(rec.D, math.Float64bits(v))
+			}
 			rec.Flags, rec.Top = pt.Flags[0], pt.Top[0]
 			return &rec
 		})
@@ -71,6 +78,16 @@ func (r *changeRun) joinPieces(ctx context.Context) error {
 			}
 			mt.pv32 = jobkit.Grow(mt.pv32, px)
 			series.Float32s(mt.pv32, rec.PV)
+		}
+		if outs.diffs != nil {
+			k := r.Proj.Components()
+			if len(rec.D) != px*k {
+				return fmt.Errorf("%s has no score differences: its map stage ran without --differences", what)
+			}
+			mt.diffs = jobkit.Grow(mt.diffs, px*k)
+			for j, b := range rec.D {
+				mt.diffs[j] = math.Float64frombits(b)
+			}
 		}
 		if err := outs.write(t, &mt); err != nil {
 			return err

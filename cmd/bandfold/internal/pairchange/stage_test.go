@@ -34,11 +34,12 @@ func runStaged(t *testing.T, env jobkit.Env, o pairchange.ChangeOptions, n int) 
 }
 
 // sameFolder compares a staged run's change folder with a single run's
-// (jobtest.SameFolder): change.tif and magnitude.tif byte for byte, the
-// summaries, the patches and the mapped area.
+// (jobtest.SameFolder): change.tif, magnitude.tif, pvalue.tif and
+// differences.tif byte for byte, the summaries, the patches and the mapped
+// area.
 func sameFolder(t *testing.T, name, single, staged string, a, b *changefolder.ChangeResult) {
 	t.Helper()
-	jobtest.SameFolder(t, name, single, staged, []string{"change.tif", "magnitude.tif"}, a, b)
+	jobtest.SameFolder(t, name, single, staged, []string{"change.tif", "magnitude.tif", "pvalue.tif", "differences.tif"}, a, b)
 	if a.Patches != b.Patches || a.ChangedPixels != b.ChangedPixels || !reflect.DeepEqual(a.ChangedAreaM2, b.ChangedAreaM2) {
 		t.Errorf("%s: %d patches, %d pixels changed; the single run's %d, %d", name, b.Patches, b.ChangedPixels, a.Patches, a.ChangedPixels)
 	}
@@ -46,8 +47,9 @@ func sameFolder(t *testing.T, name, single, staged string, a, b *changefolder.Ch
 
 // TestStagedChangeEqualsSingleRun: on the demo pair and on a pair of
 // noisy copies of the real Landsat 7 subset, a staged run of 1, 2, 3 and 7
-// shards writes what a single run writes, with 1 or 2 workers (known by
-// construction: exact sums, a mergeable sample and the same fit).
+// shards writes what a single run writes, --pvalues and --differences
+// included, with 1 or 2 workers (known by construction: exact sums, a
+// mergeable sample and the same fit).
 func TestStagedChangeEqualsSingleRun(t *testing.T) {
 	dir := t.TempDir()
 	demo := jobtest.ScenarioFiles(t, dir, 256, 7)
@@ -64,7 +66,7 @@ func TestStagedChangeEqualsSingleRun(t *testing.T) {
 			jobtest.NoisyCopy(t, pr.before, 1, 0)
 			jobtest.NoisyCopy(t, pr.after, 2, 3)
 		}
-		o := pairchange.ChangeOptions{Before: pr.before, After: pr.after, PValues: true, SharedOptions: series.SharedOptions{MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 64}}}
+		o := pairchange.ChangeOptions{Before: pr.before, After: pr.after, PValues: true, Differences: true, SharedOptions: series.SharedOptions{MinArea: jobkit.MinArea{Px: 4}, Input: jobkit.Input{Tile: 64}}}
 		single := o
 		single.Out = filepath.Join(dir, pr.name+"-single")
 		want := jobtest.RunChange(t, jobtest.TestEnv, single)
