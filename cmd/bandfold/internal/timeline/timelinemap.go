@@ -85,19 +85,18 @@ func (h *timelineHook) Done(t tiles.Tile, pt *series.PairTile) {
 }
 
 // mapPixels computes every pair's change statistic in one pass over the
-// tiles: each step's raw flags and top components into its mask, its Z
-// into a scratch raster for the patches, the largest Z into
-// max-magnitude.tif, and the skips' verdicts into the confirmation bits.
+// tiles: each step's raw flags and top components into its mask, whose
+// marks say which flags the skips confirm, its Z into a scratch raster for
+// the patches, and the largest Z into max-magnitude.tif. The masks are
+// files: memory grows neither with the region nor with the steps.
 func (r *timelineRun) mapPixels(ctx context.Context) error {
 	S, g := r.steps(), r.Scenes[0].Grid
 	for q := range S {
-		// On disk: the maps of every step stay out of memory.
 		m, err := raster.NewMaskFile(g, r.Dir.Path(fmt.Sprintf("step-%d-map.tif", q+1)))
 		if err != nil {
 			return err
 		}
 		r.masks = append(r.masks, m)
-		r.confirm = append(r.confirm, make([]uint64, (g.Width*g.Height+63)/64))
 	}
 	r.valid = make([]int64, S)
 	md := r.metadata()
@@ -106,9 +105,10 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 		zdesc[q] = fmt.Sprintf("change statistic Z, %s to %s", r.label(q), r.label(q+1))
 	}
 	r.scratch = r.Dir.Path("step-z.tif")
-	// Scratch, read once for the patches: not worth compressing.
+	// Scratch, read once for the patches: not worth compressing; one band
+	// at a time, as the steps' Z are written and read.
 	zs, err := raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &series.Nan, Descriptions: zdesc, Metadata: md,
-		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1"}})
+		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1", "INTERLEAVE=BAND"}})
 	if err != nil {
 		return err
 	}
@@ -120,36 +120,8 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 		return err
 	}
 	defer mag.Abort()
-	var zbuf, mbuf []float64
-	err = r.MapPairs(ctx, series.MapHooks{
-		NewWorker: func() series.TileHook { return &timelineHook{steps: S} },
-		Deliver: func(t tiles.Tile, pt *series.PairTile) error {
-			st := pt.Extra.(*stepTile)
-			n := t.Pixels()
-			zbuf, mbuf = jobkit.Grow(zbuf, n*S), jobkit.Grow(mbuf, 2*n)
-			for q := range S {
-				if err := r.masks[q].Write(t.X, t.Y, t.W, t.H, pt.Flags[q], pt.Top[q]); err != nil {
-					return err
-				}
-				for i := range n {
-					zbuf[i*S+q] = float64(st.z[q][i])
-					if pt.Flags[q][i] != 255 {
-						r.valid[q]++
-					}
-					if r.confirmed(pt, q, i) {
-						bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
-						r.confirm[q][bit/64] |= 1 << (bit % 64)
-					}
-				}
-			}
-			for i := range n {
-				mbuf[2*i], mbuf[2*i+1] = float64(st.zmax[i]), float64(st.argmax[i])
-			}
-			if err := zs.Write(t, zbuf); err != nil {
-				return err
-			}
-			return mag.Write(t, mbuf)
-		}})
+	w := &stepWriter{r: r, zs: zs, mag: mag}
+	err = r.MapPairs(ctx, series.MapHooks{NewWorker: func() series.TileHook { return &timelineHook{steps: S} }, Deliver: w.deliver})
 	if err != nil {
 		return err
 	}
@@ -158,6 +130,45 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 	}
 	r.outputs = append(r.outputs, "max-magnitude.tif")
 	return mag.Commit()
+}
+
+// stepWriter writes the tiles of the map pass, in tile order.
+type stepWriter struct {
+	r       *timelineRun
+	zs, mag *raster.Output
+	marks   []uint8
+	mbuf    []float64
+}
+
+// deliver writes a tile: each step's flags, top components and marks into
+// its mask and its Z into the scratch raster, and the largest Z.
+func (w *stepWriter) deliver(t tiles.Tile, pt *series.PairTile) error {
+	r, st, n := w.r, pt.Extra.(*stepTile), t.Pixels()
+	w.marks, w.mbuf = jobkit.Grow(w.marks, n), jobkit.Grow(w.mbuf, 2*n)
+	for q, m := range r.masks {
+		if err := m.Write(t.X, t.Y, t.W, t.H, pt.Flags[q], pt.Top[q]); err != nil {
+			return err
+		}
+		for i := range n {
+			if pt.Flags[q][i] != 255 {
+				r.valid[q]++
+			}
+			w.marks[i] = 0
+			if r.confirmed(pt, q, i) {
+				w.marks[i] = 1
+			}
+		}
+		if err := m.WriteMarks(t.X, t.Y, t.W, t.H, w.marks); err != nil {
+			return err
+		}
+		if err := w.zs.WriteBand(q, t, st.z[q]); err != nil {
+			return err
+		}
+	}
+	for i := range n {
+		w.mbuf[2*i], w.mbuf[2*i+1] = float64(st.zmax[i]), float64(st.argmax[i])
+	}
+	return w.mag.Write(t, w.mbuf)
 }
 
 // confirmed reports whether the skips confirm a flag of step q (dates q and
