@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"iter"
+	"sync"
 
 	"bandfold/tiles"
 )
@@ -54,11 +55,28 @@ func (s *Stack) NewInt16Reader(depth int) (*Int16Reader, error) {
 	return ir, nil
 }
 
+// int16Buffers holds the buffers of the tiles handed back to any
+// Int16Reader, for the next read of any: a worker that reads many dates in
+// turn, one reader each, holds the buffers of the tiles it uses rather than
+// one per reader (on ten 7-band dates in 512 x 512 tiles, 35 MiB less for
+// each worker).
+var int16Buffers sync.Pool // of *int16Buffer
+
+type int16Buffer struct {
+	x     []int16
+	valid []bool
+}
+
 // fetch reads window t into it (a new tile when nil), on the prefetch
-// goroutine.
+// goroutine, in buffers handed back by any reader where there are some.
 func (ir *Int16Reader) fetch(t tiles.Tile, it *Int16Tile) (*Int16Tile, error) {
 	if it == nil {
 		it = &Int16Tile{Shift: ir.shift}
+	}
+	if it.X == nil {
+		if b, ok := int16Buffers.Get().(*int16Buffer); ok {
+			it.X, it.Valid = b.x, b.valid
+		}
 	}
 	n := t.Pixels()
 	it.Tile, it.X, it.Valid = t, grow(it.X, n*len(ir.shift)), grow(it.Valid, n)
@@ -87,12 +105,17 @@ func (ir *Int16Reader) Read(ctx context.Context, t tiles.Tile) (*Int16Tile, erro
 	return it, nil
 }
 
-// Release hands a tile back to the reader for a later read to reuse; nil
-// is ignored.
+// Release hands a tile back to the reader for a later read to reuse, its
+// buffers to any reader's; nil is ignored.
 func (ir *Int16Reader) Release(it *Int16Tile) {
-	if it != nil {
-		ir.pf.Release(it)
+	if it == nil {
+		return
 	}
+	if it.X != nil {
+		int16Buffers.Put(&int16Buffer{it.X, it.Valid})
+		it.X, it.Valid = nil, nil
+	}
+	ir.pf.Release(it)
 }
 
 // Tiles reads the windows ts in order, each asked for depth windows before

@@ -7,7 +7,8 @@
 # cannot avoid), and the commands a job replaces.
 #
 #   bash scripts/bench.sh          the cubes of the targets (about 15 minutes)
-#   bash scripts/bench.sh large    make bench-large: learn on a 7.5 GB cube
+#   bash scripts/bench.sh large    make bench-large: learn on a 7.5 GB cube, and
+#                                  change over a 21,960 x 21,960 region in stages
 #
 # Each bandfold figure is the fastest of BENCH_REPEAT runs (default 3) with
 # its peak resident memory; figures go to stdout and bench-out/results.txt.
@@ -78,6 +79,48 @@ intkernel() {
 }
 ratio() { awk -v a="$1" -v b="$2" 'BEGIN { printf "%.2f", a / b }'; }
 maxof() { awk -v a="$1" -v b="$2" 'BEGIN { print (a > b) ? a : b }'; }
+# staged_once DIR N LINES BEFORE AFTER [OPTIONS...]: every stage of a change
+# in N shards into DIR, one after another (scan x N, fit, map x N, finish);
+# writes a line per stage (wall, peak) into the file LINES and prints
+# "total-wall map-peak all-peak".
+staged_once() {
+	local dir=$1 n=$2 lines=$3 total=0 mapmax=0 allmax=0 w r st i shard
+	shift 3
+	rm -rf "$dir" "$dir.stages"
+	: >"$lines"
+	for st in scan fit map finish; do
+		for i in $(seq 0 $((n - 1))); do
+			shard=(--shard "$i/$n")
+			[ "$st" = scan ] || [ "$st" = map ] || { shard=(); [ "$i" = 0 ] || break; }
+			read -r w r < <(once $B change "$@" --out "$dir" --stage "$st" "${shard[@]}" --quiet)
+			[ -n "$w" ] || return 1
+			printf '   %-49s %8.2f s %8s MiB\n' "--stage $st ${shard[*]}" "$w" "$r" >>"$lines"
+			total=$(awk -v a="$total" -v b="$w" 'BEGIN { print a + b }')
+			[ "$st" = map ] && [ "$r" -gt "$mapmax" ] && mapmax=$r
+			[ "$r" -gt "$allmax" ] && allmax=$r
+		done
+	done
+	echo "$total $mapmax $allmax"
+}
+# staged LABEL DIR N BEFORE AFTER [OPTIONS...]: the fastest of REPEAT
+# staged runs (staged_once) and the largest peaks; prints its stages and
+# the total, and "total-wall map-peak all-peak" on stdout.
+staged() {
+	local label=$1 dir=$2 n=$3 best="" mapmax=0 allmax=0 t m a i lines
+	shift 3
+	lines=$(mktemp)
+	for i in $(seq "$REPEAT"); do
+		read -r t m a < <(staged_once "$dir" "$n" "$lines.run" "$@")
+		[ -n "$t" ] || { rm -f "$lines" "$lines.run"; return 1; }
+		if [ -z "$best" ] || awk -v a="$t" -v b="$best" 'BEGIN{exit !(a<b)}'; then best=$t; mv "$lines.run" "$lines"; fi
+		[ "$m" -gt "$mapmax" ] && mapmax=$m
+		[ "$a" -gt "$allmax" ] && allmax=$a
+	done
+	tee -a "$RES" <"$lines" >&2
+	printf '%-52s %8.2f s %8s MiB\n' "$label (all stages)" "$best" "$allmax" | tee -a "$RES" >&2
+	rm -f "$lines" "$lines.run"
+	echo "$best $mapmax $allmax"
+}
 # The in-memory baseline runs with the OpenBLAS settings that older releases
 # needed on some processors removed from its environment alone.
 numpy=(env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE)
@@ -120,6 +163,19 @@ if [ "${1:-}" = large ]; then
 	say "== learn on a cube larger than memory allows in-memory: 224 bands x 4096 x 4096 Int16, $(du -h "$cube" | cut -f1) (target: <= 1.3x the floor, peak <= 256 MiB)"
 	awk 'BEGIN { n = 4096 * 4096; p = 224; printf "   the in-memory approach would need %.0f GiB for one float64 copy of the pixels (p x n x 8 bytes) and %.0f GiB with numpy.cov'"'"'s centred copy: not run\n", p*n*8/2^30, 2*p*n*8/2^30 }' | tee -a "$RES"
 	REPEAT=1 learn_vs large "$cube" 224 $((4096 * 4096))
+
+	# Four Sentinel-2 tiles' worth of pixels (2 x 2 tiles of 10,980), 4
+	# bands, two dates, each 3.9 GB.
+	side=21960
+	mkdir -p "$OUT/region"
+	for d in before:1 after:2; do
+		f=$OUT/region/${d%:*}.tif
+		[ -f "$f" ] || $B demo synth --bands 4 --width $side --height $side --type uint16 --block 512 --seed "${d#*:}" --out "$f" --quiet
+	done
+	say "== change over a region of $side x $side pixels, 4 bands, two dates, in 4 shards one after another (target: no stage above 1 GiB peak)"
+	read -r ts _ ps < <(REPEAT=1 staged "bandfold change in 4 shards" "$OUT/region/staged" 4 "$OUT/region/before.tif" "$OUT/region/after.tif")
+	read -r t1 p1 < <(REPEAT=1 measure "bandfold change, single run" $B change "$OUT/region/before.tif" "$OUT/region/after.tif" --out "$OUT/region/single" --overwrite --quiet)
+	say "   largest stage peak $ps MiB (the single run's $p1 MiB); ratio staged/single: time $(ratio "$ts" "$t1")"
 	say "results in $RES"
 	exit 0
 fi
@@ -169,7 +225,7 @@ say "   ratio budget/int16: bytes $(ratio "$bb" "$b16"), time $(ratio "$tb" "$t1
 
 say "== change on two 7-band 8192 x 8192 scenes (target: <= 1.5x its I/O floor; peak <= 512 MiB)"
 read -r tl _ < <(measure "bandfold learn both scenes" $B learn "$scene" "$scene2" --out "$OUT/basis-pair.json" --overwrite --quiet)
-read -r tc _ < <(measure "bandfold change" $B change "$scene" "$scene2" --out "$OUT/change" --overwrite --quiet)
+read -r tc rc < <(measure "bandfold change" $B change "$scene" "$scene2" --out "$OUT/change" --overwrite --quiet)
 # What change cannot avoid: GDAL reading both dates twice, writing change's
 # own Z as float32 with its compression, and GDAL's sieve on a Byte map of
 # the scene's size (bench_reference.py change-floor).
@@ -177,19 +233,25 @@ tf=$(floor change-floor "$scene" "$scene2" "$OUT/change" "$OUT/z-floor.tif")
 read -r tn _ < <(measure "bandfold change --normalize none" $B change "$scene" "$scene2" --normalize none --out "$OUT/change-none" --overwrite --quiet)
 say "   ratio change/I/O floor: time $(ratio "$tc" "$tf"); change/learn: time $(ratio "$tc" "$tl"); normalisation's cost: change/change --normalize none $(ratio "$tc" "$tn") (target <= 1.10)"
 
-say "== timeline of five 7-band 4096 x 4096 scenes (target: <= 1.5x the four change runs it replaces; peak <= 512 MiB)"
+say "== change in stages on the same scenes, 4 shards one after another (target: <= 1.25x the single run in total; each map stage's peak <= the single run's)"
+read -r tst mst _ < <(staged "bandfold change in 4 shards" "$OUT/change-staged" 4 "$scene" "$scene2")
+say "   ratio staged/single: time $(ratio "$tst" "$tc"); largest map stage's peak $mst MiB, the single run's $rc MiB (ratio $(ratio "$mst" "$rc"))"
+
+say "== timeline of five 7-band 4096 x 4096 scenes (target: <= 1.5x the four change runs it replaces; peak <= 512 MiB, whatever the number of dates)"
 series=()
-for i in 1 2 3 4 5; do
-	f=$OUT/series/scene-201$i-07-01.tif
+for i in $(seq 1 10); do
+	f=$OUT/series/scene-$((2010 + i))-07-01.tif
 	mkdir -p "$OUT/series"
 	[ -f "$f" ] || $B demo synth --bands 7 --width 4096 --height 4096 --type uint16 --block 512 --seed "$((10 + i))" --out "$f" --quiet
 	series+=("$f")
 done
 cat "${series[@]}" >/dev/null
-read -r tt _ < <(measure "bandfold timeline, 5 scenes" $B timeline "${series[@]}" --out "$OUT/timeline" --overwrite --quiet)
+read -r tt pt5 < <(measure "bandfold timeline, 5 scenes" $B timeline "${series[@]:0:5}" --out "$OUT/timeline" --overwrite --quiet)
+read -r _ pt10 < <(REPEAT=1 measure "bandfold timeline, 10 scenes" $B timeline "${series[@]}" --out "$OUT/timeline10" --overwrite --quiet)
+say "   peak: five dates $pt5 MiB, ten dates $pt10 MiB (ratio $(ratio "$pt10" "$pt5"))"
 # shellcheck disable=SC2016 # $1..$5 are bash -c's positional arguments
 read -r t4 _ < <(measure "bandfold change on the 4 consecutive pairs" bash -c 'set -e; B=$1; O=$2; shift 2
-	for i in 1 2 3 4; do j=$((i + 1)); $B change "${!i}" "${!j}" --out "$O/pair$i" --overwrite --quiet; done' _ "$B" "$OUT" "${series[@]}")
+	for i in 1 2 3 4; do j=$((i + 1)); $B change "${!i}" "${!j}" --out "$O/pair$i" --overwrite --quiet; done' _ "$B" "$OUT" "${series[@]:0:5}")
 say "   ratio timeline/four changes: time $(ratio "$tt" "$t4")"
 
 say "== batch fold: 20 demo-sized scenes (2048 x 2048 x 8)"

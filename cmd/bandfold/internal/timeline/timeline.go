@@ -156,9 +156,8 @@ type timelineRun struct {
 	o *TimelineOptions
 
 	masks   []*raster.ChangeMask
-	confirm [][]uint64 // per step: the pixels whose flags the skips confirm
-	valid   []int64    // per step
-	scratch string     // the steps' Z, for the patches
+	valid   []int64 // per step
+	scratch string  // the steps' Z, for the patches
 	counts  []stepCount
 	// totalValid and totalChanged count the pixels valid on some step and
 	// those with a confirmed change; changedArea is the latter's area.

@@ -8,6 +8,7 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/report"
 	"bandfold/raster"
+	"bandfold/tiles"
 )
 
 // stepCount is a step's mapped pixels and ground areas.
@@ -19,34 +20,36 @@ type stepCount struct {
 
 // confirmFlags keeps in each step's mask only its confirmed flags and
 // applies the minimum mapping unit to them again, so that no confirmed
-// patch is smaller than --min-area; each step's bits then hold its flags
+// patch is smaller than --min-area; each step's marks then hold its flags
 // before confirmation (after the first sieve).
 func (r *timelineRun) confirmFlags(ctx context.Context) error {
-	g := r.Scenes[0].Grid
-	var flags []uint8
+	var flags, marks []uint8
 	for q, m := range r.masks {
 		for t := range jobkit.GridFor(r.Scenes[0], r.C.Tile).Tiles() {
 			if err := ctx.Err(); err != nil {
 				return err
 			}
-			flags = jobkit.Grow(flags, t.Pixels())
+			flags, marks = jobkit.Grow(flags, t.Pixels()), jobkit.Grow(marks, t.Pixels())
 			if err := m.Read(t.X, t.Y, t.W, t.H, flags); err != nil {
 				return err
 			}
+			if err := m.ReadMarks(t.X, t.Y, t.W, t.H, marks); err != nil {
+				return err
+			}
 			for i, f := range flags {
-				bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
-				word, mask := &r.confirm[q][bit/64], uint64(1)<<(bit%64)
-				confirmed := *word&mask != 0
+				confirmed := marks[i] != 0
+				marks[i] = 0
 				if f == 1 {
-					*word |= mask
-				} else {
-					*word &^= mask
+					marks[i] = 1
 				}
 				if f == 1 && !confirmed {
 					flags[i] = 0
 				}
 			}
 			if err := m.SetMapped(t.X, t.Y, t.W, t.H, flags); err != nil {
+				return err
+			}
+			if err := m.WriteMarks(t.X, t.Y, t.W, t.H, marks); err != nil {
 				return err
 			}
 		}
@@ -93,7 +96,7 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	r.counts = make([]stepCount, S)
 	r.pw, r.ph = report.PreviewSize(g.Width, g.Height)
 	r.firstPrev = make([]uint8, r.pw*r.ph)
-	flags := make([][]uint8, S)
+	flags, marks := make([][]uint8, S), make([][]uint8, S)
 	var vals, first, last, count []float64
 	for t := range jobkit.GridFor(r.Scenes[0], r.C.Tile).Tiles() {
 		if err := ctx.Err(); err != nil {
@@ -101,15 +104,11 @@ func (r *timelineRun) classify(ctx context.Context) error {
 		}
 		n := t.Pixels()
 		vals, first, last, count = jobkit.Grow(vals, n*S), jobkit.Grow(first, n), jobkit.Grow(last, n), jobkit.Grow(count, n)
-		for q := range S {
-			flags[q] = jobkit.Grow(flags[q], n)
-			if err := r.masks[q].Read(t.X, t.Y, t.W, t.H, flags[q]); err != nil {
-				return err
-			}
+		if err := r.readSteps(t, flags, marks); err != nil {
+			return err
 		}
 		for i := range n {
 			x, y := t.X+i%t.W, t.Y+i/t.W
-			bit := y*g.Width + x
 			cell := 0.0
 			if r.Areas != nil {
 				cell = r.Areas.At(x, y)
@@ -118,7 +117,7 @@ func (r *timelineRun) classify(ctx context.Context) error {
 			for q := range S {
 				f := flags[q][i]
 				v := float64(StepNoData)
-				// The mask holds the confirmed flags, sieved again; the bits
+				// The mask holds the confirmed flags, sieved again; the marks
 				// the flags before confirmation (confirmFlags).
 				switch {
 				case f == 255:
@@ -126,7 +125,7 @@ func (r *timelineRun) classify(ctx context.Context) error {
 					v = StepConfirmed
 					c := &r.counts[q]
 					c.flagged, c.confirmed, c.flaggedArea, c.confirmedArea = c.flagged+1, c.confirmed+1, c.flaggedArea+cell, c.confirmedArea+cell
-				case r.confirm[q][bit/64]&(1<<(bit%64)) != 0:
+				case marks[q][i] != 0:
 					v = StepUnconfirmed
 					c := &r.counts[q]
 					c.flagged, c.flaggedArea = c.flagged+1, c.flaggedArea+cell
@@ -170,6 +169,22 @@ func (r *timelineRun) classify(ctx context.Context) error {
 			return err
 		}
 		r.outputs = append(r.outputs, specs[i].name)
+	}
+	return nil
+}
+
+// readSteps reads every step's map and marks of tile t into flags and
+// marks (one buffer per step, grown as needed).
+func (r *timelineRun) readSteps(t tiles.Tile, flags, marks [][]uint8) error {
+	n := t.Pixels()
+	for q, m := range r.masks {
+		flags[q], marks[q] = jobkit.Grow(flags[q], n), jobkit.Grow(marks[q], n)
+		if err := m.Read(t.X, t.Y, t.W, t.H, flags[q]); err != nil {
+			return err
+		}
+		if err := m.ReadMarks(t.X, t.Y, t.W, t.H, marks[q]); err != nil {
+			return err
+		}
 	}
 	return nil
 }

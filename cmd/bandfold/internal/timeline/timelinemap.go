@@ -94,18 +94,21 @@ type stepMaps struct {
 	flags, top   [][]uint8 // per pair
 }
 
-// mapWriter writes the map pass's outputs: each step's mask, the steps'
-// Z scratch raster, max-magnitude.tif and the confirmation bits.
+// mapWriter writes the tiles of the map pass, in tile order: each step's
+// mask (with its confirmation marks), the steps' Z scratch raster and
+// max-magnitude.tif.
 type mapWriter struct {
-	r          *timelineRun
-	zs, mag    *raster.Output
-	zbuf, mbuf []float64
+	r       *timelineRun
+	zs, mag *raster.Output
+	marks   []uint8
+	mbuf    []float64
 }
 
 // mapPixels computes every pair's change statistic in one pass over the
-// tiles: each step's raw flags and top components into its mask, its Z
-// into a scratch raster for the patches, the largest Z into
-// max-magnitude.tif, and the skips' verdicts into the confirmation bits.
+// tiles: each step's raw flags and top components into its mask, whose
+// marks say which flags the skips confirm, its Z into a scratch raster for
+// the patches, and the largest Z into max-magnitude.tif. The masks are
+// files: memory grows neither with the region nor with the steps.
 func (r *timelineRun) mapPixels(ctx context.Context) error {
 	w, err := r.startMap()
 	if err != nil {
@@ -129,18 +132,15 @@ func (r *timelineRun) mapPixels(ctx context.Context) error {
 // newHook is a map worker's hook.
 func (r *timelineRun) newHook() series.TileHook { return &timelineHook{steps: r.steps()} }
 
-// startMap creates the masks, the confirmation bits and the map pass's
-// rasters.
+// startMap creates the masks and the map pass's rasters.
 func (r *timelineRun) startMap() (*mapWriter, error) {
 	S, g := r.steps(), r.Scenes[0].Grid
 	for q := range S {
-		// On disk: the maps of every step stay out of memory.
 		m, err := raster.NewMaskFile(g, r.Dir.Path(fmt.Sprintf("step-%d-map.tif", q+1)))
 		if err != nil {
 			return nil, err
 		}
 		r.masks = append(r.masks, m)
-		r.confirm = append(r.confirm, make([]uint64, (g.Width*g.Height+63)/64))
 	}
 	r.valid = make([]int64, S)
 	md := r.metadata()
@@ -151,9 +151,10 @@ func (r *timelineRun) startMap() (*mapWriter, error) {
 	r.scratch = r.Dir.Path("step-z.tif")
 	w := &mapWriter{r: r}
 	var err error
-	// Scratch, read once for the patches: not worth compressing.
+	// Scratch, read once for the patches: not worth compressing; one band
+	// at a time, as the steps' Z are written and read.
 	w.zs, err = raster.Create(r.scratch, raster.Spec{Grid: g, Bands: S, DataType: "Float32", NoData: &series.Nan, Descriptions: zdesc, Metadata: md,
-		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1"}})
+		CreationOptions: []string{"COMPRESS=NONE", "PREDICTOR=1", "INTERLEAVE=BAND"}})
 	if err != nil {
 		return nil, err
 	}
@@ -167,32 +168,33 @@ func (r *timelineRun) startMap() (*mapWriter, error) {
 	return w, nil
 }
 
-// deliver writes one mapped tile.
+// deliver writes a tile: each step's flags, top components and marks into
+// its mask and its Z into the scratch raster, and the largest Z.
 func (w *mapWriter) deliver(t tiles.Tile, m *stepMaps) error {
-	r := w.r
-	S, g := r.steps(), r.Scenes[0].Grid
-	n := t.Pixels()
-	w.zbuf, w.mbuf = jobkit.Grow(w.zbuf, n*S), jobkit.Grow(w.mbuf, 2*n)
-	for q := range S {
-		if err := r.masks[q].Write(t.X, t.Y, t.W, t.H, m.flags[q], m.top[q]); err != nil {
+	r, n := w.r, t.Pixels()
+	w.marks, w.mbuf = jobkit.Grow(w.marks, n), jobkit.Grow(w.mbuf, 2*n)
+	for q, mask := range r.masks {
+		if err := mask.Write(t.X, t.Y, t.W, t.H, m.flags[q], m.top[q]); err != nil {
 			return err
 		}
 		for i := range n {
-			w.zbuf[i*S+q] = float64(m.z[q][i])
 			if m.flags[q][i] != 255 {
 				r.valid[q]++
 			}
+			w.marks[i] = 0
 			if r.confirmed(m, q, i) {
-				bit := (t.Y+i/t.W)*g.Width + t.X + i%t.W
-				r.confirm[q][bit/64] |= 1 << (bit % 64)
+				w.marks[i] = 1
 			}
+		}
+		if err := mask.WriteMarks(t.X, t.Y, t.W, t.H, w.marks); err != nil {
+			return err
+		}
+		if err := w.zs.WriteBand(q, t, m.z[q]); err != nil {
+			return err
 		}
 	}
 	for i := range n {
 		w.mbuf[2*i], w.mbuf[2*i+1] = float64(m.zmax[i]), float64(m.argmax[i])
-	}
-	if err := w.zs.Write(t, w.zbuf); err != nil {
-		return err
 	}
 	return w.mag.Write(t, w.mbuf)
 }
