@@ -327,9 +327,18 @@ func (r *Run) distinct(outs []output.Path) error {
 }
 
 // setAreas sets the cell areas (nil without a CRS) and the minimum
-// mapping unit in pixels.
+// mapping unit in pixels. The scan, fit and map stages of a staged run
+// use neither (the finish sieves and measures): they only refuse a ground
+// area without a CRS, and skip measuring every cell's area, which on a
+// large projected grid takes seconds.
 func (r *Run) setAreas() error {
 	first := r.Scenes[0]
+	if !r.C.Staging.WritesFolder() {
+		if first.Grid.Projection == "" && r.C.MinArea.M2 > 0 {
+			return jobkit.Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", jobkit.Describe(first))
+		}
+		return nil
+	}
 	var err error
 	r.Areas, err = raster.NewCellAreas(first.Grid)
 	if errors.Is(err, raster.ErrNoCRS) {
