@@ -12,24 +12,26 @@ import (
 // TestStagesOnTheCommandLine runs change and timeline in stages through
 // the command line as a Slurm array runs them (--shard auto from the
 // array's environment): each scan and map prints its stage result as
-// JSON, the finish writes the folder a single run writes (its rasters
-// byte for byte, known by construction: the stages compute the single
-// run's sums, sample and fit), and a stage flag out of place is a usage
-// error.
+// JSON, the finish writes the folder a single run writes (its rasters and
+// change's preview byte for byte, known by construction: the stages
+// compute the single run's sums, sample and fit), and a stage flag out of
+// place is a usage error.
 func TestStagesOnTheCommandLine(t *testing.T) {
 	dir := t.TempDir()
 	p := func(name string) string { return filepath.Join(dir, name) }
 	var scenes []string
 	for i, year := range []string{"2019", "2020", "2021"} {
 		scenes = append(scenes, p("site-"+year+".tif"))
-		mustRun(t, "demo", "synth", "--bands", "4", "--width", "96", "--height", "80", "--seed", fmt.Sprint(i+1), "--out", scenes[i], "--quiet")
+		// Wider than a preview (1,024 pixels): change's preview is
+		// gathered during the map pass, in a staged run by the map stages.
+		mustRun(t, "demo", "synth", "--bands", "4", "--width", "1100", "--height", "40", "--seed", fmt.Sprint(i+1), "--out", scenes[i], "--quiet")
 	}
 	cases := []struct {
 		command string
 		args    []string
 		rasters []string
 	}{
-		{"change", scenes[:2], []string{"change.tif", "magnitude.tif"}},
+		{"change", scenes[:2], []string{"change.tif", "magnitude.tif", "preview.png"}},
 		{"timeline", scenes, []string{"steps.tif", "first-change.tif", "max-magnitude.tif"}},
 	}
 	for _, c := range cases {

@@ -6,21 +6,24 @@ import (
 	"math"
 
 	"bandfold/cmd/bandfold/internal/jobkit"
+	"bandfold/cmd/bandfold/internal/report"
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/tiles"
 )
 
 // pieceTile is one tile of a map piece: Z (and the p-values, with
 // --pvalues) as float32 bits, the score differences (with --differences)
-// as float64 bits, the raw flags and the top component.
+// as float64 bits, the raw flags and the top component, and the tile's
+// part of the preview (nil where the preview reads the images itself).
 type pieceTile struct {
 	Z, PV      []uint32
 	D          []uint64
 	Flags, Top []uint8
+	Prev       *report.PreviewPart
 }
 
 func (p *pieceTile) Reset() {
-	*p = pieceTile{Z: p.Z[:0], PV: p.PV[:0], D: p.D[:0], Flags: p.Flags[:0], Top: p.Top[:0]}
+	*p = pieceTile{Z: p.Z[:0], PV: p.PV[:0], D: p.D[:0], Flags: p.Flags[:0], Top: p.Top[:0], Prev: nil}
 }
 
 // ChangeStage runs the scan, fit or map stage of a staged change; the
@@ -38,8 +41,11 @@ func ChangeStage(ctx context.Context, env jobkit.Env, o ChangeOptions) (*series.
 // mapShard maps the shard's tiles into its map piece.
 func (r *changeRun) mapShard(ctx context.Context) error {
 	k := r.Proj.Components()
+	r.grid = report.NewPreviewGrid(r.before.Width, r.before.Height, r.before.Len(), r.rgb)
 	var rec pieceTile
-	return r.MapPiece(ctx, func() series.TileHook { return &changeHook{k: k, pvals: r.o.PValues, diffs: r.o.Differences} },
+	return r.MapPiece(ctx, func() series.TileHook {
+		return &changeHook{k: k, pvals: r.o.PValues, diffs: r.o.Differences, grid: r.grid}
+	},
 		func(_ tiles.Tile, pt *series.PairTile) any {
 			mt := pt.Extra.(*mapTile)
 			rec.Z, rec.PV = jobkit.Grow(rec.Z, len(mt.z32)), jobkit.Grow(rec.PV, len(mt.pv32))
@@ -49,24 +55,35 @@ func (r *changeRun) mapShard(ctx context.Context) error {
 			for _, v := range mt.diffs {
 				rec.D = append(rec.D, math.Float64bits(v))
 			}
-			rec.Flags, rec.Top = pt.Flags[0], pt.Top[0]
+			rec.Flags, rec.Top, rec.Prev = pt.Flags[0], pt.Top[0], nil
+			if r.grid != nil {
+				rec.Prev = &mt.prev
+			}
 			return &rec
 		})
 }
 
 // joinPieces takes the place of the map pass in the finish stage: every
 // tile from the piece of the shard that mapped it into magnitude.tif (and
-// pvalue.tif) and the mask. The preview reads the dates itself.
+// pvalue.tif, differences.tif), the mask and the preview, in tile order
+// as a single run adds them.
 func (r *changeRun) joinPieces(ctx context.Context) error {
 	var outs mapOutputs
 	defer outs.abort()
 	if err := r.startMap(&outs); err != nil {
 		return err
 	}
+	r.grid = report.NewPreviewGrid(r.before.Width, r.before.Height, r.before.Len(), r.rgb)
 	var rec pieceTile
 	var mt mapTile
 	err := r.JoinPieces(ctx, &rec, func(t tiles.Tile, what string) error {
 		px := t.Pixels()
+		if (rec.Prev != nil) != (r.grid != nil) {
+			return fmt.Errorf("%s has no part of the preview, or one where there should be none: the piece is of another grid or tiling", what)
+		}
+		if r.grid != nil {
+			r.grid.Add(rec.Prev)
+		}
 		if len(rec.Z) != px || len(rec.Flags) != px || len(rec.Top) != px {
 			return fmt.Errorf("%s has %d pixels, want %d: the piece is of another grid or tiling", what, len(rec.Z), px)
 		}

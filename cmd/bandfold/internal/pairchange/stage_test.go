@@ -34,12 +34,13 @@ func runStaged(t *testing.T, env jobkit.Env, o pairchange.ChangeOptions, n int) 
 }
 
 // sameFolder compares a staged run's change folder with a single run's
-// (jobtest.SameFolder): change.tif, magnitude.tif, and pvalue.tif and
+// (jobtest.SameFolder): change.tif, magnitude.tif, preview.png, and
+// pvalue.tif and
 // differences.tif where the single run wrote them, byte for byte, the
 // summaries, the patches and the mapped area.
 func sameFolder(t *testing.T, name, single, staged string, a, b *changefolder.ChangeResult) {
 	t.Helper()
-	files := []string{"change.tif", "magnitude.tif"}
+	files := []string{"change.tif", "magnitude.tif", "preview.png"}
 	for _, f := range []string{"pvalue.tif", "differences.tif"} {
 		if _, err := os.Stat(filepath.Join(single, f)); err == nil {
 			files = append(files, f)

@@ -36,12 +36,13 @@ func NewPreviewGrid(w, h, p int, rgb [3]int) *PreviewGrid {
 }
 
 // PreviewPart is one tile's contribution to the grid: the cells
-// [x0, x0+cw) x [y0, y0+ch).
+// [X0, X0+CW) x [Y0, Y0+CH), their sums of both dates' preview bands and
+// their pixel counts (exported for a staged run's map pieces).
 type PreviewPart struct {
-	x0, y0, cw, ch int
-	sum            [2][]float64
-	n              []int32
-	col            []int // the cell column of each tile column, less x0
+	X0, Y0, CW, CH int
+	Sum            [2][]float64
+	N              []int32
+	col            []int // the cell column of each tile column, less X0
 }
 
 func (g *PreviewGrid) cellX(x int) int { return x * g.pw / g.w }
@@ -49,18 +50,18 @@ func (g *PreviewGrid) cellY(y int) int { return y * g.ph / g.h }
 
 // Begin starts tile t's contribution in dst, reusing its buffers.
 func (g *PreviewGrid) Begin(t tiles.Tile, dst *PreviewPart) {
-	dst.x0, dst.y0 = g.cellX(t.X), g.cellY(t.Y)
-	dst.cw, dst.ch = g.cellX(t.X+t.W-1)-dst.x0+1, g.cellY(t.Y+t.H-1)-dst.y0+1
-	cells := dst.cw * dst.ch
-	dst.n = jobkit.Grow(dst.n, cells)
-	clear(dst.n)
-	for d := range dst.sum {
-		dst.sum[d] = jobkit.Grow(dst.sum[d], cells*3)
-		clear(dst.sum[d])
+	dst.X0, dst.Y0 = g.cellX(t.X), g.cellY(t.Y)
+	dst.CW, dst.CH = g.cellX(t.X+t.W-1)-dst.X0+1, g.cellY(t.Y+t.H-1)-dst.Y0+1
+	cells := dst.CW * dst.CH
+	dst.N = jobkit.Grow(dst.N, cells)
+	clear(dst.N)
+	for d := range dst.Sum {
+		dst.Sum[d] = jobkit.Grow(dst.Sum[d], cells*3)
+		clear(dst.Sum[d])
 	}
 	dst.col = jobkit.Grow(dst.col, t.W)
 	for c := range dst.col {
-		dst.col[c] = g.cellX(t.X+c) - dst.x0
+		dst.col[c] = g.cellX(t.X+c) - dst.X0
 	}
 }
 
@@ -72,17 +73,17 @@ func (g *PreviewGrid) Pixels(t tiles.Tile, lo, hi int, x [2][]float64, valid []b
 	for at := lo; at < hi; {
 		r, c := at/t.W, at%t.W
 		end := min(hi, at+t.W-c) // the end of this row within the run
-		row := (g.cellY(t.Y+r) - dst.y0) * dst.cw
+		row := (g.cellY(t.Y+r) - dst.Y0) * dst.CW
 		for ; at < end; at, c = at+1, c+1 {
 			i := at - lo
 			if !valid[i] {
 				continue
 			}
 			cell := row + dst.col[c]
-			dst.n[cell]++
+			dst.N[cell]++
 			for d := range x {
 				px := x[d][i*p : i*p+p]
-				s := dst.sum[d][cell*3 : cell*3+3]
+				s := dst.Sum[d][cell*3 : cell*3+3]
 				s[0] += px[c0]
 				s[1] += px[c1]
 				s[2] += px[c2]
@@ -94,13 +95,13 @@ func (g *PreviewGrid) Pixels(t tiles.Tile, lo, hi int, x [2][]float64, valid []b
 // Add adds a tile's part to the grid; parts are added in tile order, so
 // the sums do not depend on the worker count.
 func (g *PreviewGrid) Add(pp *PreviewPart) {
-	for r := range pp.ch {
-		for c := range pp.cw {
-			from, to := r*pp.cw+c, (pp.y0+r)*g.pw+pp.x0+c
-			g.n[to] += pp.n[from]
+	for r := range pp.CH {
+		for c := range pp.CW {
+			from, to := r*pp.CW+c, (pp.Y0+r)*g.pw+pp.X0+c
+			g.n[to] += pp.N[from]
 			for d := range g.sum {
 				for k := range 3 {
-					g.sum[d][to*3+k] += pp.sum[d][from*3+k]
+					g.sum[d][to*3+k] += pp.Sum[d][from*3+k]
 				}
 			}
 		}

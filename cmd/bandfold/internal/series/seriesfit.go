@@ -2,6 +2,7 @@ package series
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"slices"
@@ -45,8 +46,7 @@ func (r *Run) Normalize(context.Context) error {
 			r.checkComparable(d)
 			continue
 		}
-		xr, xd := r.pairSample(r.Ref, d)
-		fit, err := change.FitNormalization(xr, xd, p)
+		fit, err := r.fitNormalization(d, p)
 		if err != nil {
 			r.warnf("radiometric normalisation of %s onto %s failed (%v): it is compared as given; check the dates are on comparable scales or pass --calibrate", r.Name(d), r.Name(r.Ref), err)
 			continue
@@ -77,6 +77,36 @@ func (r *Run) Normalize(context.Context) error {
 	}
 	r.stats.sample = nil // the differences are all later steps need
 	return nil
+}
+
+// NormFit is one date's fit onto the reference date as a staged run's
+// model file keeps it (Err: why it failed), so that the later stages take
+// the fit stage's fits rather than fitting again.
+type NormFit struct {
+	Fit change.Normalization
+	Err string
+}
+
+// fitNormalization fits date d onto the reference date, or takes the
+// model file's fit (map and finish), and keeps it for the model file.
+func (r *Run) fitNormalization(d, p int) (change.Normalization, error) {
+	if r.st.model.Norms != nil {
+		nf := r.st.model.Norms[d]
+		if nf.Err != "" {
+			return nf.Fit, errors.New(nf.Err)
+		}
+		return nf.Fit, nil
+	}
+	xr, xd := r.pairSample(r.Ref, d)
+	fit, err := change.FitNormalization(xr, xd, p)
+	if r.st.normFits == nil {
+		r.st.normFits = make([]NormFit, len(r.Scenes))
+	}
+	r.st.normFits[d].Fit = fit
+	if err != nil {
+		r.st.normFits[d].Err = err.Error()
+	}
+	return fit, err
 }
 
 // minCorrelation is the least correlation of the dates over the stable

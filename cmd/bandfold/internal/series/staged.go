@@ -73,13 +73,17 @@ type StageResult struct {
 }
 
 // stageModel is the body of the model file: the merged statistics every
-// later stage fits the same normalisation, basis and models from (the fit
-// is deterministic, so each gets them bit for bit), and what the fit stage
+// later stage fits the same basis and models from (the fits are
+// deterministic, so each gets them bit for bit), the dates' normalisation
+// fits, which they take as they are, and the thresholds the fit stage
 // found, which they check.
 type stageModel struct {
 	State      ScanState
 	Zcuts      []float64
 	Components int
+	// Norms are the dates' normalisation fits (nil without): the one
+	// slow fit, taken as it is by the map and finish stages.
+	Norms []NormFit
 }
 
 // staged is a Run's staged-run state.
@@ -89,6 +93,8 @@ type staged struct {
 	merged  ScanState   // the merged statistics (fit)
 	model   stageModel  // the model file's (map and finish)
 	written string      // the stage file written
+	// normFits are this run's normalisation fits, for the model file.
+	normFits []NormFit
 }
 
 // openStage sets the header of a staged run's files and the shard's tiles.
@@ -204,7 +210,7 @@ func (r *Run) mergeScans(ctx context.Context) error {
 // writeModel writes the model file.
 func (r *Run) writeModel(context.Context) error {
 	r.st.written = r.stagePath(KindModel)
-	m := stageModel{State: r.st.merged, Components: r.Proj.Components()}
+	m := stageModel{State: r.st.merged, Components: r.Proj.Components(), Norms: r.st.normFits}
 	for _, f := range r.Fits {
 		m.Zcuts = append(m.Zcuts, f.Zcut)
 	}
