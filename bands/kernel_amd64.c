@@ -307,6 +307,17 @@ static int64_t block_squares(int isa, const int16_t *z, int cw, int cols) {
 	return most;
 }
 
+// worth_squares reports whether the lane bound of chunk_products is worth
+// forming for a block whose lanes the magnitudes' bound lets take lim of
+// the chunk's steps: whether the additions into int64 it may save, each
+// about 110 instructions, outweigh the sums of squares of the block's rows
+// (about 7 instructions a step for each of 4 rows, once a block row of nb
+// blocks, for both blocks of a pair). For few bands they rarely do.
+static inline int worth_squares(int lim, int steps, int nb) {
+	int saved = (steps - 1) / lim; // the additions beyond the chunk's last
+	return saved > 0 && 110 * saved * nb > 56 * steps;
+}
+
 // chunk_products adds to acc (qb×qb, row-major) the products of the rows
 // of one chunk s (qb rows of cw values) over their first cn values (the
 // rest up to a multiple of 32 zero) in 4×4 blocks of band pairs, the upper
@@ -332,7 +343,7 @@ static void chunk_products(int isa, const int16_t *s, int qb, int cw, int cn, co
 			int64_t t[16] = {0};
 			const int16_t *a = s + (ptrdiff_t)(4 * bi) * cw, *b = s + (ptrdiff_t)(4 * bj) * cw;
 			int l = lim[bi * nb + bj];
-			if (l < steps) {
+			if (worth_squares(l, steps, nb)) {
 				bq[bi] = bq[bi] < 0 ? block_squares(isa, a, cw, cols) : bq[bi];
 				bq[bj] = bq[bj] < 0 ? block_squares(isa, b, cw, cols) : bq[bj];
 				l = (unsigned __int128)bq[bi] * (uint64_t)bq[bj] <= most ? steps : l;
