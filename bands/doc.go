@@ -70,10 +70,24 @@
 // int16 products into each int32 lane a step. A lane takes at most s steps
 // before it is added into int64, s the largest with 2·s·mᵢ·mⱼ ≤ 2³¹ − 1 for
 // the block's largest centred magnitudes mᵢ, mⱼ, so it cannot overflow
-// (s = 1 at ±32767). The centring is undone exactly in integers and the
+// (s = 1 at ±32767); or, where that is fewer than the chunk's steps, the
+// whole chunk if Qᵢ·Qⱼ ≤ (2³¹ − 1)², Qᵢ and Qⱼ the largest sums of squares
+// of a lane of the two blocks' rows over the chunk, which bound every
+// partial sum of the lane's products (Cauchy–Schwarz): typical data sit
+// far inside their range. The sixteen accumulators of a block are reduced
+// into int64 together. The centring is undone exactly in integers and the
 // sums added to the 128-bit ones. A tile whose values do not fit (a band
 // spanning more than 65534, or beyond ±MaxExact), and any tile added to an
 // ordinary accumulator, goes through AddPixels instead.
+//
+// AddInt16Window pairs the columns of a window as AddWindow does: the
+// rows s = a + b and d = b − a of the pixels a, b of columns 2j and 2j+1
+// and the next differences c − b (c of column 2j+2) are packed from the
+// same chunk of the window into three chunks of the kernel, and half the
+// sum of the products of s and d gives the pixels' own (three products of
+// n/2 rows instead of two of n), where every band's values span at most
+// 32767, so that the sums, centred, fit int16; other windows take a pass
+// for the pixels and one for the differences.
 //
 // The kernel is C, through cgo: AVX2 and AVX-512 VNNI paths each compiled
 // with a function-level target attribute, so that the package builds with

@@ -25,12 +25,17 @@ func (w Int16Window) check() {
 // AddInt16Window adds to mom the pixels that win owns, and to noise the
 // shift differences of its pairs selected by s (the pairs of
 // ShiftDifferences: both pixels valid, the first one owned), with the
-// integer kernel of AddInt16Tile. The differences are formed in int32 and
-// go to the kernel band-sequentially, one pass for the horizontal pairs
-// and one for the vertical ones, where each band's differences in the
-// window span at most 65534 (adjacent pixels differ far less than their
-// range); otherwise, as the pixels do when they do not fit, they take
-// AddPixels' path, converted a chunk at a time. On exact accumulators the
+// integer kernel of AddInt16Tile. With horizontal pairs, on exact
+// accumulators, where every band's values span at most 32767, the pixels
+// and the horizontal differences go to the kernel together, paired as
+// AddWindow pairs them (see the package documentation): three products of
+// half the pixels instead of two of all, each chunk of the window read
+// once. Otherwise the pixels take one pass, and the differences, formed in
+// int32, one pass for the horizontal pairs, where each band's differences
+// in the window span at most 65534 (adjacent pixels differ far less than
+// their range). The vertical pairs take a pass of their own. Values or
+// differences that do not fit take AddPixels' path, converted a chunk at a
+// time. On exact accumulators the
 // sums are the same integers, and so the statistics the same bits, as
 // those of AddWindow (or mom.AddPixels and noise.AddShiftDifferences) on
 // the same pixels as float64, pixel-major; on ordinary ones they agree to
@@ -46,14 +51,18 @@ func AddInt16Window(mom, noise *Accumulator, win Int16Window, s Shift) {
 	ks := intSpare.get(win.P)
 	defer intSpare.put(ks)
 	n := win.W * win.H
-	ks.own = win.ownedPairs(grow(ks.own, n), 0, win.OwnW)
-	mom.addInt(ks, intTile{x: win.X, ld: n, p: win.P, n: n, valid: ks.own}, win.Shift)
-	// The horizontal pairs of the columns with a next one, the vertical
-	// pairs of the rows with a next one (ownedPairs stops before the last).
+	paired := s&Horizontal != 0 && addPairs(mom, noise, ks, win)
+	if !paired {
+		ks.own = win.ownedPairs(grow(ks.own, n), 0, win.OwnW)
+		mom.addInt(ks, intTile{x: win.X, ld: n, p: win.P, n: n, valid: ks.own}, win.Shift)
+	}
+	// The horizontal pairs of the columns with a next one (unless paired),
+	// the vertical pairs of the rows with a next one (ownedPairs stops
+	// before the last).
 	for _, pr := range []struct {
 		on        bool
 		off, cols int
-	}{{s&Horizontal != 0, 1, min(win.OwnW, win.W-1)}, {s&Vertical != 0, win.W, win.OwnW}} {
+	}{{s&Horizontal != 0 && !paired, 1, min(win.OwnW, win.W-1)}, {s&Vertical != 0, win.W, win.OwnW}} {
 		if !pr.on || pr.off >= n {
 			continue
 		}

@@ -147,17 +147,18 @@ func extremesGo(t intTile, lo, hi []int32) int {
 }
 
 // productsGo adds to acc (qb×qb, row-major, qb ≥ p+1) the upper triangle
-// of Σ z·zᵀ over the valid pixels, z = [x − centre, 1]: the scalar path,
-// and the reference of the SIMD ones.
-func productsGo(t intTile, centre []int32, acc []int64, qb int) {
-	z := make([]int64, t.p+1)
-	z[t.p] = 1
-	for k := range t.n {
-		if !t.valid[k] {
+// of Σ z·zᵀ over the n pixels k with valid[k], z = [x − centre, 1], the
+// value of band b at pixel k being value(b, k): the scalar path, and the
+// reference of the SIMD ones.
+func productsGo(n, p int, valid []bool, value func(b, k int) int32, centre []int32, acc []int64, qb int) {
+	z := make([]int64, p+1)
+	z[p] = 1
+	for k := range n {
+		if !valid[k] {
 			continue
 		}
-		for b := range t.p {
-			z[b] = int64(t.value(b, k) - centre[b])
+		for b := range p {
+			z[b] = int64(value(b, k) - centre[b])
 		}
 		for i, zi := range z {
 			row := acc[i*qb+i : i*qb+len(z)]
@@ -175,9 +176,11 @@ type intScratch struct {
 	acc                 []int64 // qb×qb
 	lo, hi, centre, mag []int32
 	lim                 []int32 // (qb/4)² step limits of blocks of band pairs
+	u                   []int64 // the centre plus the shift of each band
 	ones, own, pairs    []bool
 	wide                []float64
 	edge                []int16 // two columns a band (AddInt16Pairs)
+	pr                  *pairScratch16
 }
 
 func newIntScratch(p int) *intScratch {
@@ -187,7 +190,7 @@ func newIntScratch(p int) *intScratch {
 	return &intScratch{p: p, qb: qb, cw: cw,
 		chunk: make([]int16, qb*cw), acc: make([]int64, qb*qb),
 		lo: make([]int32, p), hi: make([]int32, p), centre: make([]int32, p), mag: make([]int32, qb),
-		lim: make([]int32, nb*nb)}
+		lim: make([]int32, nb*nb), u: make([]int64, p)}
 }
 
 func (ks *intScratch) bands() int { return ks.p }
@@ -245,16 +248,21 @@ func (a *Accumulator) addInt(ks *intScratch, t intTile, shift []int32) {
 		clear(ks.acc)
 		pc := t.piece(start)
 		if kernelISA == Scalar {
-			productsGo(pc, ks.centre, ks.acc, ks.qb)
+			productsGo(pc.n, pc.p, pc.valid, pc.value, ks.centre, ks.acc, ks.qb)
 		} else {
 			productsSIMD(kernelISA, pc, ks.centre, ks.lim, ks.chunk, ks.cw, ks.acc)
 		}
 		a.addKernel(ks, shift)
 	}
+	a.widen(ks.lo, ks.hi, shift)
+}
+
+// widen widens a's extremes to those in lo and hi plus shift.
+func (a *Accumulator) widen(lo, hi, shift []int32) {
 	for b := range a.p {
 		s := float64(shiftOf(shift, b))
-		a.min[b] = min(a.min[b], float64(ks.lo[b])+s)
-		a.max[b] = max(a.max[b], float64(ks.hi[b])+s)
+		a.min[b] = min(a.min[b], float64(lo[b])+s)
+		a.max[b] = max(a.max[b], float64(hi[b])+s)
 	}
 }
 
@@ -280,40 +288,71 @@ func (ks *intScratch) plan(shift []int32) bool {
 		c := (lo + hi) >> 1 // floor: the centred values lie in [−⌊r/2⌋, ⌈r/2⌉]
 		ks.centre[b], ks.mag[b] = int32(c), int32(hi-c)
 	}
-	ks.mag[ks.p] = 1 // the validity row
-	nb := ks.qb / 4
+	limits(ks.mag, ks.p, ks.lim)
+	return true
+}
+
+// limits sets lim to the step limits of the blocks of band pairs for the
+// magnitude bounds mag of the p bands' centred values (qb of them, the
+// rows after the bands zero), and mag[p] to 1, the validity row's.
+func limits(mag []int32, p int, lim []int32) {
+	mag[p] = 1
+	nb := len(mag) / 4
 	for bi := range nb {
-		mi := blockMag(ks.mag[4*bi : 4*bi+4])
+		mi := blockMag(mag[4*bi : 4*bi+4])
 		for bj := range nb {
-			ks.lim[bi*nb+bj] = stepLimit(mi, blockMag(ks.mag[4*bj:4*bj+4]))
+			lim[bi*nb+bj] = stepLimit(mi, blockMag(mag[4*bj:4*bj+4]))
 		}
 	}
-	return true
 }
 
 func blockMag(m []int32) int32 { return max(m[0], m[1], m[2], m[3]) }
 
 // addKernel adds to a's exact sums the products the kernel left in ks.acc
-// for one piece: with z = x − u the centred values (u the shift plus the
-// centre), T = Σz the sums and k the count that the validity row gives,
+// for one piece, the values centred on the shift plus the centre.
+func (a *Accumulator) addKernel(ks *intScratch, shift []int32) {
+	for i := range a.p {
+		ks.u[i] = int64(shiftOf(shift, i)) + int64(ks.centre[i])
+	}
+	uncentre(ks.acc, ks.qb, a.p, ks.u)
+	a.addSums(ks.acc, ks.qb)
+}
+
+// uncentre turns the upper triangle of products of [x − u, 1] that the
+// kernel left in acc (qb×qb, row-major) into those of [x, 1], in place:
+// with z = x − u the centred values, T = Σz the sums and k the count that
+// the validity row gives,
 //
 //	Σx = T + k·u,  Σxᵢxⱼ = Σzᵢzⱼ + uᵢTⱼ + uⱼTᵢ + k·uᵢuⱼ,
 //
-// all in int64: with |z| < 2¹⁵, |u| < 2¹⁸ and k ≤ 2²⁴ every term is below
-// 2⁶⁰.
-func (a *Accumulator) addKernel(ks *intScratch, shift []int32) {
-	p, qb, acc, e := a.p, ks.qb, ks.acc, a.exact
+// all in int64: with |z| < 2¹⁵, |u| ≤ 2¹⁸ and k ≤ 2²⁴ every term is at
+// most 2⁶⁰.
+func uncentre(acc []int64, qb, p int, u []int64) {
 	k := acc[p*qb+p]
 	for i := range p {
-		ui, ti := int64(shiftOf(shift, i))+int64(ks.centre[i]), acc[i*qb+p]
-		e.sum[i].add(ti + k*ui)
-		row := e.prod[i*p : i*p+p]
+		ui, ti := u[i], acc[i*qb+p]
+		row := acc[i*qb : i*qb+p]
 		for j := i; j < p; j++ {
-			uj, tj := int64(shiftOf(shift, j))+int64(ks.centre[j]), acc[j*qb+p]
-			row[j].add(acc[i*qb+j] + ui*tj + uj*ti + k*ui*uj)
+			row[j] += ui*acc[j*qb+p] + u[j]*ti + k*ui*u[j]
 		}
 	}
-	e.n += k
+	for i := range p {
+		acc[i*qb+p] += k * u[i]
+	}
+}
+
+// addSums adds to a's exact sums the count, sums and products of [x, 1]
+// in acc (qb×qb, upper triangle).
+func (a *Accumulator) addSums(acc []int64, qb int) {
+	p, e := a.p, a.exact
+	for i := range p {
+		e.sum[i].add(acc[i*qb+p])
+		row := e.prod[i*p : i*p+p]
+		for j := i; j < p; j++ {
+			row[j].add(acc[i*qb+j])
+		}
+	}
+	e.n += acc[p*qb+p]
 	a.n = float64(e.n)
 	a.stale = true
 }

@@ -3,7 +3,9 @@ package bands
 import (
 	"fmt"
 	"math/rand/v2"
+	"syscall"
 	"testing"
+	"time"
 )
 
 // BenchmarkKernel times the exact co-moments of one tile of integer pixels
@@ -39,37 +41,54 @@ func BenchmarkKernel(b *testing.B) {
 					defer func() { kernelISA, scalarKernel = old, oldScalar }()
 					kernelISA, scalarKernel = isa, true
 					a := NewExactAccumulator(p)
+					cpu := cpuTime()
 					for b.Loop() {
 						a.Reset()
 						a.AddInt16Tile(d.d.x, nil, nil)
 					}
-					reportPixels(b, n)
+					reportPixels(b, n, cpu)
 				})
 			}
 		}
 		b.Run(fmt.Sprintf("p=%d/float64", p), func(b *testing.B) {
 			x := dn12.pixels()
 			a := NewExactAccumulator(p)
+			cpu := cpuTime()
 			for b.Loop() {
 				a.Reset()
 				a.AddPixels(x, nil)
 			}
-			reportPixels(b, n)
+			reportPixels(b, n, cpu)
 		})
 	}
 }
 
-func reportPixels(b *testing.B, n int) {
+// reportPixels reports the pixels a second of n-pixel tiles, and the CPU
+// time of the process an operation since cpu (cpuTime at the start): on a
+// machine shared with other work the CPU time moves less than the elapsed.
+func reportPixels(b *testing.B, n int, cpu time.Duration) {
 	b.ReportMetric(float64(n)*float64(b.N)/b.Elapsed().Seconds(), "pixels/s")
+	b.ReportMetric(float64(cpuTime()-cpu)/float64(b.N), "cpu-ns/op")
+}
+
+// cpuTime returns the user and system time of the process so far.
+func cpuTime() time.Duration {
+	var ru syscall.Rusage
+	if err := syscall.Getrusage(syscall.RUSAGE_SELF, &ru); err != nil {
+		return 0
+	}
+	return time.Duration(ru.Utime.Nano() + ru.Stime.Nano())
 }
 
 // BenchmarkNoiseWindow times the co-moments and the shift differences of
 // one tile of the noise pass of learn --method mnf by band count (p = 3,
-// 7, 12, 64, 224 and 425): a window 256 pixels wide with a halo row below
-// (both pair sets; the horizontal pairs at the tile's right edge are
-// AddInt16Pairs', outside), of 12-bit values, on the integer kernel
-// (AddInt16Window) against today's float64 path (AddWindow, pixel-major).
-// pixels/s counts the pixels the window owns.
+// 7, 12, 64, 224 and 425) and pair set (horizontal, learn's default, and
+// both): a window 256 pixels wide with a halo row below (the horizontal
+// pairs at the tile's right edge are AddInt16Pairs', outside), of 12-bit
+// values, on the integer kernel (AddInt16Window: "int16" on its paired
+// path, "int16-2pass" with the two passes the pairing replaced) against
+// the float64 path (AddWindow, pixel-major; for p ≤ 64). pixels/s counts
+// the pixels the window owns.
 //
 //	go test -tags openblas -run XXX -bench NoiseWindow ./bands
 func BenchmarkNoiseWindow(b *testing.B) {
@@ -84,21 +103,31 @@ func BenchmarkNoiseWindow(b *testing.B) {
 		iw := Int16Window{X: d.x, Valid: valid, P: p, W: w, H: h + 1, OwnW: w, OwnH: h}
 		fw := Window{X: d.pixels(), Valid: valid, P: p, W: w, H: h + 1, OwnW: w, OwnH: h, Bound: 1 << 15}
 		mom, noise := NewExactAccumulator(p), NewExactAccumulator(p)
-		for _, path := range []struct {
-			name string
-			add  func()
-		}{
-			{"int16", func() { AddInt16Window(mom, noise, iw, Both) }},
-			{"float64", func() { AddWindow(mom, noise, fw, Both) }},
-		} {
-			b.Run(fmt.Sprintf("p=%d/%s", p, path.name), func(b *testing.B) {
-				for b.Loop() {
-					mom.Reset()
-					noise.Reset()
-					path.add()
+		for _, s := range []Shift{Horizontal, Both} {
+			for _, path := range []struct {
+				name   string
+				paired bool
+				add    func()
+			}{
+				{"int16", true, func() { AddInt16Window(mom, noise, iw, s) }},
+				{"int16-2pass", false, func() { AddInt16Window(mom, noise, iw, s) }},
+				{"float64", true, func() { AddWindow(mom, noise, fw, s) }},
+			} {
+				if path.name == "float64" && p > 64 {
+					continue // seconds a tile
 				}
-				reportPixels(b, w*h)
-			})
+				b.Run(fmt.Sprintf("p=%d/%v/%s", p, s, path.name), func(b *testing.B) {
+					defer func(old bool) { pairKernel = old }(pairKernel)
+					pairKernel = path.paired
+					cpu := cpuTime()
+					for b.Loop() {
+						mom.Reset()
+						noise.Reset()
+						path.add()
+					}
+					reportPixels(b, w*h, cpu)
+				})
+			}
 		}
 	}
 }

@@ -10,3 +10,9 @@ func extremesSIMD(t intTile, lo, hi []int32) int { panic("bands: no SIMD kernel 
 func productsSIMD(isa ISA, t intTile, centre, lim []int32, s []int16, cw int, acc []int64) {
 	panic("bands: no SIMD kernel in this build")
 }
+
+func pairsSIMD(isa ISA, v pairView, n int, s []int16, cw int, acc []int64) {
+	panic("bands: no SIMD kernel in this build")
+}
+
+func pairExtremesSIMD(v pairView, ext []int32) { panic("bands: no SIMD kernel in this build") }

@@ -291,9 +291,16 @@ func TestStepLimit(t *testing.T) {
 // TestAddInt16Window: AddInt16Window gives the exact sums of AddWindow on
 // the same pixels as float64 (itself checked against AddPixels and
 // AddShiftDifferences), bit for bit, for each pair set, halo shape and
-// kernel path, with differences that fit the kernel and differences that
-// do not (±32767 next to each other).
+// kernel path, with and without the paired path, with differences that fit
+// the kernel and differences that do not (±32767 next to each other).
 func TestAddInt16Window(t *testing.T) {
+	defer func(old bool) { pairKernel = old }(pairKernel)
+	for _, pairKernel = range []bool{true, false} {
+		testAddInt16Window(t)
+	}
+}
+
+func testAddInt16Window(t *testing.T) {
 	eachISA(func(isa ISA) {
 		for _, p := range []int{1, 3, 12, 64} {
 			for _, wide := range []bool{false, true} {
@@ -313,7 +320,7 @@ func TestAddInt16Window(t *testing.T) {
 						AddWindow(wantM, wantN, fwin, s)
 						gotM, gotN := NewExactAccumulator(p), NewExactAccumulator(p)
 						AddInt16Window(gotM, gotN, iwin, s)
-						what := fmt.Sprintf("%v p=%d wide=%v %v halo %v", isa, p, wide, s, halo)
+						what := fmt.Sprintf("%v paired %v p=%d wide=%v %v halo %v", isa, pairKernel, p, wide, s, halo)
 						checkSame(t, what+" pixels", gotM, wantM)
 						checkSame(t, what+" differences", gotN, wantN)
 					}

@@ -176,6 +176,35 @@ type Basis struct {
 // disagree, count < 2, a Band is invalid (see ReadBasis) or, in correlation
 // mode, a band is constant.
 func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetric) (*Basis, error) {
+	b, err := newStats(mode, bs, count, mean, cov)
+	if err != nil {
+		return nil, err
+	}
+	target := cov
+	if mode == Correlation {
+		r, err := bands.CorrelationOf(cov)
+		var zv *bands.ZeroVarianceError
+		if errors.As(err, &zv) {
+			return nil, fmt.Errorf("band %d (%s) is constant: its correlation is undefined (use covariance mode)", zv.Band+1, b.Bands[zv.Band].Name)
+		}
+		if err != nil {
+			return nil, fmt.Errorf("%w", err)
+		}
+		target = r
+	}
+	d, err := Decompose(target)
+	if err != nil {
+		return nil, err
+	}
+	if err := b.setDecomposition(d, string(mode)+" matrix", "eigenvalue"); err != nil {
+		return nil, err
+	}
+	return b, nil
+}
+
+// newStats builds the descriptive part of a basis (everything but the
+// decomposition) with NewBasis's checks of the statistics.
+func newStats(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetric) (*Basis, error) {
 	if !mode.valid() {
 		return nil, fmt.Errorf("unknown mode %q", mode)
 	}
@@ -217,26 +246,6 @@ func NewBasis(mode Mode, bs []Band, count int64, mean []float64, cov mat.Symmetr
 	}
 	if !finite {
 		return nil, bands.ErrTooLarge
-	}
-
-	target := cov
-	if mode == Correlation {
-		r, err := bands.CorrelationOf(cov)
-		var zv *bands.ZeroVarianceError
-		if errors.As(err, &zv) {
-			return nil, fmt.Errorf("band %d (%s) is constant: its correlation is undefined (use covariance mode)", zv.Band+1, b.Bands[zv.Band].Name)
-		}
-		if err != nil {
-			return nil, fmt.Errorf("%w", err)
-		}
-		target = r
-	}
-	d, err := Decompose(target)
-	if err != nil {
-		return nil, err
-	}
-	if err := b.setDecomposition(d, string(mode)+" matrix", "eigenvalue"); err != nil {
-		return nil, err
 	}
 	return b, nil
 }

@@ -124,18 +124,11 @@ func NewMNFBasis(bs []Band, count int64, mean []float64, cov, noise mat.Symmetri
 }
 
 // newMoments builds the descriptive part of a covariance-mode version 2
-// basis (everything but the decomposition) through NewBasis's checks.
+// basis (everything but the decomposition) through NewBasis's checks,
+// without its eigendecomposition of the covariance, which the caller's
+// decomposition replaces.
 func newMoments(bs []Band, count int64, mean []float64, cov mat.Symmetric) (*Basis, error) {
-	p := cov.SymmetricDim()
-	switch {
-	case p == 0:
-		return nil, fmt.Errorf("no bands")
-	case len(bs) != p || len(mean) != p:
-		return nil, fmt.Errorf("%d bands and %d means for a %d×%d covariance matrix", len(bs), len(mean), p, p)
-	case count < 2:
-		return nil, fmt.Errorf("%d pixels: a covariance needs at least 2", count)
-	}
-	b, err := NewBasis(Covariance, bs, count, mean, cov)
+	b, err := newStats(Covariance, bs, count, mean, cov)
 	if err != nil {
 		return nil, err
 	}

@@ -116,6 +116,12 @@ func (m *Model) K() int { return m.k }
 // Fit panics if k < 1, if len(d) is not a multiple of k or if trim is not in
 // (0, 1).
 func Fit(d []float64, k int, trim float64) (*Model, error) {
+	return fit(d, k, trim, serial)
+}
+
+// fit is Fit with its independent pieces on w: the robust starting values
+// of the components, and the scores of each trimming iteration.
+func fit(d []float64, k int, trim float64, w par) (*Model, error) {
 	if k < 1 {
 		panic(fmt.Sprintf("change: k = %d < 1", k))
 	}
@@ -139,7 +145,7 @@ func Fit(d []float64, k int, trim float64) (*Model, error) {
 	consistency := trim / distuv.ChiSquared{K: float64(k + 2)}.CDF(cut)
 
 	m := &Model{Trim: trim, Sample: n, k: k, loc: make([]float64, k), l: make([]float64, k*k), inv: make([]float64, k)}
-	if err := m.start(d); err != nil {
+	if err := m.start(d, w); err != nil {
 		return nil, err
 	}
 
@@ -150,18 +156,7 @@ func Fit(d []float64, k int, trim float64) (*Model, error) {
 	acc := bands.NewAccumulator(k)
 	cov := mat.NewSymDense(k, nil)
 	for it := 1; ; it++ {
-		sc := m.Scorer()
-		changed, flagged := 0, 0
-		for p := range keep {
-			f := sc.Z(d[p*k:(p+1)*k]) > cut
-			if f == keep[p] {
-				changed++
-				keep[p] = !f
-			}
-			if f {
-				flagged++
-			}
-		}
+		changed, flagged := m.trim(d, keep, cut, w)
 		if n-flagged < k+1 {
 			return nil, fmt.Errorf("%w: %d of %d pixels left after trimming at q = %v, need at least %d",
 				ErrTooFewPixels, n-flagged, n, trim, k+1)
@@ -185,13 +180,38 @@ func Fit(d []float64, k int, trim float64) (*Model, error) {
 	return m, nil
 }
 
+// trim sets keep[p] to whether pixel p of d scores at most cut under m,
+// and returns how many flags changed and how many pixels are above cut.
+func (m *Model) trim(d []float64, keep []bool, cut float64, w par) (changed, flagged int) {
+	k := m.k
+	counts := make([][2]int, w.pieces(len(keep))) // by piece: changed, flagged
+	w.chunks(len(keep), func(i, lo, hi int) {
+		c := &counts[i]
+		sc := m.Scorer()
+		for p := lo; p < hi; p++ {
+			f := sc.Z(d[p*k:(p+1)*k]) > cut
+			if f == keep[p] {
+				c[0]++
+				keep[p] = !f
+			}
+			if f {
+				c[1]++
+			}
+		}
+	})
+	for _, c := range counts {
+		changed, flagged = changed+c[0], flagged+c[1]
+	}
+	return changed, flagged
+}
+
 // start sets the initial location (median) and diagonal factor (robust
-// scale) of m from d.
-func (m *Model) start(d []float64) error {
+// scale) of m from d, the components on w.
+func (m *Model) start(d []float64, w par) error {
 	k := m.k
 	n := len(d) / k
-	col := make([]float64, n)
-	for j := range k {
+	return w.each(k, func(j int) error {
+		col := make([]float64, n)
 		for p := range n {
 			col[p] = d[p*k+j]
 		}
@@ -211,8 +231,8 @@ func (m *Model) start(d []float64) error {
 		m.loc[j] = med
 		m.l[j*k+j] = s
 		m.inv[j] = 1 / s
-	}
-	return nil
+		return nil
+	})
 }
 
 // medianOf returns the median of the non-empty s, free of NaN (the mean
@@ -301,6 +321,11 @@ func NewModel(location []float64, cov mat.Symmetric) (*Model, error) {
 // has room (dst is resliced to the number of pixels) or in a new slice. It
 // panics if len(d) is not a multiple of K.
 func (m *Model) Scores(dst, d []float64) []float64 {
+	return m.scores(dst, d, serial)
+}
+
+// scores is Scores with pieces of the pixels on w.
+func (m *Model) scores(dst, d []float64, w par) []float64 {
 	if len(d)%m.k != 0 {
 		panic(fmt.Sprintf("change: len(d) = %d is not a multiple of k = %d", len(d), m.k))
 	}
@@ -309,10 +334,12 @@ func (m *Model) Scores(dst, d []float64) []float64 {
 		dst = make([]float64, n)
 	}
 	dst = dst[:n]
-	sc := m.Scorer()
-	for p := range dst {
-		dst[p] = sc.Z(d[p*m.k : (p+1)*m.k])
-	}
+	w.chunks(n, func(_, lo, hi int) {
+		sc := m.Scorer()
+		for p := lo; p < hi; p++ {
+			dst[p] = sc.Z(d[p*m.k : (p+1)*m.k])
+		}
+	})
 	return dst
 }
 

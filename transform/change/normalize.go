@@ -50,13 +50,18 @@ func Stable(dst []bool, zs []float64, k int) ([]bool, int) {
 // standardising by it only centres it. It panics if len(x) is not a
 // multiple of p.
 func RobustScale(x []float64, p int) (loc, scale []float64) {
+	return robustScale(x, p, serial)
+}
+
+// robustScale is RobustScale with the bands on w.
+func robustScale(x []float64, p int, w par) (loc, scale []float64) {
 	if p < 1 || len(x)%p != 0 {
 		panic(fmt.Sprintf("change: %d values of %d bands", len(x), p))
 	}
 	n := len(x) / p
 	loc, scale = make([]float64, p), make([]float64, p)
-	col := make([]float64, n)
-	for j := range p {
+	w.each(p, func(j int) error {
+		col := make([]float64, n)
 		for i := range n {
 			col[i] = x[i*p+j]
 		}
@@ -69,7 +74,8 @@ func RobustScale(x []float64, p int) (loc, scale []float64) {
 			s = 1
 		}
 		loc[j], scale[j] = m, s
-	}
+		return nil
+	})
 	return loc, scale
 }
 
@@ -136,33 +142,44 @@ func Orthogonal(x, y []float64) (BandFit, error) {
 // fewer than MinStable pixels are stable, and one naming the band when a
 // band cannot be fitted. It panics on mismatched lengths.
 func Normalize(before, after []float64, p int, stable []bool) ([]BandFit, error) {
+	return normalize(before, after, p, stable, serial)
+}
+
+// normalize is Normalize with the bands on w.
+func normalize(before, after []float64, p int, stable []bool, w par) ([]BandFit, error) {
 	if len(before) != len(after) || p < 1 || len(before) != len(stable)*p {
 		panic(fmt.Sprintf("change: normalise %d and %d values of %d bands with %d flags", len(before), len(after), p, len(stable)))
 	}
-	n := 0
-	for _, s := range stable {
+	var at []int // the stable pixels
+	for i, s := range stable {
 		if s {
-			n++
+			at = append(at, i)
 		}
 	}
-	if n < MinStable {
-		return nil, fmt.Errorf("%w: %d, need at least %d", ErrTooFewStable, n, MinStable)
+	if len(at) < MinStable {
+		return nil, fmt.Errorf("%w: %d, need at least %d", ErrTooFewStable, len(at), MinStable)
 	}
-	x, y := make([]float64, 0, n), make([]float64, 0, n)
-	fits := make([]BandFit, p)
-	for j := range p {
-		x, y = x[:0], y[:0]
-		for i, s := range stable {
-			if s {
-				x = append(x, after[i*p+j])
-				y = append(y, before[i*p+j])
+	// Each band's values of the stable pixels, gathered a pixel at a time.
+	x, y := make([]float64, p*len(at)), make([]float64, p*len(at))
+	w.chunks(len(at), func(_, lo, hi int) {
+		for t := lo; t < hi; t++ {
+			i := at[t]
+			for j := range p {
+				x[j*len(at)+t], y[j*len(at)+t] = after[i*p+j], before[i*p+j]
 			}
 		}
-		f, err := Orthogonal(x, y)
+	})
+	fits := make([]BandFit, p)
+	err := w.each(p, func(j int) error {
+		f, err := Orthogonal(x[j*len(at):(j+1)*len(at)], y[j*len(at):(j+1)*len(at)])
 		if err != nil {
-			return nil, fmt.Errorf("band %d: %w", j+1, err)
+			return fmt.Errorf("band %d: %w", j+1, err)
 		}
 		fits[j] = f
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
 	return fits, nil
 }

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
 
 	"bandfold/bands"
 	"bandfold/transform"
@@ -67,7 +68,20 @@ const FirstFitPixels = 50_000
 // A sample in which both dates are equal gives the identity. Errors wrap
 // ErrTooFewStable when too few pixels are stable, and name the band that
 // cannot be fitted.
+//
+// The independent pieces of each stage run on the process's cores
+// (runtime.GOMAXPROCS): the robust scales and the regressions of the
+// bands, the starting values of the no-change models' components, and the
+// scores and the normalised values of the pixels, a range at a time. Each
+// is formed as one goroutine would form it, and the sums over pixels of
+// the models' moments in one, so the fit is the same bit for bit on any
+// number of cores.
 func FitNormalization(ref, date []float64, p int) (Normalization, error) {
+	return fitNormalization(ref, date, p, par(runtime.GOMAXPROCS(0)))
+}
+
+// fitNormalization is FitNormalization on w.
+func fitNormalization(ref, date []float64, p int, w par) (Normalization, error) {
 	if len(ref) != len(date) || p < 1 || len(ref)%p != 0 {
 		panic(fmt.Sprintf("change: normalise %d and %d values of %d bands", len(ref), len(date), p))
 	}
@@ -78,15 +92,15 @@ func FitNormalization(ref, date []float64, p int) (Normalization, error) {
 		}
 		return Normalization{Bands: fits, Stable: len(ref) / p, Settled: true}, nil
 	}
-	fits, stable, err := firstFit(ref, date, p)
+	fits, stable, err := firstFit(ref, date, p, w)
 	if err != nil {
 		return Normalization{}, err
 	}
 	out := Normalization{Bands: fits, Stable: stable}
-	norm := make([]float64, len(date))
+	r := &rounds{w: w, norm: make([]float64, len(date)), d: make([]float64, len(date))}
 	for out.Rounds < maxRounds {
-		ApplyNormalization(norm, date, out.Bands)
-		next, stable, err := refine(ref, norm, p)
+		w.chunks(len(date)/p, func(_, lo, hi int) { ApplyNormalization(r.norm[lo*p:hi*p], date[lo*p:hi*p], out.Bands) })
+		next, stable, err := r.refine(ref, p)
 		if err != nil {
 			// The first fit stands: a refinement that cannot be made (too few
 			// stable pixels in p dimensions) does not undo it.
@@ -117,27 +131,38 @@ func FitNormalization(ref, date []float64, p int) (Normalization, error) {
 // differences (all equal, or degenerate).
 var ErrNoModel = errors.New("no no-change model of the differences")
 
+// rounds holds what the rounds of the refinement share: the normalised
+// date, the differences, their scores and the stable flags, allocated once.
+type rounds struct {
+	w          par
+	norm, d, z []float64
+	stable     []bool
+}
+
 // refine is one round of the refinement: the stable pixels of the
 // differences norm − ref in ref's units and the orthogonal regressions of
 // ref on norm over them.
-func refine(ref, norm []float64, p int) ([]BandFit, int, error) {
-	d := make([]float64, len(ref))
-	for i := range d {
-		d[i] = norm[i] - ref[i]
-	}
-	model, err := Fit(Subsample(d, p, FirstFitPixels), p, DefaultTrim)
+func (r *rounds) refine(ref []float64, p int) ([]BandFit, int, error) {
+	r.w.chunks(len(r.d), func(_, lo, hi int) {
+		for i := lo; i < hi; i++ {
+			r.d[i] = r.norm[i] - ref[i]
+		}
+	})
+	model, err := fit(Subsample(r.d, p, FirstFitPixels), p, DefaultTrim, r.w)
 	if err != nil {
 		return nil, 0, fmt.Errorf("%w: %v", ErrNoModel, err)
 	}
-	stable, count := Stable(nil, model.Scores(nil, d), p)
-	fits, err := Normalize(ref, norm, p, stable)
+	r.z = model.scores(r.z, r.d, r.w)
+	var count int
+	r.stable, count = Stable(r.stable, r.z, p)
+	fits, err := normalize(ref, r.norm, p, r.stable, r.w)
 	return fits, count, err
 }
 
 // firstFit is the first stage of FitNormalization.
-func firstFit(ref, date []float64, p int) ([]BandFit, int, error) {
+func firstFit(ref, date []float64, p int, w par) ([]BandFit, int, error) {
 	n := len(ref) / p
-	sb, sa := standardise(ref, p), standardise(date, p)
+	sb, sa := standardise(ref, p, w), standardise(date, p, w)
 	acc := bands.NewAccumulator(p)
 	acc.AddPixels(sb, nil)
 	acc.AddPixels(sa, nil)
@@ -161,12 +186,12 @@ func firstFit(ref, date []float64, p int) ([]BandFit, int, error) {
 	}
 	d := make([]float64, n*k)
 	proj.Difference(d, dx)
-	model, err := Fit(Subsample(d, k, FirstFitPixels), k, DefaultTrim)
+	model, err := fit(Subsample(d, k, FirstFitPixels), k, DefaultTrim, w)
 	if err != nil {
 		return nil, 0, err
 	}
-	stable, count := Stable(nil, model.Scores(nil, d), k)
-	fits, err := Normalize(ref, date, p, stable)
+	stable, count := Stable(nil, model.scores(nil, d, w), k)
+	fits, err := normalize(ref, date, p, stable, w)
 	return fits, count, err
 }
 
@@ -188,12 +213,14 @@ func Subsample(d []float64, k, most int) []float64 {
 
 // standardise returns x with each band centred on its median and divided
 // by 1.4826·MAD (RobustScale).
-func standardise(x []float64, p int) []float64 {
-	loc, scale := RobustScale(x, p)
+func standardise(x []float64, p int, w par) []float64 {
+	loc, scale := robustScale(x, p, w)
 	out := make([]float64, len(x))
-	for i, v := range x {
-		out[i] = (v - loc[i%p]) / scale[i%p]
-	}
+	w.chunks(len(x), func(_, lo, hi int) {
+		for i := lo; i < hi; i++ {
+			out[i] = (x[i] - loc[i%p]) / scale[i%p]
+		}
+	})
 	return out
 }
 

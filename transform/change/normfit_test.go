@@ -3,6 +3,7 @@ package change
 import (
 	"math"
 	"math/rand/v2"
+	"reflect"
 	"testing"
 )
 
@@ -77,6 +78,26 @@ func TestFitNormalizationRecoversKnownGains(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// TestFitNormalizationWorkers: the fit is the same bit for bit whatever
+// the number of goroutines its pieces run on, true by construction (each
+// piece is formed as one goroutine forms it), on a sample large enough for
+// every stage to be cut into pieces, with changed pixels.
+func TestFitNormalizationWorkers(t *testing.T) {
+	gains := []float64{20, 35, 60, 25, 45, 30, 50}
+	offsets := []float64{100, -50, 300, 10, 0, 200, 20}
+	ref, date := normPair(60_000, len(gains), gains, offsets, 0.5, 0.05, 5)
+	want, err := fitNormalization(ref, date, len(gains), serial)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range []par{2, 3, 8} {
+		got, err := fitNormalization(ref, date, len(gains), w)
+		if err != nil || !reflect.DeepEqual(got, want) {
+			t.Errorf("%d goroutines: %+v, %v; one: %+v", w, got, err, want)
+		}
 	}
 }
 

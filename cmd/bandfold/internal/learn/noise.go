@@ -227,12 +227,10 @@ func fitMNF(env jobkit.Env, acc, noise *bands.Accumulator, info []transform.Band
 	if noise.Count() < 2 {
 		return nil, fmt.Errorf("%s has %.0f %s pairs of adjacent valid pixels: the noise estimate of --method mnf needs at least 2%s", what, noise.Count(), shift, otherPairs(shift))
 	}
-	if _, err := jobkit.FitBasis(env, acc, transform.Covariance, info, what); err != nil {
+	// The checks of a principal component fit, without its decomposition:
+	// NewMNFBasis makes its own.
+	if err := jobkit.CheckFit(acc, transform.Covariance, info, what); err != nil {
 		return nil, err
-	}
-	mins, maxs := acc.Min(nil), acc.Max(nil)
-	for i := range info {
-		info[i].Min, info[i].Max = mins[i], maxs[i]
 	}
 	b, err := transform.NewMNFBasis(info, int64(acc.Count()), acc.Mean(nil), acc.Covariance(nil), bands.NoiseCovariance(noise, nil), int64(noise.Count()))
 	var nd *transform.NotDefiniteError
