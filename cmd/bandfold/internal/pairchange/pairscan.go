@@ -58,7 +58,7 @@ func (h *changeHook) Pair(_ int, t tiles.Tile, lo, hi int, x [2][]float64, ok []
 	if h.grid != nil {
 		h.grid.Pixels(t, lo, hi, x, ok, &mt.prev)
 	}
-	z := pt.Z[0][lo:hi]
+	z := pt.Z[0][:hi-lo]
 	z32 := mt.z32[lo:hi]
 	for i, v := range z {
 		z32[i] = float32(v)

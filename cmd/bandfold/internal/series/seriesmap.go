@@ -11,19 +11,23 @@ import (
 	"bandfold/tiles"
 )
 
-// PairTile is one tile of every scored pair's change statistic.
+// PairTile is one tile of every scored pair's change statistic: Z of the
+// chunk of pixels last scored (pixels lo to hi of the tile at [0, hi-lo):
+// a hook takes what it keeps of it in Pair, so that a worker holds one
+// chunk of Z per pair, not a tile, however many dates), and the whole
+// tile's flags and top components.
 type PairTile struct {
-	Z          [][]float64 // per pair
+	Z          [][]float64 // per pair, one chunk
 	Flags, Top [][]uint8   // per pair
 	// Extra is the command's own per-tile results (MapHooks).
 	Extra any
 }
 
 // MapHooks are what a command adds to the engine's map pass: per worker,
-// pair is called after each chunk of a pair is scored (rows lo to hi of
-// the tile, pixel offsets), with the dates' raw values of the tile at
-// hand; done once a tile is scored. deliver runs in tile order in the
-// one goroutine that merges.
+// pair is called after each chunk of a pair is scored (pixels lo to hi of
+// the tile, whose Z are at PairTile.Z[q][:hi-lo]), with the dates' raw
+// values of the chunk at hand; done once a tile is scored. deliver runs
+// in tile order in the one goroutine that merges.
 type MapHooks struct {
 	NewWorker func() TileHook
 	Deliver   func(t tiles.Tile, pt *PairTile) error
@@ -61,7 +65,7 @@ func (w *pairWorker) Do(ctx context.Context, t tiles.Tile) (*PairTile, error) {
 	n, p := t.Pixels(), w.p
 	pt := w.pool.Get().(*PairTile)
 	Q := len(w.pairs)
-	pt.Z, pt.Flags, pt.Top = Grows(pt.Z, Q, n), Grows(pt.Flags, Q, n), Grows(pt.Top, Q, n)
+	pt.Z, pt.Flags, pt.Top = Grows(pt.Z, Q, min(n, seriesChunk)), Grows(pt.Flags, Q, n), Grows(pt.Top, Q, n)
 	w.hook.Begin(t, pt)
 	w.both = jobkit.Grow(w.both, seriesChunk)
 	w.xa, w.xb = jobkit.Grow(w.xa, seriesChunk*p), jobkit.Grow(w.xb, seriesChunk*p)
@@ -84,7 +88,7 @@ func (w *pairWorker) Do(ctx context.Context, t tiles.Tile) (*PairTile, error) {
 					both[i] = w.valid[a][lo+i] && w.valid[b][lo+i]
 				}
 				x := [2][]float64{w.values(a, lo, hi, w.xa), w.values(b, lo, hi, w.xb)}
-				w.scorers[q].score(x[0], x[1], both, pt.Z[q][lo:hi], pt.Top[q][lo:hi], pt.Flags[q][lo:hi])
+				w.scorers[q].score(x[0], x[1], both, pt.Z[q][:hi-lo], pt.Top[q][lo:hi], pt.Flags[q][lo:hi])
 				w.hook.Pair(q, t, lo, hi, x, both, w.scorers[q], pt)
 			}
 		}

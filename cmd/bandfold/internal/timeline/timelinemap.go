@@ -66,7 +66,7 @@ func (h *timelineHook) Pair(q int, _ tiles.Tile, lo, hi int, _ [2][]float64, _ [
 	}
 	st := pt.Extra.(*stepTile)
 	out := st.z[q][lo:hi]
-	for i, v := range pt.Z[q][lo:hi] {
+	for i, v := range pt.Z[q][:hi-lo] {
 		out[i] = float32(v)
 		if v == v && !(v <= h.zmax[lo+i]) {
 			h.zmax[lo+i], h.argmaxi[lo+i] = v, q+1
