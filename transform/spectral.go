@@ -38,7 +38,7 @@ const (
 func WavelengthToNM(v float64, unit string) (float64, error) {
 	f, ok := unitScale(unit)
 	if !ok {
-		return 0, fmt.Errorf("unknown wavelength unit %q (want nm or um)", unit)
+		return 0, fmt.Errorf("unknown wavelength unit %q (want nm or um)", shorten(unit))
 	}
 	return toNM(v, f, unit)
 }
