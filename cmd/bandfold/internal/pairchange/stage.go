@@ -3,7 +3,6 @@ package pairchange
 import (
 	"context"
 	"fmt"
-	"math"
 
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/report"
@@ -12,12 +11,11 @@ import (
 )
 
 // pieceTile is one tile of a map piece: Z (and the p-values, with
-// --pvalues) as float32 bits, the score differences (with --differences)
-// as float64 bits, the raw flags and the top component, and the tile's
+// --pvalues) as float32 bytes, the score differences (with --differences)
+// as float64 bytes (series.Float32Bytes, Float64Bytes), the raw flags and the top component, and the tile's
 // part of the preview (nil where the preview reads the images itself).
 type pieceTile struct {
-	Z, PV      []uint32
-	D          []uint64
+	Z, PV, D   []byte
 	Flags, Top []uint8
 	Prev       *report.PreviewPart
 }
@@ -48,13 +46,8 @@ func (r *changeRun) mapShard(ctx context.Context) error {
 	},
 		func(_ tiles.Tile, pt *series.PairTile) any {
 			mt := pt.Extra.(*mapTile)
-			rec.Z, rec.PV = jobkit.Grow(rec.Z, len(mt.z32)), jobkit.Grow(rec.PV, len(mt.pv32))
-			series.Float32Bits(rec.Z, mt.z32)
-			series.Float32Bits(rec.PV, mt.pv32)
-			rec.D = rec.D[:0]
-			for _, v := range mt.diffs {
-				rec.D = append(rec.D, math.Float64bits(v))
-			}
+			rec.Z, rec.PV = series.Float32Bytes(rec.Z, mt.z32), series.Float32Bytes(rec.PV, mt.pv32)
+			rec.D = series.Float64Bytes(rec.D, mt.diffs)
 			rec.Flags, rec.Top, rec.Prev = pt.Flags[0], pt.Top[0], nil
 			if r.grid != nil {
 				rec.Prev = &mt.prev
@@ -84,13 +77,13 @@ func (r *changeRun) joinPieces(ctx context.Context) error {
 		if r.grid != nil {
 			r.grid.Add(rec.Prev)
 		}
-		if len(rec.Z) != px || len(rec.Flags) != px || len(rec.Top) != px {
-			return fmt.Errorf("%s has %d pixels, want %d: the piece is of another grid or tiling", what, len(rec.Z), px)
+		if len(rec.Z) != 4*px || len(rec.Flags) != px || len(rec.Top) != px {
+			return fmt.Errorf("%s has %d pixels, want %d: the piece is of another grid or tiling", what, len(rec.Flags), px)
 		}
 		mt.z32 = jobkit.Grow(mt.z32, px)
 		series.Float32s(mt.z32, rec.Z)
 		if outs.pv != nil {
-			if len(rec.PV) != px {
+			if len(rec.PV) != 4*px {
 				return fmt.Errorf("%s has no p-values: its map stage ran without --pvalues", what)
 			}
 			mt.pv32 = jobkit.Grow(mt.pv32, px)
@@ -98,13 +91,11 @@ func (r *changeRun) joinPieces(ctx context.Context) error {
 		}
 		if outs.diffs != nil {
 			k := r.Proj.Components()
-			if len(rec.D) != px*k {
+			if len(rec.D) != 8*px*k {
 				return fmt.Errorf("%s has no score differences: its map stage ran without --differences", what)
 			}
 			mt.diffs = jobkit.Grow(mt.diffs, px*k)
-			for j, b := range rec.D {
-				mt.diffs[j] = math.Float64frombits(b)
-			}
+			series.Float64s(mt.diffs, rec.D)
 		}
 		if err := outs.write(t, &mt); err != nil {
 			return err

@@ -2,6 +2,7 @@ package series
 
 import (
 	"context"
+	"encoding/binary"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -314,18 +315,37 @@ func (r *Run) JoinPieces(ctx context.Context, rec PieceRecord, deliver func(t ti
 	return nil
 }
 
-// Float32Bits writes the bits of float32 values v into dst: map pieces
-// keep values as bits, so that every value (NaN too) comes back bit for
-// bit.
-func Float32Bits(dst []uint32, v []float32) {
-	for i, x := range v {
-		dst[i] = math.Float32bits(x)
+// Float32Bytes appends the bits of float32 values v to dst[:0], little
+// endian: map pieces keep values as bytes, so that every value (NaN too)
+// comes back bit for bit and a tile reads as one block.
+func Float32Bytes(dst []byte, v []float32) []byte {
+	dst = dst[:0]
+	for _, x := range v {
+		dst = binary.LittleEndian.AppendUint32(dst, math.Float32bits(x))
+	}
+	return dst
+}
+
+// Float32s writes the float32 values of Float32Bytes's b into dst.
+func Float32s(dst []float32, b []byte) {
+	for i := range dst {
+		dst[i] = math.Float32frombits(binary.LittleEndian.Uint32(b[4*i:]))
 	}
 }
 
-// Float32s writes the float32 values of bits b into dst.
-func Float32s(dst []float32, b []uint32) {
-	for i, x := range b {
-		dst[i] = math.Float32frombits(x)
+// Float64Bytes appends the bits of float64 values v to dst[:0], as
+// Float32Bytes does.
+func Float64Bytes(dst []byte, v []float64) []byte {
+	dst = dst[:0]
+	for _, x := range v {
+		dst = binary.LittleEndian.AppendUint64(dst, math.Float64bits(x))
+	}
+	return dst
+}
+
+// Float64s writes the float64 values of Float64Bytes's b into dst.
+func Float64s(dst []float64, b []byte) {
+	for i := range dst {
+		dst[i] = math.Float64frombits(binary.LittleEndian.Uint64(b[8*i:]))
 	}
 }

@@ -10,10 +10,11 @@ import (
 )
 
 // pieceTile is one tile of a staged timeline's map piece: stepMaps with
-// the float32 values as their bits, so that they come back bit for bit.
+// the float32 values as bytes (series.Float32Bytes), so that they come
+// back bit for bit.
 type pieceTile struct {
-	Z            [][]uint32 // per step
-	Zmax, Argmax []uint32
+	Z            [][]byte // per step
+	Zmax, Argmax []byte
 	Flags, Top   [][]uint8 // per pair, per step
 }
 
@@ -37,13 +38,13 @@ func (r *timelineRun) mapShard(ctx context.Context) error {
 	var rec pieceTile
 	return r.MapPiece(ctx, r.newHook, func(_ tiles.Tile, pt *series.PairTile) any {
 		st := pt.Extra.(*stepTile)
-		rec.Z = series.Grows(rec.Z, S, len(st.zmax))
-		for q := range S {
-			series.Float32Bits(rec.Z[q], st.z[q])
+		if len(rec.Z) != S {
+			rec.Z = make([][]byte, S)
 		}
-		rec.Zmax, rec.Argmax = jobkit.Grow(rec.Zmax, len(st.zmax)), jobkit.Grow(rec.Argmax, len(st.argmax))
-		series.Float32Bits(rec.Zmax, st.zmax)
-		series.Float32Bits(rec.Argmax, st.argmax)
+		for q := range S {
+			rec.Z[q] = series.Float32Bytes(rec.Z[q], st.z[q])
+		}
+		rec.Zmax, rec.Argmax = series.Float32Bytes(rec.Zmax, st.zmax), series.Float32Bytes(rec.Argmax, st.argmax)
 		rec.Flags, rec.Top = pt.Flags, pt.Top[:S]
 		return &rec
 	})
@@ -84,11 +85,11 @@ func (r *timelineRun) joinPieces(ctx context.Context) error {
 
 // fits reports whether the record is of S steps, Q pairs and px pixels.
 func (p *pieceTile) fits(S, Q, px int) bool {
-	if len(p.Z) != S || len(p.Top) != S || len(p.Flags) != Q || len(p.Zmax) != px || len(p.Argmax) != px {
+	if len(p.Z) != S || len(p.Top) != S || len(p.Flags) != Q || len(p.Zmax) != 4*px || len(p.Argmax) != 4*px {
 		return false
 	}
 	for q := range S {
-		if len(p.Z[q]) != px || len(p.Top[q]) != px {
+		if len(p.Z[q]) != 4*px || len(p.Top[q]) != px {
 			return false
 		}
 	}
