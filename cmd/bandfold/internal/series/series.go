@@ -181,7 +181,6 @@ type Run struct {
 	stats     seriesStats
 	norms     [][]change.BandFit // per date onto the reference; nil for none
 	NormSums  []NormalizationSummary
-	dxs       [][]float64 // each scored pair's sample of band differences
 	basis     *transform.Basis
 	BasisName string
 	Proj      *transform.Projector

@@ -31,8 +31,7 @@ func (r *Run) pairSample(a, b int) (xa, xb []float64) {
 // (change.FitNormalization on the pair's sample), so that no error
 // accumulates along a series; a fit that fails or cannot be trusted leaves
 // the date as given, with a warning. With --normalize none it warns when a
-// date looks radiometrically incomparable with the reference. It leaves
-// each scored pair's sample of normalised band differences in r.dxs.
+// date looks radiometrically incomparable with the reference.
 func (r *Run) Normalize(context.Context) error {
 	p := r.Scenes[0].Len()
 	r.norms = make([][]change.BandFit, len(r.Scenes))
@@ -63,20 +62,26 @@ func (r *Run) Normalize(context.Context) error {
 				r.Name(d), r.Name(r.Ref), j+1, fit.Bands[j].Gain, fit.Bands[j].Correlation, minCorrelation)
 		}
 	}
-	for _, pr := range r.pairs {
-		xa, xb := r.pairSample(pr[0], pr[1])
-		change.ApplyNormalization(xa, xa, r.norms[pr[0]])
-		change.ApplyNormalization(xb, xb, r.norms[pr[1]])
-		dx := make([]float64, len(xa))
-		if !change.WithinRounding(xa, xb) {
-			for i := range dx {
-				dx[i] = xb[i] - xa[i]
-			}
-		} // else all zero: the pair is identical
-		r.dxs = append(r.dxs, dx)
-	}
-	r.stats.sample = nil // the differences are all later steps need
 	return nil
+}
+
+// pairDifferences returns the scored pair q's sample of normalised band
+// differences (all zero when the dates agree within rounding: the pair is
+// identical). FitModels forms them a pair at a time, so that a series
+// holds the dates' sample and the differences of the pairs being fitted,
+// not those of every pair at once.
+func (r *Run) pairDifferences(q int) []float64 {
+	pr := r.pairs[q]
+	xa, xb := r.pairSample(pr[0], pr[1])
+	change.ApplyNormalization(xa, xa, r.norms[pr[0]])
+	change.ApplyNormalization(xb, xb, r.norms[pr[1]])
+	dx := make([]float64, len(xa))
+	if !change.WithinRounding(xa, xb) {
+		for i := range dx {
+			dx[i] = xb[i] - xa[i]
+		}
+	}
+	return dx
 }
 
 // NormFit is one date's fit onto the reference date as a staged run's
@@ -242,14 +247,14 @@ func (r *Run) FitModels(ctx context.Context) error {
 	r.Fits = make([]*PairFit, len(r.pairs))
 	err := tiles.Each(ctx, len(r.pairs), r.Env.WorkerCount(), func(q int) error {
 		pr := r.pairs[q]
-		f, err := fitPair(r.dxs[q], p, r.Proj.Clone(), r.C.Threshold, r.Args[pr[0]]+" and "+r.Args[pr[1]])
+		f, err := fitPair(r.pairDifferences(q), p, r.Proj.Clone(), r.C.Threshold, r.Args[pr[0]]+" and "+r.Args[pr[1]])
 		r.Fits[q] = f
 		return err
 	})
 	if err != nil {
 		return err
 	}
-	r.dxs = nil
+	r.stats.sample = nil // the fits are all later steps need of it
 	k := r.Proj.Components()
 	for q, pr := range r.pairs {
 		if r.Fits[q].Identical {
