@@ -67,98 +67,28 @@ func (r *timelineRun) classify(ctx context.Context) error {
 	if err := r.confirmFlags(ctx); err != nil {
 		return err
 	}
-	S, g := r.steps(), r.Scenes[0].Grid
-	md := r.metadata()
-	nd8, nd0, ndc := float64(StepNoData), 0.0, -1.0
-	descs := make([]string, S)
-	for q := range descs {
-		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged (did not last), 2 lasting, 255 nodata", r.label(q), r.label(q+1))
-	}
-	dates := r.dateClasses()
-	specs := []struct {
-		name string
-		spec raster.Spec
-	}{
-		{"steps.tif", raster.Spec{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, Classes: stepClasses, Descriptions: descs, Metadata: md}},
-		{"first-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Classes: dates, Descriptions: []string{"date of the first lasting change (YYYYMMDD); nodata where none"}}},
-		{"last-change.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Classes: dates, Descriptions: []string{"date of the last lasting change (YYYYMMDD); nodata where none"}}},
-		{"change-count.tif", raster.Spec{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"lasting changes per pixel; nodata where no step is valid"}}},
-	}
-	outs := make([]*raster.Output, len(specs))
-	for i, s := range specs {
-		o, err := raster.Create(r.Dir.Path(s.name), r.o.Output.Spec(s.spec, true))
-		if err != nil {
-			return err
-		}
+	names, outs, err := r.createClassRasters()
+	for _, o := range outs {
 		defer o.Abort()
-		outs[i] = o
 	}
+	if err != nil {
+		return err
+	}
+	S, g := r.steps(), r.Scenes[0].Grid
 	r.counts = make([]stepCount, S)
 	r.pw, r.ph = report.PreviewSize(g.Width, g.Height)
 	r.firstPrev = make([]uint8, r.pw*r.ph)
 	flags, marks := make([][]uint8, S), make([][]uint8, S)
-	var vals, first, last, count []float64
+	var ct classTile
 	for t := range jobkit.GridFor(r.Scenes[0], r.C.Tile).Tiles() {
 		if err := ctx.Err(); err != nil {
 			return err
 		}
-		n := t.Pixels()
-		vals, first, last, count = jobkit.Grow(vals, n*S), jobkit.Grow(first, n), jobkit.Grow(last, n), jobkit.Grow(count, n)
 		if err := r.readSteps(t, flags, marks); err != nil {
 			return err
 		}
-		for i := range n {
-			x, y := t.X+i%t.W, t.Y+i/t.W
-			cell := 0.0
-			if r.Areas != nil {
-				cell = r.Areas.At(x, y)
-			}
-			first[i], last[i], count[i] = 0, 0, -1
-			for q := range S {
-				f := flags[q][i]
-				v := float64(StepNoData)
-				// The mask holds the confirmed flags, sieved again; the marks
-				// the flags before confirmation (confirmFlags).
-				switch {
-				case f == 255:
-				case f == 1:
-					v = StepConfirmed
-					c := &r.counts[q]
-					c.flagged, c.confirmed, c.flaggedArea, c.confirmedArea = c.flagged+1, c.confirmed+1, c.flaggedArea+cell, c.confirmedArea+cell
-				case marks[q][i] != 0:
-					v = StepUnconfirmed
-					c := &r.counts[q]
-					c.flagged, c.flaggedArea = c.flagged+1, c.flaggedArea+cell
-				default:
-					v = stepNone
-				}
-				vals[i*S+q] = v
-				if v != StepNoData {
-					count[i] = max(count[i], 0)
-				}
-				if v == StepConfirmed {
-					date := float64(r.Dates[q+1].YYYYMMDD())
-					if first[i] == 0 {
-						first[i] = date
-						r.markPreview(x, y, q+1)
-					}
-					last[i] = date
-					count[i]++
-				}
-			}
-		}
-		for i := range n {
-			if count[i] >= 0 {
-				r.totalValid++
-			}
-			if count[i] > 0 {
-				r.totalChanged++
-				if r.Areas != nil {
-					r.changedArea += r.Areas.At(t.X+i%t.W, t.Y+i/t.W)
-				}
-			}
-		}
-		for i, buf := range [][]float64{vals, first, last, count} {
+		r.classifyTile(t, flags, marks, &ct)
+		for i, buf := range [][]float64{ct.vals, ct.first, ct.last, ct.count} {
 			if err := outs[i].Write(t, buf); err != nil {
 				return err
 			}
@@ -168,9 +98,102 @@ func (r *timelineRun) classify(ctx context.Context) error {
 		if err := o.Commit(); err != nil {
 			return err
 		}
-		r.outputs = append(r.outputs, specs[i].name)
+		r.outputs = append(r.outputs, names[i])
 	}
 	return nil
+}
+
+// createClassRasters creates steps.tif, first-change.tif,
+// last-change.tif and change-count.tif, returning their names and
+// outputs (those created, when it fails).
+func (r *timelineRun) createClassRasters() ([]string, []*raster.Output, error) {
+	S, g := r.steps(), r.Scenes[0].Grid
+	md := r.metadata()
+	nd8, nd0, ndc := float64(StepNoData), 0.0, -1.0
+	descs := make([]string, S)
+	for q := range descs {
+		descs[q] = fmt.Sprintf("%s to %s: 0 none, 1 flagged (did not last), 2 lasting, 255 nodata", r.label(q), r.label(q+1))
+	}
+	dates := r.dateClasses()
+	names := []string{"steps.tif", "first-change.tif", "last-change.tif", "change-count.tif"}
+	specs := []raster.Spec{
+		{Grid: g, Bands: S, DataType: "Byte", NoData: &nd8, Classes: stepClasses, Descriptions: descs, Metadata: md},
+		{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Classes: dates, Descriptions: []string{"date of the first lasting change (YYYYMMDD); nodata where none"}},
+		{Grid: g, Bands: 1, DataType: "Int32", NoData: &nd0, Metadata: md, Classes: dates, Descriptions: []string{"date of the last lasting change (YYYYMMDD); nodata where none"}},
+		{Grid: g, Bands: 1, DataType: "Int32", NoData: &ndc, Metadata: md, Descriptions: []string{"lasting changes per pixel; nodata where no step is valid"}},
+	}
+	var outs []*raster.Output
+	for i, spec := range specs {
+		o, err := raster.Create(r.Dir.Path(names[i]), r.o.Output.Spec(spec, true))
+		if err != nil {
+			return nil, outs, err
+		}
+		outs = append(outs, o)
+	}
+	return names, outs, nil
+}
+
+// classTile is one tile of the class rasters: steps.tif's classes (step
+// by step, pixel-major), the dates of the first and last lasting change
+// and the number of lasting changes.
+type classTile struct{ vals, first, last, count []float64 }
+
+// classifyTile classifies one tile's pixels from each step's flags (the
+// lasting ones, sieved again) and marks (the flags before confirmation),
+// and adds them to the counts, areas and the preview of first changes.
+func (r *timelineRun) classifyTile(t tiles.Tile, flags, marks [][]uint8, ct *classTile) {
+	n, S := t.Pixels(), r.steps()
+	ct.vals, ct.first, ct.last, ct.count = jobkit.Grow(ct.vals, n*S), jobkit.Grow(ct.first, n), jobkit.Grow(ct.last, n), jobkit.Grow(ct.count, n)
+	for i := range n {
+		x, y := t.X+i%t.W, t.Y+i/t.W
+		cell := 0.0
+		if r.Areas != nil {
+			cell = r.Areas.At(x, y)
+		}
+		ct.first[i], ct.last[i], ct.count[i] = 0, 0, -1
+		for q := range S {
+			v := r.stepClass(q, flags[q][i], marks[q][i], cell)
+			ct.vals[i*S+q] = v
+			if v != StepNoData {
+				ct.count[i] = max(ct.count[i], 0)
+			}
+			if v == StepConfirmed {
+				date := float64(r.Dates[q+1].YYYYMMDD())
+				if ct.first[i] == 0 {
+					ct.first[i] = date
+					r.markPreview(x, y, q+1)
+				}
+				ct.last[i] = date
+				ct.count[i]++
+			}
+		}
+		if ct.count[i] >= 0 {
+			r.totalValid++
+		}
+		if ct.count[i] > 0 {
+			r.totalChanged++
+			r.changedArea += cell
+		}
+	}
+}
+
+// stepClass is steps.tif's class of a pixel at step q from its flag f
+// (the lasting flags, sieved again) and its mark (flagged before
+// confirmation), counted with the pixel's ground area cell.
+func (r *timelineRun) stepClass(q int, f, mark uint8, cell float64) float64 {
+	c := &r.counts[q]
+	switch {
+	case f == 255:
+		return StepNoData
+	case f == 1:
+		c.flagged, c.confirmed, c.flaggedArea, c.confirmedArea = c.flagged+1, c.confirmed+1, c.flaggedArea+cell, c.confirmedArea+cell
+		return StepConfirmed
+	case mark != 0:
+		c.flagged, c.flaggedArea = c.flagged+1, c.flaggedArea+cell
+		return StepUnconfirmed
+	default:
+		return stepNone
+	}
 }
 
 // readSteps reads every step's map and marks of tile t into flags and
