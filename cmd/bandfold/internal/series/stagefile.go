@@ -26,8 +26,12 @@ import (
 // command, its options, the inputs' fingerprints, the shard and, for a
 // piece, the model it was mapped with.
 
-// StageFormat is the Format of every stage file's header.
-const StageFormat = "bandfold-stage"
+// StageFormat is the Format of every stage file's header, StageVersion
+// its Version: 2 since the map pieces hold their values as bytes.
+const (
+	StageFormat  = "bandfold-stage"
+	StageVersion = 2
+)
 
 // The kinds of stage file.
 const (
@@ -88,7 +92,7 @@ func CreateStage(path string, h StageHeader, overwrite bool) (*StageWriter, erro
 	}
 	w := &StageWriter{f: f, fh: fh, buf: bufio.NewWriterSize(fh, 1<<20)}
 	w.enc = gob.NewEncoder(w.buf)
-	h.Format, h.Version = StageFormat, 1
+	h.Format, h.Version = StageFormat, StageVersion
 	if err := w.Add(h); err != nil {
 		w.Abort()
 		return nil, err
@@ -164,9 +168,9 @@ func OpenStage(path, kind string) (*StageReader, error) {
 		fh.Close()
 		return nil, fmt.Errorf("%s is not a bandfold stage file", path)
 	}
-	if r.Header.Version != 1 || r.Header.Kind != kind {
+	if r.Header.Version != StageVersion || r.Header.Kind != kind {
 		fh.Close()
-		return nil, fmt.Errorf("%s is a %s file of version %d, want a %s file of version 1", path, r.Header.Kind, r.Header.Version, kind)
+		return nil, fmt.Errorf("%s is a %s file of version %d, want a %s file of version %d: run its stage again with this bandfold", path, r.Header.Kind, r.Header.Version, kind, StageVersion)
 	}
 	return r, nil
 }
