@@ -17,18 +17,7 @@ import (
 func TestProvenanceCarried(t *testing.T) {
 	dir := t.TempDir()
 	f := ScenarioFiles(t, dir, 64, 2)
-	basis := filepath.Join(dir, "b.json")
-	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{f.Before}, Out: basis, Components: 3})
-	comps := filepath.Join(dir, "c.tif")
-	Fold(t, TestEnv, fold.FoldOptions{Scenes: []string{f.Before}, Basis: basis, Out: comps})
-	restored := filepath.Join(dir, "r.tif")
-	if _, err := fold.Unfold(t.Context(), TestEnv, fold.UnfoldOptions{Components: comps, Basis: basis, Out: restored}); err != nil {
-		t.Fatal(err)
-	}
-	denoised := filepath.Join(dir, "d.tif")
-	if _, err := fold.Denoise(t.Context(), TestEnv, fold.DenoiseOptions{Image: f.Before, Basis: basis, Out: denoised}); err != nil {
-		t.Fatal(err)
-	}
+	comps, restored, denoised := derive(t, dir, f.Before, 3)
 	src, err := raster.ReadMetadata(f.Before)
 	if err != nil {
 		t.Fatal(err)
@@ -51,17 +40,7 @@ func TestProvenanceCarried(t *testing.T) {
 func TestWavelengthsCarried(t *testing.T) {
 	dir := t.TempDir()
 	f := ScenarioFiles(t, dir, 128, 3)
-	basis := filepath.Join(dir, "h.json")
-	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{f.Hyper}, Out: basis, Components: 5})
-	comps := filepath.Join(dir, "c.tif")
-	Fold(t, TestEnv, fold.FoldOptions{Scenes: []string{f.Hyper}, Basis: basis, Out: comps})
-	restored, denoised := filepath.Join(dir, "r.tif"), filepath.Join(dir, "d.tif")
-	if _, err := fold.Unfold(t.Context(), TestEnv, fold.UnfoldOptions{Components: comps, Basis: basis, Out: restored}); err != nil {
-		t.Fatal(err)
-	}
-	if _, err := fold.Denoise(t.Context(), TestEnv, fold.DenoiseOptions{Image: f.Hyper, Basis: basis, Out: denoised}); err != nil {
-		t.Fatal(err)
-	}
+	_, restored, denoised := derive(t, dir, f.Hyper, 5)
 	cube, _, _ := ReadImage(t, f.Hyper, tiles.Tile{W: 1, H: 1})
 	for _, out := range []string{restored, denoised} {
 		s, _, _ := ReadImage(t, out, tiles.Tile{W: 1, H: 1})
@@ -75,4 +54,21 @@ func TestWavelengthsCarried(t *testing.T) {
 			}
 		}
 	}
+}
+
+// derive writes into dir what fold, unfold and denoise make of the image
+// with a basis of k components fitted on it, and returns their paths.
+func derive(t *testing.T, dir, image string, k int) (comps, restored, denoised string) {
+	t.Helper()
+	basis := filepath.Join(dir, "basis.json")
+	Learn(t, TestEnv, learn.LearnOptions{Scenes: []string{image}, Out: basis, Components: k})
+	comps, restored, denoised = filepath.Join(dir, "c.tif"), filepath.Join(dir, "r.tif"), filepath.Join(dir, "d.tif")
+	Fold(t, TestEnv, fold.FoldOptions{Scenes: []string{image}, Basis: basis, Out: comps})
+	if _, err := fold.Unfold(t.Context(), TestEnv, fold.UnfoldOptions{Components: comps, Basis: basis, Out: restored}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := fold.Denoise(t.Context(), TestEnv, fold.DenoiseOptions{Image: image, Basis: basis, Out: denoised}); err != nil {
+		t.Fatal(err)
+	}
+	return comps, restored, denoised
 }
