@@ -1,6 +1,7 @@
 package change
 
 import (
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -119,6 +120,10 @@ func (t Threshold) String() string {
 	}
 	return t.Rule + ":" + strconv.FormatFloat(t.Param, 'g', -1, 64)
 }
+
+// MarshalJSON writes t as its String, the form --threshold takes (a run's
+// recorded options name it as the user gave it).
+func (t Threshold) MarshalJSON() ([]byte, error) { return json.Marshal(t.String()) }
 
 // Trim returns the trimming quantile Fit should use with this threshold: Param
 // for a chisq rule, so that the pixels left out of the no-change estimate are

@@ -1,6 +1,7 @@
 package jobkit
 
 import (
+	"encoding/json"
 	"math"
 	"strconv"
 	"strings"
@@ -35,6 +36,18 @@ func ParseMinArea(s string) (MinArea, error) {
 	}
 	return MinArea{}, Usagef("--min-area %q: want a number with m2, ha, km2 or px (for example 0.5ha), or 0", s)
 }
+
+// String gives m in a form ParseMinArea reads ("5000m2", "4px").
+func (m MinArea) String() string {
+	if m.M2 > 0 {
+		return strconv.FormatFloat(m.M2, 'g', -1, 64) + "m2"
+	}
+	return strconv.FormatFloat(m.Px, 'g', -1, 64) + "px"
+}
+
+// MarshalJSON writes m as its String, the form --min-area takes (a run's
+// recorded options name it as the user could give it).
+func (m MinArea) MarshalJSON() ([]byte, error) { return json.Marshal(m.String()) }
 
 // Pixels converts the minimum area to a pixel count for the sieve.
 func (m MinArea) Pixels(areas *raster.CellAreas) (int, error) {

@@ -120,3 +120,18 @@ func FuzzParseShard(f *testing.F) {
 		}
 	})
 }
+
+// TestMinAreaString: a minimum area written back reads as the same area
+// (true by construction of the units).
+func TestMinAreaString(t *testing.T) {
+	for _, s := range []string{"0.5ha", "5000m2", "1km2", "4px", "0"} {
+		m, err := ParseMinArea(s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		back, err := ParseMinArea(m.String())
+		if err != nil || back != m {
+			t.Errorf("%s: written %q, read back %+v (%v), want %+v", s, m.String(), back, err, m)
+		}
+	}
+}
