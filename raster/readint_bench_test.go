@@ -77,3 +77,21 @@ func BenchmarkCubeKernel(b *testing.B) {
 	b.ReportMetric(kernel.Seconds()/float64(b.N), "kernel-s")
 	b.ReportMetric(float64(s.Width*s.Height)*float64(b.N)/kernel.Seconds()/1e6, "Mpx/s")
 }
+
+// BenchmarkInt16TileFloat64: a 7-band 512 x 512 tile turned into float64
+// pixel-major values in the map pass's chunks of 2,048 pixels.
+func BenchmarkInt16TileFloat64(b *testing.B) {
+	const p, side, chunk = 7, 512, 2048
+	it := &Int16Tile{X: make([]int16, p*side*side), Shift: make([]int32, p)}
+	it.Tile.W, it.Tile.H = side, side
+	for i := range it.X {
+		it.X[i] = int16(i * 7)
+	}
+	dst := make([]float64, p*chunk)
+	b.SetBytes(int64(len(it.X)) * 2)
+	for b.Loop() {
+		for lo := 0; lo < side*side; lo += chunk {
+			it.Float64(dst, lo, lo+chunk)
+		}
+	}
+}

@@ -9,7 +9,8 @@
 // the same for any number of workers. Prefetch reads tiles ahead of their
 // use on a goroutine of its own, so that a worker's next reads overlap its
 // arithmetic on the current tile; Run tells a worker that implements
-// Lookahead which tiles it will be given (Options.Ahead).
+// Lookahead which tiles it will be given (Options.Ahead). Later runs one
+// piece of work beside the tiles, whose result a later step waits for.
 package tiles
 
 import (

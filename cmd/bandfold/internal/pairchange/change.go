@@ -56,7 +56,7 @@ func Change(ctx context.Context, env jobkit.Env, o ChangeOptions) (_ *changefold
 	}
 	steps := append([]jobkit.JobStep{jobkit.Step("open", r.open)}, fit...)
 	steps = append(steps, r.FitSteps(jobkit.Step("model", r.fitModel))...)
-	steps = append(steps, mapping, jobkit.Step("sieve", r.sieve), jobkit.Step("change map", r.changeMap), jobkit.Step("patches", r.patches),
+	steps = append(steps, mapping, jobkit.Step("areas", r.AwaitAreas), jobkit.Step("sieve", r.sieve), jobkit.Step("change map", r.changeMap), jobkit.Step("patches", r.patches),
 		jobkit.Step("preview", r.preview), jobkit.Step("diagnostics", r.diagnostics), jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary))
 	if err := jobkit.RunSteps(ctx, env, "change", steps); err != nil {
 		return nil, r.Dir.FinalNames(err)

@@ -159,22 +159,27 @@ type Run struct {
 	Env jobkit.Env
 	C   *Config
 
-	Scenes    []*raster.Stack // in date order
-	Args      []string        // their arguments
-	inputs    []jobkit.Input
-	Dates     []raster.Date
-	Ref       int // the reference date's index
-	Aligned   bool
-	cleanups  []func()
-	Areas     *raster.CellAreas
-	MinPixels int
-	tiles     []tiles.Tile
-	only      []tiles.Tile // a shard's tiles, numbered among themselves (UseShard); nil for all
-	shard     *jobkit.Shard
-	scanAt    []int     // the global number of each of a shard's sample tiles
-	tileAcc   []TileAcc // a shard's sample tiles' co-moments
-	given     *transform.Basis
-	Matched   string // how the bands were matched, for people; "" when as given
+	Scenes   []*raster.Stack // in date order
+	Args     []string        // their arguments
+	inputs   []jobkit.Input
+	Dates    []raster.Date
+	Ref      int // the reference date's index
+	Aligned  bool
+	cleanups []func()
+	// Areas is the ground area of the cells, nil without a CRS; it is set
+	// by AwaitAreas, from a measurement that runs during the normalisation
+	// (StartAreas, setAreas).
+	Areas        *raster.CellAreas
+	areasLater   *tiles.Later[*raster.CellAreas]
+	measureAreas bool
+	MinPixels    int
+	tiles        []tiles.Tile
+	only         []tiles.Tile // a shard's tiles, numbered among themselves (UseShard); nil for all
+	shard        *jobkit.Shard
+	scanAt       []int     // the global number of each of a shard's sample tiles
+	tileAcc      []TileAcc // a shard's sample tiles' co-moments
+	given        *transform.Basis
+	Matched      string // how the bands were matched, for people; "" when as given
 
 	pairs     [][2]int // scored
 	sampled   [][2]int // scored, then the normalisation pairs not scored
@@ -325,32 +330,62 @@ func (r *Run) distinct(outs []output.Path) error {
 	return output.Distinct(ins, outs)
 }
 
-// setAreas sets the cell areas (nil without a CRS) and the minimum
-// mapping unit in pixels. The scan, fit and map stages of a staged run
-// use neither (the finish sieves and measures): they only refuse a ground
-// area without a CRS, and skip measuring every cell's area, which on a
-// large projected grid takes seconds.
+// setAreas prepares the measurement of the cell areas (none without a
+// CRS) and sets the minimum mapping unit in pixels. Measuring every cell
+// takes seconds on a large projected grid, and nothing needs the areas
+// before the map is counted: StartAreas runs it on a goroutine of its own
+// during the normalisation, whose fits leave a core idle, and AwaitAreas
+// takes its result. A minimum mapping unit given as a ground area waits
+// for it here. The scan, fit and map stages of a staged run measure
+// nothing (the finish sieves and measures): they only refuse a ground
+// area without a CRS.
 func (r *Run) setAreas() error {
 	first := r.Scenes[0]
+	if first.Grid.Projection == "" && r.C.MinArea.M2 > 0 {
+		return jobkit.Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", jobkit.Describe(first))
+	}
 	if !r.C.Staging.WritesFolder() {
-		if first.Grid.Projection == "" && r.C.MinArea.M2 > 0 {
-			return jobkit.Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", jobkit.Describe(first))
-		}
 		return nil
 	}
-	var err error
-	r.Areas, err = raster.NewCellAreas(first.Grid)
-	if errors.Is(err, raster.ErrNoCRS) {
-		if r.C.MinArea.M2 > 0 {
-			return jobkit.Usagef("--min-area as a ground area needs a CRS, and %s has none: give it in px", jobkit.Describe(first))
-		}
+	if first.Grid.Projection == "" {
 		r.Env.Warn("%s has no CRS: areas are given in pixels only", r.Args[0])
-		r.Areas = nil
-	} else if err != nil {
-		return fmt.Errorf("%s: %w", r.Args[0], err)
+		r.areasLater = tiles.Done[*raster.CellAreas](nil, nil)
 	}
+	r.measureAreas = true
+	if r.C.MinArea.M2 > 0 {
+		if err := r.AwaitAreas(context.Background()); err != nil {
+			return err
+		}
+	}
+	var err error
 	r.MinPixels, err = r.C.MinArea.Pixels(r.Areas)
 	return err
+}
+
+// StartAreas starts measuring the cell areas, once, where the run measures
+// them (setAreas).
+func (r *Run) StartAreas() {
+	if !r.measureAreas || r.areasLater != nil {
+		return
+	}
+	grid := r.Scenes[0].Grid
+	r.areasLater = tiles.Start(func() (*raster.CellAreas, error) { return raster.NewCellAreas(grid) })
+}
+
+// AwaitAreas sets Areas from the measurement (StartAreas), waiting for it
+// if need be: a step of its own after the map pass, before anything is
+// counted in ground area.
+func (r *Run) AwaitAreas(context.Context) error {
+	r.StartAreas()
+	if r.areasLater == nil {
+		return nil
+	}
+	areas, err := r.areasLater.Wait()
+	if err != nil {
+		return fmt.Errorf("%s: %w", r.Args[0], err)
+	}
+	r.Areas = areas
+	return nil
 }
 
 // date dates every scene (--dates, else raster.SceneDate) and, for a

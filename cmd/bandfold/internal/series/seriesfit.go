@@ -33,6 +33,7 @@ func (r *Run) pairSample(a, b int) (xa, xb []float64) {
 // the date as given, with a warning. With --normalize none it warns when a
 // date looks radiometrically incomparable with the reference.
 func (r *Run) Normalize(context.Context) error {
+	r.StartAreas() // beside the fits, which leave a core idle
 	p := r.Scenes[0].Len()
 	r.norms = make([][]change.BandFit, len(r.Scenes))
 	r.NormSums = make([]NormalizationSummary, len(r.Scenes))

@@ -222,6 +222,7 @@ func (r *Run) writeModel(context.Context) error {
 // takes its statistics as the sample pass's (map and finish); the fit that
 // follows checks that it finds the model file's thresholds.
 func (r *Run) ReadModel(ctx context.Context) error {
+	r.StartAreas() // in the finish, while the model is read and the pieces joined
 	path := r.stagePath(KindModel)
 	h, err := ReadStage(path, KindModel, &r.st.model)
 	if errors.Is(err, fs.ErrNotExist) {

@@ -116,7 +116,7 @@ func Timeline(ctx context.Context, env jobkit.Env, o TimelineOptions) (_ *Timeli
 		sample, mapping = jobkit.Step("read model", r.ReadModel), jobkit.Step("join", r.joinPieces)
 	}
 	steps := append([]jobkit.JobStep{jobkit.Step("open", r.open), sample}, r.FitSteps(jobkit.Step("models", r.FitModels))...)
-	steps = append(steps, mapping, jobkit.Step("sieve", r.sieve), jobkit.Step("classify", r.classify), jobkit.Step("patches", r.patches), jobkit.Step("figures", r.figures),
+	steps = append(steps, mapping, jobkit.Step("areas", r.AwaitAreas), jobkit.Step("sieve", r.sieve), jobkit.Step("classify", r.classify), jobkit.Step("patches", r.patches), jobkit.Step("figures", r.figures),
 		jobkit.Step("report", r.report), jobkit.Step("item", r.item), jobkit.Step("summary", r.summary))
 	if err := jobkit.RunSteps(ctx, env, "timeline", steps); err != nil {
 		return nil, r.Dir.FinalNames(err)
