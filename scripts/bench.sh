@@ -77,6 +77,27 @@ intkernel() {
 	printf '%-52s %8.2f s   (integer kernel, 2 goroutines, reads excluded)\n' "floor: kernel $(basename "$1")" "$t" | tee -a "$RES" >&2
 	echo "$t"
 }
+# profile LABEL CMD...: one more run of a job measured above, with a CPU
+# profile (BANDFOLD_CPUPROFILE), so that what bounds it is measured in the
+# same run as its floors. Prints its wall time, the CPU time the process
+# spent (user + system, /usr/bin/time) and that time spread over every
+# core: no schedule of the same work can finish sooner. Then the functions
+# taking the most CPU (go tool pprof -top, flat); the whole profile stays
+# in bench-out/LABEL.prof (go tool pprof bin/bandfold bench-out/LABEL.prof).
+profile() {
+	local label=$1 log prof w c
+	shift
+	log=$(mktemp)
+	prof=$OUT/$label.prof
+	BANDFOLD_CPUPROFILE=$prof /usr/bin/time -v "$@" >/dev/null 2>"$log" || { cat "$log" >&2; rm -f "$log"; return 1; }
+	read -r w c < <(awk -F': ' '/Elapsed \(wall clock\)/ {n=split($2,a,":"); s=0; for(i=1;i<=n;i++) s=s*60+a[i]; w=s}
+		/User time/ {u=$2} /System time/ {y=$2} END {printf "%.2f %.2f\n", w, u+y}' "$log")
+	rm -f "$log"
+	say "   profile of $label (one more run, profiled): wall $w s, CPU $c s (user + system) = $(ratio "$c" "$(nproc)") s over $(nproc) cores; most CPU:" >&2
+	$GO tool pprof -top -nodecount=10 "$B" "$prof" 2>/dev/null |
+		awk '/^ *flat/ {on=1; next} on && NF >= 6 { name=$6; for (i = 7; i <= NF; i++) name = name " " $i; printf "      %7s %6s  %s\n", $1, $2, name }' | tee -a "$RES" >&2
+	echo "$w $c"
+}
 ratio() { awk -v a="$1" -v b="$2" 'BEGIN { printf "%.2f", a / b }'; }
 maxof() { awk -v a="$1" -v b="$2" 'BEGIN { print (a > b) ? a : b }'; }
 # staged_once DIR N LINES BEFORE AFTER [OPTIONS...]: every stage of a change
@@ -137,7 +158,7 @@ say "   numpy (OPENBLAS_CORETYPE, OPENBLAS_L2_SIZE unset): $numpy_line"
 
 # learn_vs LABEL FILE BANDS PIXELS: learn against numpy and the floors.
 learn_vs() {
-	local label=$1 f=$2 p=$3 n=$4 t rss tn rssn tr ts ti tk fl
+	local label=$1 f=$2 p=$3 n=$4 t rss tn rssn tr ts ti tk fl c
 	read -r t rss < <(measure "bandfold learn $label" $B learn "$f" --out "$OUT/basis-$label.json" --overwrite --quiet)
 	tr=$(floor read "$f")
 	ts=$(floor syrk "$p" "$n")
@@ -154,6 +175,8 @@ learn_vs() {
 		fi
 	fi
 	say "   ratio bandfold/floor (the slower of read $tr s and the integer kernel $ti s): $(ratio "$t" "$fl"); bandfold/read $(ratio "$t" "$tr"), bandfold/kernel $(ratio "$t" "$ti"), bandfold/dsyrk $(ratio "$t" "$ts"); kernel/dsyrk $(ratio "$ti" "$ts")"
+	read -r _ c < <(profile "learn-$label" $B learn "$f" --out "$OUT/basis-$label.json" --overwrite --quiet)
+	say "   the run's CPU over $(nproc) cores against the read floor: $(ratio "$(ratio "$c" "$(nproc)")" "$tr") (no schedule of this work beats this ratio)"
 	[ "$p" -ge 32 ] || say "   (for $p bands numpy's dsyrk is no tight floor: the products are memory-bound, and reading is the floor that counts)"
 }
 
@@ -211,6 +234,7 @@ for spec in "$cube 10 cube224" "$scene 3 scene7"; do
 	gdal_translate -q -co TILED=YES -co BIGTIFF=IF_SAFER "$OUT/$3.components.tif" "$OUT/$3.scores-raw.tif"
 	read -r ts _ < <(measure "GDAL read all + write $2 bands $3 (fold's scores)" $PY $REF gdal-fold "$1" "$2" "$OUT/$3.gdal-scores.tif" "$OUT/$3.scores-raw.tif")
 	say "   ratio bandfold/GDAL: time $(ratio "$t" "$tg") (stand-in values, $(du -m "$OUT/$3.gdal.tif" | cut -f1) MB), $(ratio "$t" "$ts") (fold's scores, $(du -m "$OUT/$3.gdal-scores.tif" | cut -f1) MB; fold wrote $(du -m "$OUT/$3.components.tif" | cut -f1) MB)"
+	read -r _ c < <(profile "fold-$3" $B fold "$1" --basis "$OUT/basis-$3.json" -k "$2" --out "$OUT/$3.components.tif" --overwrite --quiet)
 done
 
 say "== fold to an error budget, 224-band cube (target: <= 0.6x the bytes of --type int16 at the basis's k, at no higher RMSE; <= 1.3x its time)"
@@ -232,6 +256,8 @@ read -r tc rc < <(measure "bandfold change" $B change "$scene" "$scene2" --out "
 tf=$(floor change-floor "$scene" "$scene2" "$OUT/change" "$OUT/z-floor.tif")
 read -r tn _ < <(measure "bandfold change --normalize none" $B change "$scene" "$scene2" --normalize none --out "$OUT/change-none" --overwrite --quiet)
 say "   ratio change/I/O floor: time $(ratio "$tc" "$tf"); change/learn: time $(ratio "$tc" "$tl"); normalisation's cost: change/change --normalize none $(ratio "$tc" "$tn") (target <= 1.10)"
+read -r _ c < <(profile change $B change "$scene" "$scene2" --out "$OUT/change" --overwrite --quiet)
+say "   the run's CPU over $(nproc) cores against the I/O floor: $(ratio "$(ratio "$c" "$(nproc)")" "$tf") (no schedule of this work beats this ratio)"
 
 say "== change in stages on the same scenes, 4 shards one after another (target: <= 1.25x the single run in total; each map stage's peak <= the single run's)"
 read -r tst mst _ < <(staged "bandfold change in 4 shards" "$OUT/change-staged" 4 "$scene" "$scene2")

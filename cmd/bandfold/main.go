@@ -7,12 +7,43 @@
 package main
 
 import (
+	"fmt"
 	"os"
+	"runtime/pprof"
 
 	"bandfold/bands/openblas"
 )
 
+// profileEnv names a file for a CPU profile of the whole run (Go's pprof
+// format, read with "go tool pprof"): a developer's switch that make bench
+// uses to profile the same runs it times. It is not a flag, so that it
+// stays out of the commands' help.
+const profileEnv = "BANDFOLD_CPUPROFILE"
+
 func main() {
 	openblas.Restart() // the fast BLAS kernel where OpenBLAS did not know the CPU
-	os.Exit(run(os.Args[1:], os.Stdout, os.Stderr))
+	stopProfile := startProfile(os.Getenv(profileEnv))
+	code := run(os.Args[1:], os.Stdout, os.Stderr)
+	stopProfile()
+	os.Exit(code)
+}
+
+// startProfile starts a CPU profile into path (nothing when path is empty)
+// and returns the function that ends it.
+func startProfile(path string) func() {
+	if path == "" {
+		return func() {}
+	}
+	f, err := os.Create(path)
+	if err == nil {
+		err = pprof.StartCPUProfile(f)
+	}
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "bandfold: %s=%s: cannot profile: %v\n", profileEnv, path, err)
+		return func() {}
+	}
+	return func() {
+		pprof.StopCPUProfile()
+		f.Close()
+	}
 }
