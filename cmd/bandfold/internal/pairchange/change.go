@@ -3,6 +3,7 @@ package pairchange
 import (
 	"context"
 	"fmt"
+	"image"
 	"slices"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
@@ -11,6 +12,7 @@ import (
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/raster/output"
+	"bandfold/tiles"
 	"bandfold/transform/change"
 )
 
@@ -95,8 +97,13 @@ type changeRun struct {
 	zcut      float64
 	mask      *raster.ChangeMask
 	grid      *report.PreviewGrid
-	outputs   []string
-	sum       *changefolder.ChangeResult
+	// panels are both dates' previews, built from grid beside the sieve
+	// (startPanels); marks are the preview pixels over mapped change,
+	// gathered by the change map.
+	panels  *tiles.Later[[2]*image.RGBA]
+	marks   *previewMarks
+	outputs []string
+	sum     *changefolder.ChangeResult
 }
 
 func (r *changeRun) close() {
@@ -168,6 +175,7 @@ func (r *changeRun) fitModel(ctx context.Context) error {
 // are garbage by now: their pages go back before the sieve and the polygons
 // take their share.
 func (r *changeRun) sieve(ctx context.Context) error {
+	r.startPanels()
 	if err := r.Run.Sieve(ctx, []*raster.ChangeMask{r.mask}, func(int) string { return "" }); err != nil {
 		return err
 	}

@@ -34,6 +34,7 @@ func (r *changeRun) changeMap(ctx context.Context) error {
 	area, validArea := 0.0, 0.0
 	var flags, refBuf []uint8
 	var vals []float64
+	r.marks = newPreviewMarks(r.before.Width, r.before.Height)
 	for t := range jobkit.GridFor(r.before, r.o.Input.Tile).Tiles() {
 		if err := ctx.Err(); err != nil {
 			return err
@@ -62,6 +63,7 @@ func (r *changeRun) changeMap(ctx context.Context) error {
 			if f == 1 {
 				sum.ChangedPixels++
 				area += cell
+				r.marks.mark(t.X+i%t.W, t.Y+i/t.W)
 			}
 			if r.ref != nil && refBuf[i] != 255 {
 				conf.Add(f == 1, refBuf[i] == 1)

@@ -41,34 +41,39 @@ func (r *changeRun) naturalColour() {
 	r.rgbNote = true
 }
 
-// changedAt marks, at the preview size pw x ph, the preview pixels over
-// which any full-resolution pixel is mapped as changed.
-func (r *changeRun) changedAt(pw, ph int) ([]bool, error) {
-	w, h := r.before.Width, r.before.Height
-	changed := make([]bool, pw*ph)
-	sx, sy := float64(pw)/float64(w), float64(ph)/float64(h)
-	tg := tiles.NewGrid(w, h, w, max(1, min(h, 256)))
-	var buf []uint8
-	for t := range tg.Tiles() {
-		buf = jobkit.Grow(buf, t.Pixels())
-		if err := r.mask.Read(t.X, t.Y, t.W, t.H, buf); err != nil {
-			return nil, err
-		}
-		for i, f := range buf {
-			if f != 1 {
-				continue
-			}
-			x, y := t.X+i%t.W, t.Y+i/t.W
-			x0, x1 := int(float64(x)*sx), max(int(float64(x)*sx)+1, int(math.Ceil(float64(x+1)*sx)))
-			y0, y1 := int(float64(y)*sy), max(int(float64(y)*sy)+1, int(math.Ceil(float64(y+1)*sy)))
-			for py := y0; py < min(y1, ph); py++ {
-				for px := x0; px < min(x1, pw); px++ {
-					changed[py*pw+px] = true
-				}
-			}
+// previewMarks marks, at the preview size pw x ph, the preview pixels
+// over which any full-resolution pixel of a w x h map is mapped as changed.
+type previewMarks struct {
+	pw, ph  int
+	sx, sy  float64
+	changed []bool
+}
+
+func newPreviewMarks(w, h int) *previewMarks {
+	pw, ph := report.PreviewSize(w, h)
+	return &previewMarks{pw: pw, ph: ph, sx: float64(pw) / float64(w), sy: float64(ph) / float64(h), changed: make([]bool, pw*ph)}
+}
+
+// mark marks the preview pixels over full-resolution pixel (x, y).
+func (m *previewMarks) mark(x, y int) {
+	x0, x1 := int(float64(x)*m.sx), max(int(float64(x)*m.sx)+1, int(math.Ceil(float64(x+1)*m.sx)))
+	y0, y1 := int(float64(y)*m.sy), max(int(float64(y)*m.sy)+1, int(math.Ceil(float64(y+1)*m.sy)))
+	for py := y0; py < min(y1, m.ph); py++ {
+		for px := x0; px < min(x1, m.pw); px++ {
+			m.changed[py*m.pw+px] = true
 		}
 	}
-	return changed, nil
+}
+
+// startPanels starts building both dates' previews from the grid that the
+// map pass gathered, on a goroutine of their own beside the sieve (GDAL's,
+// on one core), which does not touch the grid.
+func (r *changeRun) startPanels() {
+	if r.grid == nil {
+		return
+	}
+	g := r.grid
+	r.panels = tiles.Start(func() ([2]*image.RGBA, error) { return [2]*image.RGBA{g.Image(0), g.Image(1)}, nil })
 }
 
 // preview writes preview.png: BEFORE and AFTER side by side as composites
@@ -81,10 +86,7 @@ func (r *changeRun) preview(context.Context) error {
 			r.rgb[0]+1, r.rgb[1]+1, r.rgb[2]+1, r.o.After)
 	}
 	pw, ph := report.PreviewSize(r.before.Width, r.before.Height)
-	changed, err := r.changedAt(pw, ph)
-	if err != nil {
-		return err
-	}
+	changed := r.marks.changed
 	// The full-resolution map (3 bytes a pixel) is spent: release it before
 	// the figure is built, which is the peak of memory otherwise (on two
 	// 8192 x 8192 scenes, 505-508 MiB with it held, against 512 allowed).
@@ -135,8 +137,9 @@ func (r *changeRun) preview(context.Context) error {
 // composites returns both dates' previews: gathered during the map pass
 // when the preview reduces the images, else read again (small images).
 func (r *changeRun) composites() (before, after *image.RGBA, err error) {
-	if r.grid != nil {
-		return r.grid.Image(0), r.grid.Image(1), nil
+	if r.panels != nil {
+		p, err := r.panels.Wait()
+		return p[0], p[1], err
 	}
 	if before, err = report.Composite(r.before, r.rgb); err != nil {
 		return nil, nil, err
