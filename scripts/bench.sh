@@ -82,7 +82,8 @@ intkernel() {
 # same run as its floors. Prints its wall time, the CPU time the process
 # spent (user + system, /usr/bin/time) and that time spread over every
 # core: no schedule of the same work can finish sooner. Then the functions
-# taking the most CPU (go tool pprof -top, flat); the whole profile stays
+# taking the most CPU (go tool pprof -top, flat; a call into C counted
+# under the C function, not under runtime.cgocall); the whole profile stays
 # in bench-out/LABEL.prof (go tool pprof bin/bandfold bench-out/LABEL.prof).
 profile() {
 	local label=$1 log prof w c
@@ -94,7 +95,7 @@ profile() {
 		/User time/ {u=$2} /System time/ {y=$2} END {printf "%.2f %.2f\n", w, u+y}' "$log")
 	rm -f "$log"
 	say "   profile of $label (one more run, profiled): wall $w s, CPU $c s (user + system) = $(ratio "$c" "$(nproc)") s over $(nproc) cores; most CPU:" >&2
-	$GO tool pprof -top -nodecount=10 "$B" "$prof" 2>/dev/null |
+	$GO tool pprof -top -nodecount=10 -hide '^runtime\.cgocall$' "$B" "$prof" 2>/dev/null |
 		awk '/^ *flat/ {on=1; next} on && NF >= 6 { name=$6; for (i = 7; i <= NF; i++) name = name " " $i; printf "      %7s %6s  %s\n", $1, $2, name }' | tee -a "$RES" >&2
 	echo "$w $c"
 }
