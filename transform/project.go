@@ -163,7 +163,9 @@ func (pr *Projector) Difference(dst, dx []float64) {
 // row of foldT per component, summed in band order as mulRows sums, so the
 // scores are the same to the bit; 25% faster than mulRows for 7 bands and
 // 3 components on the 2-core reference machine (no slice header or bounds
-// check per multiply).
+// check per multiply). The components go four at a time (then two, then
+// one), each with its own sum, so that one component's additions do not
+// wait for another's (BenchmarkFold).
 func (pr *Projector) foldFused(dst, sq, x []float64) {
 	p, k := pr.p, pr.k
 	var buf [fusedMaxBands]float64
@@ -179,15 +181,46 @@ func (pr *Projector) foldFused(dst, sq, x []float64) {
 		if sq != nil {
 			sq[i/p] = s
 		}
-		yi := dst[o : o+k : o+k]
-		for c := range yi {
-			w := pr.foldT[c*p : c*p+p : c*p+p]
-			t := 0.0
-			for j, a := range w {
-				t += z[j] * a
-			}
-			yi[c] = t
+		pr.scoreRows(dst[o:o+k:o+k], z)
+	}
+}
+
+// scoreRows sets y[c] to the dot product of z with row c of foldT, each
+// summed in band order.
+func (pr *Projector) scoreRows(y, z []float64) {
+	p, k := len(z), len(y)
+	c := 0
+	for ; c+4 <= k; c += 4 {
+		w0, w1 := pr.foldT[c*p:c*p+p], pr.foldT[(c+1)*p:(c+1)*p+p]
+		w2, w3 := pr.foldT[(c+2)*p:(c+2)*p+p], pr.foldT[(c+3)*p:(c+3)*p+p]
+		w0, w1, w2, w3 = w0[:len(z)], w1[:len(z)], w2[:len(z)], w3[:len(z)] // no bounds checks below
+		var t0, t1, t2, t3 float64
+		for j, v := range z {
+			t0 += v * w0[j]
+			t1 += v * w1[j]
+			t2 += v * w2[j]
+			t3 += v * w3[j]
 		}
+		y[c], y[c+1], y[c+2], y[c+3] = t0, t1, t2, t3
+	}
+	for ; c+2 <= k; c += 2 {
+		w0, w1 := pr.foldT[c*p:c*p+p], pr.foldT[(c+1)*p:(c+1)*p+p]
+		w0, w1 = w0[:len(z)], w1[:len(z)]
+		var t0, t1 float64
+		for j, v := range z {
+			t0 += v * w0[j]
+			t1 += v * w1[j]
+		}
+		y[c], y[c+1] = t0, t1
+	}
+	for ; c < k; c++ {
+		w := pr.foldT[c*p : c*p+p]
+		w = w[:len(z)]
+		t := 0.0
+		for j, v := range z {
+			t += v * w[j]
+		}
+		y[c] = t
 	}
 }
 

@@ -155,6 +155,35 @@ func TestFusedMatchesBLAS(t *testing.T) {
 	}
 }
 
+// TestFusedScoresBitForBit: the fused path's scores, taken four, two and
+// one component at a time, are the plain per-component dot products in
+// band order to the bit (by construction: each score's own sum runs in
+// the same order), for every grouping of k.
+func TestFusedScoresBitForBit(t *testing.T) {
+	const n, p = 200, 9
+	x := correlated(91, n, p, 100)
+	b := fit(t, Covariance, x, p)
+	for k := 1; k <= p; k++ {
+		pr, err := NewProjector(b, k)
+		if err != nil {
+			t.Fatal(err)
+		}
+		y := make([]float64, n*k)
+		pr.Fold(y, x)
+		for i := range n {
+			for c := range k {
+				want := 0.0
+				for j := range p {
+					want += (x[i*p+j] - pr.mean[j]) * pr.foldT[c*p+j]
+				}
+				if y[i*k+c] != want {
+					t.Fatalf("k = %d, pixel %d, component %d: %v, want %v", k, i, c, y[i*k+c], want)
+				}
+			}
+		}
+	}
+}
+
 func TestProjectorMisuse(t *testing.T) {
 	b := fit(t, Covariance, correlated(40, 20, 3, 0), 3)
 	for _, k := range []int{0, 4, -1} {
