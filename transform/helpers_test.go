@@ -159,3 +159,16 @@ func mustJSON(t *testing.T, v any) []byte {
 	}
 	return data
 }
+
+// foldWith folds the pixels x (pixel-major) onto the first k components of
+// b; it returns the projector and the n·k scores.
+func foldWith(t testing.TB, b *Basis, k int, x []float64) (*Projector, []float64) {
+	t.Helper()
+	pr, err := NewProjector(b, k)
+	if err != nil {
+		t.Fatal(err)
+	}
+	y := make([]float64, len(x)/len(b.Bands)*k)
+	pr.Fold(y, x)
+	return pr, y
+}

@@ -164,12 +164,7 @@ func TestFusedScoresBitForBit(t *testing.T) {
 	x := correlated(91, n, p, 100)
 	b := fit(t, Covariance, x, p)
 	for k := 1; k <= p; k++ {
-		pr, err := NewProjector(b, k)
-		if err != nil {
-			t.Fatal(err)
-		}
-		y := make([]float64, n*k)
-		pr.Fold(y, x)
+		pr, y := foldWith(t, b, k, x)
 		for i := range n {
 			for c := range k {
 				want := 0.0

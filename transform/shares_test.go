@@ -64,12 +64,7 @@ func TestExplainedOn(t *testing.T) {
 		}
 		cum := Cumulative(b.Eigenvalues)
 		for k := 1; k <= p; k++ {
-			pr, err := NewProjector(b, k)
-			if err != nil {
-				t.Fatal(err)
-			}
-			y := make([]float64, n*k)
-			pr.Fold(y, x)
+			_, y := foldWith(t, b, k, x)
 			scores := bands.NewMoments(k)
 			scores.AddPixels(y, nil)
 			checkRel(t, fmt.Sprintf("%s, k = %d: ExplainedOn", mode, k), ExplainedOn(b, scene, scores), cum[k-1], 1, 1e-12)
