@@ -395,6 +395,16 @@ func (a *CellAreas) At(col, row int) float64 {
 	return a.area[row*a.blocks+col/a.block]
 }
 
+// Row returns the areas of row's blocks of columns and the block width:
+// pixel (col, row) has area blocks[col/width], as At gives it, for loops
+// over a row that would otherwise look every pixel up on its own.
+func (a *CellAreas) Row(row int) (blocks []float64, width int) {
+	if row < 0 || row >= a.height {
+		panic(fmt.Sprintf("raster: row %d outside a %dx%d grid", row, a.width, a.height))
+	}
+	return a.area[row*a.blocks : (row+1)*a.blocks], a.block
+}
+
 // Mean returns the mean pixel area (m²) of the grid, for converting an area
 // (m², ha) to a pixel count such as a minimum mapping unit.
 func (a *CellAreas) Mean() float64 { return a.mean }

@@ -136,13 +136,18 @@ func reproject(t *testing.T, from, to int, xs, ys []float64) {
 
 func relErr(got, want float64) float64 { return math.Abs(got-want) / math.Abs(want) }
 
-// totalArea sums At over the grid and checks it against Mean.
+// totalArea sums At over the grid and checks it against Mean, and Row
+// against At.
 func totalArea(t *testing.T, a *CellAreas, g Grid) float64 {
 	t.Helper()
 	var sum float64
 	for r := range g.Height {
+		blocks, width := a.Row(r)
 		for c := range g.Width {
 			sum += a.At(c, r)
+			if blocks[c/width] != a.At(c, r) {
+				t.Fatalf("Row(%d) gives %g for column %d, At %g", r, blocks[c/width], c, a.At(c, r))
+			}
 		}
 	}
 	if n := float64(g.Width * g.Height); relErr(sum/n, a.Mean()) > 1e-12 {

@@ -49,24 +49,33 @@ func (r *changeRun) changeMap(ctx context.Context) error {
 				return err
 			}
 		}
-		for i, f := range flags {
-			vals[i] = float64(f)
-			if f == 255 {
-				continue
-			}
-			sum.ValidPixels++
-			cell := 0.0
+		for row := range t.H {
+			var cells []float64 // the row's areas by block of columns
+			width := 1
 			if r.Areas != nil {
-				cell = r.Areas.At(t.X+i%t.W, t.Y+i/t.W)
-				validArea += cell
+				cells, width = r.Areas.Row(t.Y + row)
 			}
-			if f == 1 {
-				sum.ChangedPixels++
-				area += cell
-				r.marks.mark(t.X+i%t.W, t.Y+i/t.W)
-			}
-			if r.ref != nil && refBuf[i] != 255 {
-				conf.Add(f == 1, refBuf[i] == 1)
+			for c := range t.W {
+				i := row*t.W + c
+				f := flags[i]
+				vals[i] = float64(f)
+				if f == 255 {
+					continue
+				}
+				sum.ValidPixels++
+				cell := 0.0
+				if cells != nil {
+					cell = cells[(t.X+c)/width]
+					validArea += cell
+				}
+				if f == 1 {
+					sum.ChangedPixels++
+					area += cell
+					r.marks.mark(t.X+c, t.Y+row)
+				}
+				if r.ref != nil && refBuf[i] != 255 {
+					conf.Add(f == 1, refBuf[i] == 1)
+				}
 			}
 		}
 		if err := out.Write(t, vals); err != nil {
