@@ -3,7 +3,6 @@ package pairchange
 import (
 	"context"
 	"fmt"
-	"image"
 	"slices"
 
 	"bandfold/cmd/bandfold/internal/changefolder"
@@ -12,7 +11,6 @@ import (
 	"bandfold/cmd/bandfold/internal/series"
 	"bandfold/raster"
 	"bandfold/raster/output"
-	"bandfold/tiles"
 	"bandfold/transform/change"
 )
 
@@ -97,10 +95,8 @@ type changeRun struct {
 	zcut      float64
 	mask      *raster.ChangeMask
 	grid      *report.PreviewGrid
-	// panels are both dates' previews, built from grid beside the sieve
-	// (startPanels); marks are the preview pixels over mapped change,
-	// gathered by the change map.
-	panels  *tiles.Later[[2]*image.RGBA]
+	// marks are the preview pixels over mapped change, gathered by the
+	// change map.
 	marks   *previewMarks
 	outputs []string
 	sum     *changefolder.ChangeResult
@@ -175,7 +171,6 @@ func (r *changeRun) fitModel(ctx context.Context) error {
 // are garbage by now: their pages go back before the sieve and the polygons
 // take their share.
 func (r *changeRun) sieve(ctx context.Context) error {
-	r.startPanels()
 	if err := r.Run.Sieve(ctx, []*raster.ChangeMask{r.mask}, func(int) string { return "" }); err != nil {
 		return err
 	}

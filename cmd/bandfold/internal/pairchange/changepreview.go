@@ -12,7 +12,6 @@ import (
 	"bandfold/cmd/bandfold/internal/jobkit"
 	"bandfold/cmd/bandfold/internal/report"
 	"bandfold/raster/output"
-	"bandfold/tiles"
 )
 
 // previewColor outlines change patches: a saturated magenta that stands out
@@ -63,17 +62,6 @@ func (m *previewMarks) mark(x, y int) {
 			m.changed[py*m.pw+px] = true
 		}
 	}
-}
-
-// startPanels starts building both dates' previews from the grid that the
-// map pass gathered, on a goroutine of their own beside the sieve (GDAL's,
-// on one core), which does not touch the grid.
-func (r *changeRun) startPanels() {
-	if r.grid == nil {
-		return
-	}
-	g := r.grid
-	r.panels = tiles.Start(func() ([2]*image.RGBA, error) { return [2]*image.RGBA{g.Image(0), g.Image(1)}, nil })
 }
 
 // preview writes preview.png: BEFORE and AFTER side by side as composites
@@ -137,9 +125,8 @@ func (r *changeRun) preview(context.Context) error {
 // composites returns both dates' previews: gathered during the map pass
 // when the preview reduces the images, else read again (small images).
 func (r *changeRun) composites() (before, after *image.RGBA, err error) {
-	if r.panels != nil {
-		p, err := r.panels.Wait()
-		return p[0], p[1], err
+	if r.grid != nil {
+		return r.grid.Image(0), r.grid.Image(1), nil
 	}
 	if before, err = report.Composite(r.before, r.rgb); err != nil {
 		return nil, nil, err
