@@ -8,6 +8,7 @@ package main
 
 import (
 	"fmt"
+	"io"
 	"os"
 	"runtime/pprof"
 
@@ -22,15 +23,16 @@ const profileEnv = "BANDFOLD_CPUPROFILE"
 
 func main() {
 	openblas.Restart() // the fast BLAS kernel where OpenBLAS did not know the CPU
-	stopProfile := startProfile(os.Getenv(profileEnv))
+	stopProfile := startProfile(os.Getenv(profileEnv), os.Stderr)
 	code := run(os.Args[1:], os.Stdout, os.Stderr)
 	stopProfile()
 	os.Exit(code)
 }
 
 // startProfile starts a CPU profile into path (nothing when path is empty)
-// and returns the function that ends it.
-func startProfile(path string) func() {
+// and returns the function that ends it; a profile that cannot start is
+// said on stderr, and the run goes on without it.
+func startProfile(path string, stderr io.Writer) func() {
 	if path == "" {
 		return func() {}
 	}
@@ -39,7 +41,10 @@ func startProfile(path string) func() {
 		err = pprof.StartCPUProfile(f)
 	}
 	if err != nil {
-		fmt.Fprintf(os.Stderr, "bandfold: %s=%s: cannot profile: %v\n", profileEnv, path, err)
+		if f != nil {
+			f.Close()
+		}
+		fmt.Fprintf(stderr, "bandfold: %s=%s: cannot profile: %v\n", profileEnv, path, err)
 		return func() {}
 	}
 	return func() {

@@ -141,3 +141,28 @@ func TestMoreBadInputs(t *testing.T) {
 	t.Setenv("JOB_COMPLETION_INDEX", "")
 	checkBadInputs(t, tests, "")
 }
+
+// TestCPUProfileSwitch: BANDFOLD_CPUPROFILE's file holds a profile in
+// pprof's format (gzip-compressed, RFC 1952's magic bytes 1f 8b) once the
+// run ends; a path that cannot be written is said on stderr, naming the
+// variable, and the run goes on.
+func TestCPUProfileSwitch(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "cpu.prof")
+	var msg bytes.Buffer
+	stop := startProfile(path, &msg)
+	sum := 0
+	for i := range 10_000_000 {
+		sum += i % 7
+	}
+	stop()
+	b, err := os.ReadFile(path)
+	if err != nil || len(b) < 2 || b[0] != 0x1f || b[1] != 0x8b || msg.Len() != 0 {
+		t.Fatalf("profile %d bytes (%v), message %q (sum %d)", len(b), err, msg.String(), sum)
+	}
+	bad := filepath.Join(t.TempDir(), "missing", "cpu.prof")
+	startProfile(bad, &msg)()
+	if !strings.Contains(msg.String(), profileEnv+"="+bad) || strings.Count(msg.String(), "\n") != 1 {
+		t.Errorf("message %q, want one line naming %s=%s", msg.String(), profileEnv, bad)
+	}
+	startProfile("", &msg)() // no profile asked for: nothing to do
+}
