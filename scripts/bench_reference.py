@@ -4,6 +4,11 @@ The floors, the two resources learn cannot go below (each prints one line:
 seconds, then a description):
   bench_reference.py read FILE   GDAL reading every block of FILE (all bands)
                                  with GTIFF_DIRECT_IO, as a tiled reader must.
+  bench_reference.py read2 FILE  the same on two threads, each with its own
+                                 dataset, taking every other block: what
+                                 reading costs when it has both cores (GDAL's
+                                 Python bindings let go of the interpreter's
+                                 lock while they read).
   bench_reference.py syrk P N    OpenBLAS dsyrk (through numpy) forming the
                                  P x P cross-product of N float64 pixels, in
                                  chunks of 2^18 pixels, timing the products.
@@ -45,21 +50,44 @@ def read(path):
           % (dt, p, w, h, bw, bh, nbytes / 2**20, nbytes / dt / 2**30))
 
 
-def read_blocks(path):
+def read_blocks(path, threads=1):
     """Reads every block of path (all bands) with GTIFF_DIRECT_IO, as a
-    tiled reader must; returns the seconds taken and the bytes read."""
+    tiled reader must, on threads threads (each with its own dataset,
+    taking every threads-th block); returns the seconds taken and the bytes
+    read."""
+    import threading
     from osgeo import gdal
     gdal.UseExceptions()
     gdal.SetConfigOption("GTIFF_DIRECT_IO", "YES")
     ds = gdal.Open(path)
     bw, bh = ds.GetRasterBand(1).GetBlockSize()
     w, h = ds.RasterXSize, ds.RasterYSize
+    blocks = [(x, y) for y in range(0, h, bh) for x in range(0, w, bw)]
+    handles = [ds] + [gdal.Open(path) for _ in range(threads - 1)]
+    nbytes = [0] * threads
+
+    def part(i):
+        for x, y in blocks[i::threads]:
+            nbytes[i] += len(handles[i].ReadRaster(x, y, min(bw, w - x), min(bh, h - y)))
+
     t = time.perf_counter()
-    nbytes = 0
-    for y in range(0, h, bh):
-        for x in range(0, w, bw):
-            nbytes += len(ds.ReadRaster(x, y, min(bw, w - x), min(bh, h - y)))
-    return time.perf_counter() - t, nbytes
+    if threads == 1:
+        part(0)
+    else:
+        workers = [threading.Thread(target=part, args=(i,)) for i in range(threads)]
+        for th in workers:
+            th.start()
+        for th in workers:
+            th.join()
+    return time.perf_counter() - t, sum(nbytes)
+
+
+def read2(path):
+    from osgeo import gdal
+    ds = gdal.Open(path)
+    dt, nbytes = read_blocks(path, 2)
+    print("%.3f read %d bands x %d x %d on 2 threads, %.0f MiB, %.2f GiB/s"
+          % (dt, ds.RasterCount, ds.RasterXSize, ds.RasterYSize, nbytes / 2**20, nbytes / dt / 2**30))
 
 
 def change_floor(before, after, change_dir, out):
@@ -161,6 +189,8 @@ if __name__ == "__main__":
     cmd = sys.argv[1]
     if cmd == "read":
         read(sys.argv[2])
+    elif cmd == "read2":
+        read2(sys.argv[2])
     elif cmd == "syrk":
         syrk(int(sys.argv[2]), int(sys.argv[3]))
     elif cmd == "numpy-learn":
