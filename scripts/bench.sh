@@ -260,6 +260,7 @@ for spec in "$cube 10 cube224" "$scene 3 scene7"; do
 	read -r ts _ < <(measure "GDAL read all + write $2 bands $3 (fold's scores)" $PY $REF gdal-fold "$1" "$2" "$OUT/$3.gdal-scores.tif" "$OUT/$3.scores-raw.tif")
 	say "   ratio bandfold/GDAL: time $(ratio "$t" "$tg") (stand-in values, $(du -m "$OUT/$3.gdal.tif" | cut -f1) MB), $(ratio "$t" "$ts") (fold's scores, $(du -m "$OUT/$3.gdal-scores.tif" | cut -f1) MB; fold wrote $(du -m "$OUT/$3.components.tif" | cut -f1) MB)"
 	read -r _ c < <(profile "fold-$3" $B fold "$1" --basis "$OUT/basis-$3.json" -k "$2" --out "$OUT/$3.components.tif" --overwrite --quiet)
+	say "   the run's CPU over $(nproc) cores against GDAL alone writing fold's scores: $(ratio "$(ratio "$c" "$(nproc)")" "$ts") (no schedule of this work beats this ratio)"
 done
 
 say "== fold to an error budget, 224-band cube (target: <= 0.6x the bytes of --type int16 at the basis's k, at no higher RMSE; <= 1.3x its time)"
