@@ -12,7 +12,7 @@ import (
 
 // pieceTile is one tile of a map piece: Z (and the p-values, with
 // --pvalues) as float32 bytes, the score differences (with --differences)
-// as float64 bytes (series.Float32Bytes, Float64Bytes), the raw flags and the top component, and the tile's
+// as float64 bytes (series.ValueBytes), the raw flags and the top component, and the tile's
 // part of the preview (nil where the preview reads the images itself).
 type pieceTile struct {
 	Z, PV, D   []byte
@@ -46,8 +46,8 @@ func (r *changeRun) mapShard(ctx context.Context) error {
 	},
 		func(_ tiles.Tile, pt *series.PairTile) any {
 			mt := pt.Extra.(*mapTile)
-			rec.Z, rec.PV = series.Float32Bytes(rec.Z, mt.z32), series.Float32Bytes(rec.PV, mt.pv32)
-			rec.D = series.Float64Bytes(rec.D, mt.diffs)
+			rec.Z, rec.PV = series.ValueBytes(rec.Z, mt.z32), series.ValueBytes(rec.PV, mt.pv32)
+			rec.D = series.ValueBytes(rec.D, mt.diffs)
 			rec.Flags, rec.Top, rec.Prev = pt.Flags[0], pt.Top[0], nil
 			if r.grid != nil {
 				rec.Prev = &mt.prev
@@ -81,13 +81,13 @@ func (r *changeRun) joinPieces(ctx context.Context) error {
 			return fmt.Errorf("%s has %d pixels, want %d: the piece is of another grid or tiling", what, len(rec.Flags), px)
 		}
 		mt.z32 = jobkit.Grow(mt.z32, px)
-		series.Float32s(mt.z32, rec.Z)
+		series.Values(mt.z32, rec.Z)
 		if outs.pv != nil {
 			if len(rec.PV) != 4*px {
 				return fmt.Errorf("%s has no p-values: its map stage ran without --pvalues", what)
 			}
 			mt.pv32 = jobkit.Grow(mt.pv32, px)
-			series.Float32s(mt.pv32, rec.PV)
+			series.Values(mt.pv32, rec.PV)
 		}
 		if outs.diffs != nil {
 			k := r.Proj.Components()
@@ -95,7 +95,7 @@ func (r *changeRun) joinPieces(ctx context.Context) error {
 				return fmt.Errorf("%s has no score differences: its map stage ran without --differences", what)
 			}
 			mt.diffs = jobkit.Grow(mt.diffs, px*k)
-			series.Float64s(mt.diffs, rec.D)
+			series.Values(mt.diffs, rec.D)
 		}
 		if err := outs.write(t, &mt); err != nil {
 			return err

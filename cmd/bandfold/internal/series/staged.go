@@ -316,37 +316,21 @@ func (r *Run) JoinPieces(ctx context.Context, rec PieceRecord, deliver func(t ti
 	return nil
 }
 
-// Float32Bytes appends the bits of float32 values v to dst[:0], little
-// endian: map pieces keep values as bytes, so that every value (NaN too)
-// comes back bit for bit and a tile reads as one block.
-func Float32Bytes(dst []byte, v []float32) []byte {
-	dst = dst[:0]
-	for _, x := range v {
-		dst = binary.LittleEndian.AppendUint32(dst, math.Float32bits(x))
+// ValueBytes appends the bits of the values v to dst[:0], little endian
+// (encoding/binary): map pieces keep values as bytes, so that every value
+// (NaN too) comes back bit for bit and a tile reads as one block.
+func ValueBytes[T float32 | float64](dst []byte, v []T) []byte {
+	out, err := binary.Append(dst[:0], binary.LittleEndian, v)
+	if err != nil {
+		panic(fmt.Sprintf("series: encode %d values: %v", len(v), err)) // fixed-size values always encode
 	}
-	return dst
+	return out
 }
 
-// Float32s writes the float32 values of Float32Bytes's b into dst.
-func Float32s(dst []float32, b []byte) {
-	for i := range dst {
-		dst[i] = math.Float32frombits(binary.LittleEndian.Uint32(b[4*i:]))
-	}
-}
-
-// Float64Bytes appends the bits of float64 values v to dst[:0], as
-// Float32Bytes does.
-func Float64Bytes(dst []byte, v []float64) []byte {
-	dst = dst[:0]
-	for _, x := range v {
-		dst = binary.LittleEndian.AppendUint64(dst, math.Float64bits(x))
-	}
-	return dst
-}
-
-// Float64s writes the float64 values of Float64Bytes's b into dst.
-func Float64s(dst []float64, b []byte) {
-	for i := range dst {
-		dst[i] = math.Float64frombits(binary.LittleEndian.Uint64(b[8*i:]))
+// Values writes the values of ValueBytes's b into dst. It panics if b
+// holds fewer (the callers check a piece's lengths first).
+func Values[T float32 | float64](dst []T, b []byte) {
+	if _, err := binary.Decode(b, binary.LittleEndian, dst); err != nil {
+		panic(fmt.Sprintf("series: %d bytes for %d values: %v", len(b), len(dst), err))
 	}
 }

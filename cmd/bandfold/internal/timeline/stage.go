@@ -10,7 +10,7 @@ import (
 )
 
 // pieceTile is one tile of a staged timeline's map piece: stepMaps with
-// the float32 values as bytes (series.Float32Bytes), so that they come
+// the float32 values as bytes (series.ValueBytes), so that they come
 // back bit for bit.
 type pieceTile struct {
 	Z            [][]byte // per step
@@ -42,9 +42,9 @@ func (r *timelineRun) mapShard(ctx context.Context) error {
 			rec.Z = make([][]byte, S)
 		}
 		for q := range S {
-			rec.Z[q] = series.Float32Bytes(rec.Z[q], st.z[q])
+			rec.Z[q] = series.ValueBytes(rec.Z[q], st.z[q])
 		}
-		rec.Zmax, rec.Argmax = series.Float32Bytes(rec.Zmax, st.zmax), series.Float32Bytes(rec.Argmax, st.argmax)
+		rec.Zmax, rec.Argmax = series.ValueBytes(rec.Zmax, st.zmax), series.ValueBytes(rec.Argmax, st.argmax)
 		rec.Flags, rec.Top = pt.Flags, pt.Top[:S]
 		return &rec
 	})
@@ -69,11 +69,11 @@ func (r *timelineRun) joinPieces(ctx context.Context) error {
 		}
 		m.z = series.Grows(m.z, S, px)
 		for q := range S {
-			series.Float32s(m.z[q], rec.Z[q])
+			series.Values(m.z[q], rec.Z[q])
 		}
 		m.zmax, m.argmax = jobkit.Grow(m.zmax, px), jobkit.Grow(m.argmax, px)
-		series.Float32s(m.zmax, rec.Zmax)
-		series.Float32s(m.argmax, rec.Argmax)
+		series.Values(m.zmax, rec.Zmax)
+		series.Values(m.argmax, rec.Argmax)
 		m.flags, m.top = rec.Flags, rec.Top
 		return w.deliver(t, &m)
 	})
