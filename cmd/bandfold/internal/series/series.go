@@ -169,17 +169,16 @@ type Run struct {
 	// Areas is the ground area of the cells, nil without a CRS; it is set
 	// by AwaitAreas, from a measurement that runs during the normalisation
 	// (StartAreas, setAreas).
-	Areas        *raster.CellAreas
-	areasLater   *tiles.Later[*raster.CellAreas]
-	measureAreas bool
-	MinPixels    int
-	tiles        []tiles.Tile
-	only         []tiles.Tile // a shard's tiles, numbered among themselves (UseShard); nil for all
-	shard        *jobkit.Shard
-	scanAt       []int     // the global number of each of a shard's sample tiles
-	tileAcc      []TileAcc // a shard's sample tiles' co-moments
-	given        *transform.Basis
-	Matched      string // how the bands were matched, for people; "" when as given
+	Areas      *raster.CellAreas
+	areasLater *tiles.Later[*raster.CellAreas]
+	MinPixels  int
+	tiles      []tiles.Tile
+	only       []tiles.Tile // a shard's tiles, numbered among themselves (UseShard); nil for all
+	shard      *jobkit.Shard
+	scanAt     []int     // the global number of each of a shard's sample tiles
+	tileAcc    []TileAcc // a shard's sample tiles' co-moments
+	given      *transform.Basis
+	Matched    string // how the bands were matched, for people; "" when as given
 
 	pairs     [][2]int // scored
 	sampled   [][2]int // scored, then the normalisation pairs not scored
@@ -351,7 +350,6 @@ func (r *Run) setAreas() error {
 		r.Env.Warn("%s has no CRS: areas are given in pixels only", r.Args[0])
 		r.areasLater = tiles.Done[*raster.CellAreas](nil, nil)
 	}
-	r.measureAreas = true
 	if r.C.MinArea.M2 > 0 {
 		if err := r.AwaitAreas(context.Background()); err != nil {
 			return err
@@ -363,9 +361,9 @@ func (r *Run) setAreas() error {
 }
 
 // StartAreas starts measuring the cell areas, once, where the run measures
-// them (setAreas).
+// them: a run that writes the folder, on a grid with a CRS (setAreas).
 func (r *Run) StartAreas() {
-	if !r.measureAreas || r.areasLater != nil {
+	if !r.C.Staging.WritesFolder() || r.areasLater != nil {
 		return
 	}
 	grid := r.Scenes[0].Grid
